@@ -1,0 +1,26 @@
+# Every target bootstraps its own environment: only Python (>= 3.10) and make are needed.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+STAMP  := $(VENV)/.installed
+
+.PHONY: demo test bench clean
+
+$(STAMP): pyproject.toml
+	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[stats,dev]'
+	touch $(STAMP)
+
+# Scan the bundled demo analysis. regvet exits 1 when it reports findings, which is the point here.
+demo: $(STAMP)
+	$(BIN)/regvet check fixtures/demo; status=$$?; test $$status -le 1
+
+test: $(STAMP)
+	$(BIN)/python -m pytest -q
+
+bench: $(STAMP)
+	$(BIN)/python bench/run.py
+
+clean:
+	rm -rf $(VENV) build src/*.egg-info .pytest_cache

@@ -1,0 +1,281 @@
+"""A small reader for the formula strings of ``statsmodels.formula.api``.
+
+It understands the operators formulas use (``~ + - * / : **``, parentheses,
+``0``/``1``/``-1`` for the intercept) well enough to tell the dependent
+variable, the model's terms and which categorical ``C(...)`` factors are
+interacted. It never raises: a formula it cannot read gives ``None``.
+"""
+
+from __future__ import annotations
+
+import ast
+import re
+from dataclasses import dataclass
+from itertools import product
+
+from regvet.model.facts import Outcome
+
+_TRANSFORMS = {
+    "log": "log", "log1p": "log1p", "log10": "log10", "log2": "log2", "sqrt": "sqrt", "exp": "exp",
+    "square": "square", "abs": "abs", "arcsinh": "asinh", "asinh": "asinh",
+}  # fmt: skip
+_LAG_NAME = re.compile(r"(?:^|_)(?:lag|lagged|l\d+)(?:\d*)(?:_|$)|lag\d", re.IGNORECASE)
+_LAG_CALL = re.compile(r"\b(?:shift|diff|lag|L)\s*\(")
+
+
+@dataclass(frozen=True)
+class Formula:
+    text: str
+    outcome: Outcome | None
+    terms: tuple[tuple[str, ...], ...]  # each term: its factors, sorted; intercept excluded
+    intercept: bool
+    variables: frozenset[str]  # every identifier read by the formula, both sides
+    shift_groups: frozenset[str]  # C(g) factors that only shift the intercept
+    interacted_groups: frozenset[str]  # C(g) factors that appear in an interaction
+    lagged: bool  # lags or differences appear in the formula
+
+    @property
+    def n_regressors(self) -> int:
+        return len(self.terms)
+
+
+def outcome_of_expr(node: ast.expr) -> Outcome | None:
+    """Base variable and transform of a left-hand side such as ``np.log(riders)``."""
+    text = _strip_modules(ast.unparse(node))
+    inner = node
+    transform: str | None = None
+    if isinstance(node, ast.Call) and len(node.args) == 1 and not node.keywords:
+        fname = node.func.attr if isinstance(node.func, ast.Attribute) else getattr(node.func, "id", None)
+        arg = node.args[0]
+        if fname == "Q" and isinstance(arg, ast.Constant) and isinstance(arg.value, str):
+            return Outcome(arg.value, None, arg.value)
+        if fname == "I":
+            return outcome_of_expr(arg)
+        if fname in _TRANSFORMS:
+            transform = _TRANSFORMS[fname]
+            inner = arg
+    base = _base_name(inner)
+    if base is None:
+        return None
+    if transform is None and not isinstance(inner, ast.Name):
+        transform = "expr"
+    return Outcome(base, transform, text)
+
+
+def _base_name(node: ast.expr) -> str | None:
+    """The one variable an expression reads (function names and numpy prefixes aside)."""
+    if isinstance(node, ast.Name):
+        return node.id
+    if isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id == "Q" and node.args:
+        arg = node.args[0]
+        return arg.value if isinstance(arg, ast.Constant) and isinstance(arg.value, str) else None
+    calls = {id(n.func) for n in ast.walk(node) if isinstance(n, ast.Call)}
+    names = [
+        n.id
+        for n in ast.walk(node)
+        if isinstance(n, ast.Name) and id(n) not in calls and n.id not in ("np", "numpy")
+    ]
+    return names[0] if len(set(names)) == 1 else None
+
+
+def _strip_modules(text: str) -> str:
+    return re.sub(r"\b(?:np|numpy)\.", "", text).replace(" ", "")
+
+
+# --- right-hand side -----------------------------------------------------------------------
+class _Unreadable(Exception):
+    pass
+
+
+_Terms = frozenset  # frozenset[frozenset[str]]; the empty frozenset is the intercept
+
+
+def _tokenize(text: str) -> list[str]:
+    tokens: list[str] = []
+    i, n = 0, len(text)
+    while i < n:
+        ch = text[i]
+        if ch.isspace():
+            i += 1
+        elif text.startswith("**", i):
+            tokens.append("**")
+            i += 2
+        elif ch in "+-*/:()":
+            tokens.append(ch)
+            i += 1
+        else:
+            start = i
+            depth = 0
+            quote: str | None = None
+            while i < n:
+                c = text[i]
+                if quote:
+                    if c == "\\":
+                        i += 1
+                    elif c == quote:
+                        quote = None
+                elif c in "'\"":
+                    quote = c
+                elif c in "([{":
+                    depth += 1
+                elif c in ")]}":
+                    if depth == 0:
+                        break
+                    depth -= 1
+                elif depth == 0 and (c.isspace() or c in "+-*/:~"):
+                    break
+                i += 1
+            if quote or depth:
+                raise _Unreadable
+            tokens.append(text[start:i].strip())
+    return tokens
+
+
+class _Parser:
+    def __init__(self, tokens: list[str]) -> None:
+        self.toks = tokens
+        self.i = 0
+
+    def peek(self) -> str | None:
+        return self.toks[self.i] if self.i < len(self.toks) else None
+
+    def take(self) -> str:
+        tok = self.peek()
+        if tok is None:
+            raise _Unreadable
+        self.i += 1
+        return tok
+
+    def expr(self) -> tuple[_Terms, bool | None]:
+        """Sum of terms, and an explicit intercept flag (None when not mentioned)."""
+        terms: set[frozenset[str]] = set()
+        intercept: bool | None = None
+        sign = "+"
+        if self.peek() in ("+", "-"):
+            sign = self.take()
+        while True:
+            part, icpt = self.term()
+            if icpt is not None:  # 0 or 1 as a term
+                intercept = icpt if sign == "+" else not icpt
+            elif sign == "+":
+                terms |= part
+            else:
+                terms -= part
+            tok = self.peek()
+            if tok in ("+", "-"):
+                sign = self.take()
+                continue
+            break
+        return _Terms(terms), intercept
+
+    def term(self) -> tuple[_Terms, bool | None]:
+        left, icpt = self.factor()
+        while self.peek() in ("*", "/"):
+            op = self.take()
+            right, _ = self.factor()
+            if op == "*":
+                left = left | right | _Terms(a | b for a, b in product(left, right))
+            else:
+                everything = frozenset().union(*left) if left else frozenset()
+                left = left | _Terms(everything | b for b in right)
+            icpt = None
+        return left, icpt
+
+    def factor(self) -> tuple[_Terms, bool | None]:
+        left, icpt = self.power()
+        while self.peek() == ":":
+            self.take()
+            right, _ = self.power()
+            left = _Terms(a | b for a, b in product(left, right))
+            icpt = None
+        return left, icpt
+
+    def power(self) -> tuple[_Terms, bool | None]:
+        base, icpt = self.atom()
+        if self.peek() == "**":
+            self.take()
+            exp = self.take()
+            if not exp.isdigit():
+                raise _Unreadable
+            result = base
+            for _ in range(int(exp) - 1):
+                result = result | _Terms(a | b for a, b in product(result, base))
+            return _Terms(t for t in result if t), None
+        return base, icpt
+
+    def atom(self) -> tuple[_Terms, bool | None]:
+        tok = self.take()
+        if tok == "(":
+            inner, icpt = self.expr()
+            if self.take() != ")":
+                raise _Unreadable
+            return inner, icpt
+        if tok in ("0", "1"):
+            return _Terms(), tok == "1"
+        if tok == "-":
+            inner, icpt = self.atom()
+            return inner, (None if icpt is None else not icpt)
+        if tok in "+*/:)":
+            raise _Unreadable
+        return _Terms({frozenset({_normalize_factor(tok)})}), None
+
+
+def _normalize_factor(tok: str) -> str:
+    return re.sub(r"\s+", "", tok)
+
+
+def _group_of(factor: str) -> str | None:
+    m = re.match(r"^C\(\s*([A-Za-z_][\w.]*)", factor)
+    return m.group(1) if m else None
+
+
+def _identifiers(text: str) -> set[str]:
+    out: set[str] = set()
+    for m in re.finditer(r"Q\(\s*['\"]([^'\"]+)['\"]\s*\)", text):
+        out.add(m.group(1))
+    stripped = re.sub(r"(['\"]).*?\1", "", text)
+    for m in re.finditer(r"(?<![\w.])([A-Za-z_]\w*)(?!\w)(?!\s*\()", stripped):
+        name = m.group(1)
+        if name not in {"np", "numpy", "C", "I", "Q", "Treatment", "Sum", "Diff", "Poly"}:
+            out.add(name)
+    return out
+
+
+def parse_formula(text: str) -> Formula | None:
+    """Read ``text`` as a model formula, or return None when it is not one regvet can read."""
+    if text.count("~") != 1:
+        return None
+    lhs, rhs = (s.strip() for s in text.split("~"))
+    outcome: Outcome | None = None
+    if lhs:
+        try:
+            outcome = outcome_of_expr(ast.parse(lhs, mode="eval").body)
+        except SyntaxError:
+            outcome = None
+    try:
+        parser = _Parser(_tokenize(rhs))
+        terms, intercept = parser.expr()
+        if parser.peek() is not None:
+            return None
+    except (_Unreadable, RecursionError):
+        return None
+    real = tuple(sorted(tuple(sorted(t)) for t in terms if t))
+    shift: set[str] = set()
+    inter: set[str] = set()
+    for t in real:
+        for f in t:
+            g = _group_of(f)
+            if g:
+                (inter if len(t) > 1 else shift).add(g)
+    variables = _identifiers(rhs) | (_identifiers(lhs) if lhs else set())
+    lagged = bool(_LAG_CALL.search(rhs)) or any(_LAG_NAME.search(v) for v in variables)
+    return Formula(
+        text=text,
+        outcome=outcome,
+        terms=real,
+        intercept=True if intercept is None else intercept,
+        variables=frozenset(variables),
+        shift_groups=frozenset(shift - inter),
+        interacted_groups=frozenset(inter),
+        lagged=lagged,
+    )

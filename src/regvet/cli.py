@@ -1,0 +1,286 @@
+"""The ``regvet`` command: ``check``, ``rules``, ``explain`` (and ``serve`` once the language server lands).
+
+Exit codes: 0 nothing at or above the fail level; 1 findings at or above it;
+2 usage or configuration error; 3 regvet itself failed on a file (the failure is
+printed with the file's path, and the scan still covers every other file).
+
+``regvet check`` imports only the standard library and regvet's static core.
+"""
+
+from __future__ import annotations
+
+import argparse
+import fnmatch
+import os
+import sys
+from pathlib import Path
+from typing import Sequence
+
+from regvet import __version__
+from regvet.config import ConfigError, find_config, load_settings
+from regvet.engine import FileReport, analyze, error_report
+from regvet.model.finding import Severity
+from regvet.model.settings import DEFAULT_EXCLUDE, Settings
+from regvet.model.span import Span
+from regvet.project import FileModules, display_path
+from regvet.rules import ALL_RULES, RULES_BY_ID
+from regvet.sources.python import SourceError, decode
+
+EXIT_OK, EXIT_FINDINGS, EXIT_USAGE, EXIT_FAILED = 0, 1, 2, 3
+EXTRA_EXCLUDE = (".ipynb_checkpoints", "__pycache__", ".tox", ".nox", ".mypy_cache")
+
+CAUTION = (
+    "Passing regvet does not make a model right. regvet finds specification checks that are missing or "
+    "failed; it cannot judge whether the economics of a model make sense, whether the variables measure "
+    "what they should, or whether the data support causal claims. That judgement stays with the analyst, "
+    "and results that inform policy or money deserve review by a qualified statistician or econometrician "
+    "under the rules of their field or institution."
+)
+
+
+class UsageError(Exception):
+    pass
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="regvet",
+        description="Find missing and failed specification checks around statsmodels OLS fits.",
+        epilog=CAUTION,
+    )
+    p.add_argument("--version", action="version", version=f"regvet {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    c = sub.add_parser(
+        "check",
+        help="scan files and folders (the default command)",
+        description="Read analysis scripts and notebooks (without running them) and report fits whose "
+        "specification checks are missing.",
+        epilog=CAUTION,
+    )
+    c.add_argument("paths", nargs="*", default=["."], metavar="PATH", help="files or folders (default: .)")
+    c.add_argument("--format", choices=["text", "json", "sarif", "github"], default="text")
+    c.add_argument(
+        "--fail-on",
+        choices=["error", "warning", "info"],
+        default="warning",
+        help="lowest severity that makes the exit code 1 (default: warning)",
+    )
+    c.add_argument("--only", metavar="RULES", help="comma-separated rule ids: report only these")
+    c.add_argument("--skip", metavar="RULES", help="comma-separated rule ids: never report these")
+    c.add_argument("--config", metavar="FILE", help="use this config file instead of searching for one")
+    c.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
+    c.add_argument("--color", choices=["auto", "always", "never"], default="auto", help="colour in text output")
+
+    sub.add_parser("rules", help="list the rules")
+    e = sub.add_parser("explain", help="explain one rule: rationale, examples, references")
+    e.add_argument("rule", metavar="RULE")
+    return p
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    args_list = list(sys.argv[1:] if argv is None else argv)
+    if not args_list or (args_list[0] not in ("check", "rules", "explain", "serve") and not args_list[0].startswith("-")):
+        args_list.insert(0, "check")
+    if args_list and args_list[0] == "serve":
+        return _serve(args_list[1:])
+    parser = _parser()
+    try:
+        args = parser.parse_args(args_list)
+    except SystemExit as exc:  # argparse already printed the problem
+        return EXIT_USAGE if exc.code not in (0, None) else EXIT_OK
+    if args.command == "rules":
+        sys.stdout.write(render_rules())
+        return EXIT_OK
+    if args.command == "explain":
+        rule = RULES_BY_ID.get(args.rule)
+        if rule is None:
+            sys.stderr.write(f"regvet: error: no rule `{args.rule}`; `regvet rules` lists them\n")
+            return EXIT_USAGE
+        sys.stdout.write(explain(rule.id))
+        return EXIT_OK
+    try:
+        return run_check(args)
+    except UsageError as exc:
+        sys.stderr.write(f"regvet: error: {exc}\n")
+        return EXIT_USAGE
+    except ConfigError as exc:
+        sys.stderr.write(f"regvet: configuration error: {exc}\n")
+        return EXIT_USAGE
+
+
+def _serve(argv: list[str]) -> int:
+    sys.stderr.write("regvet: error: the language server is not part of this version yet\n")
+    return EXIT_USAGE
+
+
+# --- rules and explain -------------------------------------------------------------------------
+def render_rules() -> str:
+    width = max(len(r.id) for r in ALL_RULES)
+    lines = [f"{r.id:<{width}}  {r.severity.label:<7}  {r.summary}" for r in ALL_RULES]
+    return "\n".join(lines) + "\n"
+
+
+def explain(rule_id: str) -> str:
+    """The full text for one rule; the language server shows the same text."""
+    r = RULES_BY_ID[rule_id]
+    out = [f"{r.id} ({r.severity.label} by default)", "", r.summary, "", r.rationale, ""]
+    out += ["Flagged:", "", _indent(r.bad), "", "Passes:", "", _indent(r.good), ""]
+    if r.references:
+        out += ["References:"] + [f"  - {ref}" for ref in r.references] + [""]
+    out += [f"Waive with `# regvet: waive {r.id} -- reason` when the check truly does not apply.", ""]
+    out += [CAUTION, ""]
+    return "\n".join(out)
+
+
+def _indent(code: str) -> str:
+    return "\n".join(("    " + line) if line else "" for line in code.rstrip("\n").split("\n"))
+
+
+# --- check -------------------------------------------------------------------------------------
+def _rule_list(text: str | None, flag: str) -> frozenset[str]:
+    if not text:
+        return frozenset()
+    ids = [t.strip() for t in text.split(",") if t.strip()]
+    unknown = [i for i in ids if i not in RULES_BY_ID]
+    if unknown:
+        raise UsageError(f"{flag}: `{unknown[0]}` is not a rule id (see `regvet rules`)")
+    return frozenset(ids)
+
+
+def _excluded(rel: Path, patterns: Sequence[str]) -> bool:
+    posix = rel.as_posix()
+    for pat in patterns:
+        pat = pat.rstrip("/")
+        if "/" in pat:
+            if fnmatch.fnmatch(posix, pat) or fnmatch.fnmatch(posix, pat + "/*"):
+                return True
+        elif any(fnmatch.fnmatch(part, pat) for part in rel.parts):
+            return True
+    return False
+
+
+def collect_files(paths: Sequence[str], exclude: Sequence[str]) -> list[Path]:
+    """Files to scan: named files as given, folders walked for ``.py`` and ``.ipynb`` files."""
+    files: list[Path] = []
+    for raw in paths:
+        path = Path(raw)
+        if path.is_file():
+            files.append(path)
+        elif path.is_dir():
+            for folder, dirs, names in os.walk(path):
+                rel_folder = Path(folder).relative_to(path)
+                dirs[:] = sorted(d for d in dirs if not _excluded(rel_folder / d, exclude))
+                for name in sorted(names):
+                    if name.endswith((".py", ".ipynb")) and not _excluded(rel_folder / name, exclude):
+                        files.append(Path(folder) / name)
+        else:
+            raise UsageError(f"no such file or folder: {raw}")
+    seen: set[Path] = set()
+    unique = []
+    for f in files:
+        key = f.resolve()
+        if key not in seen:
+            seen.add(key)
+            unique.append(f)
+    return unique
+
+
+class _SettingsFinder:
+    """Settings per file: the nearest config file (cached per folder), or one forced file, with CLI overrides."""
+
+    def __init__(self, args: argparse.Namespace) -> None:
+        self.only = _rule_list(args.only, "--only")
+        self.skip = _rule_list(args.skip, "--skip")
+        self.no_config = args.no_config
+        self.forced: Settings | None = None
+        if args.config:
+            path = Path(args.config)
+            if not path.is_file():
+                raise UsageError(f"--config: no such file: {args.config}")
+            self.forced = load_settings(path)
+        self.by_file: dict[Path | None, Settings] = {}
+
+    def _overrides(self, s: Settings) -> Settings:
+        from dataclasses import replace
+
+        changes = {}
+        if self.only:
+            changes["only"] = self.only
+        if self.skip:
+            changes["skip"] = s.skip | self.skip
+        return replace(s, **changes) if changes else s
+
+    def for_path(self, path: Path) -> Settings:
+        if self.forced is not None:
+            return self._overrides(self.forced)
+        if self.no_config:
+            return self._overrides(Settings())
+        cfg = find_config(path)
+        if cfg not in self.by_file:
+            self.by_file[cfg] = load_settings(cfg) if cfg is not None else Settings()
+        return self._overrides(self.by_file[cfg])
+
+
+def run_check(args: argparse.Namespace) -> int:
+    finder = _SettingsFinder(args)
+    base_settings = finder.for_path(Path(args.paths[0]) if args.paths else Path("."))
+    exclude = (*DEFAULT_EXCLUDE, *EXTRA_EXCLUDE, *base_settings.exclude)
+    files = collect_files(args.paths, exclude)
+    roots = {Path(p).resolve() for p in args.paths if Path(p).is_dir()}
+    default_root = Path.cwd().resolve()
+    texts: dict[Path, str | None] = {}
+    module_cache: dict = {}
+    reports: list[FileReport] = []
+    failed = False
+    for file in files:
+        settings = finder.for_path(file)
+        resolved = file.resolve()
+        root = next((r for r in sorted(roots, key=lambda r: len(r.parts), reverse=True) if r in resolved.parents), None)
+        root = root or (resolved.parent if default_root not in resolved.parents else default_root)
+        report = analyze_file(file, settings, root, texts, module_cache)
+        for crash in report.crashes:
+            failed = True
+            where = "the analysis" if crash.where == "analysis" else f"rule {crash.where}"
+            sys.stderr.write(f"{report.path}: regvet failed in {where}: {crash.message}\n")
+        reports.append(report)
+    colour = args.color == "always" or (args.color == "auto" and sys.stdout.isatty() and not os.environ.get("NO_COLOR"))
+    from regvet.output import FORMATS
+
+    sys.stdout.write(FORMATS[args.format](reports, colour=colour))
+    if failed:
+        return EXIT_FAILED
+    threshold = Severity.parse(args.fail_on)
+    hit = any(f.severity >= threshold and not f.waived for r in reports for f in r.findings)
+    return EXIT_FINDINGS if hit else EXIT_OK
+
+
+def analyze_file(
+    file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], module_cache: dict
+) -> FileReport:
+    """Read one file and analyse it; unreadable files become ``parse-error`` findings."""
+    shown = display_path(file)
+    try:
+        data = file.read_bytes()
+    except OSError as exc:
+        return _unreadable(shown, settings, f"cannot read the file: {exc.strerror or exc}")
+    if file.suffix == ".ipynb":
+        try:
+            text = data.decode("utf-8-sig")
+        except UnicodeDecodeError as exc:
+            return _unreadable(shown, settings, f"the notebook is not UTF-8: {exc.reason}")
+    else:
+        decoded = decode(data)
+        if isinstance(decoded, SourceError):
+            return _unreadable(shown, settings, decoded.message)
+        text = decoded
+    provider = FileModules(root, file, texts)
+    return analyze(text, shown, settings, provider=provider, module_cache=module_cache, module_key=file.stem)
+
+
+def _unreadable(path: str, settings: Settings, message: str) -> FileReport:
+    return error_report(path, SourceError(message, Span(1, 0, 1, 0)), settings)
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

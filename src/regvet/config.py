@@ -1,0 +1,161 @@
+"""Find, read and validate regvet configuration. The only module that reads config files.
+
+Configuration lives in ``[tool.regvet]`` of a ``pyproject.toml`` or at the top level
+of a ``regvet.toml``. The nearest one wins: the search walks up from a file's folder
+and stops at the project root (the first folder holding ``pyproject.toml``, ``.git``
+or ``.hg``). Every key is described once, in :data:`regvet.model.settings.OPTIONS`.
+"""
+
+from __future__ import annotations
+
+import difflib
+import sys
+from dataclasses import replace
+from pathlib import Path
+from typing import Any
+
+from regvet.model.settings import FAMILIES, OPTIONS, Settings
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover - exercised on Python 3.10 only
+    import tomli as tomllib
+
+CONFIG_NAMES = ("regvet.toml", "pyproject.toml")
+ROOT_MARKERS = ("pyproject.toml", ".git", ".hg")
+_SEVERITIES = ("error", "warning", "info")
+
+
+class ConfigError(Exception):
+    """A configuration file that cannot be used. ``str()`` names the file, the key and what was expected."""
+
+    def __init__(self, path: str, message: str, key: str | None = None) -> None:
+        self.path = path
+        self.key = key
+        self.detail = message
+        where = f"{path}: " + (f"key `{key}`: " if key else "")
+        super().__init__(where + message)
+
+
+def find_config(start: Path) -> Path | None:
+    """The nearest config file for ``start`` (a file or folder), or None."""
+    here = start if start.is_dir() else start.parent
+    here = here.resolve()
+    for folder in (here, *here.parents):
+        for name in CONFIG_NAMES:
+            candidate = folder / name
+            if candidate.is_file() and _has_table(candidate):
+                return candidate
+        if any((folder / m).exists() for m in ROOT_MARKERS):
+            return None
+    return None
+
+
+def _has_table(path: Path) -> bool:
+    if path.name != "pyproject.toml":
+        return True
+    try:
+        data = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError):
+        return True  # let load_settings report the problem
+    return "[tool.regvet" in data or "tool.regvet" in data
+
+
+def load_table(path: Path) -> dict[str, Any]:
+    """The regvet table of a config file (empty when a pyproject.toml has none)."""
+    try:
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise ConfigError(str(path), f"cannot read the file: {exc.strerror or exc}") from None
+    try:
+        data = tomllib.loads(raw.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise ConfigError(str(path), "the file is not UTF-8 text") from None
+    except tomllib.TOMLDecodeError as exc:
+        raise ConfigError(str(path), f"invalid TOML: {exc}") from None
+    if path.name == "pyproject.toml":
+        tool = data.get("tool", {})
+        table = tool.get("regvet", {}) if isinstance(tool, dict) else {}
+        if not isinstance(table, dict):
+            raise ConfigError(str(path), "`tool.regvet` must be a table")
+        return table
+    return data
+
+
+def settings_from_table(table: dict[str, Any], source: str, base: Settings | None = None) -> Settings:
+    """Validate a config table and turn it into :class:`Settings` (on top of ``base``)."""
+    from regvet.rules import RULES_BY_ID  # rules import settings; keep this import local
+
+    known = {o.name: o for o in OPTIONS}
+    values: dict[str, Any] = {}
+    for key, value in table.items():
+        option = known.get(key)
+        if option is None:
+            close = difflib.get_close_matches(key, list(known), n=1)
+            hint = f"; did you mean `{close[0]}`?" if close else f"; known keys: {', '.join(known)}"
+            raise ConfigError(source, f"unknown key{hint}", key)
+
+        def bad(expected: str | None = None) -> ConfigError:
+            return ConfigError(source, f"expected {expected or option.expected}, got {_tomltype(value)}", key)
+
+        if option.kind == "float":
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value < 1:
+                raise bad()
+            values[key] = float(value)
+        elif option.kind in ("rules", "globs", "strings"):
+            if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+                raise bad()
+            if option.kind == "rules":
+                for rid in value:
+                    if rid not in RULES_BY_ID:
+                        raise ConfigError(source, f"`{rid}` is not a rule id (see `regvet rules`)", key)
+                values[key] = frozenset(value)
+            else:
+                values[key] = tuple(value)
+        elif option.kind == "severity-map":
+            if not isinstance(value, dict):
+                raise bad()
+            pairs = []
+            for rid, sev in value.items():
+                if rid not in RULES_BY_ID:
+                    raise ConfigError(source, f"`{rid}` is not a rule id (see `regvet rules`)", f"{key}.{rid}")
+                if not isinstance(sev, str) or sev.lower() not in _SEVERITIES:
+                    raise ConfigError(source, f"expected one of {', '.join(_SEVERITIES)}, got {sev!r}", f"{key}.{rid}")
+                pairs.append((rid, sev.lower()))
+            values[key] = tuple(sorted(pairs))
+        elif option.kind == "helpers":
+            if not isinstance(value, dict):
+                raise bad()
+            pairs = []
+            for name, families in value.items():
+                if not isinstance(families, list) or not all(isinstance(f, str) for f in families):
+                    raise ConfigError(
+                        source, f"expected a list of check families ({', '.join(FAMILIES)})", f"{key}.{name}"
+                    )
+                unknown = [f for f in families if f not in FAMILIES]
+                if unknown:
+                    raise ConfigError(
+                        source, f"`{unknown[0]}` is not a check family; use {', '.join(FAMILIES)}", f"{key}.{name}"
+                    )
+                pairs.append((name, tuple(families)))
+            values[key] = tuple(sorted(pairs))
+    return replace(base or Settings(), source=source, **values)
+
+
+def _tomltype(value: Any) -> str:
+    if isinstance(value, bool):
+        return f"a boolean ({str(value).lower()})"
+    if isinstance(value, (int, float)):
+        return f"a number ({value})"
+    if isinstance(value, str):
+        return f"a string ({value!r})"
+    if isinstance(value, list):
+        return "a list" if all(isinstance(v, str) for v in value) else "a list with non-string items"
+    if isinstance(value, dict):
+        return "a table"
+    return type(value).__name__
+
+
+def load_settings(path: Path, base: Settings | None = None) -> Settings:
+    """Read and validate one config file."""
+    return settings_from_table(load_table(path), str(path), base)

@@ -1,0 +1,229 @@
+"""The analysis engine: source text in, a sorted report out. No file I/O, no printing, no exit.
+
+``analyze`` runs sources -> facts -> rules -> waivers -> severities for one file.
+Other project modules (for calls into the project's own helpers) come from the
+``provider`` the caller passes in; the CLI reads them from disk, an editor can
+serve open buffers.
+"""
+
+from __future__ import annotations
+
+import ast
+import re
+import traceback
+from dataclasses import dataclass, field
+
+from regvet.analysis.collect import ModuleProvider, NoModules, collect
+from regvet.model.facts import FileFacts
+from regvet.model.finding import Finding, Severity
+from regvet.model.settings import Settings
+from regvet.model.span import Span
+from regvet.rules import ALL_RULES, RuleInput
+from regvet.sources.notebook import CellMap, read_notebook
+from regvet.sources.python import SourceError, parse
+from regvet.sources.waivers import Waiver, find_waivers
+
+_IMPORT = re.compile(r"^[ \t]*(?:from[ \t]+(\.*[\w.]*)[ \t]+import|import[ \t]+([\w., \t]+))", re.MULTILINE)
+_ENGINE_RULES = frozenset({"parse-error", "waiver-without-reason"})
+
+
+@dataclass(frozen=True)
+class Crash:
+    """A part of regvet that failed on this file (its findings are lost, the rest are kept)."""
+
+    where: str  # "analysis" or a rule id
+    message: str
+
+
+@dataclass(frozen=True)
+class FileReport:
+    path: str
+    findings: tuple[Finding, ...] = ()
+    crashes: tuple[Crash, ...] = ()
+    skipped: bool = False  # nothing regression-related in the file: not analysed
+    facts: FileFacts | None = field(default=None, compare=False, repr=False)
+    cell_count: int | None = None
+
+
+def mentions_fits(text: str, path: str, provider: ModuleProvider) -> bool:
+    """Cheap pre-check: does the file mention statsmodels or import a project module that does?"""
+    if "statsmodels" in text:
+        return True
+    if "import" not in text:
+        return False
+    seen: set[str] = set()
+    todo: list[tuple[str, str | None, int]] = []
+    for m in _IMPORT.finditer(text):
+        if m.group(1) is not None:
+            name = m.group(1)
+            level = len(name) - len(name.lstrip("."))
+            todo.append((name.lstrip("."), None, level))
+        else:
+            for part in m.group(2).split(","):
+                todo.append((part.strip().split(" ")[0], None, 0))
+    importer: str | None = None
+    depth = 0
+    while todo and depth < 200:
+        depth += 1
+        name, via, level = todo.pop()
+        if not name and not level:
+            continue
+        try:
+            found = provider.find(name, level, via if via is not None else importer)
+        except Exception:
+            found = None
+        if found is None or found.key in seen:
+            continue
+        seen.add(found.key)
+        if "statsmodels" in found.text:
+            return True
+        for m in _IMPORT.finditer(found.text):
+            if m.group(1) is not None:
+                sub = m.group(1)
+                todo.append((sub.lstrip("."), found.path, len(sub) - len(sub.lstrip("."))))
+    return False
+
+
+def analyze(
+    text: str,
+    path: str,
+    settings: Settings | None = None,
+    *,
+    notebook: bool | None = None,
+    provider: ModuleProvider | None = None,
+    module_key: str = "",
+    module_cache: dict | None = None,
+    strict: bool = False,
+) -> FileReport:
+    """Analyse one file's text. ``path`` names the file in findings; it is never opened.
+
+    ``notebook`` defaults to ``path.endswith(".ipynb")``. With ``strict`` a crashing
+    rule re-raises (for tests) instead of being reported as a :class:`Crash`.
+    """
+    settings = settings or Settings()
+    provider = provider or NoModules()
+    is_nb = path.endswith(".ipynb") if notebook is None else notebook
+    cell_map: CellMap | None = None
+    cell_count: int | None = None
+    if is_nb:
+        nb = read_notebook(text)
+        if isinstance(nb, SourceError):
+            return _finish(path, settings, RuleInput(FileFacts(), settings, (), nb), None, (), strict, None)
+        python, cell_map, cell_count = nb.python, nb.cell_map, nb.cell_count
+    else:
+        python = text
+    if not mentions_fits(python, path, provider):
+        return FileReport(path, skipped=True, cell_count=cell_count)
+    tree = parse(python, path)
+    waivers = tuple(find_waivers(python))
+    if isinstance(tree, SourceError):
+        return _finish(path, settings, RuleInput(FileFacts(), settings, waivers, tree), cell_map, (), strict, cell_count)
+    crashes: list[Crash] = []
+    try:
+        facts = collect(
+            tree,
+            python,
+            provider=provider,
+            helpers=settings.helper_families(),
+            module_key=module_key,
+            parse=_parse_module,
+            module_cache=module_cache,
+        )
+    except RecursionError:
+        if strict:
+            raise
+        facts = FileFacts()
+        crashes.append(Crash("analysis", "the code is nested too deeply for regvet's analyser"))
+    except Exception as exc:  # a bug in regvet: report it with the file, keep scanning
+        if strict:
+            raise
+        facts = FileFacts()
+        crashes.append(Crash("analysis", _describe(exc)))
+    return _finish(path, settings, RuleInput(facts, settings, waivers), cell_map, tuple(crashes), strict, cell_count)
+
+
+def error_report(path: str, error: SourceError, settings: Settings | None = None) -> FileReport:
+    """The report for a file that could not even be read (one ``parse-error`` finding)."""
+    settings = settings or Settings()
+    return _finish(path, settings, RuleInput(FileFacts(), settings, (), error), None, (), False, None)
+
+
+def _parse_module(text: str, path: str) -> ast.Module | None:
+    tree = parse(text, path)
+    return None if isinstance(tree, SourceError) else tree
+
+
+def _describe(exc: BaseException) -> str:
+    tb = traceback.extract_tb(exc.__traceback__)
+    where = f" ({tb[-1].filename.rsplit('/', 1)[-1]}:{tb[-1].lineno})" if tb else ""
+    return f"{type(exc).__name__}: {exc}{where}"
+
+
+def _finish(
+    path: str,
+    settings: Settings,
+    inp: RuleInput,
+    cell_map: CellMap | None,
+    crashes: tuple[Crash, ...],
+    strict: bool,
+    cell_count: int | None,
+) -> FileReport:
+    findings: list[Finding] = []
+    all_crashes = list(crashes)
+    for rule in ALL_RULES:
+        if not settings.enabled(rule.id):
+            continue
+        try:
+            findings.extend(rule.check(inp))
+        except Exception as exc:
+            if strict:
+                raise
+            all_crashes.append(Crash(rule.id, _describe(exc)))
+    findings = _apply_waivers(_dedupe(findings), inp.waivers)
+    findings = [_with_severity(f, settings) for f in findings]
+    if cell_map is not None:
+        findings = [_to_cells(f, cell_map) for f in findings]
+    findings.sort(key=Finding.sort_key)
+    return FileReport(path, tuple(findings), tuple(all_crashes), facts=inp.facts, cell_count=cell_count)
+
+
+def _dedupe(findings: list[Finding]) -> list[Finding]:
+    seen: dict[tuple, Finding] = {}
+    for f in findings:
+        seen.setdefault((f.rule, f.span, f.message), f)
+    return list(seen.values())
+
+
+def _apply_waivers(findings: list[Finding], waivers: tuple[Waiver, ...]) -> list[Finding]:
+    valid = [w for w in waivers if w.reason is not None and not w.malformed]
+    if not valid:
+        return findings
+    out = []
+    for f in findings:
+        if f.rule in _ENGINE_RULES:
+            out.append(f)
+            continue
+        reason = None
+        for w in valid:
+            if f.rule not in w.rules:
+                continue
+            if w.file_wide or w.span.line == f.span.line or (w.alone and w.span.line == f.span.line - 1):
+                reason = w.reason
+                break
+        out.append(f.with_(waived=True, reason=reason) if reason is not None else f)
+    return out
+
+
+def _with_severity(f: Finding, settings: Settings) -> Finding:
+    override = settings.severity_for(f.rule)
+    return f.with_(severity=Severity.parse(override)) if override else f
+
+
+def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
+    related = tuple(r if r.path is not None else r.__class__(cell_map.span(r.span), r.message, r.path) for r in f.related)
+    fix = f.fix
+    if fix is not None:
+        fix = dict(fix, cell=cell_map.locate(f.span.line)[0])
+    return f.with_(span=cell_map.span(f.span), related=related, fix=fix)
+
+

@@ -1,0 +1,155 @@
+"""Facts about one analysed file: its fits and everything done with them.
+
+The collector (``regvet.analysis.collect``) builds these in one pass over the
+syntax tree; rules only read them. Locations are :class:`Loc` values: a span
+plus the path of the file it is in (None for the analysed file itself), since a
+fit made in the analysed file may be used inside a helper module.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from regvet.model.span import Span
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """A dependent variable: its base variable and transform, e.g. ``log(riders)`` -> riders, log."""
+
+    base: str
+    transform: str | None
+    text: str
+
+    @property
+    def key(self) -> str:
+        return self.text
+
+    def same_variable(self, other: "Outcome") -> bool:
+        return self.base == other.base
+
+
+@dataclass(frozen=True)
+class Loc:
+    span: Span
+    path: str | None = None  # None: the analysed file
+
+
+@dataclass(frozen=True)
+class Fit:
+    """One results object: a ``.fit()`` call (or ``get_robustcov_results``) in one calling context."""
+
+    id: int
+    site: Loc  # where findings about the fit are placed
+    fit_call: Loc  # the call that produced the results object
+    via: tuple[Loc, ...]  # call sites it was returned through, innermost first
+    estimator: str  # "OLS" | "WLS"
+    api: str  # "formula" | "array"
+    constructor: str  # qualified name of the model constructor
+    formula: str | None
+    outcome: Outcome | None
+    n_regressors: int | None
+    regressors: tuple[str, ...] | None
+    cov_type: str | None  # lower-cased literal, "nonrobust" when not given, None when not a literal
+    data_name: str | None
+    time_reason: str | None  # why the data is time-ordered, or None
+    shift_groups: frozenset[str]
+    interacted_groups: frozenset[str]
+    columns: frozenset[str]  # columns the fit is known to use or its data to hold
+    auxiliary: bool  # an auxiliary regression built from another fit's residuals or fitted values
+    parent: int | None  # for a robust-covariance copy: the fit it was derived from
+    result_name: str | None  # the variable the result was assigned to, when simple
+    statement: Span | None  # the statement holding the fit call, in the analysed file
+    model_span: Span | None = None  # the model constructor call, in the analysed file
+
+    @property
+    def robust(self) -> bool:
+        from regvet.analysis.catalog import ROBUST_COV
+
+        return self.cov_type is not None and self.cov_type in ROBUST_COV
+
+    @property
+    def hac(self) -> bool:
+        from regvet.analysis.catalog import HAC_COV
+
+        return self.cov_type is not None and self.cov_type in HAC_COV
+
+
+@dataclass(frozen=True)
+class Use:
+    fit: int
+    kind: str  # "estimate" | "inference" | "robust"
+    member: str
+    loc: Loc
+
+
+@dataclass(frozen=True)
+class Check:
+    fit: int
+    family: str
+    function: str
+    loc: Loc
+
+
+@dataclass(frozen=True)
+class Escape:
+    fit: int
+    callee: str
+    loc: Loc
+
+
+@dataclass(frozen=True)
+class Comparison:
+    loc: Loc
+    measures: tuple[tuple[int, str], ...]  # (fit id, measure name)
+    how: str  # "compare" | "difference" | "ratio" | "max" | "min" | "sorted"
+
+
+@dataclass(frozen=True)
+class Mismatch:
+    loc: Loc
+    function: str
+    fits: tuple[int, ...]
+
+
+@dataclass(frozen=True)
+class GroupTest:
+    """An F test of a model with interactions with the given categorical groups (a break test)."""
+
+    fits: tuple[int, ...]
+    groups: frozenset[str]
+    loc: Loc
+
+
+@dataclass(frozen=True)
+class FileFacts:
+    fits: tuple[Fit, ...] = ()
+    uses: tuple[Use, ...] = ()
+    checks: tuple[Check, ...] = ()
+    escapes: tuple[Escape, ...] = ()
+    comparisons: tuple[Comparison, ...] = ()
+    mismatches: tuple[Mismatch, ...] = ()
+    group_tests: tuple[GroupTest, ...] = ()
+    tsa_in_use: bool = False
+    _by_id: dict[int, Fit] = field(default_factory=dict, compare=False, repr=False)
+
+    def fit(self, fid: int) -> Fit:
+        if not self._by_id:
+            self._by_id.update({f.id: f for f in self.fits})
+        return self._by_id[fid]
+
+    def root(self, fid: int) -> int:
+        """The fit a robust-covariance copy was derived from (itself otherwise)."""
+        seen = set()
+        while fid not in seen:
+            seen.add(fid)
+            parent = self.fit(fid).parent
+            if parent is None:
+                return fid
+            fid = parent
+        return fid
+
+    def family_of(self, fid: int) -> set[int]:
+        """All fits sharing ``fid``'s residuals: itself, its root and every copy derived from the root."""
+        root = self.root(fid)
+        return {f.id for f in self.fits if self.root(f.id) == root}

@@ -1,0 +1,31 @@
+"""The rule catalogue: listed explicitly, in the order ``regvet rules`` prints them."""
+
+from __future__ import annotations
+
+from regvet.rules import (
+    compare_across_outcomes,
+    mismatched_diagnostic,
+    no_break_test,
+    no_form_test,
+    no_serial_test,
+    no_variance_test,
+    parse_error,
+    r2_unadjusted_compare,
+    waiver_without_reason,
+)
+from regvet.rules.base import Rule, RuleInput
+
+ALL_RULES: tuple[Rule, ...] = (
+    no_form_test.RULE,
+    no_variance_test.RULE,
+    compare_across_outcomes.RULE,
+    r2_unadjusted_compare.RULE,
+    mismatched_diagnostic.RULE,
+    no_serial_test.RULE,
+    no_break_test.RULE,
+    waiver_without_reason.RULE,
+    parse_error.RULE,
+)
+RULES_BY_ID: dict[str, Rule] = {r.id: r for r in ALL_RULES}
+
+__all__ = ["ALL_RULES", "RULES_BY_ID", "Rule", "RuleInput"]

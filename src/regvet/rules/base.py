@@ -1,0 +1,133 @@
+"""The rule contract and the read-only view of a file that rules get.
+
+A rule is one :class:`Rule` value in one module: id (stable forever), default
+severity, a one-line summary, the rationale a user reads (what is missing, which
+assumption it protects, what satisfies it), a bad and a good example, references,
+and a ``check`` function from :class:`RuleInput` to findings. The same text feeds
+``regvet explain``, ``regvet rules``, the README table and the language server.
+
+Examples mark each expected finding with a trailing ``# expect: RULE`` comment on
+the line where the finding starts; ``tests/test_rule_examples.py`` runs them all.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable, Iterable, Iterator
+
+from regvet.model.facts import Check, Escape, FileFacts, Fit, Loc, Use
+from regvet.model.finding import Finding, Related, Severity
+from regvet.model.settings import Settings
+from regvet.model.span import Span
+from regvet.sources.python import SourceError
+from regvet.sources.waivers import Waiver
+
+
+@dataclass(frozen=True)
+class RuleInput:
+    """Everything a rule may look at for one file. Rules never walk syntax trees."""
+
+    facts: FileFacts
+    settings: Settings
+    waivers: tuple[Waiver, ...] = ()
+    source_error: SourceError | None = None
+
+    def judged_fits(self) -> Iterator[Fit]:
+        """Fits whose findings belong to this file, auxiliary regressions excluded."""
+        for fit in self.facts.fits:
+            if fit.site.path is None and not fit.auxiliary:
+                yield fit
+
+    def uses(self, fid: int, kinds: Iterable[str]) -> list[Use]:
+        wanted = set(kinds)
+        return sorted(
+            (u for u in self.facts.uses if u.fit == fid and u.kind in wanted),
+            key=lambda u: (u.loc.path or "", u.loc.span.sort_key()),
+        )
+
+    def checks(self, fid: int, family: str) -> list[Check]:
+        """Checks of ``family`` applied to the fit or to any copy sharing its residuals."""
+        members = self.facts.family_of(fid)
+        return [c for c in self.facts.checks if c.fit in members and c.family == family]
+
+    def escapes(self, fid: int) -> list[Escape]:
+        return sorted(
+            (e for e in self.facts.escapes if e.fit == fid), key=lambda e: (e.loc.path or "", e.loc.span.sort_key())
+        )
+
+
+@dataclass(frozen=True)
+class Rule:
+    id: str
+    severity: Severity
+    summary: str
+    rationale: str
+    bad: str
+    good: str
+    check: Callable[[RuleInput], Iterable[Finding]] = field(compare=False)
+    references: tuple[str, ...] = ()
+
+    def finding(
+        self,
+        span: Span,
+        message: str,
+        related: Iterable[Related] = (),
+        fix: dict | None = None,
+    ) -> Finding:
+        return Finding(self.id, self.severity, span, message, tuple(related), fix=fix)
+
+
+def related(loc: Loc, message: str) -> Related:
+    return Related(loc.span, message, loc.path)
+
+
+def describe_fit(fit: Fit) -> str:
+    """How a message names a fit: its variable, else its formula, else its estimator."""
+    if fit.result_name:
+        return f"`{fit.result_name}`"
+    if fit.formula:
+        return f"the fit of `{fit.formula}`"
+    return f"this {fit.estimator} fit"
+
+
+def fit_related(fit: Fit) -> list[Related]:
+    """Related locations of a fit made inside a function: the ``.fit`` inside and the calls between."""
+    out: list[Related] = []
+    if fit.site != fit.fit_call:
+        out.append(related(fit.fit_call, "the fit is made here"))
+        for hop in fit.via[:-1]:
+            out.append(related(hop, "and returned through here"))
+    return out
+
+
+def use_related(uses: list[Use], limit: int = 3) -> list[Related]:
+    out = []
+    for use in uses[:limit]:
+        what = "inference" if use.kind == "inference" else "estimates"
+        out.append(related(use.loc, f"{what} used here (`{use.member}`)"))
+    return out
+
+
+def escape_clause(escapes: list[Escape]) -> str:
+    """The sentence added when a result went where regvet cannot look."""
+    if not escapes:
+        return ""
+    names = sorted({e.callee for e in escapes})
+    shown = ", ".join(f"`{n}`" for n in names[:3])
+    return (
+        f" It is also passed to {shown}, which regvet cannot see into; if that runs the check, "
+        "list it under `diagnostic_helpers` in the regvet config."
+    )
+
+
+def fix_data(fit: Fit) -> dict | None:
+    """What a quick fix needs to edit the fit call in place (only for fits made in this file)."""
+    if fit.fit_call.path is not None or fit.site != fit.fit_call:
+        return None
+    s = fit.fit_call.span
+    data: dict = {"fit_call": [s.line, s.col, s.end_line, s.end_col]}
+    if fit.statement is not None:
+        data["statement"] = [fit.statement.line, fit.statement.col, fit.statement.end_line, fit.statement.end_col]
+    if fit.result_name:
+        data["result"] = fit.result_name
+    return data

@@ -1,0 +1,80 @@
+"""compare-across-outcomes: fit measures compared between fits of different dependent variables."""
+
+from __future__ import annotations
+
+from typing import Iterator
+
+from regvet.model.finding import Finding, Severity
+from regvet.rules.base import Rule, RuleInput, describe_fit, related
+
+
+def check(inp: RuleInput) -> Iterator[Finding]:
+    for comp in inp.facts.comparisons:
+        if comp.loc.path is not None:
+            continue
+        by_root: dict[int, str] = {}
+        for fid, measure in comp.measures:
+            by_root.setdefault(inp.facts.root(fid), measure)
+        fits = [inp.facts.fit(r) for r in sorted(by_root)]
+        known = [f for f in fits if f.outcome is not None and not f.auxiliary]
+        outcomes = sorted({f.outcome.key for f in known})  # type: ignore[union-attr]
+        if len(outcomes) < 2:
+            continue
+        measures = sorted({m for _, m in comp.measures})
+        listed = ", ".join(f"`{o}`" for o in outcomes[:4])
+        bases = {f.outcome.base for f in known}  # type: ignore[union-attr]
+        hint = (
+            " For a log against a level model of the same variable, compare the level R² with the squared "
+            "correlation between the outcome and the log model's exponentiated predictions."
+            if len(bases) == 1
+            else ""
+        )
+        yield RULE.finding(
+            comp.loc.span,
+            f"This compares {', '.join(f'`{m}`' for m in measures)} between fits of different dependent "
+            f"variables ({listed}). R², AIC, BIC and the log-likelihood measure fit to one outcome on one "
+            "sample, so across outcomes the comparison means nothing; compare models of the same outcome."
+            + hint,
+            [related(f.site, f"{describe_fit(f)} explains `{f.outcome.key}`") for f in known[:6]],  # type: ignore[union-attr]
+        )
+
+
+RULE = Rule(
+    id="compare-across-outcomes",
+    severity=Severity.ERROR,
+    summary="Fit measures of fits with different dependent variables are compared.",
+    rationale=(
+        "R² is the share of the variance of *this* outcome that the model explains, and AIC, BIC and the "
+        "log-likelihood are computed on *this* outcome's scale. A model of `log(riders)` and a model of "
+        "`riders` answer different questions, and their measures cannot rank them.\n\n"
+        "Fires on comparison operators, `max`/`min`/`sorted` keyed on a measure, and differences or ratios of "
+        "measures (`rsquared`, `rsquared_adj`, `aic`, `bic`, `llf`) between fits whose dependent variables "
+        "differ. To choose between a log and a level model, compare the level model's R² with the squared "
+        "correlation between the level outcome and the exponentiated fitted values of the log model, or "
+        "compare out-of-sample prediction errors on the same scale."
+    ),
+    bad='''\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+
+crossings = pd.read_csv("crossings.csv")
+level = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
+logged = smf.ols("np.log(riders) ~ fare + fuel_price", data=crossings).fit()
+best = level if level.rsquared > logged.rsquared else logged  # expect: compare-across-outcomes
+''',
+    good='''\
+import pandas as pd
+import statsmodels.formula.api as smf
+
+crossings = pd.read_csv("crossings.csv")
+small = smf.ols("riders ~ fare", data=crossings).fit()
+large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
+best = small if small.aic < large.aic else large
+''',
+    check=check,
+    references=(
+        "Wooldridge, J. M. Introductory Econometrics, Sec. 6.4 (predicting y when log(y) is the dependent "
+        "variable) (from memory).",
+    ),
+)

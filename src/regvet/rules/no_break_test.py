@@ -1,0 +1,119 @@
+"""no-break-test: a categorical intercept shift (or a configured break candidate) without a break test."""
+
+from __future__ import annotations
+
+import re
+from typing import Iterator
+
+from regvet.model.facts import Fit
+from regvet.model.finding import Finding, Severity
+from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, fix_data, use_related
+
+_IDENT = re.compile(r"[A-Za-z_]\w*")
+_QUERY_WORDS = frozenset({"and", "or", "not", "in", "True", "False", "None", "is"})
+
+
+def _candidate_columns(candidates: tuple[str, ...]) -> dict[str, str]:
+    """Column name -> the candidate entry naming it."""
+    out: dict[str, str] = {}
+    for entry in candidates:
+        stripped = re.sub(r"(['\"]).*?\1", "", entry)
+        for name in _IDENT.findall(stripped):
+            if name not in _QUERY_WORDS and not name[0].isdigit():
+                out.setdefault(name, entry)
+    return out
+
+
+def _group_tested(inp: RuleInput, fit: Fit, groups: set[str]) -> bool:
+    for gt in inp.facts.group_tests:
+        if not (gt.groups & groups):
+            continue
+        for other in gt.fits:
+            o = inp.facts.fit(other)
+            if other in inp.facts.family_of(fit.id):
+                return True
+            if fit.outcome is not None and o.outcome is not None and o.outcome.key == fit.outcome.key:
+                return True
+    return False
+
+
+def check(inp: RuleInput) -> Iterator[Finding]:
+    candidates = _candidate_columns(inp.settings.break_candidates)
+    seen: set[int] = set()
+    for fit in inp.judged_fits():
+        root = inp.facts.root(fit.id)
+        if root in seen:
+            continue
+        members = inp.facts.family_of(fit.id)
+        uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
+        if not uses:
+            continue
+        shift = set(fit.shift_groups)
+        named = {c: e for c, e in candidates.items() if c in fit.columns}
+        if not shift and not named:
+            continue
+        if inp.checks(fit.id, "breaks") or _group_tested(inp, fit, shift | set(named)):
+            continue
+        seen.add(root)
+        if shift:
+            g = sorted(shift)[0]
+            why = (
+                f"its formula lets `C({g})` shift only the intercept, so every slope is assumed equal across "
+                f"the groups of `{g}`"
+            )
+        else:
+            entry = sorted(named.values())[0]
+            why = f"it uses data with a configured break candidate (`{entry}`)"
+        yield RULE.finding(
+            fit.site.span,
+            f"{describe_fit(fit)}: {why}, and no structural-break test was applied. Test whether the slopes "
+            "differ (a Chow test, or an F test of the interactions with the group, e.g. `anova_lm(restricted, "
+            "interacted)`), or run `breaks_cusumolsresid` on the residuals.",
+            [*fit_related(fit), *use_related(uses, 1)],
+            fix_data(fit),
+        )
+
+
+RULE = Rule(
+    id="no-break-test",
+    severity=Severity.INFO,
+    summary="A formula shifts only the intercept by a categorical term (or uses a configured break candidate) "
+    "and no break test was applied.",
+    rationale=(
+        "A `C(group)` term without interactions lets each group have its own intercept but forces the same "
+        "slopes on all of them: the assumption of parameter constancy across groups (or before and after an "
+        "event). If the slopes differ, the pooled coefficients describe no group well.\n\n"
+        "Also fires for fits on data that use a column named in the config's `break_candidates`.\n\n"
+        "Satisfied by: a Chow test (subsample fits combined in an F statistic from their SSRs), an F test of "
+        "the interactions with the group (`anova_lm`, `compare_f_test`, or `f_test` on the interacted model), "
+        "or `breaks_cusumolsresid` / `breaks_hansen` / `recursive_olsresiduals` on the fit. "
+        "The Chow test assumes equal error variances across the groups; under heteroskedasticity use a "
+        "robust Wald test of the interactions."
+    ),
+    bad='''\
+import pandas as pd
+import statsmodels.formula.api as smf
+
+crossings = pd.read_csv("crossings.csv")
+res = smf.ols("riders ~ fare + fuel_price + C(season)", data=crossings).fit()  # expect: no-break-test
+print(res.params)
+''',
+    good='''\
+import pandas as pd
+import statsmodels.formula.api as smf
+from statsmodels.stats.anova import anova_lm
+
+crossings = pd.read_csv("crossings.csv")
+res = smf.ols("riders ~ fare + fuel_price + C(season)", data=crossings).fit()
+full = smf.ols("riders ~ (fare + fuel_price) * C(season)", data=crossings).fit()
+print(anova_lm(res, full))
+print(res.params)
+''',
+    check=check,
+    references=(
+        "Chow, G. C. (1960). Tests of equality between sets of coefficients in two linear regressions. "
+        "Econometrica 28(3), 591-605.",
+        "Brown, R. L., Durbin, J. and Evans, J. M. (1975). Techniques for testing the constancy of regression "
+        "relationships over time. JRSS B 37(2), 149-192.",
+    ),
+)

@@ -1,0 +1,77 @@
+"""no-form-test: estimates used without a functional-form test."""
+
+from __future__ import annotations
+
+from typing import Iterator
+
+from regvet.model.finding import Finding, Severity
+from regvet.rules.base import (
+    Rule, RuleInput, describe_fit, escape_clause, fit_related, fix_data, use_related,
+)  # fmt: skip
+
+
+def check(inp: RuleInput) -> Iterator[Finding]:
+    seen_roots: set[int] = set()
+    for fit in inp.judged_fits():
+        root = inp.facts.root(fit.id)
+        if root in seen_roots:
+            continue
+        members = inp.facts.family_of(fit.id)
+        uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
+        escapes = [e for m in sorted(members) for e in inp.escapes(m)]
+        if not uses and not escapes:
+            continue
+        if inp.checks(fit.id, "form"):
+            continue
+        seen_roots.add(root)
+        target = inp.facts.fit(root) if inp.facts.fit(root).site.path is None else fit
+        used = f" (first at {uses[0].loc.span.describe()}, `{uses[0].member}`)" if uses else ""
+        yield RULE.finding(
+            target.site.span,
+            f"{describe_fit(target)} has its estimates used{used} but no functional-form test was run on it. "
+            "The coefficients assume the model is linear in these regressors with no missing powers or "
+            "interactions; run a RESET test (`linear_reset(res, power=3, use_f=True)`) and revisit the "
+            "specification if it rejects." + escape_clause(escapes),
+            [*fit_related(target), *use_related(uses)],
+            fix_data(target),
+        )
+
+
+RULE = Rule(
+    id="no-form-test",
+    severity=Severity.WARNING,
+    summary="An OLS fit's estimates are used, but no functional-form test was applied to it.",
+    rationale=(
+        "OLS estimates are only meaningful if the conditional mean is correctly specified: the outcome is "
+        "linear in the regressors as written, with no omitted powers, interactions or transformations. "
+        "A misspecified form biases every coefficient, and no standard-error correction repairs that.\n\n"
+        "Satisfied by: `linear_reset` (Ramsey's RESET; powers 2 and 3 of the fitted values are the usual "
+        "choice), `linear_harvey_collier`, `linear_rainbow`, `linear_lm`, or a hand-made RESET (an auxiliary "
+        "regression that adds powers of the fit's fitted values), applied to the same fit. "
+        "A function regvet cannot read that runs the test can be declared under `diagnostic_helpers`."
+    ),
+    bad='''\
+import pandas as pd
+import statsmodels.formula.api as smf
+
+crossings = pd.read_csv("crossings.csv")
+res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-form-test
+print(res.params)
+''',
+    good='''\
+import pandas as pd
+import statsmodels.formula.api as smf
+from statsmodels.stats.diagnostic import linear_reset
+
+crossings = pd.read_csv("crossings.csv")
+res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
+print(linear_reset(res, power=3, use_f=True))
+print(res.params)
+''',
+    check=check,
+    references=(
+        "Ramsey, J. B. (1969). Tests for specification errors in classical linear least-squares regression "
+        "analysis. JRSS B 31(2), 350-371.",
+        "statsmodels: statsmodels.stats.diagnostic.linear_reset (returns a Wald chi-square unless use_f=True).",
+    ),
+)

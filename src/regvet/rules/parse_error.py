@@ -1,0 +1,37 @@
+"""parse-error: the file cannot be read as Python (or as a notebook)."""
+
+from __future__ import annotations
+
+from typing import Iterator
+
+from regvet.model.finding import Finding, Severity
+from regvet.rules.base import Rule, RuleInput
+
+
+def check(inp: RuleInput) -> Iterator[Finding]:
+    err = inp.source_error
+    if err is not None:
+        yield RULE.finding(err.span, f"regvet cannot analyse this file: {err.message}. Nothing else in it was checked.")
+
+
+RULE = Rule(
+    id="parse-error",
+    severity=Severity.ERROR,
+    summary="The file cannot be parsed; nothing in it was checked.",
+    rationale=(
+        "regvet reads code without running it, so a file with a syntax error (or a notebook whose JSON is "
+        "broken) cannot be analysed at all: any fit in it goes unchecked. One finding is placed at the error "
+        "position and the scan goes on with the other files."
+    ),
+    bad='''\
+import statsmodels.formula.api as smf
+
+res = smf.ols("riders ~ fare", data=crossings).fit(  # expect: parse-error
+''',
+    good='''\
+import statsmodels.formula.api as smf
+
+res = smf.ols("riders ~ fare", data=crossings).fit()
+''',
+    check=check,
+)

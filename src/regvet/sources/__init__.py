@@ -1,0 +1,1 @@
+"""Turning file contents into parseable Python: decoding, notebooks, waiver comments."""

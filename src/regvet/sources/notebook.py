@@ -1,0 +1,135 @@
+"""Jupyter notebooks as one Python module with a map back to cells.
+
+Code cells are joined in order (so a test in a later cell covers a fit in an
+earlier one). IPython magics and shell escapes are replaced by ``pass`` at the
+same indentation, so no line moves and blocks stay valid; cells whose body is
+not Python (``%%bash``, ``%%sql``, ...) become blank lines.
+"""
+
+from __future__ import annotations
+
+import ast
+import io
+import json
+import re
+import tokenize
+from bisect import bisect_right
+from dataclasses import dataclass
+
+from regvet.model.span import Span
+from regvet.sources.python import SourceError
+
+_LINE_MAGIC = re.compile(r"^(\s*)(?:%|!|[A-Za-z_][\w.]*\s*=\s*[!%])")  # %cmd, !cmd, x = !cmd, x = %cmd
+_HELP = re.compile(r"^(\s*)[^#\s].*?\?\??\s*$")  # obj?  obj??
+#: Cell magics whose body is ordinary Python.
+PYTHON_CELL_MAGICS = frozenset({"time", "timeit", "capture", "prun", "debug", "memit"})
+
+
+@dataclass(frozen=True)
+class CellMap:
+    """Maps lines of the joined module back to (cell index, line within the cell)."""
+
+    starts: tuple[int, ...]  # 1-based first line of each code cell in the joined module
+    cells: tuple[int, ...]  # the cell index of each of those code cells
+
+    def locate(self, line: int) -> tuple[int, int]:
+        i = bisect_right(self.starts, line) - 1
+        if i < 0:
+            return (self.cells[0] if self.cells else 0, line)
+        return self.cells[i], line - self.starts[i] + 1
+
+    def span(self, span: Span) -> Span:
+        """Turn a span of the joined module into a cell-relative one."""
+        cell, line = self.locate(span.line)
+        end_cell, end_line = self.locate(span.end_line)
+        if end_cell != cell:  # a span never crosses cells in practice; clamp to be safe
+            end_line, end_col = line, span.col
+        else:
+            end_col = span.end_col
+        return Span(line, span.col, end_line, end_col, cell)
+
+
+@dataclass(frozen=True)
+class NotebookSource:
+    python: str
+    cell_map: CellMap
+    cell_count: int
+
+
+def _inside_statement(prefix: str) -> bool:
+    """True when ``prefix`` ends inside brackets, a triple-quoted string or a continuation."""
+    try:
+        for _ in tokenize.generate_tokens(io.StringIO(prefix).readline):
+            pass
+        return False
+    except (tokenize.TokenError, IndentationError, SyntaxError):
+        return True
+
+
+def neutralize(cell: str) -> str:
+    """Python text with exactly as many lines as ``cell``; magics become ``pass``."""
+    lines = cell.split("\n")
+    if lines and lines[0].lstrip().startswith("%%"):
+        name = (lines[0].lstrip()[2:].split() or [""])[0]
+        if name not in PYTHON_CELL_MAGICS:
+            return "\n".join("" for _ in lines)
+        lines[0] = ""
+    joined = "\n".join(lines)
+    try:
+        ast.parse(joined)
+        return joined  # valid Python: leave every byte alone
+    except (SyntaxError, ValueError):
+        pass
+    out: list[str] = []
+    for line in lines:
+        m = _LINE_MAGIC.match(line) or _HELP.match(line)
+        if m and not (out and _inside_statement("\n".join(out) + "\n")):
+            out.append(m.group(1) + "pass")
+        else:
+            out.append(line)
+    return "\n".join(out)
+
+
+def _position(text: str, pos: int) -> Span:
+    line = text.count("\n", 0, pos) + 1
+    col = pos - (text.rfind("\n", 0, pos) + 1)
+    return Span(line, col, line, col)
+
+
+def read_notebook(text: str) -> NotebookSource | SourceError:
+    """Parse notebook JSON (v4, or v3 worksheets) tolerantly into one Python module."""
+    try:
+        nb = json.loads(text)
+    except json.JSONDecodeError as exc:
+        return SourceError(f"invalid notebook JSON: {exc.msg}", _position(text, exc.pos))
+    except RecursionError:
+        return SourceError("invalid notebook JSON: nested too deeply", Span(1, 0, 1, 0))
+    if not isinstance(nb, dict):
+        return SourceError("invalid notebook: the top level is not a JSON object", Span(1, 0, 1, 0))
+    cells = nb.get("cells")
+    if cells is None and isinstance(nb.get("worksheets"), list):  # nbformat 3
+        cells = [c for ws in nb["worksheets"] if isinstance(ws, dict) for c in ws.get("cells", [])]
+    if not isinstance(cells, list):
+        return SourceError("invalid notebook: no list of cells", Span(1, 0, 1, 0))
+    parts: list[str] = []
+    starts: list[int] = []
+    indices: list[int] = []
+    line = 1
+    for index, cell in enumerate(cells):
+        if not isinstance(cell, dict) or cell.get("cell_type") != "code":
+            continue
+        src = cell.get("source", cell.get("input", ""))
+        if isinstance(src, list):
+            if not all(isinstance(s, str) for s in src):
+                return SourceError(f"invalid notebook: cell {index} has a non-text source", Span(1, 0, 1, 0))
+            src = "".join(src)
+        if not isinstance(src, str):
+            return SourceError(f"invalid notebook: cell {index} has a non-text source", Span(1, 0, 1, 0))
+        py = neutralize(src.replace("\r\n", "\n"))
+        if not py.endswith("\n"):
+            py += "\n"
+        starts.append(line)
+        indices.append(index)
+        parts.append(py)
+        line += py.count("\n")
+    return NotebookSource("".join(parts), CellMap(tuple(starts), tuple(indices)), len(cells))

@@ -1,0 +1,59 @@
+"""Decode and parse Python source. Errors come back as values, never as exceptions."""
+
+from __future__ import annotations
+
+import ast
+import codecs
+import io
+import tokenize
+import warnings
+from dataclasses import dataclass
+
+from regvet.model.span import Span
+
+
+@dataclass(frozen=True)
+class SourceError:
+    """Why a file could not be read as Python, and where (1-based line, 0-based column)."""
+
+    message: str
+    span: Span
+
+
+def decode(data: bytes) -> str | SourceError:
+    """Decode bytes as Python source (PEP 263 coding cookie, UTF-8 BOM, default UTF-8)."""
+    try:
+        encoding, _ = tokenize.detect_encoding(io.BytesIO(data).readline)
+    except SyntaxError as exc:
+        return SourceError(f"cannot determine the file's encoding: {exc}", Span(1, 0, 1, 0))
+    try:
+        codecs.lookup(encoding)
+        text = data.decode(encoding)
+    except (LookupError, UnicodeDecodeError) as exc:
+        line = data[: getattr(exc, "start", 0)].count(b"\n") + 1
+        return SourceError(f"cannot decode the file as {encoding}: {exc}", Span(line, 0, line, 0))
+    if text.startswith("\ufeff"):
+        text = text[1:]
+    return text
+
+
+def parse(text: str, filename: str = "<unknown>") -> ast.Module | SourceError:
+    """``ast.parse`` with syntax errors turned into a :class:`SourceError` at the error position."""
+    try:
+        with warnings.catch_warnings():
+            # Invalid escape sequences and the like are not regvet's business.
+            warnings.simplefilter("ignore")
+            return ast.parse(text, filename=filename, type_comments=False)
+    except SyntaxError as exc:
+        line = exc.lineno or 1
+        # SyntaxError.offset is 1-based and counts characters of the line.
+        col = max((exc.offset or 1) - 1, 0)
+        end_line = getattr(exc, "end_lineno", None) or line
+        end_col = getattr(exc, "end_offset", None)
+        end_col = max(end_col - 1, col) if end_col and end_line == line else col
+        if end_line != line:
+            end_line, end_col = line, col
+        msg = exc.msg or "invalid syntax"
+        return SourceError(f"syntax error: {msg}", Span(line, col, end_line, end_col))
+    except (ValueError, RecursionError, MemoryError) as exc:  # NUL bytes, absurd nesting
+        return SourceError(f"cannot parse: {exc}", Span(1, 0, 1, 0))

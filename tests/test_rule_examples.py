@@ -1,0 +1,42 @@
+"""Every rule's bad example gives exactly its marked findings; its good example gives none of them."""
+
+from __future__ import annotations
+
+import pytest
+from conftest import expected_markers, found
+
+from regvet.cli import explain
+from regvet.engine import analyze
+from regvet.rules import ALL_RULES, RULES_BY_ID
+
+
+@pytest.mark.parametrize("rule", ALL_RULES, ids=lambda r: r.id)
+def test_bad_example_is_flagged_where_marked(rule):
+    expected = expected_markers(rule.bad, rule.id)
+    assert expected, f"{rule.id}: the bad example marks no finding"
+    report = analyze(rule.bad, f"{rule.id}_bad.py", strict=True)
+    assert found(report, rule.id) == expected
+
+
+@pytest.mark.parametrize("rule", ALL_RULES, ids=lambda r: r.id)
+def test_good_example_passes(rule):
+    report = analyze(rule.good, f"{rule.id}_good.py", strict=True)
+    assert found(report, rule.id) == []
+    assert expected_markers(rule.good) == []
+
+
+def test_rule_ids_are_unique_and_kebab_case():
+    ids = [r.id for r in ALL_RULES]
+    assert len(ids) == len(set(ids)) == len(RULES_BY_ID)
+    for rid in ids:
+        assert rid == rid.lower() and " " not in rid and "_" not in rid
+
+
+@pytest.mark.parametrize("rule", ALL_RULES, ids=lambda r: r.id)
+def test_explain_prints_the_catalogue_text(rule):
+    text = explain(rule.id)
+    assert rule.summary in text and rule.rationale in text
+    assert rule.bad.splitlines()[0] in text and rule.good.splitlines()[-1] in text
+    assert "does not make a model right" in text
+    for ref in rule.references:
+        assert ref in text
