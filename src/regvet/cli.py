@@ -272,7 +272,7 @@ def analyze_file(
     else:
         decoded = decode(data)
         if isinstance(decoded, SourceError):
-            return _unreadable(shown, settings, decoded.message)
+            return error_report(shown, decoded, settings)
         text = decoded
     provider = FileModules(root, file, texts)
     return analyze(text, shown, settings, provider=provider, module_cache=module_cache, module_key=file.stem)

@@ -20,10 +20,9 @@ NAMESPACE_ALIASES: dict[str, str] = {
     "statsmodels.api.regression": "statsmodels.regression",
     "statsmodels.api.iolib": "statsmodels.iolib",
     "statsmodels.api.tools": "statsmodels.tools",
-    "statsmodels.api.tsa": "statsmodels.tsa",
+    "statsmodels.api.tsa": "statsmodels.tsa.api",
     "statsmodels.stats.api.diagnostic": "statsmodels.stats.diagnostic",
     "statsmodels.stats.api.stattools": "statsmodels.stats.stattools",
-    "statsmodels.stats.api.outliers_influence": "statsmodels.stats.outliers_influence",
 }
 _ALIAS_KEYS = sorted(NAMESPACE_ALIASES, key=len, reverse=True)
 

@@ -655,6 +655,7 @@ class Collector:
                         out.add(t)
                     else:
                         out.add(("dmethod", t, name))
+                        out.add(("data", ("attr", id(node))))  # an attribute of data is data
                     if name.isidentifier() and name not in _PANDAS_ATTRS and not name.startswith("_"):
                         out.add(("outcome", Outcome(name, None, name)))
                 elif name in _PASS_ATTRS:
@@ -723,6 +724,10 @@ class Collector:
                 extra.add(t)
             if t[0] == "measure":
                 extra.add(t)
+        if sum(1 for t in extra if t[0] == "outcome") > 1:
+            # A column picked out of a frame is that column, whatever the frame was called.
+            picked = {("outcome", Outcome(n, None, n)) for n in (x[1] for x in index.of("lit")) if isinstance(n, str)}
+            extra = {t for t in extra if t[0] != "outcome" or t in picked}
         if extra:
             out = out.with_tags(extra)
         return out
@@ -1400,7 +1405,14 @@ class Collector:
                         continue
                     on_left = re.search(rf"(?<![\w.]){re.escape(var)}(?!\w)", lhs_text) is not None
                     squared = _squared_in(text or "", var)
-                    if on_left and (part[2] == "residsq" or (part[2] == "resid" and squared)):
+                    if not on_left and part[2] == "resid" and any(
+                        p[0] == "part" and p[2] == "resid" and p[1] == part[1]
+                        for v in formula.variables
+                        if re.search(rf"(?<![\w.]){re.escape(v)}(?!\w)", lhs_text)
+                        for p in colv.get(v, ())
+                    ):
+                        aux.setdefault("serial", set()).add(part[1])
+                    elif on_left and (part[2] == "residsq" or (part[2] == "resid" and squared)):
                         aux.setdefault("variance", set()).add(part[1])
                     elif not on_left and (part[2] == "fittedpow" or (part[2] == "fitted" and squared)):
                         aux.setdefault("form", set()).add(part[1])
@@ -1418,12 +1430,17 @@ class Collector:
                 columns |= set(regs)
             if outcome is not None:
                 columns.add(outcome.base)
+            y_resid = {t[1] for t in flat(yv).of("part") if t[2] == "resid"}
             for t in flat(yv).tags:
                 if t[0] == "part":
                     aux.setdefault("variance" if t[2] == "residsq" else "other", set()).add(t[1])
             for t in flat(xv).tags:
                 if t[0] == "part":
-                    aux.setdefault("form" if t[2] == "fittedpow" else "other", set()).add(t[1])
+                    if t[2] == "resid" and t[1] in y_resid:
+                        family = "serial"  # residuals regressed on their own lags
+                    else:
+                        family = "form" if t[2] == "fittedpow" else "other"
+                    aux.setdefault(family, set()).add(t[1])
         data_tags = frozenset(t for v in data_values for t in v.tags if t[0] == "data")
         model = _Model(
             mid, q, ctor.estimator, ctor.api, formula, text, outcome, n_reg, regs, data_name, time_reason,
@@ -1433,10 +1450,9 @@ class Collector:
         for d in data_tags:
             self.data_models.setdefault(d, set()).add(mid)
         for family, fits in aux.items():
-            if family in ("form", "variance"):
+            label = _AUX_LABELS.get(family)
+            if label is not None:
                 for fid in fits:
-                    label = "auxiliary regression on powers of fitted values" if family == "form" else (
-                        "auxiliary regression of squared residuals")  # fmt: skip
                     self.checks[Check(fid, family, label, loc)] = None
         return mid
 
@@ -1537,6 +1553,11 @@ class Collector:
 _COMPOUND = (ast.If, ast.For, ast.AsyncFor, ast.While, ast.With, ast.AsyncWith, ast.Try, ast.FunctionDef,
              ast.AsyncFunctionDef, ast.ClassDef) + ((ast.Match,) if hasattr(ast, "Match") else ()) + (
              (ast.TryStar,) if hasattr(ast, "TryStar") else ())  # fmt: skip
+_AUX_LABELS = {
+    "form": "auxiliary regression on powers of fitted values",
+    "variance": "auxiliary regression of squared residuals",
+    "serial": "auxiliary regression of residuals on their lag",
+}
 _ARITH_KEEP = frozenset({"part", "mpart", "measure", "timed", "outcome", "ssrsum"})
 _INTERESTING = frozenset({"fit", "model", "part", "mpart", "measure", "func"})
 _NP_TRANSFORMS = {"log": "log", "log1p": "log1p", "log10": "log10", "log2": "log2", "sqrt": "sqrt", "exp": "exp",
