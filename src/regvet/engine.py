@@ -117,7 +117,8 @@ def analyze(
     tree = parse(python, path)
     waivers = tuple(find_waivers(python))
     if isinstance(tree, SourceError):
-        return _finish(path, settings, RuleInput(FileFacts(), settings, waivers, tree), cell_map, (), strict, cell_count)
+        inp = RuleInput(FileFacts(), settings, waivers, tree, cell_map)
+        return _finish(path, settings, inp, cell_map, (), strict, cell_count)
     crashes: list[Crash] = []
     try:
         facts = collect(
@@ -139,7 +140,8 @@ def analyze(
             raise
         facts = FileFacts()
         crashes.append(Crash("analysis", _describe(exc)))
-    return _finish(path, settings, RuleInput(facts, settings, waivers), cell_map, tuple(crashes), strict, cell_count)
+    inp = RuleInput(facts, settings, waivers, cell_map=cell_map)
+    return _finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count)
 
 
 def error_report(path: str, error: SourceError, settings: Settings | None = None) -> FileReport:

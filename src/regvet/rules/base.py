@@ -19,6 +19,7 @@ from regvet.model.facts import Check, Escape, FileFacts, Fit, Loc, Use
 from regvet.model.finding import Finding, Related, Severity
 from regvet.model.settings import Settings
 from regvet.model.span import Span
+from regvet.sources.notebook import CellMap
 from regvet.sources.python import SourceError
 from regvet.sources.waivers import Waiver
 
@@ -31,6 +32,15 @@ class RuleInput:
     settings: Settings
     waivers: tuple[Waiver, ...] = ()
     source_error: SourceError | None = None
+    cell_map: CellMap | None = None
+
+    def where(self, loc: Loc) -> str:
+        """A location as a message names it: ``line 12``, ``cell 3, line 2`` or ``helpers.py, line 8``."""
+        if loc.path is not None:
+            return f"{loc.path}, line {loc.span.line}"
+        if self.cell_map is not None:
+            return self.cell_map.span(loc.span).describe()
+        return loc.span.describe()
 
     def judged_fits(self) -> Iterator[Fit]:
         """Fits whose findings belong to this file, auxiliary regressions excluded."""

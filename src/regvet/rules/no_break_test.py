@@ -48,11 +48,12 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
         if not uses:
             continue
-        shift = set(fit.shift_groups)
-        named = {c: e for c, e in candidates.items() if c in fit.columns}
-        if not shift and not named:
+        if inp.checks(fit.id, "breaks"):
             continue
-        if inp.checks(fit.id, "breaks") or _group_tested(inp, fit, shift | set(named)):
+        # Every intercept-only group, and every configured candidate the fit uses, needs its own test.
+        shift = {g for g in fit.shift_groups if not _group_tested(inp, fit, {g})}
+        named = {c: e for c, e in candidates.items() if c in fit.columns and not _group_tested(inp, fit, {c})}
+        if not shift and not named:
             continue
         seen.add(root)
         if shift:

@@ -25,7 +25,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             continue
         seen_roots.add(root)
         target = inp.facts.fit(root) if inp.facts.fit(root).site.path is None else fit
-        used = f" (first at {uses[0].loc.span.describe()}, `{uses[0].member}`)" if uses else ""
+        used = f" (first at {inp.where(uses[0].loc)}, `{uses[0].member}`)" if uses else ""
         yield RULE.finding(
             target.site.span,
             f"{describe_fit(target)} has its estimates used{used} but no functional-form test was run on it. "

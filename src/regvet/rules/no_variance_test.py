@@ -20,7 +20,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             continue
         if inp.checks(fit.id, "variance"):
             continue
-        used = f" (`{uses[0].member}`, {uses[0].loc.span.describe()})" if uses else ""
+        used = f" (`{uses[0].member}`, {inp.where(uses[0].loc)})" if uses else ""
         yield RULE.finding(
             fit.site.span,
             f"{describe_fit(fit)} reports inference{used} with the default non-robust covariance, and no "

@@ -8,6 +8,11 @@ from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput, describe_fit, related
 
 
+def _and(numbers: list) -> str:
+    words = [str(n) for n in numbers]
+    return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
+
+
 def check(inp: RuleInput) -> Iterator[Finding]:
     for comp in inp.facts.comparisons:
         if comp.loc.path is not None:
@@ -25,7 +30,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 continue
             yield RULE.finding(
                 comp.loc.span,
-                f"This compares plain R² between fits of `{outcome}` with {' and '.join(map(str, sizes))} "
+                f"This compares plain R² between fits of `{outcome}` with {_and(sizes)} "
                 "regressors. R² never falls when a regressor is added, so the comparison favours the larger "
                 "model whatever the regressors are worth; compare `rsquared_adj`, AIC or BIC, or test the "
                 "extra terms with an F test (`anova_lm(small, large)`).",
