@@ -198,7 +198,7 @@ FIT_SPELLINGS = [
         "sm.OLS-unknown-design",
         """
         import statsmodels.api as sm
-        X = np.asarray(crossings.drop(columns="riders"))
+        X = np.asarray(crossings.select_dtypes("number").drop(columns="riders"))
         res = sm.OLS(crossings["riders"], X).fit()
         """,
         dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
@@ -355,6 +355,75 @@ FIT_SPELLINGS = [
              n_regressors=1, cov_type="nonrobust", data_name="summer", fit_line="res = smf.ols"),
     ),
     (
+        "sm.OLS-attribute-column-values",
+        """
+        import statsmodels.api as sm
+        y = crossings.riders.values
+        res = sm.OLS(y, sm.add_constant(crossings[["fare", "wind_speed"]]).values).fit()
+        """,
+        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
+             n_regressors=2, cov_type="nonrobust", data_name=None, fit_line="res = sm.OLS"),
+    ),
+    (
+        "formula-Q-outcome",
+        """
+        import statsmodels.formula.api as smf
+        res = smf.ols('Q("riders total") ~ fare + fuel_price', data=crossings).fit()
+        """,
+        dict(api="formula", estimator="OLS", formula='Q("riders total") ~ fare + fuel_price',
+             base="riders total", transform=None, n_regressors=2, cov_type="nonrobust", data_name="crossings",
+             fit_line="res = smf.ols"),
+    ),
+    (
+        "formula-log1p-outcome-power-term",
+        """
+        import statsmodels.formula.api as smf
+        res = smf.ols("np.log1p(riders) ~ fare + I(fare**2) + C(season)", data=crossings).fit()
+        """,
+        dict(api="formula", estimator="OLS", formula="np.log1p(riders) ~ fare + I(fare**2) + C(season)",
+             base="riders", transform="log1p", n_regressors=3, cov_type="nonrobust", data_name="crossings",
+             fit_line="res = smf.ols"),
+    ),
+    (
+        "formula-without-intercept",
+        """
+        import statsmodels.formula.api as smf
+        res = smf.ols("riders ~ fare + fuel_price - 1", data=crossings).fit()
+        """,
+        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price - 1", base="riders",
+             transform=None, n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = smf.ols"),
+    ),
+    (
+        "alias-by-assignment",
+        """
+        import statsmodels.formula.api as smf
+        fit_ols = smf.ols
+        res = fit_ols("riders ~ fare + wind_speed", data=crossings).fit()
+        """,
+        dict(api="formula", estimator="OLS", formula="riders ~ fare + wind_speed", base="riders", transform=None,
+             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = fit_ols"),
+    ),
+    (
+        "star-import",
+        """
+        from statsmodels.formula.api import *
+        res = ols("riders ~ fare", data=crossings).fit()
+        """,
+        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
+             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = ols"),
+    ),
+    (
+        "lambda-fitter",
+        """
+        import statsmodels.formula.api as smf
+        fitter = lambda formula: smf.ols(formula, data=crossings).fit()
+        res = fitter("riders ~ fare")
+        """,
+        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
+             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="fitter = lambda",
+             site_line="res = fitter"),
+    ),
+    (
         "cov_type-HC3",
         """
         import statsmodels.formula.api as smf
@@ -413,7 +482,10 @@ def test_fit_spelling(code, want):
     assert fit.cov_type == want["cov_type"]
     assert fit.data_name == want["data_name"]
     assert fit.fit_call.span.line == _line_of(full, want["fit_line"], last=False)
-    assert fit.site == fit.fit_call and fit.via == ()
+    if "site_line" in want:  # made inside a function: the fit is at the call site
+        assert fit.site.span.line == _line_of(full, want["site_line"]) and fit.via == (fit.site,)
+    else:
+        assert fit.site == fit.fit_call and fit.via == ()
 
 
 def test_get_robustcov_results_is_a_robust_copy_of_the_fit():
@@ -434,45 +506,56 @@ def test_get_robustcov_results_is_a_robust_copy_of_the_fit():
 
 
 # --- 1b. not OLS fits --------------------------------------------------------------------------
+_SMF = "import statsmodels.formula.api as smf\n"
+_SM = "import statsmodels.api as sm\n"
+_Y, _X = 'crossings["riders"]', 'crossings[["fare"]]'
 NOT_OLS = [
-    ("smf.logit", 'import statsmodels.formula.api as smf\nres = smf.logit("sold_out ~ fare", data=crossings).fit()'),
-    ("smf.probit", 'import statsmodels.formula.api as smf\nres = smf.probit("sold_out ~ fare", data=crossings).fit()'),
-    ("smf.glm", 'import statsmodels.formula.api as smf\nres = smf.glm("riders ~ fare", data=crossings).fit()'),
-    ("smf.rlm", 'import statsmodels.formula.api as smf\nres = smf.rlm("riders ~ fare", data=crossings).fit()'),
-    ("smf.quantreg", 'import statsmodels.formula.api as smf\nres = smf.quantreg("riders ~ fare", crossings).fit(q=0.5)'),
-    ("smf.mixedlm", 'import statsmodels.formula.api as smf\n'
-                    'res = smf.mixedlm("riders ~ fare", crossings, groups=crossings["season"]).fit()'),
-    ("sm.Logit", 'import statsmodels.api as sm\nres = sm.Logit(crossings["sold_out"], sm.add_constant(crossings[["fare"]])).fit()'),
-    ("sm.Probit", 'import statsmodels.api as sm\nres = sm.Probit(crossings["sold_out"], crossings[["fare"]]).fit()'),
-    ("sm.GLM-gaussian", 'import statsmodels.api as sm\n'
-                        'res = sm.GLM(crossings["riders"], crossings[["fare"]], family=sm.families.Gaussian()).fit()'),
-    ("sm.RLM", 'import statsmodels.api as sm\nres = sm.RLM(crossings["riders"], crossings[["fare"]]).fit()'),
-    ("sm.QuantReg", 'import statsmodels.api as sm\nres = sm.QuantReg(crossings["riders"], crossings[["fare"]]).fit(q=0.5)'),
-    ("sm.GLS", 'import statsmodels.api as sm\nres = sm.GLS(crossings["riders"], crossings[["fare"]]).fit()'),
-    ("sm.GLM.from_formula", 'import statsmodels.api as sm\nres = sm.GLM.from_formula("riders ~ fare", data=crossings).fit()'),
-    ("linear_model.GLS", 'from statsmodels.regression.linear_model import GLS\n'
-                         'res = GLS(crossings["riders"], crossings[["fare"]]).fit()'),
-    ("linearmodels.PanelOLS", 'import statsmodels.api as sm\nfrom linearmodels import PanelOLS\n'
-                              'panel = crossings.set_index(["route", "week"])\n'
-                              'res = PanelOLS.from_formula("riders ~ fare + EntityEffects", data=panel).fit()'),
-    ("linearmodels.PooledOLS", 'import statsmodels.api as sm\nfrom linearmodels.panel import PooledOLS\n'
-                               'panel = crossings.set_index(["route", "week"])\n'
-                               'res = PooledOLS(panel["riders"], sm.add_constant(panel[["fare"]])).fit()'),
-    ("linearmodels.IV2SLS-as-OLS", 'import statsmodels.api as sm\nfrom linearmodels.iv import IV2SLS\n'
-                                   'res = IV2SLS(crossings["riders"], sm.add_constant(crossings[["fare"]]), None, None).fit()'),
-    ("sklearn.LinearRegression", 'import statsmodels.api as sm\nfrom sklearn.linear_model import LinearRegression\n'
-                                 'res = LinearRegression().fit(crossings[["fare"]], crossings["riders"])'),
-    ("sklearn-named-ols", 'import statsmodels.api as sm\nfrom sklearn import linear_model\n'
-                          'ols = linear_model.LinearRegression()\nres = ols.fit(crossings[["fare"]], crossings["riders"])'),
-    ("tsa.ARIMA", 'from statsmodels.tsa.arima.model import ARIMA\nres = ARIMA(crossings["riders"], order=(1, 0, 0)).fit()'),
-    ("fit-in-a-string", 'import statsmodels.formula.api as smf\n'
-                        'snippet = "res = smf.ols(\'riders ~ fare\', data=crossings).fit()"\nprint(snippet)'),
-    ("fit-in-a-comment", 'import statsmodels.formula.api as smf\n'
-                         '# res = smf.ols("riders ~ fare", data=crossings).fit()\nprint(crossings.shape)'),
-    ("fit-in-a-docstring", 'import statsmodels.api as sm\n\n\ndef describe():\n'
-                           '    """Fit with ``sm.OLS(crossings["riders"], X).fit()``."""\n    return None\n'),
-    ("model-built-never-fitted", 'import statsmodels.formula.api as smf\n'
-                                 'model = smf.ols("riders ~ fare", data=crossings)\nprint(model.exog_names)'),
+    ("smf.logit", _SMF + 'res = smf.logit("sold_out ~ fare", data=crossings).fit()'),
+    ("smf.probit", _SMF + 'res = smf.probit("sold_out ~ fare", data=crossings).fit()'),
+    ("smf.glm", _SMF + 'res = smf.glm("riders ~ fare", data=crossings).fit()'),
+    ("smf.rlm", _SMF + 'res = smf.rlm("riders ~ fare", data=crossings).fit()'),
+    ("smf.quantreg", _SMF + 'res = smf.quantreg("riders ~ fare", crossings).fit(q=0.5)'),
+    ("smf.mixedlm", _SMF + 'res = smf.mixedlm("riders ~ fare", crossings, groups=crossings["season"]).fit()'),
+    ("sm.Logit", _SM + f'res = sm.Logit(crossings["sold_out"], sm.add_constant({_X})).fit()'),
+    ("sm.Probit", _SM + f'res = sm.Probit(crossings["sold_out"], {_X}).fit()'),
+    ("sm.GLM-gaussian", _SM + f"res = sm.GLM({_Y}, {_X}, family=sm.families.Gaussian()).fit()"),
+    ("sm.GLM.from_formula", _SM + 'res = sm.GLM.from_formula("riders ~ fare", data=crossings).fit()'),
+    ("sm.RLM", _SM + f"res = sm.RLM({_Y}, {_X}).fit()"),
+    ("sm.QuantReg", _SM + f"res = sm.QuantReg({_Y}, {_X}).fit(q=0.5)"),
+    ("sm.GLS", _SM + f"res = sm.GLS({_Y}, {_X}).fit()"),
+    ("linear_model.GLS", f"from statsmodels.regression.linear_model import GLS\nres = GLS({_Y}, {_X}).fit()"),
+    ("tsa.ARIMA", f"from statsmodels.tsa.arima.model import ARIMA\nres = ARIMA({_Y}, order=(1, 0, 0)).fit()"),
+    (
+        "linearmodels.PanelOLS",
+        _SM + "from linearmodels import PanelOLS\n"
+        'panel = crossings.set_index(["route", "week"])\n'
+        'res = PanelOLS.from_formula("riders ~ fare + EntityEffects", data=panel).fit()',
+    ),
+    (
+        "linearmodels.PooledOLS",
+        _SM + "from linearmodels.panel import PooledOLS\n"
+        'panel = crossings.set_index(["route", "week"])\n'
+        'res = PooledOLS(panel["riders"], sm.add_constant(panel[["fare"]])).fit()',
+    ),
+    (
+        "linearmodels.IV2SLS-as-OLS",
+        _SM + f"from linearmodels.iv import IV2SLS\nres = IV2SLS({_Y}, sm.add_constant({_X}), None, None).fit()",
+    ),
+    (
+        "sklearn.LinearRegression",
+        _SM + f"from sklearn.linear_model import LinearRegression\nres = LinearRegression().fit({_X}, {_Y})",
+    ),
+    (
+        "sklearn-named-ols",
+        _SM + f"from sklearn import linear_model\nols = linear_model.LinearRegression()\nres = ols.fit({_X}, {_Y})",
+    ),
+    ("fit-in-a-string", _SMF + "snippet = \"res = smf.ols('riders ~ fare', data=crossings).fit()\"\nprint(snippet)"),
+    ("fit-in-a-comment", _SMF + '# res = smf.ols("riders ~ fare", data=crossings).fit()\nprint(crossings.shape)'),
+    (
+        "fit-in-a-docstring",
+        _SM + '\n\ndef describe():\n    """Fit with ``sm.OLS(crossings["riders"], X).fit()``."""\n    return None\n',
+    ),
+    ("model-built-never-fitted", _SMF + 'model = smf.ols("riders ~ fare", data=crossings)\nprint(model.exog_names)'),
 ]
 
 
@@ -607,6 +690,26 @@ OTHER_CHECKS = [
         "form", "aux = sm.OLS",
     ),
     (
+        "hand-made-RESET-assign",
+        """
+        import statsmodels.formula.api as smf
+        res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
+        augmented = crossings.assign(yhat=res.fittedvalues)
+        aux = smf.ols("riders ~ fare + fuel_price + I(yhat**2)", data=augmented).fit()
+        """,
+        "form", "aux = smf.ols",
+    ),
+    (
+        "het_breuschpagan-keywords",
+        """
+        import statsmodels.api as sm
+        X = sm.add_constant(crossings[["fare", "fuel_price"]])
+        res = sm.OLS(crossings["riders"], X).fit()
+        bp = sm.stats.diagnostic.het_breuschpagan(resid=res.resid, exog_het=X)
+        """,
+        "variance", "bp = sm.stats",
+    ),
+    (
         "hand-made-variance-test",
         """
         import statsmodels.formula.api as smf
@@ -650,6 +753,8 @@ USES = [
     ("summary", "print(res.summary())", {("inference", "summary")}),
     ("summary-bound-then-printed", "table = res.summary()\nprint(table)", {("inference", "summary")}),
     ("summary2", "print(res.summary2())", {("inference", "summary2")}),
+    ("summary-table-printed", "print(res.summary().tables[1])", {("inference", "summary")}),
+    ("params-in-f-string", "print(f\"fare elasticity {res.params['fare']:.2f}\")", {("estimate", "params")}),
     ("pvalues", "print(res.pvalues)", {("inference", "pvalues")}),
     ("pvalues-indexed", "significant = res.pvalues['fare'] < 0.05", {("inference", "pvalues")}),
     ("bse", "print(res.bse)", {("inference", "bse")}),
@@ -693,8 +798,8 @@ COMPARISONS = [
     ("max-key-lambda", "best = max([a, b], key=lambda r: r.rsquared)", "max", "rsquared"),
     ("min-key-lambda", "best = min((a, b), key=lambda r: r.aic)", "min", "aic"),
     ("sorted-key-lambda", "ranked = sorted([a, b], key=lambda r: r.bic)", "sorted", "bic"),
-    ("sorted-key-attrgetter", "from operator import attrgetter\nranked = sorted([a, b], key=attrgetter('rsquared_adj'))",
-     "sorted", "rsquared_adj"),
+    ("sorted-key-attrgetter", "from operator import attrgetter\nranked = sorted([a, b], key=attrgetter('bic'))",
+     "sorted", "bic"),
     ("min-dict-get", "aics = {'small': a.aic, 'large': b.aic}\nbest = min(aics, key=aics.get)", "min", "aic"),
     ("max-of-two-measures", "top = max(a.rsquared, b.rsquared)", "max", "rsquared"),
     ("difference-aic", "gain = a.aic - b.aic", "difference", "aic"),

@@ -94,11 +94,14 @@ def analyze(
     module_key: str = "",
     module_cache: dict | None = None,
     strict: bool = False,
+    skip_unrelated: bool = True,
 ) -> FileReport:
     """Analyse one file's text. ``path`` names the file in findings; it is never opened.
 
     ``notebook`` defaults to ``path.endswith(".ipynb")``. With ``strict`` a crashing
-    rule re-raises (for tests) instead of being reported as a :class:`Crash`.
+    rule re-raises (for tests) instead of being reported as a :class:`Crash`. With
+    ``skip_unrelated`` (the default) a file that mentions no statsmodels, directly or
+    through the project modules it imports, is not parsed at all.
     """
     settings = settings or Settings()
     provider = provider or NoModules()
@@ -112,7 +115,7 @@ def analyze(
         python, cell_map, cell_count = nb.python, nb.cell_map, nb.cell_count
     else:
         python = text
-    if not mentions_fits(python, path, provider):
+    if skip_unrelated and not mentions_fits(python, path, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
     tree = parse(python, path)
     waivers = tuple(find_waivers(python))

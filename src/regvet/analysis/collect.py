@@ -164,7 +164,10 @@ class Collector:
         self._parse = parse
         self.module_cache = module_cache if module_cache is not None else {}
         self.modules: dict[str, _Module | None] = {}
+        self.sources: dict[str, ModuleSource] = {}
+        self.found: dict[tuple, ModuleSource | None] = {}
         self.loading: set[str] = set()
+        self.resolving: set[tuple[str, str]] = set()
         self.funcs: dict[int, _Func] = {}
         self.func_by_node: dict[int, _Func] = {}
         self.models: dict[int, _Model] = {}
@@ -348,11 +351,17 @@ class Collector:
         if name not in frame.declared_global:
             while f is not None:
                 if name in f.locals:
-                    return f.locals[name]
+                    value = f.locals[name]
+                    if any(t[0] == "pattr" for t in value.tags):
+                        value = f.locals[name] = self.resolve(value)
+                    return value
                 f = f.parent
         g = frame.module.globals
         if name in g:
-            return g[name]
+            value = g[name]
+            if any(t[0] == "pattr" for t in value.tags):
+                value = g[name] = self.resolve(value)
+            return value
         if name in _BUILTIN_NAMES:
             return tags(("q", "builtins." + name))
         return EMPTY
@@ -423,7 +432,7 @@ class Collector:
                             if t[0] in ("part", "fit"):
                                 extra.add(("colv", lit[1], t))
                 grown = container(value, index)
-                self.weak_set(frame, base.id, V(frozenset(extra), grown.elem, grown.keys))
+                self.weak_set(frame, base.id, grown.with_tags(extra))
             else:
                 self.ev(base, frame)
 
@@ -474,79 +483,122 @@ class Collector:
         self.set(frame, node.name, tags(("data", ("class", id(node)))))
 
     # --- imports -------------------------------------------------------------------------------
+    # Project modules are found at import time (a cheap lookup) but parsed and run only when a
+    # name from them is first used: scripts import far more than they call.
     def do_import(self, stmt: ast.Import | ast.ImportFrom, frame: _Frame) -> None:
         if isinstance(stmt, ast.Import):
             for alias in stmt.names:
                 name = alias.name
                 if name.startswith("statsmodels.tsa"):
                     self.tsa_in_use = True
-                module = self.project_module(name, 0, frame)
                 if alias.asname:
-                    value = tags(("pmod", module.key)) if module else tags(("q", cat.canonical(name)))
+                    found = self.find_module(name, 0, frame)
+                    value = tags(("pmod", found.key)) if found else tags(("q", cat.canonical(name)))
                     self.set(frame, alias.asname, value)
                 else:
                     top = name.split(".")[0]
-                    module_top = self.project_module(top, 0, frame)
-                    self.set(frame, top, tags(("pmod", module_top.key)) if module_top else tags(("q", top)))
+                    found = self.find_module(top, 0, frame)
+                    self.set(frame, top, tags(("pmod", found.key)) if found else tags(("q", top)))
             return
         modname = stmt.module or ""
         if modname.startswith("statsmodels.tsa") or (modname == "statsmodels" and any(a.name == "tsa" for a in stmt.names)):
             self.tsa_in_use = True
-        module = self.project_module(modname, stmt.level, frame) if (modname or stmt.level) else None
+        found = self.find_module(modname, stmt.level, frame) if modname else None
         for alias in stmt.names:
             local = alias.asname or alias.name
             if alias.name == "*":
+                module = self.load(found.key) if found else None
                 if module is not None:
                     for k, v in module.globals.items():
                         if not k.startswith("_"):
                             self.set(frame, k, v)
-                else:
+                elif not stmt.level:
                     base = cat.canonical(modname)
                     for q in (*cat.CONSTRUCTORS, *cat.DIAGNOSTICS):
                         if q.rsplit(".", 1)[0] == base:
                             self.set(frame, q.rsplit(".", 1)[1], tags(("q", q)))
                 continue
-            if module is not None:
-                if alias.name in module.globals:
-                    self.set(frame, local, module.globals[alias.name])
-                    continue
-                sub = self.project_module(f"{modname}.{alias.name}" if modname else alias.name, stmt.level, frame)
+            if found is not None:
+                sub = self.find_module(f"{modname}.{alias.name}", stmt.level, frame)
+                self.set(frame, local, tags(("pattr", found.key, alias.name, sub.key if sub else None)))
+            elif stmt.level:
+                sub = self.find_module(f"{modname}.{alias.name}" if modname else alias.name, stmt.level, frame)
                 self.set(frame, local, tags(("pmod", sub.key)) if sub else EMPTY)
-                continue
-            if stmt.level:
-                sub = self.project_module(alias.name, stmt.level, frame)
-                self.set(frame, local, tags(("pmod", sub.key)) if sub else EMPTY)
-                continue
-            self.set(frame, local, tags(("q", cat.canonical(f"{modname}.{alias.name}"))))
+            else:
+                self.set(frame, local, tags(("q", cat.canonical(f"{modname}.{alias.name}"))))
 
-    def project_module(self, name: str, level: int, frame: _Frame) -> _Module | None:
+    def find_module(self, name: str, level: int, frame: _Frame) -> ModuleSource | None:
+        if not name and not level:
+            return None
         if not level and (cat.is_statsmodels(name) or name.split(".")[0] in _WELL_KNOWN):
             return None
+        key = (name, level, frame.module.path)
+        if key in self.found:
+            return self.found[key]
         try:
             found = self.provider.find(name, level, frame.module.path)
         except Exception:  # a provider failure must not stop the analysis
             found = None
-        if found is None:
-            return None
-        if found.key in self.modules:
-            return self.modules[found.key]
-        if found.key in self.loading:
+        self.found[key] = found
+        if found is not None:
+            self.sources.setdefault(found.key, found)
+        return found
+
+    def load(self, key: str) -> _Module | None:
+        """Parse and run a project module's top level (once), returning it."""
+        if key in self.modules:
+            return self.modules[key]
+        found = self.sources.get(key)
+        if found is None or key in self.loading:
             return None
         cached = self.module_cache.get((found.path, found.text))
         tree = cached if cached is not None else self._parse(found.text, found.path)
         if tree is None:
-            self.modules[found.key] = None
+            self.modules[key] = None
             return None
         self.module_cache[(found.path, found.text)] = tree
-        module = _Module(found.key, found.path, tree, found.text.split("\n"))
-        self.modules[found.key] = module
-        self.loading.add(found.key)
+        module = _Module(key, found.path, tree, found.text.split("\n"))
+        self.loading.add(key)
+        saved = self.stmt, self.stmt_module
         try:
             self.exec_block(tree.body, _Frame(module, module.globals, None, ()))
         finally:
-            self.loading.discard(found.key)
+            self.loading.discard(key)
+            self.stmt, self.stmt_module = saved
         module.executed = True
+        self.modules[key] = module
         return module
+
+    def provider_sub(self, package: ModuleSource, name: str) -> ModuleSource | None:
+        """``package.name`` as a submodule, found relative to the package's own file."""
+        try:
+            found = self.provider.find(name, 1, package.path)
+        except Exception:
+            found = None
+        if found is not None and found.key != package.key:
+            self.sources.setdefault(found.key, found)
+            return found
+        return None
+
+    def resolve(self, value: V) -> V:
+        """Replace lazy ``from module import name`` references by what the module binds."""
+        if not any(t[0] == "pattr" for t in value.tags):
+            return value
+        out = V(frozenset(t for t in value.tags if t[0] != "pattr"), value.elem, value.keys, value.items, value.level)
+        for t in value.of("pattr"):
+            _, key, name, sub = t
+            if (key, name) in self.resolving:  # modules importing names from each other
+                continue
+            self.resolving.add((key, name))
+            try:
+                module = self.load(key)
+                if module is not None and name in module.globals:
+                    out = join(out, self.resolve(module.globals[name]))
+                elif sub is not None:
+                    out = join(out, tags(("pmod", sub)))
+            finally:
+                self.resolving.discard((key, name))
+        return out
 
     # --- expressions ---------------------------------------------------------------------------
     def ev(self, node: ast.expr | None, frame: _Frame) -> V:
@@ -616,11 +668,12 @@ class Collector:
                     self.tsa_in_use = True
                 out.add(("q", q))
             elif kind == "pmod":
-                module = self.modules.get(t[1])
-                if module is not None:
-                    if name in module.globals:
-                        return join(V(frozenset(out)), module.globals[name])
-                    sub = self.modules.get(f"{t[1]}.{name}")
+                module = self.load(t[1])
+                if module is not None and name in module.globals:
+                    return join(V(frozenset(out)), self.resolve(module.globals[name]))
+                source = self.sources.get(t[1])
+                if source is not None:
+                    sub = self.provider_sub(source, name)
                     if sub is not None:
                         out.add(("pmod", sub.key))
             elif kind == "fit":
@@ -1298,7 +1351,7 @@ class Collector:
                 if value is None:
                     continue
                 for t in flat(value).tags:
-                    if t[0] in _INTERESTING or (t[0] == "q" and t[1] in cat.CONSTRUCTORS):
+                    if t[0] in _RESULT_TAGS or (t[0] == "q" and t[1] in cat.CONSTRUCTORS):
                         result = True
                         break
                     if t[0] == "func" and t[1] != func.key and self.fit_making(self.funcs[t[1]]):
@@ -1559,7 +1612,8 @@ _AUX_LABELS = {
     "serial": "auxiliary regression of residuals on their lag",
 }
 _ARITH_KEEP = frozenset({"part", "mpart", "measure", "timed", "outcome", "ssrsum"})
-_INTERESTING = frozenset({"fit", "model", "part", "mpart", "measure", "func"})
+_RESULT_TAGS = frozenset({"fit", "model", "part", "mpart", "measure"})
+_INTERESTING = _RESULT_TAGS | {"func"}  # a callback may make or check fits
 _NP_TRANSFORMS = {"log": "log", "log1p": "log1p", "log10": "log10", "log2": "log2", "sqrt": "sqrt", "exp": "exp",
                   "square": "square", "abs": "abs", "arcsinh": "asinh"}  # fmt: skip
 _WELL_KNOWN = frozenset(

@@ -24,6 +24,7 @@ class V:
     elem: "V | None" = None
     keys: "V | None" = None
     items: "tuple[V, ...] | None" = None
+    level: int = 0  # nesting depth of containers (0: no elements)
 
     def __bool__(self) -> bool:
         return bool(self.tags) or self.elem is not None or self.keys is not None or self.items is not None
@@ -38,11 +39,7 @@ class V:
         return any(t[0] == kind for t in self.tags)
 
     def depth(self) -> int:
-        d = 0
-        for child in (self.elem, self.keys):
-            if child is not None:
-                d = max(d, child.depth() + 1)
-        return d
+        return self.level
 
     def deep_tags(self) -> Iterator[tuple]:
         """Atomic tags here and in every element, key and position, recursively."""
@@ -53,7 +50,7 @@ class V:
         # items are already folded into elem
 
     def with_tags(self, extra: Iterable[tuple]) -> "V":
-        return V(_cap(self.tags | frozenset(extra)), self.elem, self.keys, self.items)
+        return V(_cap(self.tags | frozenset(extra)), self.elem, self.keys, self.items, self.level)
 
 
 EMPTY = V()
@@ -82,7 +79,7 @@ def join(a: "V | None", b: "V | None") -> V:
         items = tuple(join(x, y) for x, y in zip(a.items, b.items))
     elem = _join_opt(a.elem, b.elem)
     keys = _join_opt(a.keys, b.keys)
-    return _limit(V(_cap(a.tags | b.tags), elem, keys, items))
+    return _limit(V(_cap(a.tags | b.tags), elem, keys, items, _level(elem, keys)))
 
 
 def join_all(values: Iterable[V]) -> V:
@@ -100,8 +97,12 @@ def _join_opt(a: "V | None", b: "V | None") -> "V | None":
     return join(a, b)
 
 
+def _level(elem: "V | None", keys: "V | None") -> int:
+    return max(-1 if elem is None else elem.level, -1 if keys is None else keys.level) + 1
+
+
 def container(elem: V, keys: "V | None" = None, items: "tuple[V, ...] | None" = None) -> V:
-    return _limit(V(frozenset(), elem, keys, items))
+    return _limit(V(frozenset(), elem, keys, items, _level(elem, keys)))
 
 
 def sequence(values: tuple[V, ...]) -> V:
