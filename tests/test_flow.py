@@ -542,10 +542,7 @@ MODULE_CASES = [
 
         res = mod.fit_riders("riders ~ fare", crossings)  # expect: no-variance-test
         print(res.summary())
-    """, "main.py", (VAR,), id="from-pkg-import-mod", marks=pytest.mark.xfail(strict=True, reason=(
-        "analyser: engine.mentions_fits follows `from pkg import mod` only to pkg/__init__.py, never to "
-        "pkg/mod.py, so a script whose fits all come from pkg.mod is skipped unanalysed; the pre-check "
-        "should also try `pkg.<name>` for each imported name"))),
+    """, "main.py", (VAR,), id="from-pkg-import-mod"),
     pytest.param("""
         import statsmodels.api as sm
         from pkg import mod
@@ -702,9 +699,7 @@ ESCAPES = [
         reports = importlib.import_module("ferry_reports")
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         reports.publish(res)
-    """, VAR, FORM, xfail="a fit passed to a method of an opaque object is no escape (nor anything): the "
-                          "'dmethod' branch of Collector.call goes to Collector.data_method, which never calls "
-                          "escape_args on fit arguments"),
+    """, VAR, FORM),
 ]
 
 

@@ -23,7 +23,9 @@ from regvet.sources.notebook import CellMap, read_notebook
 from regvet.sources.python import SourceError, parse
 from regvet.sources.waivers import Waiver, find_waivers
 
-_IMPORT = re.compile(r"^[ \t]*(?:from[ \t]+(\.*[\w.]*)[ \t]+import|import[ \t]+([\w., \t]+))", re.MULTILINE)
+_IMPORT = re.compile(
+    r"^[ \t]*(?:from[ \t]+(\.*[\w.]*)[ \t]+import[ \t]+\(?([\w., \t]*)|import[ \t]+([\w., \t]+))", re.MULTILINE
+)
 _ENGINE_RULES = frozenset({"parse-error", "waiver-without-reason"})
 
 
@@ -52,24 +54,15 @@ def mentions_fits(text: str, path: str, provider: ModuleProvider) -> bool:
     if "import" not in text:
         return False
     seen: set[str] = set()
-    todo: list[tuple[str, str | None, int]] = []
-    for m in _IMPORT.finditer(text):
-        if m.group(1) is not None:
-            name = m.group(1)
-            level = len(name) - len(name.lstrip("."))
-            todo.append((name.lstrip("."), None, level))
-        else:
-            for part in m.group(2).split(","):
-                todo.append((part.strip().split(" ")[0], None, 0))
-    importer: str | None = None
-    depth = 0
-    while todo and depth < 200:
-        depth += 1
+    todo: list[tuple[str, str | None, int]] = list(_imported(text, None))
+    steps = 0
+    while todo and steps < 500:
+        steps += 1
         name, via, level = todo.pop()
         if not name and not level:
             continue
         try:
-            found = provider.find(name, level, via if via is not None else importer)
+            found = provider.find(name, level, via)
         except Exception:
             found = None
         if found is None or found.key in seen:
@@ -77,11 +70,26 @@ def mentions_fits(text: str, path: str, provider: ModuleProvider) -> bool:
         seen.add(found.key)
         if "statsmodels" in found.text:
             return True
-        for m in _IMPORT.finditer(found.text):
-            if m.group(1) is not None:
-                sub = m.group(1)
-                todo.append((sub.lstrip("."), found.path, len(sub) - len(sub.lstrip("."))))
+        todo.extend(_imported(found.text, found.path))
     return False
+
+
+def _imported(text: str, importer: str | None) -> list[tuple[str, str | None, int]]:
+    """(module, importer, level) for every import in ``text``, with ``from m import n`` also as ``m.n``."""
+    out: list[tuple[str, str | None, int]] = []
+    for m in _IMPORT.finditer(text):
+        if m.group(1) is not None:
+            module = m.group(1)
+            level = len(module) - len(module.lstrip("."))
+            module = module.lstrip(".")
+            out.append((module, importer, level))
+            for name in (n.strip().split(" ")[0] for n in m.group(2).split(",")):
+                if name and name != "*":
+                    out.append((f"{module}.{name}" if module else name, importer, level))
+        else:
+            for part in m.group(3).split(","):
+                out.append((part.strip().split(" ")[0], importer, 0))
+    return out
 
 
 def analyze(

@@ -1244,6 +1244,8 @@ class Collector:
 
     def data_method(self, data: tuple, name: str, args: list[V], kwargs: dict[str, V], node: ast.Call,
                     frame: _Frame, receiver: V | None) -> V:  # fmt: skip
+        # A results object handed to a method of some object regvet knows nothing of is out of sight.
+        self.escape_args(args, kwargs, _short(node.func), node, frame)
         out: set[tuple] = {("data", ("call", id(node)))}
         if receiver is not None:
             for t in receiver.tags:

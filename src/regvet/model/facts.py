@@ -62,18 +62,6 @@ class Fit:
     statement: Span | None  # the statement holding the fit call, in the analysed file
     model_span: Span | None = None  # the model constructor call, in the analysed file
 
-    @property
-    def robust(self) -> bool:
-        from regvet.analysis.catalog import ROBUST_COV
-
-        return self.cov_type is not None and self.cov_type in ROBUST_COV
-
-    @property
-    def hac(self) -> bool:
-        from regvet.analysis.catalog import HAC_COV
-
-        return self.cov_type is not None and self.cov_type in HAC_COV
-
 
 @dataclass(frozen=True)
 class Use:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import Iterator
 
+from regvet.analysis.catalog import HAC_COV
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import (
     Rule, RuleInput, describe_fit, escape_clause, fit_related, fix_data, use_related,
@@ -13,7 +14,7 @@ from regvet.rules.base import (
 def check(inp: RuleInput) -> Iterator[Finding]:
     for fit in inp.judged_fits():
         reason = fit.time_reason or ("`statsmodels.tsa` is in use in this file" if inp.facts.tsa_in_use else None)
-        if reason is None or fit.hac or fit.cov_type is None:
+        if reason is None or fit.cov_type is None or fit.cov_type in HAC_COV:
             continue
         uses = inp.uses(fit.id, ("inference", "robust"))
         escapes = inp.escapes(fit.id)

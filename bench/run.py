@@ -1,0 +1,97 @@
+"""Benchmarks for regvet, run by ``make bench``. Results go to ``bench/results/latest.json``.
+
+scan-statsmodels: a full ``regvet check`` of the installed statsmodels package (sources and
+tests, with project-module resolution as in a real scan) against a bare ``ast.parse`` of the
+same files in the same run, so the ratio says what regvet's analysis costs on top of reading.
+Each is the median of several repetitions.
+"""
+
+from __future__ import annotations
+
+import ast
+import io
+import json
+import platform
+import statistics
+import sys
+import time
+import warnings
+from contextlib import redirect_stdout
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+RESULTS = HERE / "results"
+
+
+def _files(root: Path) -> list[Path]:
+    return sorted(p for p in root.rglob("*.py"))
+
+
+def bare_parse(files: list[Path]) -> float:
+    start = time.perf_counter()
+    for f in files:
+        try:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore")
+                ast.parse(f.read_bytes(), filename=str(f))
+        except SyntaxError:
+            pass
+    return time.perf_counter() - start
+
+
+def regvet_scan(root: Path) -> tuple[float, int, int]:
+    from regvet.cli import main
+
+    buf = io.StringIO()
+    start = time.perf_counter()
+    with redirect_stdout(buf):
+        code = main(["check", str(root), "--format", "json", "--no-config"])
+    elapsed = time.perf_counter() - start
+    findings = json.loads(buf.getvalue())["findings"]
+    return elapsed, code, len(findings)
+
+
+def bench_scan(repeats: int = 3) -> dict:
+    import statsmodels
+
+    root = Path(statsmodels.__file__).parent
+    files = _files(root)
+    lines = sum(f.read_bytes().count(b"\n") for f in files)
+    parse_times, scan_times = [], []
+    findings = 0
+    for _ in range(repeats):
+        parse_times.append(bare_parse(files))
+        elapsed, code, findings = regvet_scan(root)
+        assert code in (0, 1), f"regvet exited {code}"
+        scan_times.append(elapsed)
+    parse_s, scan_s = statistics.median(parse_times), statistics.median(scan_times)
+    return {
+        "target": f"statsmodels {statsmodels.__version__} ({len(files)} files, {lines} lines)",
+        "ast_parse_s": round(parse_s, 3),
+        "regvet_check_s": round(scan_s, 3),
+        "ratio": round(scan_s / parse_s, 2),
+        "findings": findings,
+        "repeats": repeats,
+    }
+
+
+def main() -> int:
+    RESULTS.mkdir(exist_ok=True)
+    result = {
+        "python": platform.python_version(),
+        "machine": f"{platform.machine()}, {platform.system()}",
+        "date": time.strftime("%Y-%m-%d"),
+        "scan_statsmodels": bench_scan(),
+    }
+    out = RESULTS / "latest.json"
+    tmp = out.with_suffix(".json.tmp")
+    tmp.write_text(json.dumps(result, indent=2) + "\n")
+    tmp.replace(out)
+    s = result["scan_statsmodels"]
+    print(f"scan of {s['target']}: regvet check {s['regvet_check_s']} s, bare ast.parse {s['ast_parse_s']} s, "
+          f"ratio {s['ratio']}x ({s['findings']} findings); written to {out.relative_to(HERE.parent)}")  # fmt: skip
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

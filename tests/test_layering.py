@@ -1,0 +1,73 @@
+"""The architecture, enforced: which regvet packages may import what (read with ``ast``, nothing imported).
+
+model <- sources <- analysis <- rules <- engine <- fronts (cli, project, output).
+The static core never imports numpy, pandas, scipy, statsmodels, libcst or pygls.
+"""
+
+from __future__ import annotations
+
+import ast
+import sys
+from pathlib import Path
+
+import pytest
+
+SRC = Path(__file__).resolve().parents[1] / "src" / "regvet"
+HEAVY = {"numpy", "pandas", "scipy", "statsmodels", "libcst", "pygls", "lsprotocol", "matplotlib"}
+#: For each layer, the regvet layers it may import.
+ALLOWED = {
+    "model": {"model"},
+    "sources": {"model", "sources"},
+    "analysis": {"model", "sources", "analysis"},
+    "rules": {"model", "sources", "analysis", "rules"},
+    "engine": {"model", "sources", "analysis", "rules", "engine"},
+    "config": {"model", "rules", "config"},
+    "output": {"model", "rules", "engine", "output", "__init__"},
+    "project": {"model", "sources", "analysis", "project"},
+    "cli": {"model", "sources", "analysis", "rules", "engine", "config", "output", "project", "cli", "__init__"},
+}
+
+
+def _layer(path: Path) -> str:
+    rel = path.relative_to(SRC)
+    return rel.parts[0] if len(rel.parts) > 1 else rel.stem
+
+
+def _imports(path: Path) -> set[str]:
+    tree = ast.parse(path.read_text(), filename=str(path))
+    out: set[str] = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Import):
+            out.update(a.name for a in node.names)
+        elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            out.add(node.module)
+            out.update(f"{node.module}.{a.name}" for a in node.names)
+    return out
+
+
+MODULES = sorted(p for p in SRC.rglob("*.py") if _layer(p) in ALLOWED)
+
+
+@pytest.mark.parametrize("path", MODULES, ids=lambda p: str(p.relative_to(SRC)))
+def test_module_respects_the_layers(path):
+    layer = _layer(path)
+    for name in _imports(path):
+        top = name.split(".")[0]
+        assert top not in HEAVY, f"{path.name} imports {name}"
+        if top == "regvet" and name != "regvet":
+            target = name.split(".")[1]
+            target = target if (SRC / target).is_dir() or (SRC / f"{target}.py").exists() else "__init__"
+            assert target in ALLOWED[layer], f"{layer} may not import regvet.{target} ({path.name})"
+
+
+def test_every_module_is_in_a_known_layer():
+    known = {_layer(p) for p in SRC.rglob("*.py")}
+    assert known <= set(ALLOWED) | {"__init__", "__main__"}, known - set(ALLOWED)
+
+
+def test_importing_the_cli_loads_no_heavy_package():
+    import subprocess
+
+    code = "import sys, regvet.cli; print(sorted(m for m in sys.modules if m.split('.')[0] in %r))" % sorted(HEAVY)
+    proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert proc.stdout.strip() == "[]"
