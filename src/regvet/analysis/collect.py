@@ -24,7 +24,9 @@ from typing import Callable, Iterable, Protocol
 
 from regvet.analysis import catalog as cat
 from regvet.analysis.formula import Formula, outcome_of_expr, parse_formula
-from regvet.analysis.values import EMPTY, V, container, elements, flat, join, join_all, sequence, tags
+from regvet.analysis.values import (
+    EMPTY, V, container, dict_value, elements, flat, iterate, join, join_all, mapping, positions, sequence, tags,
+)  # fmt: skip
 from regvet.model.facts import (
     Check,
     Comparison,
@@ -41,6 +43,8 @@ from regvet.model.span import Span
 
 MAX_CALL_DEPTH = 6
 MAX_VARIANTS = 24  # distinct formula literals one constructor call may stand for
+MAX_UNROLL = 12  # loops over literal sequences this short run once per element
+MAX_UNROLL_NESTING = 2
 _IDENT = re.compile(r"[A-Za-z_]\w*")
 
 
@@ -135,6 +139,7 @@ class _FitB:
     result_name: str | None
     statement: Span | None
     via: list[Loc] = field(default_factory=list)
+    repeated: bool = False  # made in a loop that was not unrolled: one abstract fit for many
 
 
 _BUILTIN_NAMES = frozenset(dir(builtins))
@@ -184,6 +189,8 @@ class Collector:
         self.group_tests: dict[GroupTest, None] = {}
         self.tsa_in_use = False
         self.call_stack: list[int] = []
+        self.unroll: list[tuple[int, int]] = []  # (loop node, step) of the loops being unrolled
+        self.repeating = 0  # inside a loop or comprehension that is not unrolled
         self.inline_memo: dict[tuple, V] = {}
         self.fit_making_memo: dict[int, bool] = {}
         self.stmt: ast.stmt | None = None
@@ -285,7 +292,21 @@ class Collector:
             self.branches([stmt.body, stmt.orelse], frame)
         elif isinstance(stmt, (ast.For, ast.AsyncFor)):
             iterable = self.ev(stmt.iter, frame)
-            self.loop(stmt.body, frame, lambda: self.bind(stmt.target, elements(iterable), frame))
+            steps = self._unrollable(iterable)
+            if steps is not None:
+                for i, item in enumerate(steps):  # one pass per element: keeps pairs of fits apart
+                    self.unroll.append((id(stmt), i))
+                    try:
+                        self.bind(stmt.target, item, frame)
+                        self.exec_block(stmt.body, frame)
+                    finally:
+                        self.unroll.pop()
+            else:
+                self.repeating += 1  # a fit made here stands for one fit per step
+                try:
+                    self.loop(stmt.body, frame, lambda: self.bind(stmt.target, iterate(iterable), frame))
+                finally:
+                    self.repeating -= 1
             self.exec_block(stmt.orelse, frame)
         elif isinstance(stmt, ast.While):
             self.loop(stmt.body, frame, lambda: self.ev(stmt.test, frame))
@@ -333,6 +354,12 @@ class Collector:
                 merged[name] = join(merged.get(name), value)
         frame.locals.clear()
         frame.locals.update(merged)
+
+    def _unrollable(self, iterable: V) -> tuple[V, ...] | None:
+        steps = positions(iterable)
+        if steps is None or not 1 <= len(steps) <= MAX_UNROLL or len(self.unroll) >= MAX_UNROLL_NESTING:
+            return None
+        return steps
 
     def loop(self, body: list[ast.stmt], frame: _Frame, head: Callable[[], object]) -> None:
         before = dict(frame.locals)
@@ -400,7 +427,7 @@ class Collector:
                 for e, v in zip(elts, value.items):
                     self.bind(e, v, frame)
             else:
-                each = elements(value) if value.elem is not None else EMPTY
+                each = iterate(value) if (value.elem is not None or value.keys is not None) else EMPTY
                 for e in elts:
                     if isinstance(e, ast.Starred):
                         self.bind(e.value, container(each), frame)
@@ -424,6 +451,13 @@ class Collector:
             index = self.ev(target.slice, frame)
             base = target.value
             if isinstance(base, ast.Name):
+                current = self.lookup(base.id, frame)
+                key_lits = [t[1] for t in index.of("lit")]
+                if current.keys is not None and current.items is not None and len(key_lits) == 1 and len(index.tags) == 1:
+                    pairs = [(p.items[0], p.items[1]) for p in current.items if p.items and len(p.items) == 2]
+                    pairs = [(k, v) for k, v in pairs if k.tags != index.tags] + [(index, value)]
+                    self.set(frame, base.id, mapping(pairs))
+                    return
                 extra: set[tuple] = set(value.of("timed"))
                 for lit in index.of("lit"):
                     if isinstance(lit[1], str):
@@ -751,10 +785,14 @@ class Collector:
         base = self.ev(node.value, frame)
         index = self.ev(node.slice, frame)
         out = EMPTY
-        if base.items is not None:
-            lits = [t[1] for t in index.of("lit") if isinstance(t[1], int)]
-            if len(lits) == 1 and -len(base.items) <= lits[0] < len(base.items):
-                out = base.items[lits[0]]
+        lits = [t[1] for t in index.of("lit")]
+        if base.keys is not None:  # a dict
+            found = dict_value(base, lits[0]) if len(lits) == 1 and len(index.tags) == 1 else None
+            out = found if found is not None else elements(base)
+        elif base.items is not None:
+            ints = [n for n in lits if isinstance(n, int)]
+            if len(ints) == 1 and -len(base.items) <= ints[0] < len(base.items):
+                out = base.items[ints[0]]
             else:
                 out = elements(base)
         elif base.elem is not None:
@@ -809,29 +847,52 @@ class Collector:
         return container(join_all(self.ev(e, frame) for e in node.elts))
 
     def ev_Dict(self, node: ast.Dict, frame: _Frame) -> V:
-        keys = EMPTY
-        vals = EMPTY
+        pairs: list[tuple[V, V]] = []
+        splat = EMPTY
         for k, v in zip(node.keys, node.values):
             value = self.ev(v, frame)
-            if k is None:  # **splat
-                keys = join(keys, value.keys)
-                vals = join(vals, elements(value))
+            if k is None:  # **splat: its pairs are not known one by one
+                splat = join(splat, value)
             else:
-                keys = join(keys, self.ev(k, frame))
-                vals = join(vals, value)
-        return container(vals, keys)
+                pairs.append((self.ev(k, frame), value))
+        literal_keys = all(len(k.tags) == 1 and k.has("lit") and not k.elem for k, _ in pairs)
+        if not splat and literal_keys:
+            return mapping(pairs)
+        keys = join(join_all(k for k, _ in pairs), splat.keys)
+        vals = join(join_all(v for _, v in pairs), elements(splat))
+        return container(vals, keys if keys else EMPTY)
 
-    def _comprehension(self, generators: list[ast.comprehension], frame: _Frame, body: Callable[[_Frame], V]) -> V:
+    def _comprehension(
+        self, node: ast.expr, generators: list[ast.comprehension], frame: _Frame, body: Callable[[_Frame], V]
+    ) -> tuple[V, tuple[V, ...] | None]:
+        """The join of what ``body`` gives, and one value per element when the loop could be unrolled."""
         inner = _Frame(frame.module, {}, frame, frame.ctx, frame.func, cls_attrs=frame.cls_attrs)
-        for gen in generators:
-            it = self.ev(gen.iter, inner)
-            self.bind(gen.target, elements(it), inner)
-            for cond in gen.ifs:
-                self.ev(cond, inner)
-        return body(inner)
+        first = self.ev(generators[0].iter, frame)
+        steps = self._unrollable(first) if len(generators) == 1 and not generators[0].ifs else None
+        if steps is not None:
+            results = []
+            for i, item in enumerate(steps):
+                self.unroll.append((id(node), i))
+                try:
+                    self.bind(generators[0].target, item, inner)
+                    results.append(body(inner))
+                finally:
+                    self.unroll.pop()
+            return join_all(results), tuple(results)
+        self.repeating += 1
+        try:
+            for n, gen in enumerate(generators):
+                it = first if n == 0 else self.ev(gen.iter, inner)
+                self.bind(gen.target, iterate(it), inner)
+                for cond in gen.ifs:
+                    self.ev(cond, inner)
+            return body(inner), None
+        finally:
+            self.repeating -= 1
 
     def ev_ListComp(self, node: ast.ListComp | ast.SetComp | ast.GeneratorExp, frame: _Frame) -> V:
-        return container(self._comprehension(node.generators, frame, lambda f: self.ev(node.elt, f)))
+        joined, each = self._comprehension(node, node.generators, frame, lambda f: self.ev(node.elt, f))
+        return container(joined, None, each)
 
     ev_SetComp = ev_ListComp
     ev_GeneratorExp = ev_ListComp
@@ -843,8 +904,8 @@ class Collector:
             pair.append(self.ev(node.key, f))
             return self.ev(node.value, f)
 
-        vals = self._comprehension(node.generators, frame, body)
-        return container(vals, pair[0] if pair else EMPTY)
+        vals, _ = self._comprehension(node, node.generators, frame, body)
+        return container(vals, join_all(pair) if pair else EMPTY)
 
     def ev_NamedExpr(self, node: ast.NamedExpr, frame: _Frame) -> V:
         value = self.ev(node.value, frame)
@@ -1186,60 +1247,74 @@ class Collector:
         if name in _CONTAINER_CALLS:
             if name == "sorted" and "key" in kwargs:
                 self._keyed(first, kwargs["key"], node, frame, "sorted")
-            return container(elements(first), first.keys) if args else container(EMPTY)
+            if not args:
+                return container(EMPTY)
+            steps = positions(first) if name in ("list", "tuple", "iter") else None
+            return container(iterate(first), None, steps)
         if name in ("max", "min"):
+            pool_v = first if len(args) == 1 else sequence(tuple(args))
             if "key" in kwargs:
-                self._keyed(first if len(args) == 1 else container(join_all(args)), kwargs["key"], node, frame, name)
-                return elements(first) if len(args) == 1 else join_all(args)
-            pool = elements(first) if len(args) == 1 else join_all(args)
+                self._keyed(pool_v, kwargs["key"], node, frame, name)
+                return iterate(pool_v)
+            pool = iterate(pool_v)
             self._comparison([_measures(pool)], node, frame, name)
             return pool
         if name == "sum":
-            pool = flat(elements(first))
+            pool = flat(iterate(first))
             fits_ssr = {t[1] for t in pool.of("measure") if t[2] == "ssr"}
-            if len(fits_ssr) >= 2:
+            if len(fits_ssr) >= 2 or any(self.fits[f].repeated for f in fits_ssr if f in self.fits):
                 return tags(("ssrsum", frozenset(fits_ssr)))
             return V(frozenset(t for t in pool.tags if t[0] in _ARITH_KEEP))
         if name == "zip":
-            return container(sequence(tuple(elements(a) for a in args)))
+            steps_each = [positions(a) for a in args]
+            items = None
+            if args and all(st is not None for st in steps_each) and len({len(st) for st in steps_each}) == 1:
+                items = tuple(sequence(group) for group in zip(*steps_each))  # type: ignore[misc]
+            return container(sequence(tuple(iterate(a) for a in args)), None, items)
         if name == "enumerate":
-            return container(sequence((EMPTY, elements(first))))
+            steps = positions(first)
+            items = tuple(sequence((tags(("lit", i)), v)) for i, v in enumerate(steps)) if steps else None
+            return container(sequence((EMPTY, iterate(first))), None, items)
         if name == "dict":
             if args:
-                pairs = elements(first)
+                pairs = iterate(first)
                 if pairs.items is not None and len(pairs.items) == 2:
                     return container(join(pairs.items[1], join_all(kwargs.values())), pairs.items[0])
-                return container(join(elements(first), join_all(kwargs.values())), first.keys)
-            return container(join_all(kwargs.values()))
+                return container(join(elements(first), join_all(kwargs.values())), first.keys or EMPTY)
+            return mapping([(tags(("lit", k)), v) for k, v in kwargs.items() if k != "**"])
         if name == "next":
-            return elements(first)
+            return iterate(first)
         if name in ("map", "filter") and len(args) >= 2:
             if name == "filter":
-                return container(elements(args[1]))
-            result = self.call(args[0], [elements(a) for a in args[1:]], {}, node, frame, None)
+                return container(iterate(args[1]))
+            result = self.call(args[0], [iterate(a) for a in args[1:]], {}, node, frame, None)
             return container(result)
         if name == "getattr" and len(args) >= 2:
             names = [t[1] for t in args[1].of("lit") if isinstance(t[1], str)]
             return join_all(self.attr(first, n, node, frame) for n in names)
-        if name in cat.HARMLESS_BUILTINS:
-            return tags(("data", ("call", id(node))))
         return tags(("data", ("call", id(node))))
 
     def _keyed(self, pool: V, key: V, node: ast.Call, frame: _Frame, how: str) -> None:
-        picked = self.call(key, [elements(pool)], {}, node, frame, None)
+        picked = self.call(key, [iterate(pool)], {}, node, frame, None)
         self._comparison([_measures(picked)], node, frame, how)
 
     def container_call(self, method: str, base: V, args: list[V]) -> V:
         keys = base.keys if base.keys is not None else EMPTY
         vals = elements(base)
+        pairs = base.items if base.keys is not None else None
         if method == "items":
-            return container(sequence((keys, vals)))
+            return container(sequence((keys, vals)), None, pairs)
         if method == "values":
-            return container(vals)
+            return container(vals, None, tuple(p.items[1] for p in pairs if p.items) if pairs else None)
         if method == "keys":
-            return container(keys)
+            return container(keys, None, tuple(p.items[0] for p in pairs if p.items) if pairs else None)
         if method == "copy":
             return base
+        if method in ("get", "pop") and args:
+            lits = [t[1] for t in args[0].of("lit")]
+            found = dict_value(base, lits[0]) if len(lits) == 1 else None
+            if found is not None:
+                return found
         return vals  # get, pop, setdefault
 
     def data_method(self, data: tuple, name: str, args: list[V], kwargs: dict[str, V], node: ast.Call,
@@ -1275,7 +1350,7 @@ class Collector:
         if not self.interesting(func, args, kwargs):
             return tags(("data", ("call", id(node))))
         site = self.loc(node, frame)
-        memo_key = (func.key, id(node), frame.ctx, tuple(args), tuple(sorted(kwargs.items(), key=lambda kv: kv[0])))
+        memo_key = (func.key, id(node), frame.ctx, tuple(self.unroll), tuple(args), tuple(sorted(kwargs.items(), key=lambda kv: kv[0])))
         if memo_key in self.inline_memo:
             return self.inline_memo[memo_key]
         func.analyzed = True
@@ -1408,7 +1483,7 @@ class Collector:
             data_name = None
         out: set[tuple] = set()
         for variant in variants:
-            memo = (id(node), variant, frame.ctx)
+            memo = (id(node), variant, frame.ctx, tuple(self.unroll))
             mid = self.model_memo.get(memo)
             if mid is None:
                 mid = self._new_model(q, ctor, variant, data_values, data_name, loc, frame)
@@ -1514,7 +1589,7 @@ class Collector:
     def make_fits(self, mid: int, kwargs: dict[str, V], node: ast.Call, frame: _Frame) -> V:
         model = self.models[mid]
         cov = _cov_literal(kwargs.get("cov_type"))
-        memo = (id(node), mid, frame.ctx)
+        memo = (id(node), mid, frame.ctx, tuple(self.unroll))
         fid = self.fit_memo.get(memo)
         if fid is None:
             fid = self._new_fit(model, self.loc(node, frame), frame, cov, None)
@@ -1526,7 +1601,7 @@ class Collector:
         statement = None
         if self.stmt is not None and self.stmt_module is not None and self.stmt_module.path is None:
             statement = self.span(self.stmt, self.stmt_module)
-        self.fits[fid] = _FitB(fid, model, loc, frame.ctx, cov, parent, None, statement)
+        self.fits[fid] = _FitB(fid, model, loc, frame.ctx, cov, parent, None, statement, repeated=self.repeating > 0)
         self.model_fits.setdefault(model.id, []).append(fid)
         return fid
 
@@ -1534,7 +1609,7 @@ class Collector:
                    frame: _Frame) -> V:  # fmt: skip
         if name == "get_robustcov_results":
             cov = _cov_literal(kwargs.get("cov_type", args[0] if args else None)) if (args or "cov_type" in kwargs) else "hc1"
-            memo = (id(node), fid, frame.ctx)
+            memo = (id(node), fid, frame.ctx, tuple(self.unroll))
             child = self.fit_memo.get(memo)
             if child is None:
                 child = self._new_fit(self.fits[fid].model, self.loc(node, frame), frame, cov, fid)

@@ -117,8 +117,45 @@ def _limit(v: V) -> V:
 
 
 def elements(v: V) -> V:
-    """What iterating over ``v`` yields."""
+    """The value of any element of ``v`` (for a dict: any value)."""
     return v.elem if v.elem is not None else EMPTY
+
+
+def is_dict(v: V) -> bool:
+    return v.keys is not None
+
+
+def iterate(v: V) -> V:
+    """What iterating over ``v`` yields: a dict's keys, any other container's elements."""
+    if v.keys is not None:
+        return v.keys
+    return elements(v)
+
+
+def positions(v: V) -> "tuple[V, ...] | None":
+    """What iterating over ``v`` yields, one value per step, when the structure is known."""
+    if v.items is None:
+        return None
+    if v.keys is not None:  # a dict with literal keys: items are its (key, value) pairs
+        return tuple(p.items[0] if p.items else EMPTY for p in v.items)
+    return v.items
+
+
+def dict_value(v: V, key: object) -> "V | None":
+    """The value stored under literal ``key`` in a dict with known pairs, or None."""
+    if v.keys is None or v.items is None:
+        return None
+    for pair in v.items:
+        if pair.items and len(pair.items) == 2 and pair.items[0].tags == frozenset({("lit", key)}):
+            return pair.items[1]
+    return None
+
+
+def mapping(pairs: "list[tuple[V, V]]") -> V:
+    """A dict literal with known (key, value) pairs."""
+    keys = join_all(k for k, _ in pairs)
+    vals = join_all(v for _, v in pairs)
+    return container(vals, keys, tuple(sequence((k, v)) for k, v in pairs))
 
 
 def flat(v: V) -> V:
