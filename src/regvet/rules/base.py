@@ -141,3 +141,13 @@ def fix_data(fit: Fit) -> dict | None:
     if fit.result_name:
         data["result"] = fit.result_name
     return data
+
+
+def missing_check(rule: Rule, fit: Fit, message: str, uses: list[Use], escapes: list[Escape]) -> Finding:
+    """The finding of a check missing on a fit: placed on the fit, related to its uses, with fix data."""
+    return rule.finding(
+        fit.site.span,
+        message + escape_clause(escapes),
+        [*fit_related(fit), *use_related(uses)],
+        fix_data(fit),
+    )

@@ -5,9 +5,7 @@ from __future__ import annotations
 from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import (
-    Rule, RuleInput, describe_fit, escape_clause, fit_related, fix_data, use_related,
-)  # fmt: skip
+from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -26,14 +24,15 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         seen_roots.add(root)
         target = inp.facts.fit(root) if inp.facts.fit(root).site.path is None else fit
         used = f" (first at {inp.where(uses[0].loc)}, `{uses[0].member}`)" if uses else ""
-        yield RULE.finding(
-            target.site.span,
+        yield missing_check(
+            RULE,
+            target,
             f"{describe_fit(target)} has its estimates used{used} but no functional-form test was run on it. "
             "The coefficients assume the model is linear in these regressors with no missing powers or "
             "interactions; run a RESET test (`linear_reset(res, power=3, use_f=True)`) and revisit the "
-            "specification if it rejects." + escape_clause(escapes),
-            [*fit_related(target), *use_related(uses)],
-            fix_data(target),
+            "specification if it rejects.",
+            uses,
+            escapes,
         )
 
 

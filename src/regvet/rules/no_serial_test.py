@@ -6,9 +6,7 @@ from typing import Iterator
 
 from regvet.analysis.catalog import HAC_COV
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import (
-    Rule, RuleInput, describe_fit, escape_clause, fit_related, fix_data, use_related,
-)  # fmt: skip
+from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -22,14 +20,15 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             continue
         if inp.checks(fit.id, "serial"):
             continue
-        yield RULE.finding(
-            fit.site.span,
+        yield missing_check(
+            RULE,
+            fit,
             f"{describe_fit(fit)} is fitted on time-ordered data ({reason}) and its inference is used, but "
             "neither a serial-correlation test nor HAC covariance was applied. Its standard errors assume "
             "uncorrelated errors; run `acorr_breusch_godfrey(res, nlags=...)` or fit with "
-            '`cov_type="HAC", cov_kwds={"maxlags": ...}`.' + escape_clause(escapes),
-            [*fit_related(fit), *use_related(uses)],
-            fix_data(fit),
+            '`cov_type="HAC", cov_kwds={"maxlags": ...}`.',
+            uses,
+            escapes,
         )
 
 

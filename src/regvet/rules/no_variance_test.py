@@ -5,9 +5,7 @@ from __future__ import annotations
 from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import (
-    Rule, RuleInput, describe_fit, escape_clause, fit_related, fix_data, use_related,
-)  # fmt: skip
+from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -21,14 +19,15 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if inp.checks(fit.id, "variance"):
             continue
         used = f" (`{uses[0].member}`, {inp.where(uses[0].loc)})" if uses else ""
-        yield RULE.finding(
-            fit.site.span,
+        yield missing_check(
+            RULE,
+            fit,
             f"{describe_fit(fit)} reports inference{used} with the default non-robust covariance, and no "
             "heteroskedasticity test was applied to it. Those standard errors assume constant error "
             "variance; test it (`het_breuschpagan(res.resid, res.model.exog)`) or fit with robust "
-            'standard errors (`.fit(cov_type="HC3")`).' + escape_clause(escapes),
-            [*fit_related(fit), *use_related(uses)],
-            fix_data(fit),
+            'standard errors (`.fit(cov_type="HC3")`).',
+            uses,
+            escapes,
         )
 
 
