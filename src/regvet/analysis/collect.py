@@ -193,6 +193,7 @@ class Collector:
         self.repeating = 0  # inside a loop or comprehension that is not unrolled
         self.inline_memo: dict[tuple, V] = {}
         self.fit_making_memo: dict[int, bool] = {}
+        self.touched_memo: dict[int, frozenset[str]] = {}
         self.stmt: ast.stmt | None = None
         self.stmt_module: _Module | None = None
         self._ids = 0
@@ -289,7 +290,7 @@ class Collector:
                 frame.returns = join(frame.returns, self.ev(stmt.value, frame))
         elif isinstance(stmt, ast.If):
             self.ev(stmt.test, frame)
-            self.branches([stmt.body, stmt.orelse], frame)
+            self.branches(stmt, [stmt.body, stmt.orelse], frame)
         elif isinstance(stmt, (ast.For, ast.AsyncFor)):
             iterable = self.ev(stmt.iter, frame)
             steps = self._unrollable(iterable)
@@ -304,12 +305,12 @@ class Collector:
             else:
                 self.repeating += 1  # a fit made here stands for one fit per step
                 try:
-                    self.loop(stmt.body, frame, lambda: self.bind(stmt.target, iterate(iterable), frame))
+                    self.loop(stmt, stmt.body, frame, lambda: self.bind(stmt.target, iterate(iterable), frame))
                 finally:
                     self.repeating -= 1
             self.exec_block(stmt.orelse, frame)
         elif isinstance(stmt, ast.While):
-            self.loop(stmt.body, frame, lambda: self.ev(stmt.test, frame))
+            self.loop(stmt, stmt.body, frame, lambda: self.ev(stmt.test, frame))
             self.exec_block(stmt.orelse, frame)
         elif isinstance(stmt, (ast.With, ast.AsyncWith)):
             for item in stmt.items:
@@ -327,7 +328,7 @@ class Collector:
             self.exec_block(stmt.finalbody, frame)  # type: ignore[attr-defined]
         elif type(stmt).__name__ == "Match":
             self.ev(stmt.subject, frame)  # type: ignore[attr-defined]
-            self.branches([c.body for c in stmt.cases], frame, exhaustive=False)  # type: ignore[attr-defined]
+            self.branches(stmt, [c.body for c in stmt.cases], frame, exhaustive=False)  # type: ignore[attr-defined]
         elif isinstance(stmt, (ast.Global, ast.Nonlocal)):
             frame.declared_global.update(stmt.names)
         elif isinstance(stmt, ast.Delete):
@@ -339,21 +340,53 @@ class Collector:
                 if isinstance(child, ast.expr):
                     self.ev(child, frame)
 
-    def branches(self, bodies: list[list[ast.stmt]], frame: _Frame, exhaustive: bool = True) -> None:
+    def touched(self, stmt: ast.stmt) -> frozenset[str]:
+        """Every name (and dotted attribute path) a compound statement mentions: all it can rebind.
+
+        Branches and loops save and join only these, instead of copying the whole environment
+        (module-level scripts have thousands of names). Callees that change globals are joined
+        with a little less precision, never lost.
+        """
+        cached = self.touched_memo.get(id(stmt))
+        if cached is not None:
+            return cached
+        names: set[str] = set()
+        for node in ast.walk(stmt):
+            if isinstance(node, ast.Name):
+                names.add(node.id)
+            elif isinstance(node, ast.Attribute):
+                key = _dotted(node)
+                if key is not None:
+                    names.add(key)
+            elif isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
+                names.add(node.name)
+            elif isinstance(node, (ast.Import, ast.ImportFrom)):
+                names.update((a.asname or a.name).split(".")[0] for a in node.names)
+            elif isinstance(node, ast.ExceptHandler) and node.name:
+                names.add(node.name)
+        result = frozenset(names)
+        self.touched_memo[id(stmt)] = result
+        return result
+
+    def branches(self, stmt: ast.stmt, bodies: list[list[ast.stmt]], frame: _Frame, exhaustive: bool = True) -> None:
         """Run each body from the same starting values and join what they leave behind."""
-        before = dict(frame.locals)
+        env = frame.locals
+        names = self.touched(stmt)
+        before = {n: env[n] for n in names if n in env}
         results = [] if exhaustive else [before]
         for body in bodies:
-            frame.locals.clear()
-            frame.locals.update(before)
+            for n in names:
+                if n in before:
+                    env[n] = before[n]
+                else:
+                    env.pop(n, None)
             self.exec_block(body, frame)
-            results.append(dict(frame.locals))
+            results.append({n: env[n] for n in names if n in env})
         merged: dict[str, V] = {}
-        for env in results:
-            for name, value in env.items():
+        for result in results:
+            for name, value in result.items():
                 merged[name] = join(merged.get(name), value)
-        frame.locals.clear()
-        frame.locals.update(merged)
+        env.update(merged)
 
     def _unrollable(self, iterable: V) -> tuple[V, ...] | None:
         steps = positions(iterable)
@@ -361,16 +394,18 @@ class Collector:
             return None
         return steps
 
-    def loop(self, body: list[ast.stmt], frame: _Frame, head: Callable[[], object]) -> None:
-        before = dict(frame.locals)
+    def loop(self, stmt: ast.stmt, body: list[ast.stmt], frame: _Frame, head: Callable[[], object]) -> None:
+        env = frame.locals
+        names = self.touched(stmt)
+        before = {n: env[n] for n in names if n in env}
         for _ in range(2):
-            start = dict(frame.locals)
+            start = {n: env.get(n) for n in names}
             head()
             self.exec_block(body, frame)
-            if all(frame.locals.get(k) == v for k, v in start.items()) and len(frame.locals) == len(start):
+            if all(env.get(n) == v for n, v in start.items()):
                 break
         for name, value in before.items():  # the loop may run zero times
-            frame.locals[name] = join(frame.locals.get(name), value)
+            env[name] = join(env.get(name), value)
 
     # --- names ---------------------------------------------------------------------------------
     def lookup(self, name: str, frame: _Frame) -> V:

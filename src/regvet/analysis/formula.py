@@ -11,6 +11,7 @@ from __future__ import annotations
 import ast
 import re
 from dataclasses import dataclass
+from functools import lru_cache
 from itertools import product
 
 from regvet.model.facts import Outcome
@@ -241,6 +242,7 @@ def _identifiers(text: str) -> set[str]:
     return out
 
 
+@lru_cache(maxsize=4096)
 def parse_formula(text: str) -> Formula | None:
     """Read ``text`` as a model formula, or return None when it is not one regvet can read."""
     if text.count("~") != 1:

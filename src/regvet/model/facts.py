@@ -119,25 +119,40 @@ class FileFacts:
     mismatches: tuple[Mismatch, ...] = ()
     group_tests: tuple[GroupTest, ...] = ()
     tsa_in_use: bool = False
-    _by_id: dict[int, Fit] = field(default_factory=dict, compare=False, repr=False)
+    _index: dict = field(default_factory=dict, compare=False, repr=False)
+
+    def _build(self) -> dict:
+        if not self._index:
+            by_id = {f.id: f for f in self.fits}
+            roots: dict[int, int] = {}
+            for f in self.fits:
+                fid, seen = f.id, set()
+                while fid not in seen and by_id[fid].parent is not None and by_id[fid].parent in by_id:
+                    seen.add(fid)
+                    fid = by_id[fid].parent  # type: ignore[assignment]
+                roots[f.id] = fid
+            families: dict[int, set[int]] = {}
+            for fid, root in roots.items():
+                families.setdefault(root, set()).add(fid)
+            by_fit: dict[str, dict[int, list]] = {"uses": {}, "checks": {}, "escapes": {}}
+            for name in by_fit:
+                for event in getattr(self, name):
+                    by_fit[name].setdefault(event.fit, []).append(event)
+            self._index.update(by_id=by_id, roots=roots, families=families, **by_fit)
+        return self._index
 
     def fit(self, fid: int) -> Fit:
-        if not self._by_id:
-            self._by_id.update({f.id: f for f in self.fits})
-        return self._by_id[fid]
+        return self._build()["by_id"][fid]
 
     def root(self, fid: int) -> int:
         """The fit a robust-covariance copy was derived from (itself otherwise)."""
-        seen = set()
-        while fid not in seen:
-            seen.add(fid)
-            parent = self.fit(fid).parent
-            if parent is None:
-                return fid
-            fid = parent
-        return fid
+        return self._build()["roots"].get(fid, fid)
 
     def family_of(self, fid: int) -> set[int]:
         """All fits sharing ``fid``'s residuals: itself, its root and every copy derived from the root."""
-        root = self.root(fid)
-        return {f.id for f in self.fits if self.root(f.id) == root}
+        index = self._build()
+        return set(index["families"].get(self.root(fid), {fid}))
+
+    def events_of(self, kind: str, fid: int) -> list:
+        """``uses``, ``checks`` or ``escapes`` recorded for one fit."""
+        return self._build()[kind].get(fid, [])

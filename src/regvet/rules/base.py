@@ -51,19 +51,18 @@ class RuleInput:
     def uses(self, fid: int, kinds: Iterable[str]) -> list[Use]:
         wanted = set(kinds)
         return sorted(
-            (u for u in self.facts.uses if u.fit == fid and u.kind in wanted),
+            (u for u in self.facts.events_of("uses", fid) if u.kind in wanted),
             key=lambda u: (u.loc.path or "", u.loc.span.sort_key()),
         )
 
     def checks(self, fid: int, family: str) -> list[Check]:
         """Checks of ``family`` applied to the fit or to any copy sharing its residuals."""
-        members = self.facts.family_of(fid)
-        return [c for c in self.facts.checks if c.fit in members and c.family == family]
+        return [
+            c for m in sorted(self.facts.family_of(fid)) for c in self.facts.events_of("checks", m) if c.family == family
+        ]
 
     def escapes(self, fid: int) -> list[Escape]:
-        return sorted(
-            (e for e in self.facts.escapes if e.fit == fid), key=lambda e: (e.loc.path or "", e.loc.span.sort_key())
-        )
+        return sorted(self.facts.events_of("escapes", fid), key=lambda e: (e.loc.path or "", e.loc.span.sort_key()))
 
 
 @dataclass(frozen=True)
