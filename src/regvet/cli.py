@@ -73,6 +73,7 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--color", choices=["auto", "always", "never"], default="auto", help="colour in text output")
 
     sub.add_parser("rules", help="list the rules")
+    sub.add_parser("serve", help="run the language server (stdio; --tcp --port N for 127.0.0.1)")
     e = sub.add_parser("explain", help="explain one rule: rationale, examples, references")
     e.add_argument("rule", metavar="RULE")
     return p
@@ -110,8 +111,16 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 def _serve(argv: list[str]) -> int:
-    sys.stderr.write("regvet: error: the language server is not part of this version yet\n")
-    return EXIT_USAGE
+    """``regvet serve [--tcp --port N]``: the language server (imports pygls only now)."""
+    try:
+        from regvet.lsp.server import main as serve_main
+    except ImportError as exc:  # pragma: no cover - pygls is a core dependency
+        sys.stderr.write(f"regvet: error: the language server needs pygls: {exc}\n")
+        return EXIT_USAGE
+    try:
+        return serve_main(argv)
+    except SystemExit as exc:
+        return EXIT_USAGE if exc.code not in (0, None) else EXIT_OK
 
 
 # --- rules and explain -------------------------------------------------------------------------

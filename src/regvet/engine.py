@@ -22,7 +22,7 @@ from regvet.model.finding import Finding, Severity
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RuleInput
-from regvet.sources.notebook import CellMap, read_notebook
+from regvet.sources.notebook import CellMap, NotebookSource, join_cells, read_notebook
 from regvet.sources.python import SourceError, parse
 from regvet.sources.waivers import Waiver, find_waivers
 
@@ -48,6 +48,7 @@ class FileReport:
     skipped: bool = False  # nothing regression-related in the file: not analysed
     facts: FileFacts | None = field(default=None, compare=False, repr=False)
     cell_count: int | None = None
+    cell_map: CellMap | None = field(default=None, compare=False, repr=False)
 
 
 def mentions_fits(text: str, path: str, provider: ModuleProvider) -> bool:
@@ -148,17 +149,48 @@ def _analyze(
     skip_unrelated: bool,
 ) -> FileReport:
     settings = settings or Settings()
-    provider = provider or NoModules()
     is_nb = path.endswith(".ipynb") if notebook is None else notebook
-    cell_map: CellMap | None = None
-    cell_count: int | None = None
     if is_nb:
         nb = read_notebook(text)
         if isinstance(nb, SourceError):
             return _finish(path, settings, RuleInput(FileFacts(), settings, (), nb), None, (), strict, None)
-        python, cell_map, cell_count = nb.python, nb.cell_map, nb.cell_count
-    else:
-        python = text
+        return _analyze_python(nb.python, path, settings, provider, module_key, module_cache, strict,
+                               skip_unrelated, nb)  # fmt: skip
+    return _analyze_python(text, path, settings, provider, module_key, module_cache, strict, skip_unrelated, None)
+
+
+def analyze_cells(
+    code_cells: list[tuple[int, str]],
+    cell_count: int,
+    path: str,
+    settings: Settings | None = None,
+    *,
+    provider: ModuleProvider | None = None,
+    module_key: str = "",
+    module_cache: dict | None = None,
+    strict: bool = False,
+) -> FileReport:
+    """Analyse a notebook given as ``(cell index, source)`` code cells (as an editor syncs them)."""
+    nb = join_cells(code_cells, cell_count)
+    with _no_gc_pauses():
+        return _analyze_python(nb.python, path, settings or Settings(), provider, module_key, module_cache,
+                               strict, True, nb)  # fmt: skip
+
+
+def _analyze_python(
+    python: str,
+    path: str,
+    settings: Settings,
+    provider: ModuleProvider | None,
+    module_key: str,
+    module_cache: dict | None,
+    strict: bool,
+    skip_unrelated: bool,
+    nb: NotebookSource | None,
+) -> FileReport:
+    provider = provider or NoModules()
+    cell_map = nb.cell_map if nb is not None else None
+    cell_count = nb.cell_count if nb is not None else None
     if skip_unrelated and not mentions_fits(python, path, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
     tree = parse(python, path)
@@ -233,7 +265,9 @@ def _finish(
     if cell_map is not None:
         findings = [_to_cells(f, cell_map) for f in findings]
     findings.sort(key=Finding.sort_key)
-    return FileReport(path, tuple(findings), tuple(all_crashes), facts=inp.facts, cell_count=cell_count)
+    return FileReport(
+        path, tuple(findings), tuple(all_crashes), facts=inp.facts, cell_count=cell_count, cell_map=cell_map
+    )
 
 
 def _dedupe(findings: list[Finding]) -> list[Finding]:
@@ -273,6 +307,10 @@ def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
     fix = f.fix
     if fix is not None:
         fix = dict(fix, cell=cell_map.locate(f.span.line)[0])
+        for key in ("fit_call", "statement"):
+            if key in fix:
+                s = cell_map.span(Span(*fix[key]))
+                fix[key] = [s.line, s.col, s.end_line, s.end_col]
     return f.with_(span=cell_map.span(f.span), related=related, fix=fix)
 
 

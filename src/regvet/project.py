@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import os
 from pathlib import Path
+from typing import Callable, Mapping
 
 from regvet.analysis.collect import ModuleSource
 from regvet.sources.python import SourceError, decode
@@ -20,12 +21,24 @@ class FileModules:
     instances to read each helper module once per scan.
     """
 
-    def __init__(self, root: Path, main: Path, texts: dict[Path, str | None] | None = None) -> None:
+    def __init__(
+        self,
+        root: Path,
+        main: Path,
+        texts: dict[Path, str | None] | None = None,
+        *,
+        overlay: Mapping[Path, str] | None = None,
+        show: Callable[[Path], str] | None = None,
+    ) -> None:
         self.root = root.resolve()
         self.main = main.resolve()
         self.texts = texts if texts is not None else {}
+        self.overlay = overlay or {}  # unsaved editor buffers win over the files on disk
+        self.show = show or display_path
 
     def _read(self, path: Path) -> str | None:
+        if path in self.overlay:
+            return self.overlay[path]
         if path not in self.texts:
             try:
                 text = decode(path.read_bytes())
@@ -53,7 +66,7 @@ class FileModules:
                 text = self._read(candidate)
                 if text is None:
                     return None
-                return ModuleSource(_key(candidate, self.root), display_path(candidate), text)
+                return ModuleSource(_key(candidate, self.root), self.show(candidate), text)
         return None
 
 

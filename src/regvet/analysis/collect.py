@@ -1711,6 +1711,7 @@ class Collector:
             mismatches=tuple(self.mismatches),
             group_tests=tuple(self.group_tests),
             tsa_in_use=self.tsa_in_use,
+            dependencies=tuple(sorted({src.path for src in self.sources.values()})),
         )
 
 

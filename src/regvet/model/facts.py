@@ -119,6 +119,9 @@ class FileFacts:
     mismatches: tuple[Mismatch, ...] = ()
     group_tests: tuple[GroupTest, ...] = ()
     tsa_in_use: bool = False
+    #: Paths of the project modules the analysis found through imports (an editor re-analyses
+    #: the file when one of them changes).
+    dependencies: tuple[str, ...] = ()
     _index: dict = field(default_factory=dict, compare=False, repr=False)
 
     def _build(self) -> dict:

@@ -111,10 +111,7 @@ def read_notebook(text: str) -> NotebookSource | SourceError:
         cells = [c for ws in nb["worksheets"] if isinstance(ws, dict) for c in ws.get("cells", [])]
     if not isinstance(cells, list):
         return SourceError("invalid notebook: no list of cells", Span(1, 0, 1, 0))
-    parts: list[str] = []
-    starts: list[int] = []
-    indices: list[int] = []
-    line = 1
+    code: list[tuple[int, str]] = []
     for index, cell in enumerate(cells):
         if not isinstance(cell, dict) or cell.get("cell_type") != "code":
             continue
@@ -125,6 +122,17 @@ def read_notebook(text: str) -> NotebookSource | SourceError:
             src = "".join(src)
         if not isinstance(src, str):
             return SourceError(f"invalid notebook: cell {index} has a non-text source", Span(1, 0, 1, 0))
+        code.append((index, src))
+    return join_cells(code, len(cells))
+
+
+def join_cells(code_cells: list[tuple[int, str]], cell_count: int) -> NotebookSource:
+    """One Python module from ``(cell index, source)`` pairs of code cells, in notebook order."""
+    parts: list[str] = []
+    starts: list[int] = []
+    indices: list[int] = []
+    line = 1
+    for index, src in code_cells:
         py = neutralize(src.replace("\r\n", "\n"))
         if not py.endswith("\n"):
             py += "\n"
@@ -132,4 +140,4 @@ def read_notebook(text: str) -> NotebookSource | SourceError:
         indices.append(index)
         parts.append(py)
         line += py.count("\n")
-    return NotebookSource("".join(parts), CellMap(tuple(starts), tuple(indices)), len(cells))
+    return NotebookSource("".join(parts), CellMap(tuple(starts), tuple(indices)), cell_count)

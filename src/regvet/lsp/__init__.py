@@ -1,0 +1,1 @@
+"""The language server front: the only part of regvet that imports pygls and lsprotocol."""

@@ -1,0 +1,673 @@
+"""The regvet language server (pygls 2.x): diagnostics as you type, fit status on hover, quick fixes.
+
+Design notes (each one a pitfall met with pygls 2.1):
+
+* Analysis runs in a private thread pool, never on the event loop and never in
+  ``server.thread_pool`` (pygls reads stdin there). Each edit cancels the pending
+  debounce for its document; a result is published only if the document's version
+  has not moved since the text was taken, so the newest text always wins.
+* Open documents are looked up by the *unquoted* URI (pygls' key), and always
+  published under the URI exactly as the client sent it.
+* Pull diagnostics are registered inside the ``initialize`` handler (capabilities are
+  fixed once it returns); clients that can pull get pull only, the others get push.
+* Everything sent is plain JSON (no NaN, no numpy scalars).
+* An internal error is logged, never shown as a popup per keystroke, and never stops
+  the server.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import atexit
+import logging
+import shutil
+import tempfile
+import uuid
+from collections import OrderedDict
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any
+from urllib.parse import unquote
+
+from lsprotocol import types as t
+from pygls.lsp.server import LanguageServer
+from pygls.uris import from_fs_path, to_fs_path
+
+from regvet import __version__
+from regvet.config import ConfigError, find_config, load_settings
+from regvet.engine import FileReport, analyze, analyze_cells
+from regvet.lsp.convert import Positions, json_safe, split_lines, to_diagnostic
+from regvet.model.settings import Settings
+from regvet.model.span import Span
+from regvet.project import FileModules
+from regvet.rules import RULES_BY_ID
+
+log = logging.getLogger("regvet.lsp")
+DEFAULT_DEBOUNCE_MS = 300
+CLIENT_KEYS = ("alpha", "skip", "only", "debounceMs")
+
+
+class LRU(OrderedDict):
+    """A small bounded cache (parsed helper modules: one entry per distinct text)."""
+
+    def __init__(self, size: int) -> None:
+        super().__init__()
+        self.size = size
+
+    def __setitem__(self, key: Any, value: Any) -> None:
+        super().__setitem__(key, value)
+        self.move_to_end(key)
+        while len(self) > self.size:
+            self.popitem(last=False)
+
+
+@dataclass
+class Result:
+    """The latest analysis of one target (a file, or a whole notebook)."""
+
+    version: Any
+    report: FileReport
+    diagnostics: dict[str, list[t.Diagnostic]]  # published URI -> diagnostics
+    texts: dict[str, str]  # published URI -> the text the positions refer to
+    cells: dict[int, str] = field(default_factory=dict)  # notebook cell index -> cell URI
+
+
+class RegvetServer(LanguageServer):
+    def __init__(self) -> None:
+        super().__init__(
+            "regvet",
+            __version__,
+            text_document_sync_kind=t.TextDocumentSyncKind.Incremental,
+            notebook_document_sync=t.NotebookDocumentSyncOptions(
+                notebook_selector=[
+                    t.NotebookDocumentFilterWithCells(
+                        notebook="jupyter-notebook", cells=[t.NotebookCellLanguage(language="python")]
+                    )
+                ],
+                save=True,
+            ),
+        )
+        self.pool = ThreadPoolExecutor(max_workers=2, thread_name_prefix="regvet-analysis")
+        self.client_settings: dict[str, Any] = {}
+        self.pending: dict[str, asyncio.Task] = {}
+        self.results: dict[str, Result] = {}
+        self.use_pull = False
+        self.config_ready = asyncio.Event()
+        self.configs: dict[Path | None, Settings | ConfigError] = {}
+        self.config_diagnostics: set[str] = set()
+        self.module_cache: LRU = LRU(64)
+        self.rule_docs = Path(tempfile.mkdtemp(prefix="regvet-rules-"))
+        atexit.register(shutil.rmtree, self.rule_docs, True)
+        from regvet.cli import explain
+
+        for rid in RULES_BY_ID:
+            (self.rule_docs / f"{rid}.md").write_text(explain(rid), encoding="utf-8")
+
+    # --- reporting -------------------------------------------------------------------------
+    def report_server_error(self, error: Exception, source: Any) -> None:  # type: ignore[override]
+        log.error("regvet internal error: %r", error)
+        try:
+            self.window_log_message(
+                t.LogMessageParams(type=t.MessageType.Error, message=f"regvet internal error: {error!r}")
+            )
+        except Exception:  # the transport may be gone
+            pass
+
+    def rule_doc_uri(self, rule: str) -> str | None:
+        path = self.rule_docs / f"{rule}.md"
+        return from_fs_path(str(path)) if path.exists() else None
+
+    @property
+    def debounce(self) -> float:
+        value = self.client_settings.get("debounceMs", DEFAULT_DEBOUNCE_MS)
+        try:
+            return max(float(value), 0.0) / 1000.0
+        except (TypeError, ValueError):
+            return DEFAULT_DEBOUNCE_MS / 1000.0
+
+    # --- documents -----------------------------------------------------------------------------
+    def open_text(self, uri: str):
+        """The open document for ``uri`` (None when not open; never read from disk)."""
+        return self.workspace.text_documents.get(unquote(uri))
+
+    def target_of(self, uri: str) -> str | None:
+        """The key analysed for ``uri``: the notebook URI for a cell, the URI itself for a file."""
+        nb = self.workspace.get_notebook_document(cell_uri=uri)
+        if nb is not None:
+            return nb.uri
+        if self.workspace.get_notebook_document(notebook_uri=uri) is not None:
+            return uri
+        return uri if self.open_text(uri) is not None else None
+
+    def snapshot(self, key: str) -> dict | None:
+        """Everything one analysis needs, taken on the event loop: texts and versions."""
+        nb = self.workspace.get_notebook_document(notebook_uri=key)
+        if nb is not None:
+            cells = []
+            versions = []
+            for index, cell in enumerate(nb.cells):
+                doc = self.open_text(cell.document)
+                text = doc.source if doc is not None else ""
+                versions.append(doc.version if doc is not None else None)
+                cells.append((index, cell.kind, cell.document, text))
+            return {"kind": "notebook", "key": key, "version": (nb.version, tuple(versions)), "cells": cells}
+        doc = self.open_text(key)
+        if doc is None:
+            return None
+        return {"kind": "file", "key": key, "version": doc.version, "text": doc.source, "uri": doc.uri}
+
+    def current_version(self, key: str) -> Any:
+        snap = self.snapshot(key)
+        return None if snap is None else snap["version"]
+
+    def overlay(self) -> dict[Path, str]:
+        out: dict[Path, str] = {}
+        for doc in list(self.workspace.text_documents.values()):
+            path = to_fs_path(doc.uri)
+            if path and path.endswith(".py"):
+                out[Path(path).resolve()] = doc.source
+        return out
+
+    # --- settings ------------------------------------------------------------------------------
+    def settings_for(self, path: Path | None) -> Settings:
+        base = Settings()
+        if path is not None:
+            try:
+                cfg = find_config(path)
+            except OSError:
+                cfg = None
+            if cfg not in self.configs:
+                try:
+                    self.configs[cfg] = load_settings(cfg) if cfg is not None else Settings()
+                except ConfigError as exc:
+                    self.configs[cfg] = exc
+            loaded = self.configs[cfg]
+            base = loaded if isinstance(loaded, Settings) else Settings()
+        return self.apply_client(base)
+
+    def apply_client(self, s: Settings) -> Settings:
+        c = self.client_settings
+        changes: dict[str, Any] = {}
+        alpha = c.get("alpha")
+        if isinstance(alpha, (int, float)) and not isinstance(alpha, bool) and 0 < alpha < 1:
+            changes["alpha"] = float(alpha)
+        for key in ("skip", "only"):
+            value = c.get(key)
+            if isinstance(value, list):
+                changes[key] = frozenset(v for v in value if isinstance(v, str) and v in RULES_BY_ID)
+        return replace(s, **changes) if changes else s
+
+    def config_errors(self) -> list[ConfigError]:
+        return [v for v in self.configs.values() if isinstance(v, ConfigError)]
+
+
+server = RegvetServer()
+
+
+# --- analysis (runs in the private pool) ---------------------------------------------------------
+def _root_for(ls: RegvetServer, path: Path) -> Path:
+    best: Path | None = None
+    for folder in ls.workspace.folders.values():
+        fpath = to_fs_path(folder.uri)
+        if fpath and (path == Path(fpath) or Path(fpath) in path.parents):
+            if best is None or len(Path(fpath).parts) > len(best.parts):
+                best = Path(fpath)
+    if best is None and ls.workspace.root_path and Path(ls.workspace.root_path) in path.parents:
+        best = Path(ls.workspace.root_path)
+    return best or path.parent
+
+
+def run_analysis(ls: RegvetServer, snap: dict, overlay: dict[Path, str]) -> FileReport:
+    key = snap["key"]
+    fs = to_fs_path(key)
+    path = Path(fs).resolve() if fs else None
+    settings = ls.settings_for(path)
+    provider = (
+        FileModules(_root_for(ls, path), path, overlay=overlay, show=lambda p: str(p)) if path is not None else None
+    )
+    shown = str(path) if path is not None else key
+    module_key = path.stem if path is not None else ""
+    if snap["kind"] == "notebook":
+        code = [(i, text) for i, kind, _uri, text in snap["cells"] if kind == t.NotebookCellKind.Code]
+        return analyze_cells(code, len(snap["cells"]), shown, settings, provider=provider, module_key=module_key,
+                             module_cache=ls.module_cache)  # fmt: skip
+    return analyze(snap["text"], shown, settings, notebook=False, provider=provider, module_key=module_key,
+                   module_cache=ls.module_cache)  # fmt: skip
+
+
+def build_result(ls: RegvetServer, snap: dict, report: FileReport) -> Result:
+    encoding = ls.workspace.position_encoding
+    if snap["kind"] == "notebook":
+        texts = {uri: text for _i, kind, uri, text in snap["cells"] if kind == t.NotebookCellKind.Code}
+        cells = {i: uri for i, kind, uri, _text in snap["cells"]}
+        diagnostics: dict[str, list[t.Diagnostic]] = {uri: [] for uri in texts}
+    else:
+        texts = {snap["uri"]: snap["text"]}
+        cells = {}
+        diagnostics = {snap["uri"]: []}
+    positions = {uri: Positions(text, encoding) for uri, text in texts.items()}
+    for f in report.findings:
+        if f.waived:
+            continue
+        uri = cells.get(f.span.cell) if f.span.cell is not None else snap.get("uri")
+        if uri is None or uri not in positions:
+            continue
+        related = []
+        for r in f.related:
+            if r.path is not None:
+                rel_uri = from_fs_path(r.path)
+                rel_pos = Positions(_read(r.path), encoding)
+            else:
+                rel_uri = cells.get(r.span.cell) if r.span.cell is not None else uri
+                if rel_uri is None or rel_uri not in positions:
+                    continue
+                rel_pos = positions[rel_uri]
+            related.append(
+                t.DiagnosticRelatedInformation(location=t.Location(uri=rel_uri, range=rel_pos.range(r.span)),
+                                               message=r.message)  # fmt: skip
+            )
+        diagnostics[uri].append(to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule)))
+    return Result(snap["version"], report, diagnostics, texts, cells)
+
+
+def _read(path: str) -> str:
+    try:
+        return Path(path).read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError):
+        return ""
+
+
+async def analyse(ls: RegvetServer, key: str) -> Result | None:
+    """Analyse the newest text of ``key``; None when the document is gone or changed meanwhile."""
+    try:
+        await asyncio.wait_for(ls.config_ready.wait(), 2.0)
+    except asyncio.TimeoutError:
+        pass  # the client never answered workspace/configuration: go on with what we have
+    snap = ls.snapshot(key)
+    if snap is None:
+        return None
+    overlay = ls.overlay()
+    loop = asyncio.get_running_loop()
+    report = await loop.run_in_executor(ls.pool, run_analysis, ls, snap, overlay)
+    if ls.current_version(key) != snap["version"]:
+        return None  # edited while we worked: a newer analysis is on its way
+    result = build_result(ls, snap, report)
+    ls.results[key] = result
+    publish_config_errors(ls)
+    return result
+
+
+def publish(ls: RegvetServer, result: Result) -> None:
+    for uri, diags in result.diagnostics.items():
+        doc = ls.open_text(uri)
+        ls.text_document_publish_diagnostics(
+            t.PublishDiagnosticsParams(uri=uri, diagnostics=diags, version=doc.version if doc else None)
+        )
+
+
+def publish_config_errors(ls: RegvetServer) -> None:
+    """One diagnostic on each broken config file; cleared once it is fixed."""
+    current: set[str] = set()
+    for err in ls.config_errors():
+        uri = from_fs_path(str(Path(err.path).resolve()))
+        current.add(uri)
+        line = _config_error_line(err)
+        ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[t.Diagnostic(
+            range=t.Range(t.Position(line, 0), t.Position(line, 1_000)),
+            message=f"regvet cannot use this configuration ({err}); using the defaults until it is fixed.",
+            severity=t.DiagnosticSeverity.Error, source="regvet", code="config-error")]))  # fmt: skip
+    for uri in ls.config_diagnostics - current:
+        ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[]))
+    ls.config_diagnostics = current
+
+
+def _config_error_line(err: ConfigError) -> int:
+    import re
+
+    m = re.search(r"line (\d+)", err.detail)
+    if m:
+        return int(m.group(1)) - 1
+    if err.key:
+        name = err.key.split(".")[-1]
+        for i, line in enumerate(split_lines(_read(err.path))):
+            if line.strip().startswith(name) or f" {name} " in line or f"{name} =" in line:
+                return i
+    return 0
+
+
+async def lint_later(ls: RegvetServer, key: str, delay: float) -> None:
+    if delay:
+        await asyncio.sleep(delay)  # a newer edit cancels us here
+    try:
+        result = await analyse(ls, key)
+    except asyncio.CancelledError:
+        raise
+    except Exception as exc:  # never let one document's failure stop the server
+        ls.report_server_error(exc, None)
+        return
+    if result is None:
+        return
+    if ls.use_pull:
+        refresh = ls.client_capabilities.workspace
+        if refresh and refresh.diagnostics and refresh.diagnostics.refresh_support:
+            ls.workspace_diagnostic_refresh(None)
+        return
+    publish(ls, result)
+
+
+def schedule(ls: RegvetServer, key: str, delay: float) -> None:
+    old = ls.pending.pop(key, None)
+    if old is not None:
+        old.cancel()
+    task = asyncio.ensure_future(lint_later(ls, key, delay))
+    ls.pending[key] = task
+
+    def done(finished: asyncio.Task, key: str = key) -> None:
+        if ls.pending.get(key) is finished:
+            ls.pending.pop(key, None)
+
+    task.add_done_callback(done)
+
+
+def schedule_dependents(ls: RegvetServer, changed: Path, delay: float) -> None:
+    """Re-analyse open targets that read ``changed`` (a project module) during their last analysis."""
+    target = str(changed.resolve())
+    for key, result in list(ls.results.items()):
+        deps = result.report.facts.dependencies if result.report.facts else ()
+        if target in deps:
+            schedule(ls, key, delay)
+
+
+def all_targets(ls: RegvetServer) -> list[str]:
+    keys = [nb.uri for nb in ls.workspace.notebook_documents.values()]
+    cells = {unquote(c.document) for nb in ls.workspace.notebook_documents.values() for c in nb.cells}
+    for doc in list(ls.workspace.text_documents.values()):
+        if unquote(doc.uri) not in cells and (doc.uri.endswith(".py") or doc.language_id == "python"):
+            keys.append(doc.uri)
+    return keys
+
+
+# --- lifecycle and configuration -----------------------------------------------------------------
+@server.feature(t.INITIALIZE)
+def on_initialize(ls: RegvetServer, params: t.InitializeParams) -> None:
+    td = params.capabilities.text_document
+    ls.use_pull = bool(td and td.diagnostic)
+    opts = params.initialization_options
+    if isinstance(opts, dict):
+        section = opts.get("regvet", opts)
+        if isinstance(section, dict):
+            ls.client_settings.update({k: v for k, v in section.items() if k in CLIENT_KEYS})
+    if ls.use_pull:
+
+        @ls.feature(
+            t.TEXT_DOCUMENT_DIAGNOSTIC,
+            t.DiagnosticOptions(identifier="regvet", inter_file_dependencies=True, workspace_diagnostics=False),
+        )
+        async def pull(ls: RegvetServer, p: t.DocumentDiagnosticParams):
+            uri = p.text_document.uri
+            key = ls.target_of(uri)
+            if key is None:
+                return t.FullDocumentDiagnosticReport(items=[])
+            result = ls.results.get(key)
+            if result is None or result.version != ls.current_version(key):
+                pending = ls.pending.pop(key, None)
+                if pending is not None:
+                    pending.cancel()
+                result = await analyse(ls, key)
+                if result is None:  # changed while analysing: analyse the newest text once more
+                    result = await analyse(ls, key)
+            if result is None:
+                return t.FullDocumentDiagnosticReport(items=[])
+            result_id = f"{uuid.uuid5(uuid.NAMESPACE_URL, repr(result.version))}"
+            mine = result.diagnostics.get(uri)
+            if mine is None:
+                mine = next((d for u, d in result.diagnostics.items() if unquote(u) == unquote(uri)), [])
+            if p.previous_result_id == result_id:
+                return t.UnchangedDocumentDiagnosticReport(result_id=result_id)
+            return t.FullDocumentDiagnosticReport(items=mine, result_id=result_id)
+
+
+async def pull_settings(ls: RegvetServer) -> None:
+    ws = ls.client_capabilities.workspace
+    try:
+        if ws and ws.configuration:
+            [cfg] = await ls.workspace_configuration_async(
+                t.ConfigurationParams(items=[t.ConfigurationItem(section="regvet")])
+            )
+            if isinstance(cfg, dict):
+                ls.client_settings = {k: v for k, v in cfg.items() if k in CLIENT_KEYS}
+    except Exception as exc:  # a client that fails the request: keep what we have
+        log.warning("workspace/configuration failed: %r", exc)
+    finally:
+        ls.config_ready.set()
+
+
+@server.feature(t.INITIALIZED)
+async def on_initialized(ls: RegvetServer, params: t.InitializedParams) -> None:
+    await pull_settings(ls)
+    ws = ls.client_capabilities.workspace
+    if ws and ws.did_change_watched_files and ws.did_change_watched_files.dynamic_registration:
+        await ls.client_register_capability_async(
+            t.RegistrationParams(
+                registrations=[
+                    t.Registration(
+                        id=str(uuid.uuid4()),
+                        method=t.WORKSPACE_DID_CHANGE_WATCHED_FILES,
+                        register_options=t.DidChangeWatchedFilesRegistrationOptions(
+                            watchers=[
+                                t.FileSystemWatcher(glob_pattern="**/pyproject.toml"),
+                                t.FileSystemWatcher(glob_pattern="**/regvet.toml"),
+                                t.FileSystemWatcher(glob_pattern="**/*.py"),
+                            ]
+                        ),
+                    )
+                ]
+            )
+        )
+
+
+@server.feature(t.WORKSPACE_DID_CHANGE_CONFIGURATION)
+async def on_config(ls: RegvetServer, params: t.DidChangeConfigurationParams) -> None:
+    pushed = params.settings.get("regvet") if isinstance(params.settings, dict) else None
+    if isinstance(pushed, dict):
+        ls.client_settings = {k: v for k, v in pushed.items() if k in CLIENT_KEYS}
+        ls.config_ready.set()
+    else:
+        await pull_settings(ls)
+    for key in all_targets(ls):
+        schedule(ls, key, 0)
+
+
+@server.feature(t.WORKSPACE_DID_CHANGE_WATCHED_FILES)
+def on_watched(ls: RegvetServer, params: t.DidChangeWatchedFilesParams) -> None:
+    config_changed = False
+    for change in params.changes:
+        path = to_fs_path(change.uri)
+        if not path:
+            continue
+        name = Path(path).name
+        if name in ("pyproject.toml", "regvet.toml"):
+            config_changed = True
+        elif name.endswith(".py") and ls.open_text(change.uri) is None:
+            schedule_dependents(ls, Path(path), 0)
+    if config_changed:
+        ls.configs.clear()
+        for key in all_targets(ls):
+            schedule(ls, key, 0)
+
+
+# --- text documents ------------------------------------------------------------------------------
+def _is_python(ls: RegvetServer, uri: str) -> bool:
+    doc = ls.open_text(uri)
+    if ls.workspace.get_notebook_document(cell_uri=uri) is not None:
+        return False  # cells are handled with their notebook
+    return uri.endswith(".py") or (doc is not None and doc.language_id == "python")
+
+
+@server.feature(t.TEXT_DOCUMENT_DID_OPEN)
+def did_open(ls: RegvetServer, params: t.DidOpenTextDocumentParams) -> None:
+    uri = params.text_document.uri
+    if _is_python(ls, uri):
+        schedule(ls, uri, 0)
+
+
+@server.feature(t.TEXT_DOCUMENT_DID_CHANGE)
+def did_change(ls: RegvetServer, params: t.DidChangeTextDocumentParams) -> None:
+    uri = params.text_document.uri
+    if _is_python(ls, uri):
+        schedule(ls, uri, ls.debounce)
+        path = to_fs_path(uri)
+        if path:
+            schedule_dependents(ls, Path(path), ls.debounce)
+
+
+@server.feature(t.TEXT_DOCUMENT_DID_SAVE, t.SaveOptions(include_text=False))
+def did_save(ls: RegvetServer, params: t.DidSaveTextDocumentParams) -> None:
+    uri = params.text_document.uri
+    if _is_python(ls, uri):
+        schedule(ls, uri, 0)
+
+
+@server.feature(t.TEXT_DOCUMENT_DID_CLOSE)
+def did_close(ls: RegvetServer, params: t.DidCloseTextDocumentParams) -> None:
+    uri = params.text_document.uri
+    task = ls.pending.pop(uri, None)
+    if task is not None:
+        task.cancel()
+    ls.results.pop(uri, None)
+    if not ls.use_pull:
+        ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[]))
+
+
+# --- notebooks -----------------------------------------------------------------------------------
+@server.feature(t.NOTEBOOK_DOCUMENT_DID_OPEN)
+def nb_open(ls: RegvetServer, params: t.DidOpenNotebookDocumentParams) -> None:
+    schedule(ls, params.notebook_document.uri, 0)
+
+
+@server.feature(t.NOTEBOOK_DOCUMENT_DID_CHANGE)
+def nb_change(ls: RegvetServer, params: t.DidChangeNotebookDocumentParams) -> None:
+    key = params.notebook_document.uri
+    nb = ls.workspace.get_notebook_document(notebook_uri=key)
+    previous = ls.results.get(key)
+    if previous is not None and nb is not None and not ls.use_pull:
+        gone = set(previous.diagnostics) - {c.document for c in nb.cells}
+        for uri in gone:  # a deleted cell: clear what was shown on it
+            ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[]))
+    schedule(ls, key, ls.debounce)
+
+
+@server.feature(t.NOTEBOOK_DOCUMENT_DID_SAVE)
+def nb_save(ls: RegvetServer, params: t.DidSaveNotebookDocumentParams) -> None:
+    schedule(ls, params.notebook_document.uri, 0)
+
+
+@server.feature(t.NOTEBOOK_DOCUMENT_DID_CLOSE)
+def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None:
+    key = params.notebook_document.uri
+    task = ls.pending.pop(key, None)
+    if task is not None:
+        task.cancel()
+    ls.results.pop(key, None)
+    if not ls.use_pull:
+        for cell in params.cell_text_documents:
+            ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=cell.uri, diagnostics=[]))
+
+
+# --- hover and code actions ----------------------------------------------------------------------
+@server.feature(t.TEXT_DOCUMENT_HOVER)
+async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
+    from regvet.status import fit_status, fits_at
+
+    uri = params.text_document.uri
+    key = ls.target_of(uri)
+    if key is None:
+        return None
+    result = ls.results.get(key)
+    if result is None or result.version != ls.current_version(key):
+        result = await analyse(ls, key)
+    if result is None:
+        return None
+    cell = next((i for i, u in result.cells.items() if unquote(u) == unquote(uri)), None)
+    text = result.texts.get(uri) or next((v for k, v in result.texts.items() if unquote(k) == unquote(uri)), "")
+    positions = Positions(text, ls.workspace.position_encoding)
+    line, col = positions.from_client(params.position)
+    parts: list[str] = []
+    fits = fits_at(result.report, line, col, cell)
+    for fit in fits[:2]:
+        parts.append(fit_status(result.report, fit).markdown())
+    for d in result.diagnostics.get(uri, []):
+        r = d.range
+        if (r.start.line, r.start.character) <= (params.position.line, params.position.character) <= (
+            r.end.line,
+            r.end.character,
+        ):
+            rule = RULES_BY_ID.get(str(d.code))
+            if rule is not None:
+                parts.append(f"**regvet {rule.id}** ({rule.severity.label}): {rule.summary}\n\n{rule.rationale}")
+    if not parts:
+        return None
+    return t.Hover(contents=t.MarkupContent(kind=t.MarkupKind.Markdown, value="\n\n---\n\n".join(parts)))
+
+
+@server.feature(
+    t.TEXT_DOCUMENT_CODE_ACTION, t.CodeActionOptions(code_action_kinds=[t.CodeActionKind.QuickFix])
+)
+async def code_action(ls: RegvetServer, params: t.CodeActionParams) -> list[t.CodeAction] | None:
+    uri = params.text_document.uri
+    doc = ls.open_text(uri)
+    if doc is None:
+        return None
+    diagnostics = [d for d in params.context.diagnostics if d.source == "regvet"]
+    if not diagnostics:  # some clients send none: use ours that overlap the range
+        key = ls.target_of(uri)
+        result = ls.results.get(key) if key else None
+        if result is not None:
+            for d in result.diagnostics.get(uri, []):
+                if d.range.start.line <= params.range.end.line and d.range.end.line >= params.range.start.line:
+                    diagnostics.append(d)
+    if not diagnostics:
+        return None
+    nb = ls.workspace.get_notebook_document(cell_uri=uri)
+    whole = _notebook_text(ls, nb) if nb is not None else doc.source
+    loop = asyncio.get_running_loop()
+    return await loop.run_in_executor(ls.pool, build_actions, uri, doc.source, whole, doc.version, diagnostics)
+
+
+def _notebook_text(ls: RegvetServer, nb: t.NotebookDocument) -> str:
+    parts = []
+    for cell in nb.cells:
+        doc = ls.open_text(cell.document)
+        if doc is not None and cell.kind == t.NotebookCellKind.Code:
+            parts.append(doc.source)
+    return "\n".join(parts)
+
+
+def build_actions(uri: str, text: str, whole: str, version: int | None,
+                  diagnostics: list[t.Diagnostic]) -> list[t.CodeAction]:  # fmt: skip
+    """Quick fixes for regvet diagnostics, each a WorkspaceEdit computed with libcst."""
+    from regvet.lsp.actions import quick_fixes
+
+    return quick_fixes(uri, text, whole, version, diagnostics)
+
+
+# --- entry point ---------------------------------------------------------------------------------
+def main(argv: list[str] | None = None) -> int:
+    import argparse
+
+    parser = argparse.ArgumentParser(prog="regvet serve", description="Run the regvet language server.")
+    parser.add_argument("--tcp", action="store_true", help="listen on TCP (127.0.0.1) instead of stdio")
+    parser.add_argument("--port", type=int, default=2087, help="TCP port (default 2087)")
+    parser.add_argument("--log-file", help="write the server log here (stdout carries the protocol)")
+    args = parser.parse_args(argv)
+    logging.basicConfig(
+        filename=args.log_file,
+        level=logging.INFO if args.log_file else logging.WARNING,
+        format="%(asctime)s %(name)s %(levelname)s %(message)s",
+    )
+    if args.tcp:
+        server.start_tcp("127.0.0.1", args.port)
+    else:
+        server.start_io()
+    return 0

@@ -1,0 +1,128 @@
+"""Where each check stands for one fit: the compact status an editor shows on hover.
+
+Pure: a :class:`~regvet.engine.FileReport` in, values out. Positions are the
+report's own (cell-relative for notebooks).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from regvet.analysis.catalog import HAC_COV, ROBUST_COV
+from regvet.engine import FileReport
+from regvet.model.facts import Fit, Loc
+from regvet.model.finding import Finding
+from regvet.model.span import Span
+
+FAMILY_RULES = {
+    "functional form": ("form", "no-form-test"),
+    "variance": ("variance", "no-variance-test"),
+    "normality": ("normality", None),
+    "serial correlation": ("serial", "no-serial-test"),
+    "breaks": ("breaks", "no-break-test"),
+}
+
+
+@dataclass(frozen=True)
+class FamilyStatus:
+    family: str
+    state: str  # "done" | "missing" | "waived" | "not needed" | "failed"
+    detail: str = ""
+
+
+@dataclass(frozen=True)
+class FitStatus:
+    fit: Fit
+    span: Span  # the fit site, in the report's coordinates
+    title: str
+    families: tuple[FamilyStatus, ...]
+
+    def markdown(self) -> str:
+        lines = [f"**regvet** · {self.title}", ""]
+        for fam in self.families:
+            detail = f": {fam.detail}" if fam.detail else ""
+            lines.append(f"- {fam.family}: **{fam.state}**{detail}")
+        return "\n".join(lines)
+
+
+def _span(report: FileReport, span: Span) -> Span:
+    return report.cell_map.span(span) if report.cell_map is not None else span
+
+
+def _where(report: FileReport, loc: Loc) -> str:
+    if loc.path is not None:
+        return f"{loc.path}, line {loc.span.line}"
+    return _span(report, loc.span).describe()
+
+
+def _contains(span: Span, line: int, col: int, cell: int | None) -> bool:
+    if span.cell != cell:
+        return False
+    return (span.line, span.col) <= (line, col) <= (span.end_line, span.end_col)
+
+
+def fits_at(report: FileReport, line: int, col: int, cell: int | None = None) -> list[Fit]:
+    """Fits whose site contains the position (1-based line, 0-based code-point column)."""
+    if report.facts is None:
+        return []
+    out = []
+    for fit in report.facts.fits:
+        if fit.site.path is None and not fit.auxiliary and _contains(_span(report, fit.site.span), line, col, cell):
+            out.append(fit)
+    return out
+
+
+def _finding_for(report: FileReport, rule: str, fit: Fit) -> Finding | None:
+    site = _span(report, fit.site.span)
+    for f in report.findings:
+        if f.rule == rule and f.span == site:
+            return f
+    return None
+
+
+def fit_status(report: FileReport, fit: Fit) -> FitStatus:
+    """One line per check family for ``fit``: done (with which function and where), missing, waived."""
+    facts = report.facts
+    assert facts is not None
+    members = facts.family_of(fit.id)
+    families: list[FamilyStatus] = []
+    for label, (family, rule) in FAMILY_RULES.items():
+        checks = [c for m in sorted(members) for c in facts.events_of("checks", m) if c.family == family]
+        finding = _finding_for(report, rule, fit) if rule else None
+        if checks:
+            c = checks[0]
+            families.append(FamilyStatus(label, "done", f"`{c.function}` ({_where(report, c.loc)})"))
+        elif family == "variance" and fit.cov_type in ROBUST_COV:
+            families.append(FamilyStatus(label, "done", f"robust covariance ({fit.cov_type.upper()})"))
+        elif family == "serial" and fit.cov_type in HAC_COV:
+            families.append(FamilyStatus(label, "done", "HAC covariance"))
+        elif family == "serial" and not (fit.time_reason or facts.tsa_in_use):
+            families.append(FamilyStatus(label, "not needed", "the data is not known to be time-ordered"))
+        elif family == "breaks" and finding is None and not fit.shift_groups:
+            families.append(FamilyStatus(label, "not needed", "no intercept-only group or configured break"))
+        elif finding is not None and finding.waived:
+            families.append(FamilyStatus(label, "waived", finding.reason or ""))
+        else:
+            families.append(FamilyStatus(label, "missing"))
+    families.append(_comparisons(report, fit))
+    name = f"`{fit.result_name}`" if fit.result_name else "this fit"
+    what = f"formula `{fit.formula}`" if fit.formula else f"{fit.api} API"
+    cov = fit.cov_type or "covariance not a literal"
+    return FitStatus(fit, _span(report, fit.site.span), f"{name} ({fit.estimator}, {what}, {cov})", tuple(families))
+
+
+def _comparisons(report: FileReport, fit: Fit) -> FamilyStatus:
+    facts = report.facts
+    assert facts is not None
+    roots = {facts.root(fit.id)}
+    mine = [c for c in facts.comparisons if any(facts.root(fid) in roots for fid, _ in c.measures)]
+    if not mine:
+        return FamilyStatus("comparisons", "not needed", "its fit measures are not compared")
+    bad_rules = ("compare-across-outcomes", "r2-unadjusted-compare")
+    for comp in mine:
+        span = _span(report, comp.loc.span) if comp.loc.path is None else None
+        for f in report.findings:
+            if f.rule in bad_rules and span is not None and f.span == span and not f.waived:
+                return FamilyStatus("comparisons", "failed", f"`{f.rule}` at {span.describe()}")
+    where = ", ".join(_where(report, c.loc) for c in mine[:3])
+    return FamilyStatus("comparisons", "done", f"compared on a valid basis ({where})")

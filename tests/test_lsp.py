@@ -1,0 +1,337 @@
+"""End-to-end tests of ``regvet serve``: a real server process driven over stdio by pytest-lsp's client."""
+
+from __future__ import annotations
+
+import asyncio
+import json
+import socket
+import subprocess
+import sys
+import textwrap
+import time
+
+import pytest
+from lsp_client import SERVER, capabilities, session
+from lsprotocol import types as t
+from pygls.uris import from_fs_path
+
+from regvet.engine import analyze
+
+SCRIPT = textwrap.dedent(
+    """\
+    import pandas as pd
+    import statsmodels.formula.api as smf
+
+    crossings = pd.read_csv("crossings.csv")
+    # Überfahrten je Woche: non-ASCII text before the fit
+    fähre = "Möwe"; res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
+    print(res.summary())
+    """
+)
+CHECKS = "from statsmodels.stats.diagnostic import het_breuschpagan, linear_reset\nprint(linear_reset(res, power=3, use_f=True))\nprint(het_breuschpagan(res.resid, res.model.exog))\n"
+
+
+@pytest.fixture
+def project(tmp_path):
+    (tmp_path / ".git").mkdir()
+    return tmp_path
+
+
+def codes(diags):
+    return sorted(str(d.code) for d in diags)
+
+
+async def test_open_publishes_versioned_diagnostics_with_utf16_positions(project):
+    async with session(project) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        diags = await c.diagnostics_for(uri, 1)
+        assert codes(diags) == ["no-form-test", "no-variance-test"]
+        d = next(d for d in diags if d.code == "no-variance-test")
+        line = SCRIPT.split("\n")[5]
+        # the fit call starts after 'fähre = "Möwe"; res = ' : code points and UTF-16 units agree here,
+        # but not bytes; check against the UTF-16 length of the prefix explicitly
+        prefix = line[: line.index("smf.ols")]
+        assert d.range.start == t.Position(5, len(prefix.encode("utf-16-le")) // 2)
+        assert d.range.start.character == line.index("smf.ols") != len(prefix.encode("utf-8"))
+        assert d.severity == t.DiagnosticSeverity.Warning and d.source == "regvet"
+        assert d.code_description is not None and d.code_description.href.endswith("no-variance-test.md")
+        assert [r.location.range.start.line for r in d.related_information] == [6]
+        assert d.data["rule"] == "no-variance-test" and d.data["fix"]["result"] == "res"
+
+
+async def test_astral_characters_count_two_utf16_units(project):
+    text = SCRIPT.replace('fähre = "Möwe"', 'note = "⛴️🚢"')
+    async with session(project) as c:
+        uri = c.open(project / "model.py", text)
+        diags = await c.diagnostics_for(uri, 1)
+        line = text.split("\n")[5]
+        prefix = line[: line.index("smf.ols")]
+        d = diags[0]
+        assert d.range.start.character == len(prefix.encode("utf-16-le")) // 2 == len(prefix) + 1
+
+
+async def test_utf8_position_encoding_when_the_client_offers_only_that(project):
+    async with session(project, capabilities(encodings=["utf-8"])) as c:
+        assert c.server_capabilities.position_encoding == "utf-8"
+        uri = c.open(project / "model.py", SCRIPT)
+        diags = await c.diagnostics_for(uri, 1)
+        line = SCRIPT.split("\n")[5]
+        assert diags[0].range.start.character == len(line[: line.index("smf.ols")].encode("utf-8"))
+
+
+async def test_change_save_and_close(project):
+    async with session(project) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        assert len(await c.diagnostics_for(uri, 1)) == 2
+        version = c.edit(uri, (7, 0), (7, 0), CHECKS)  # incremental change: add both tests at the end
+        assert await c.diagnostics_for(uri, version) == []
+        c.lsp.text_document_did_save(t.DidSaveTextDocumentParams(t.TextDocumentIdentifier(uri=uri)))
+        count = len(c.published)
+        await c.until(lambda: len(c.published) > count)
+        assert len(c.published[-1].diagnostics) == 0 and c.published[-1].version == version
+        c.lsp.text_document_did_close(t.DidCloseTextDocumentParams(t.TextDocumentIdentifier(uri=uri)))
+        await c.until(lambda: c.published[-1].uri == uri and c.published[-1].version is None)
+
+
+async def test_200_rapid_changes_end_with_exactly_the_final_texts_diagnostics(project):
+    final = SCRIPT + "if res.rsquared > 0.5:\n    print(res.pvalues)\n"
+    async with session(project, init_options={"regvet": {"debounceMs": 30}}) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        await c.diagnostics_for(uri, 1)
+        for i in range(199):
+            c.replace(uri, SCRIPT + f"# draft {i}\n" + (CHECKS if i % 2 else ""))
+        version = c.replace(uri, final)
+        diags = await c.diagnostics_for(uri, version)
+        expected = analyze(final, str(project / "model.py"))
+        assert sorted((d.code, d.range.start.line + 1, d.message) for d in diags) == sorted(
+            (f.rule, f.span.line, f.message) for f in expected.findings
+        )
+        await asyncio.sleep(0.3)  # nothing older may arrive afterwards
+        assert c.published[-1].version == version
+        assert all(p.version in (1, version) for p in c.published if p.uri == uri)
+
+
+async def test_unparsable_buffer_gets_one_parse_error_and_the_server_keeps_answering(project):
+    async with session(project) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        await c.diagnostics_for(uri, 1)
+        version = c.replace(uri, SCRIPT + "res2 = smf.ols('riders ~ fare', data=crossings).fit(\n")
+        diags = await c.diagnostics_for(uri, version)
+        assert codes(diags) == ["parse-error"]
+        assert diags[0].range.start.line == 7 and diags[0].severity == t.DiagnosticSeverity.Error
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), diags[0].range.start)
+        )
+        assert hover is not None and "parse-error" in hover.contents.value
+        version = c.replace(uri, SCRIPT)
+        assert codes(await c.diagnostics_for(uri, version)) == ["no-form-test", "no-variance-test"]
+
+
+async def test_pull_diagnostics_when_the_client_offers_them(project):
+    async with session(project, capabilities(pull=True)) as c:
+        assert c.server_capabilities.diagnostic_provider is not None
+        uri = c.open(project / "model.py", SCRIPT)
+        report = await c.lsp.text_document_diagnostic_async(
+            t.DocumentDiagnosticParams(text_document=t.TextDocumentIdentifier(uri=uri))
+        )
+        assert codes(report.items) == ["no-form-test", "no-variance-test"]
+        again = await c.lsp.text_document_diagnostic_async(
+            t.DocumentDiagnosticParams(text_document=t.TextDocumentIdentifier(uri=uri),
+                                       previous_result_id=report.result_id)  # fmt: skip
+        )
+        assert again.kind == "unchanged"
+        c.edit(uri, (7, 0), (7, 0), CHECKS)
+        report = await c.lsp.text_document_diagnostic_async(
+            t.DocumentDiagnosticParams(text_document=t.TextDocumentIdentifier(uri=uri))
+        )
+        assert list(report.items) == []
+        assert not [p for p in c.published if p.uri == uri]  # a pull client gets no pushes
+
+
+def _notebook_cells(nb_path):
+    cell = lambda i: f"vscode-notebook-cell:{nb_path.as_posix()}#W{i}sZmlsZQ%3D%3D"  # noqa: E731 (quoted URI)
+    return cell
+
+
+async def test_notebook_findings_are_published_on_their_cells(project):
+    nb_path = project / "study.ipynb"
+    nb_uri = from_fs_path(str(nb_path))
+    cell = _notebook_cells(nb_path)
+    async with session(project, capabilities(notebook=True)) as c:
+        assert c.server_capabilities.notebook_document_sync is not None
+        c.lsp.notebook_document_did_open(t.DidOpenNotebookDocumentParams(
+            notebook_document=t.NotebookDocument(uri=nb_uri, notebook_type="jupyter-notebook", version=0, cells=[
+                t.NotebookCell(kind=t.NotebookCellKind.Markup, document=cell(0)),
+                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1)),
+                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(2))]),
+            cell_text_documents=[
+                t.TextDocumentItem(uri=cell(0), language_id="markdown", version=1, text="# Weekly riders\n"),
+                t.TextDocumentItem(uri=cell(1), language_id="python", version=1,
+                                   text="%matplotlib inline\nimport statsmodels.formula.api as smf\n"),
+                t.TextDocumentItem(uri=cell(2), language_id="python", version=1,
+                                   text="res = smf.ols('riders ~ fare', data=df).fit()\nres.summary()\n")]))  # fmt: skip
+        await c.until(lambda: c.lsp.diagnostics.get(cell(2)))
+        diags = c.lsp.diagnostics[cell(2)]
+        assert codes(diags) == ["no-form-test", "no-variance-test"]
+        assert all(d.range.start.line == 0 and d.range.start.character == 6 for d in diags)
+        assert len(c.lsp.diagnostics[cell(1)]) == 0
+        assert diags[0].related_information[0].location.uri == cell(2)
+        # a check added in a new last cell clears them
+        c.lsp.notebook_document_did_change(t.DidChangeNotebookDocumentParams(
+            notebook_document=t.VersionedNotebookDocumentIdentifier(version=1, uri=nb_uri),
+            change=t.NotebookDocumentChangeEvent(cells=t.NotebookDocumentCellChanges(text_content=[
+                t.NotebookDocumentCellContentChanges(
+                    document=t.VersionedTextDocumentIdentifier(uri=cell(2), version=2),
+                    changes=[t.TextDocumentContentChangePartial(range=t.Range(t.Position(2, 0), t.Position(2, 0)),
+                             text="from statsmodels.stats.api import het_breuschpagan, linear_reset\n"
+                                  "linear_reset(res, power=3, use_f=True)\nhet_breuschpagan(res.resid, res.model.exog)\n")])]))))  # fmt: skip
+        await c.until(lambda: c.published[-1].uri in (cell(1), cell(2)) and len(c.lsp.diagnostics[cell(2)]) == 0)
+        hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=cell(2)),
+                                                                    t.Position(0, 8)))  # fmt: skip
+        assert "functional form: **done**" in hover.contents.value and "(cell 2, line 4)" in hover.contents.value
+
+
+async def test_hover_shows_the_status_of_each_check_family(project):
+    text = SCRIPT + "print(linear_reset(res, power=3, use_f=True))  # regvet: waive no-variance-test -- x\n"
+    text = text.replace("import pandas as pd\n", "import pandas as pd\nfrom statsmodels.stats.diagnostic import linear_reset\n")
+    text = text.replace(".fit()\n", ".fit()  # regvet: waive no-variance-test -- volumes are pooled over equal-size routes\n", 1)
+    async with session(project) as c:
+        uri = c.open(project / "model.py", text)
+        await c.diagnostics_for(uri, 1)
+        line = text.split("\n")[6]
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(6, line.index("smf.ols") + 3))
+        )
+        value = hover.contents.value
+        assert "`res` (OLS, formula `riders ~ fare + fuel_price`, nonrobust)" in value
+        assert "- functional form: **done**: `linear_reset` (line 9)" in value
+        assert "- variance: **waived**: volumes are pooled over equal-size routes" in value
+        assert "- normality: **missing**" in value
+        assert "- serial correlation: **not needed**" in value
+        assert "- breaks: **not needed**" in value and "- comparisons: **not needed**" in value
+        nothing = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(0, 0))
+        )
+        assert nothing is None
+
+
+async def test_client_settings_override_skip(project):
+    async with session(project, settings={"skip": ["no-form-test"]}) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        assert codes(await c.diagnostics_for(uri, 1)) == ["no-variance-test"]
+        c.lsp.set_configuration({"only": ["no-form-test"]}, section="regvet")
+        c.lsp.workspace_did_change_configuration(t.DidChangeConfigurationParams(settings=None))
+        await c.until(lambda: codes(c.lsp.diagnostics[uri]) == ["no-form-test"])
+
+
+async def test_config_file_is_read_and_reloaded_when_it_changes(project):
+    cfg = project / "regvet.toml"
+    cfg.write_text('skip = ["no-variance-test"]\n')
+    async with session(project) as c:
+        await c.until(lambda: c.registrations)
+        assert c.registrations[0].method == t.WORKSPACE_DID_CHANGE_WATCHED_FILES
+        uri = c.open(project / "model.py", SCRIPT)
+        assert codes(await c.diagnostics_for(uri, 1)) == ["no-form-test"]
+        cfg.write_text('skip = ["no-form-test"]\n')
+        count = len(c.published)
+        c.lsp.workspace_did_change_watched_files(t.DidChangeWatchedFilesParams(
+            changes=[t.FileEvent(uri=from_fs_path(str(cfg)), type=t.FileChangeType.Changed)]))  # fmt: skip
+        await c.until(lambda: len(c.published) > count and c.published[-1].uri == uri)
+        assert codes(c.published[-1].diagnostics) == ["no-variance-test"]
+
+
+async def test_broken_config_gets_one_diagnostic_and_the_server_uses_defaults(project):
+    cfg = project / "pyproject.toml"
+    cfg.write_text("[tool.regvet]\nskip = [\"no-variance-test\"]\nalpah = 0.05\n")
+    cfg_uri = from_fs_path(str(cfg))
+    async with session(project) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        assert codes(await c.diagnostics_for(uri, 1)) == ["no-form-test", "no-variance-test"]  # defaults
+        await c.until(lambda: c.lsp.diagnostics.get(cfg_uri))
+        [d] = c.lsp.diagnostics[cfg_uri]
+        assert "alpah" in d.message and "did you mean `alpha`" in d.message and d.range.start.line == 2
+        cfg.write_text("[tool.regvet]\nskip = [\"no-variance-test\"]\n")
+        c.lsp.workspace_did_change_watched_files(t.DidChangeWatchedFilesParams(
+            changes=[t.FileEvent(uri=cfg_uri, type=t.FileChangeType.Changed)]))  # fmt: skip
+        await c.until(lambda: len(c.lsp.diagnostics.get(cfg_uri, ())) == 0)
+        await c.until(lambda: codes(c.lsp.diagnostics[uri]) == ["no-form-test"])
+
+
+async def test_editing_a_helper_module_reanalyses_the_scripts_that_use_it(project):
+    helper = project / "ferry_checks.py"
+    helper.write_text("def run_checks(res):\n    return res.params\n")
+    main = SCRIPT.replace("import pandas as pd\n", "import pandas as pd\nfrom ferry_checks import run_checks\n")
+    main += "run_checks(res)\n"
+    async with session(project) as c:
+        main_uri = c.open(project / "model.py", main)
+        assert codes(await c.diagnostics_for(main_uri, 1)) == ["no-form-test", "no-variance-test"]
+        helper_uri = c.open(helper, helper.read_text())
+        count = len([p for p in c.published if p.uri == main_uri])
+        new_helper = (
+            "from statsmodels.stats.diagnostic import het_breuschpagan, linear_reset\n\n"
+            "def run_checks(res):\n    linear_reset(res, power=3, use_f=True)\n"
+            "    return het_breuschpagan(res.resid, res.model.exog)\n"
+        )
+        c.replace(helper_uri, new_helper)  # unsaved: the open buffer wins over the file on disk
+        await c.until(lambda: len([p for p in c.published if p.uri == main_uri]) > count)
+        assert codes(c.lsp.diagnostics[main_uri]) == []
+
+
+async def test_tcp_transport_binds_loopback(project):
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        port = s.getsockname()[1]
+    proc = subprocess.Popen([*SERVER, "--tcp", "--port", str(port)], stderr=subprocess.PIPE)
+    try:
+        from pytest_lsp import LanguageClient
+        from pytest_lsp.client import register_lsp_features
+        from pygls.protocol import default_converter
+
+        deadline = time.monotonic() + 20
+        while True:
+            try:
+                with socket.create_connection(("127.0.0.1", port), timeout=0.2):
+                    pass
+                break
+            except OSError:
+                if time.monotonic() > deadline:
+                    raise
+                await asyncio.sleep(0.05)
+        # the TCP server serves one connection: the probe above was it, so start a second one
+        proc.terminate()
+        proc.wait(5)
+        proc = subprocess.Popen([*SERVER, "--tcp", "--port", str(port)], stderr=subprocess.PIPE)
+        client = LanguageClient(converter_factory=default_converter)
+        register_lsp_features(client)
+        for _ in range(200):
+            try:
+                await client.start_tcp("127.0.0.1", port)
+                break
+            except OSError:
+                await asyncio.sleep(0.05)
+        result = await client.initialize_session(t.InitializeParams(capabilities=capabilities()))
+        assert result.server_info.name == "regvet"
+        listening = subprocess.run(["ss", "-ltn"], capture_output=True, text=True).stdout
+        assert f"127.0.0.1:{port}" in listening and f"0.0.0.0:{port}" not in listening
+        await client.shutdown_session()
+    finally:
+        proc.terminate()
+        proc.wait(5)
+
+
+def test_serve_help_and_bad_arguments():
+    proc = subprocess.run([*SERVER, "--help"], capture_output=True, text=True)
+    assert proc.returncode == 0 and "--tcp" in proc.stdout
+    proc = subprocess.run([*SERVER, "--port", "x"], capture_output=True, text=True)
+    assert proc.returncode == 2 and "Traceback" not in proc.stderr
+
+
+def test_diagnostic_data_is_plain_json():
+    from regvet.lsp.convert import json_safe
+
+    class Scalar:
+        def item(self):
+            return 3
+
+    assert json.dumps(json_safe({"a": float("nan"), "b": float("inf"), "c": Scalar(), "d": (1, 2.5)}),
+                      allow_nan=False) == '{"a": null, "b": null, "c": 3, "d": [1, 2.5]}'  # fmt: skip
