@@ -11,6 +11,7 @@ import textwrap
 from typing import Mapping, Sequence, TypeVar
 
 import libcst as cst
+from libcst.helpers import get_full_name_for_node
 from libcst.metadata import CodeRange, MetadataWrapper, ParentNodeProvider, PositionProvider
 
 from regvet.edits.text import EditError
@@ -170,7 +171,7 @@ def _import_lines(body: Sequence[cst.BaseStatement]) -> list[int]:
 def _module_name(node: cst.ImportFrom) -> str | None:
     if node.relative or node.module is None:
         return None
-    return cst.helpers.get_full_name_for_node(node.module)
+    return get_full_name_for_node(node.module)
 
 
 def _binds(node: cst.BaseSmallStatement, from_module: str, name: str) -> bool:
