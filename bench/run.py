@@ -1,5 +1,9 @@
 """Benchmarks for regvet, run by ``make bench``. Results go to ``bench/results/latest.json``.
 
+language_server: median latency from ``didChange`` to the matching ``publishDiagnostics``
+for generated scripts of about 200, 2,000 and 10,000 lines (debounce 0), and the server's
+resident memory over 1,000 edits (see ``bench/lsp.py``).
+
 scan-statsmodels: a full ``regvet check`` of the installed statsmodels package (sources and
 tests, with project-module resolution as in a real scan) against a bare ``ast.parse`` of the
 same files in the same run, so the ratio says what regvet's analysis costs on top of reading.
@@ -76,12 +80,20 @@ def bench_scan(repeats: int = 3) -> dict:
 
 
 def main() -> int:
+    import tempfile
+
+    sys.path.insert(0, str(HERE))
+    import lsp
+
     RESULTS.mkdir(exist_ok=True)
+    with tempfile.TemporaryDirectory() as tmp:
+        server = lsp.run(Path(tmp))
     result = {
         "python": platform.python_version(),
         "machine": f"{platform.machine()}, {platform.system()}",
         "date": time.strftime("%Y-%m-%d"),
         "scan_statsmodels": bench_scan(),
+        "language_server": server,
     }
     out = RESULTS / "latest.json"
     tmp = out.with_suffix(".json.tmp")
@@ -89,7 +101,13 @@ def main() -> int:
     tmp.replace(out)
     s = result["scan_statsmodels"]
     print(f"scan of {s['target']}: regvet check {s['regvet_check_s']} s, bare ast.parse {s['ast_parse_s']} s, "
-          f"ratio {s['ratio']}x ({s['findings']} findings); written to {out.relative_to(HERE.parent)}")  # fmt: skip
+          f"ratio {s['ratio']}x ({s['findings']} findings)")  # fmt: skip
+    for row in result["language_server"]["latency"]:
+        print(f"didChange -> publishDiagnostics, {row['lines']} lines: median {row['median_ms']} ms "
+              f"(max {row['max_ms']} ms over {row['edits']} edits)")  # fmt: skip
+    mem = result["language_server"]["memory"]
+    print(f"server RSS over 1000 edits of a {mem['lines']}-line script (MB): {mem['rss_mb_after_edits']}")
+    print(f"written to {out.relative_to(HERE.parent)}")
     return 0
 
 

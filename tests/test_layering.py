@@ -15,8 +15,6 @@ import pytest
 
 SRC = Path(__file__).resolve().parents[1] / "src" / "regvet"
 HEAVY = {"numpy", "pandas", "scipy", "statsmodels", "libcst", "pygls", "lsprotocol", "matplotlib"}
-#: The heavy packages a layer may import anyway.
-HEAVY_ALLOWED = {"edits": {"libcst"}}
 #: For each layer, the regvet layers it may import.
 ALLOWED = {
     "model": {"model"},
@@ -27,9 +25,16 @@ ALLOWED = {
     "config": {"model", "rules", "config"},
     "output": {"model", "rules", "engine", "output", "__init__"},
     "project": {"model", "sources", "analysis", "project"},
+    "cli": {"model", "sources", "analysis", "rules", "engine", "config", "output", "project", "cli", "lsp",
+            "__init__"},
+    "precommit": {"cli", "precommit"},
+    "status": {"model", "analysis", "engine", "status"},
     "edits": {"model", "sources", "edits"},
-    "cli": {"model", "sources", "analysis", "rules", "engine", "config", "output", "project", "cli", "__init__"},
+    "lsp": {"model", "sources", "analysis", "rules", "engine", "config", "project", "status", "edits", "cli", "lsp",
+            "__init__"},
 }
+#: The only layers that may import a heavy package, and which.
+HEAVY_ALLOWED = {"lsp": {"pygls", "lsprotocol"}, "edits": {"libcst"}}
 
 
 def _layer(path: Path) -> str:
@@ -67,6 +72,15 @@ def test_module_respects_the_layers(path):
 def test_every_module_is_in_a_known_layer():
     known = {_layer(p) for p in SRC.rglob("*.py")}
     assert known <= set(ALLOWED) | {"__init__", "__main__"}, known - set(ALLOWED)
+
+
+def test_only_the_language_server_imports_pygls_and_only_edits_import_libcst():
+    for path in MODULES:
+        tops = {n.split(".")[0] for n in _imports(path)}
+        if tops & {"pygls", "lsprotocol"}:
+            assert _layer(path) == "lsp", path
+        if "libcst" in tops:
+            assert _layer(path) == "edits", path
 
 
 def test_importing_the_cli_loads_no_heavy_package():

@@ -9,6 +9,7 @@ the installed statsmodels/scipy, so an entry that does not exist fails a test.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import lru_cache
 
 # --- name normalisation ------------------------------------------------------------------
 #: Public re-exports of one namespace under another. A qualified name starting with a key
@@ -27,6 +28,7 @@ NAMESPACE_ALIASES: dict[str, str] = {
 _ALIAS_KEYS = sorted(NAMESPACE_ALIASES, key=len, reverse=True)
 
 
+@lru_cache(maxsize=8192)
 def canonical(qualname: str) -> str:
     """Rewrite re-exported paths to one spelling, e.g. ``statsmodels.api.stats.X`` to ``statsmodels.stats.api.X``."""
     for key in _ALIAS_KEYS:

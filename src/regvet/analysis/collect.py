@@ -673,9 +673,13 @@ class Collector:
     def ev(self, node: ast.expr | None, frame: _Frame) -> V:
         if node is None:
             return EMPTY
-        method = getattr(self, "ev_" + type(node).__name__, None)
-        if method is not None:
-            return method(node, frame)
+        method = _EV.get(type(node))
+        if method is None:
+            method = _EV[type(node)] = getattr(Collector, "ev_" + type(node).__name__, _ev_children)
+        return method(self, node, frame)
+
+    def ev_children(self, node: ast.expr, frame: _Frame) -> V:
+        """Any other expression: evaluate its parts (for the uses inside), keep what flows out."""
         out = EMPTY
         for child in ast.iter_child_nodes(node):
             if isinstance(child, ast.expr):
@@ -1734,6 +1738,13 @@ _WELL_KNOWN = frozenset(
      "sys", "pathlib", "json", "math", "re", "itertools", "functools", "collections", "operator", "typing",
      "warnings", "datetime", "random", "statistics", "csv", "pickle", "logging", "dataclasses", "abc"}
 )  # fmt: skip
+
+
+_EV: dict[type, Callable] = {}
+
+
+def _ev_children(collector: Collector, node: ast.expr, frame: _Frame) -> V:
+    return collector.ev_children(node, frame)
 
 
 def _cp(lines: list[str], line: int, byte_col: int) -> int:

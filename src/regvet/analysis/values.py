@@ -9,8 +9,7 @@ Values are immutable; :func:`join` is their least upper bound.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import Iterable, Iterator
+from typing import Iterable, Iterator, NamedTuple
 
 #: Values nest (lists of dicts of fits). Past this depth they are flattened into tags.
 MAX_DEPTH = 5
@@ -18,8 +17,7 @@ MAX_DEPTH = 5
 MAX_TAGS = 96
 
 
-@dataclass(frozen=True, slots=True)
-class V:
+class V(NamedTuple):
     tags: frozenset = frozenset()
     elem: "V | None" = None
     keys: "V | None" = None

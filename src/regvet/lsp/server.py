@@ -98,6 +98,7 @@ class RegvetServer(LanguageServer):
         self.config_diagnostics: set[str] = set()
         self.module_cache: LRU = LRU(64)
         self.rule_docs = Path(tempfile.mkdtemp(prefix="regvet-rules-"))
+        self._doc_uris: dict[str, str | None] = {}
         atexit.register(shutil.rmtree, self.rule_docs, True)
         from regvet.cli import explain
 
@@ -115,8 +116,10 @@ class RegvetServer(LanguageServer):
             pass
 
     def rule_doc_uri(self, rule: str) -> str | None:
-        path = self.rule_docs / f"{rule}.md"
-        return from_fs_path(str(path)) if path.exists() else None
+        if rule not in self._doc_uris:
+            path = self.rule_docs / f"{rule}.md"
+            self._doc_uris[rule] = from_fs_path(str(path)) if path.exists() else None
+        return self._doc_uris[rule]
 
     @property
     def debounce(self) -> float:
