@@ -335,3 +335,85 @@ def test_diagnostic_data_is_plain_json():
 
     assert json.dumps(json_safe({"a": float("nan"), "b": float("inf"), "c": Scalar(), "d": (1, 2.5)}),
                       allow_nan=False) == '{"a": null, "b": null, "c": 3, "d": [1, 2.5]}'  # fmt: skip
+
+
+def apply_text_edit(text: str, edit: t.TextEdit) -> str:
+    """Apply one LSP edit (UTF-16 columns) the way a client does."""
+    from regvet.lsp.convert import Positions
+
+    pos = Positions(text, "utf-16")
+    lines = text.split("\n")
+
+    def offset(p: t.Position) -> int:
+        line, col = pos.from_client(p)
+        return sum(len(x) + 1 for x in lines[: line - 1]) + col
+
+    return text[: offset(edit.range.start)] + edit.new_text + text[offset(edit.range.end):]
+
+
+@pytest.mark.parametrize(
+    "rule,title_start",
+    [
+        ("no-variance-test", "Use robust standard errors"),
+        ("no-form-test", "Insert a RESET test"),
+        ("no-variance-test", "Insert a Breusch-Pagan test"),
+        ("no-form-test", "Waive no-form-test"),
+        ("no-variance-test", "Waive no-variance-test"),
+    ],
+)
+async def test_each_quick_fix_clears_the_finding_it_targets(project, rule, title_start):
+    async with session(project) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        diags = await c.diagnostics_for(uri, 1)
+        target = next(d for d in diags if d.code == rule)
+        actions = await c.lsp.text_document_code_action_async(t.CodeActionParams(
+            text_document=t.TextDocumentIdentifier(uri=uri), range=target.range,
+            context=t.CodeActionContext(diagnostics=[target])))  # fmt: skip
+        action = next(a for a in actions if a.title.startswith(title_start))
+        assert action.kind == t.CodeActionKind.QuickFix and list(action.diagnostics) == [target]
+        [change] = action.edit.document_changes
+        assert change.text_document.uri == uri and change.text_document.version == 1
+        [edit] = change.edits
+        new = apply_text_edit(SCRIPT, edit)
+        import ast
+
+        ast.parse(new)
+        # everything outside the edited range is byte-for-byte the same
+        start = len("\n".join(SCRIPT.split("\n")[: edit.range.start.line]))
+        assert new[:start] == SCRIPT[:start]
+        tail = len(SCRIPT) - len("\n".join(SCRIPT.split("\n")[: edit.range.end.line + 1]))
+        assert new.endswith(SCRIPT[len(SCRIPT) - tail:])
+        version = c.replace(uri, new)
+        after = await c.diagnostics_for(uri, version)
+        assert rule not in codes(after)
+        others = {"no-form-test", "no-variance-test"} - {rule}
+        assert set(codes(after)) == others  # only the targeted finding went away
+        if title_start.startswith("Waive"):
+            assert f"# regvet: waive {rule} -- REASON" in new
+
+
+async def test_quick_fixes_in_a_notebook_cell_edit_that_cell(project):
+    nb_path = project / "study.ipynb"
+    nb_uri = from_fs_path(str(nb_path))
+    cell = _notebook_cells(nb_path)
+    code1 = "import statsmodels.formula.api as smf\nfrom statsmodels.stats.diagnostic import linear_reset\n"
+    code2 = "res = smf.ols('riders ~ fare', data=df).fit()\nres.summary()\n"
+    async with session(project, capabilities(notebook=True)) as c:
+        c.lsp.notebook_document_did_open(t.DidOpenNotebookDocumentParams(
+            notebook_document=t.NotebookDocument(uri=nb_uri, notebook_type="jupyter-notebook", version=0, cells=[
+                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
+                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1))]),
+            cell_text_documents=[
+                t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=code1),
+                t.TextDocumentItem(uri=cell(1), language_id="python", version=1, text=code2)]))  # fmt: skip
+        await c.until(lambda: c.lsp.diagnostics.get(cell(1)))
+        target = next(d for d in c.lsp.diagnostics[cell(1)] if d.code == "no-form-test")
+        actions = await c.lsp.text_document_code_action_async(t.CodeActionParams(
+            text_document=t.TextDocumentIdentifier(uri=cell(1)), range=target.range,
+            context=t.CodeActionContext(diagnostics=[target])))  # fmt: skip
+        action = next(a for a in actions if a.title.startswith("Insert a RESET test"))
+        [change] = action.edit.document_changes
+        assert change.text_document.uri == cell(1)
+        new = apply_text_edit(code2, change.edits[0])
+        # linear_reset is already imported in cell 0: no second import in this cell
+        assert new == code2.replace(".fit()\n", ".fit()\nprint(\"RESET:\", linear_reset(res, power=3, use_f=True))\n", 1)

@@ -12,7 +12,8 @@ from regvet.sources.waivers import Waiver, find_waivers
 
 _RULE_ID = re.compile(r"^[a-z0-9][a-z0-9-]*$")
 _HEAD = re.compile(r"#\s*regvet\s*:\s*waive\b")
-_SKIP = {tokenize.ENCODING, tokenize.NL, tokenize.NEWLINE, tokenize.COMMENT, tokenize.INDENT, tokenize.DEDENT, tokenize.ENDMARKER}
+_SKIP = {tokenize.ENCODING, tokenize.NL, tokenize.NEWLINE, tokenize.COMMENT}
+_SKIP |= {tokenize.INDENT, tokenize.DEDENT, tokenize.ENDMARKER}
 _STRING_OPEN = {getattr(tokenize, n) for n in ("FSTRING_START", "TSTRING_START") if hasattr(tokenize, n)}
 _STRING_CLOSE = {getattr(tokenize, n) for n in ("FSTRING_END", "TSTRING_END") if hasattr(tokenize, n)}
 

@@ -34,20 +34,19 @@ def set_cov_type(source: str, fit_call: Span, cov_type: str = "HC3") -> str:
     call = _node_at(wrapper.resolve(PositionProvider), fit_call, (cst.Call,), "call")
     assert isinstance(call, cst.Call)
     args = list(call.args)
-    for i, arg in enumerate(args):
-        if arg.keyword is not None and arg.keyword.value == "cov_type":
-            break
-    else:
-        i = 1 if len(args) >= 2 and all(a.keyword is None and not a.star for a in args[:2]) else -1
-    if i >= 0:
-        args[i] = args[i].with_changes(value=_string(cov_type, args[i].value))
+    at = next((i for i, a in enumerate(args) if a.keyword is not None and a.keyword.value == "cov_type"), None)
+    if at is None and len(args) >= 2 and all(a.keyword is None and not a.star for a in args[:2]):
+        at = 1  # OLS.fit(method, cov_type, ...)
+    if at is not None:
+        args[at] = args[at].with_changes(value=_string(cov_type, args[at].value))
         return module.deep_replace(call, call.with_changes(args=args)).code
     equal = next((a.equal for a in args if a.keyword is not None), None)
     if not isinstance(equal, cst.AssignEqual):  # no keyword to copy the style of: PEP 8's `key=value`
         equal = cst.AssignEqual(whitespace_before=cst.SimpleWhitespace(""), whitespace_after=cst.SimpleWhitespace(""))
     new = cst.Arg(value=_string(cov_type, None), keyword=cst.Name("cov_type"), equal=equal)
     if args:
-        first = args[-2].comma.whitespace_after if len(args) > 1 else call.whitespace_before_args  # type: ignore[union-attr]
+        before_last = args[-2].comma if len(args) > 1 else None
+        first = before_last.whitespace_after if isinstance(before_last, cst.Comma) else call.whitespace_before_args
         args = _append(args, new, first)
     else:
         args = [new]
@@ -90,7 +89,7 @@ def insert_after_statement(
     else:
         module = module.deep_replace(block, block.with_changes(body=body))  # type: ignore[assignment]
     for from_module, name in imports:
-        module = _add_import(module, from_module, name, top_index)
+        module, top_index = _add_import(module, from_module, name, top_index)
     return module.code
 
 
@@ -134,16 +133,25 @@ def _separator(first: cst.BaseParenthesizableWhitespace) -> cst.BaseParenthesiza
 def _append(items: list[_Item], new: _Item, first: cst.BaseParenthesizableWhitespace) -> list[_Item]:
     """``items`` + ``new``: the old last item gets a comma, ``new`` takes over its trailing comma and spacing.
 
-    ``first`` is the whitespace before the first item, or after the comma before the last one.
+    ``first`` is the whitespace before the first item, or after the comma before the last one. In
+    a list of one item per line, a comment after the old last item stays on its line.
     """
     last = items[-1]
     had_comma = isinstance(last.comma, cst.Comma)
+    if isinstance(last.comma, cst.Comma):
+        tail: cst.BaseParenthesizableWhitespace | None = last.comma.whitespace_after
+    else:
+        tail = last.whitespace_after_arg if isinstance(last, cst.Arg) else None
+    sep = _separator(first)
+    if isinstance(tail, cst.ParenthesizedWhitespace) and isinstance(sep, cst.ParenthesizedWhitespace):
+        sep = tail.with_changes(indent=sep.indent, last_line=sep.last_line)
+        tail = _separator(tail).with_changes(indent=tail.indent, last_line=tail.last_line)
     before = last.comma.whitespace_before if isinstance(last.comma, cst.Comma) else cst.SimpleWhitespace("")
-    old_changes: dict = {"comma": cst.Comma(whitespace_before=before, whitespace_after=_separator(first))}
-    new_changes: dict = {"comma": last.comma}
+    old_changes: dict = {"comma": cst.Comma(whitespace_before=before, whitespace_after=sep)}
+    new_changes: dict = {"comma": last.comma.with_changes(whitespace_after=tail) if had_comma else last.comma}
     if isinstance(last, cst.Arg) and not had_comma:  # the space before `)` moves to the new last argument
         old_changes["whitespace_after_arg"] = cst.SimpleWhitespace("")
-        new_changes["whitespace_after_arg"] = last.whitespace_after_arg
+        new_changes["whitespace_after_arg"] = tail
     return [*items[:-1], last.with_changes(**old_changes), new.with_changes(**new_changes)]
 
 
@@ -184,22 +192,27 @@ def _binds(node: cst.BaseSmallStatement, from_module: str, name: str) -> bool:
     return False
 
 
-def _add_import(module: cst.Module, from_module: str, name: str, before: int) -> cst.Module:
-    """``module`` with ``name`` importable from ``from_module`` by the top-level statement at index ``before``."""
+def _add_import(module: cst.Module, from_module: str, name: str, before: int) -> tuple[cst.Module, int]:
+    """``module`` with ``name`` importable from ``from_module`` by the top-level statement at index ``before``,
+    and that statement's index afterwards."""
     body = list(module.body)
     lines = [i for i in _import_lines(body) if i < before]
     smalls = [(i, j, s) for i in lines for j, s in enumerate(body[i].body)]  # type: ignore[attr-defined]
     if any(_binds(s, from_module, name) for _, _, s in smalls):
-        return module
+        return module, before
     for i, j, s in smalls:
         if isinstance(s, cst.ImportFrom) and not isinstance(s.names, cst.ImportStar) and _module_name(s) == from_module:
             names = list(s.names)
-            first = names[-2].comma.whitespace_after if len(names) > 1 else s.lpar.whitespace_after if s.lpar else None  # type: ignore[union-attr]
-            names = _append(names, cst.ImportAlias(name=cst.Name(name)), first or cst.SimpleWhitespace(" "))
+            before_last = names[-2].comma if len(names) > 1 else None
+            if isinstance(before_last, cst.Comma):
+                first: cst.BaseParenthesizableWhitespace = before_last.whitespace_after
+            else:
+                first = s.lpar.whitespace_after if s.lpar else cst.SimpleWhitespace(" ")
+            names = _append(names, cst.ImportAlias(name=cst.Name(name)), first)
             small = list(body[i].body)  # type: ignore[attr-defined]
             small[j] = s.with_changes(names=names)
             body[i] = body[i].with_changes(body=small)
-            return module.with_changes(body=body)
+            return module.with_changes(body=body), before
     new = cst.parse_statement(f"from {from_module} import {name}\n")
     if lines:
         at = lines[-1] + 1
@@ -209,7 +222,7 @@ def _add_import(module: cst.Module, from_module: str, name: str, before: int) ->
             new = new.with_changes(leading_lines=body[0].leading_lines)
             body[0] = body[0].with_changes(leading_lines=())
     body.insert(at, new)
-    return module.with_changes(body=body)
+    return module.with_changes(body=body), before + 1
 
 
 def _is_docstring(stmt: cst.BaseStatement) -> bool:
