@@ -417,3 +417,14 @@ async def test_quick_fixes_in_a_notebook_cell_edit_that_cell(project):
         new = apply_text_edit(code2, change.edits[0])
         # linear_reset is already imported in cell 0: no second import in this cell
         assert new == code2.replace(".fit()\n", ".fit()\nprint(\"RESET:\", linear_reset(res, power=3, use_f=True))\n", 1)
+
+
+async def test_editor_skip_adds_to_the_projects_skip_and_empty_lists_change_nothing(project):
+    (project / "regvet.toml").write_text('skip = ["no-form-test"]\n')
+    async with session(project, settings={"skip": [], "only": []}) as c:
+        uri = c.open(project / "model.py", SCRIPT)
+        assert codes(await c.diagnostics_for(uri, 1)) == ["no-variance-test"]
+        c.lsp.set_configuration({"skip": ["no-variance-test", "no-such-rule"]}, section="regvet")
+        c.lsp.workspace_did_change_configuration(t.DidChangeConfigurationParams(settings=None))
+        await c.until(lambda: len(c.lsp.diagnostics[uri]) == 0)
+        await c.until(lambda: any("no-such-rule" in m.message for m in c.lsp.log_messages))

@@ -99,6 +99,7 @@ class RegvetServer(LanguageServer):
         self.module_cache: LRU = LRU(64)
         self.rule_docs = Path(tempfile.mkdtemp(prefix="regvet-rules-"))
         self._doc_uris: dict[str, str | None] = {}
+        self._warned: set[tuple] = set()
         atexit.register(shutil.rmtree, self.rule_docs, True)
         from regvet.cli import explain
 
@@ -195,11 +196,27 @@ class RegvetServer(LanguageServer):
         alpha = c.get("alpha")
         if isinstance(alpha, (int, float)) and not isinstance(alpha, bool) and 0 < alpha < 1:
             changes["alpha"] = float(alpha)
-        for key in ("skip", "only"):
-            value = c.get(key)
-            if isinstance(value, list):
-                changes[key] = frozenset(v for v in value if isinstance(v, str) and v in RULES_BY_ID)
+        # The editor adds to the project's `skip` and narrows with a non-empty `only`; an empty list
+        # changes nothing, so an editor cannot silently drop what the project decided.
+        skip = self._rule_ids("skip")
+        if skip:
+            changes["skip"] = s.skip | skip
+        only = self._rule_ids("only")
+        if only:
+            changes["only"] = only
         return replace(s, **changes) if changes else s
+
+    def _rule_ids(self, key: str) -> frozenset[str]:
+        value = self.client_settings.get(key)
+        if not isinstance(value, list):
+            return frozenset()
+        unknown = [v for v in value if v not in RULES_BY_ID]
+        if unknown and (key, tuple(unknown)) not in self._warned:
+            self._warned.add((key, tuple(unknown)))
+            self.window_log_message(t.LogMessageParams(
+                type=t.MessageType.Warning,
+                message=f"regvet: setting `{key}` names unknown rule ids {unknown}; they are ignored"))  # fmt: skip
+        return frozenset(v for v in value if isinstance(v, str) and v in RULES_BY_ID)
 
     def config_errors(self) -> list[ConfigError]:
         return [v for v in self.configs.values() if isinstance(v, ConfigError)]

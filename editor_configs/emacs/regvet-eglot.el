@@ -1,0 +1,26 @@
+;;; regvet-eglot.el --- run regvet's language server through eglot  -*- lexical-binding: t -*-
+
+;; Load from your init file: (load "/path/to/regvet-eglot.el")
+;; Emacs 29+ has eglot built in; Emacs 28 needs the eglot package (Debian: elpa-eglot).
+;; eglot runs ONE server per major mode, so Python buffers get regvet instead of
+;; pylsp/pyright while this is active.  Remove the entry to go back.
+
+;;; Code:
+
+(require 'eglot)
+
+(add-to-list 'eglot-server-programs
+             '((python-mode python-ts-mode) . ("regvet" "serve")))
+
+;; Answered to workspace/configuration (section "regvet") and pushed on connect.
+;; Leave :skip/:only out to keep the project's [tool.regvet] lists.
+(setq-default eglot-workspace-configuration
+              '(:regvet (:debounceMs 300)))
+
+;; Start regvet when a Python file is opened:
+(add-hook 'python-mode-hook #'eglot-ensure)
+(when (fboundp 'python-ts-mode)
+  (add-hook 'python-ts-mode-hook #'eglot-ensure))
+
+(provide 'regvet-eglot)
+;;; regvet-eglot.el ends here

@@ -1,0 +1,50 @@
+// VS Code client for regvet's language server (`regvet serve`, stdio).
+"use strict";
+const vscode = require("vscode");
+const { LanguageClient, TransportKind } = require("vscode-languageclient/node");
+
+let client;
+
+function serverCommand() {
+  // regvet.server.path is a restricted setting: in an untrusted workspace VS Code
+  // returns the user-level value only.
+  const path = vscode.workspace.getConfiguration("regvet").get("server.path") || "regvet";
+  return { command: path, args: ["serve"], transport: TransportKind.stdio };
+}
+
+function createClient() {
+  const clientOptions = {
+    documentSelector: [
+      { scheme: "file", language: "python" },
+      { scheme: "untitled", language: "python" },
+    ],
+    // Notebook cells arrive through notebookDocument/* (the server declares notebook sync).
+    synchronize: { configurationSection: "regvet" }, // -> workspace/didChangeConfiguration
+    outputChannelName: "regvet",
+  };
+  return new LanguageClient("regvet", "regvet", serverCommand(), clientOptions);
+}
+
+async function restart() {
+  if (client) await client.stop();
+  client = createClient();
+  await client.start();
+}
+
+async function activate(context) {
+  context.subscriptions.push(
+    vscode.commands.registerCommand("regvet.restart", restart),
+    vscode.workspace.onDidChangeConfiguration((event) => {
+      if (event.affectsConfiguration("regvet.server.path")) return restart();
+    }),
+    vscode.workspace.onDidGrantWorkspaceTrust(restart), // the workspace's server.path now applies
+  );
+  await restart();
+}
+
+async function deactivate() {
+  if (client) await client.stop();
+  client = undefined;
+}
+
+module.exports = { activate, deactivate };
