@@ -102,6 +102,8 @@ def main() -> int:
     s = result["scan_statsmodels"]
     print(f"scan of {s['target']}: regvet check {s['regvet_check_s']} s, bare ast.parse {s['ast_parse_s']} s, "
           f"ratio {s['ratio']}x ({s['findings']} findings)")  # fmt: skip
+    for row in result["language_server"]["analysis"]:
+        print(f"analysis alone, {row['lines']} lines: median {row['median_ms']} ms")
     for row in result["language_server"]["latency"]:
         print(f"didChange -> publishDiagnostics, {row['lines']} lines: median {row['median_ms']} ms "
               f"(max {row['max_ms']} ms over {row['edits']} edits)")  # fmt: skip

@@ -39,3 +39,6 @@ def test_readme_performance_figures_come_from_the_benchmark_file():
 
     data = json.loads((ROOT / "bench" / "results" / "latest.json").read_text())["scan_statsmodels"]
     assert f"{data['ratio']}×" in README
+    server = json.loads((ROOT / "bench" / "results" / "latest.json").read_text())["language_server"]
+    for row in server["analysis"] + server["latency"]:
+        assert f"{row['median_ms']} ms" in README
