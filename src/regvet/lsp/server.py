@@ -390,6 +390,14 @@ def schedule(ls: RegvetServer, key: str, delay: float) -> None:
     task.add_done_callback(done)
 
 
+def forget(ls: RegvetServer, key: str) -> None:
+    """A closed document: stop its pending analysis and drop its result."""
+    task = ls.pending.pop(key, None)
+    if task is not None:
+        task.cancel()
+    ls.results.pop(key, None)
+
+
 def schedule_dependents(ls: RegvetServer, changed: Path, delay: float) -> None:
     """Re-analyse open targets that read ``changed`` (a project module) during their last analysis."""
     target = str(changed.resolve())
@@ -552,10 +560,7 @@ def did_save(ls: RegvetServer, params: t.DidSaveTextDocumentParams) -> None:
 @server.feature(t.TEXT_DOCUMENT_DID_CLOSE)
 def did_close(ls: RegvetServer, params: t.DidCloseTextDocumentParams) -> None:
     uri = params.text_document.uri
-    task = ls.pending.pop(uri, None)
-    if task is not None:
-        task.cancel()
-    ls.results.pop(uri, None)
+    forget(ls, uri)
     if not ls.use_pull:
         ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[]))
 
@@ -585,11 +590,7 @@ def nb_save(ls: RegvetServer, params: t.DidSaveNotebookDocumentParams) -> None:
 
 @server.feature(t.NOTEBOOK_DOCUMENT_DID_CLOSE)
 def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None:
-    key = params.notebook_document.uri
-    task = ls.pending.pop(key, None)
-    if task is not None:
-        task.cancel()
-    ls.results.pop(key, None)
+    forget(ls, params.notebook_document.uri)
     if not ls.use_pull:
         for cell in params.cell_text_documents:
             ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=cell.uri, diagnostics=[]))
