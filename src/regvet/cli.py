@@ -71,7 +71,18 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--config", metavar="FILE", help="use this config file instead of searching for one")
     c.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
     c.add_argument("--color", choices=["auto", "always", "never"], default="auto", help="colour in text output")
+    _run_options(c)
 
+    r = sub.add_parser(
+        "run",
+        help="the same as `check --run`: EXECUTES the analysed code to attach real statistics",
+        description="Run each analysed script or notebook (this EXECUTES your code, in a child process with "
+        "limits) and attach the statistics of every fit to the findings.",
+        epilog=CAUTION,
+    )
+    for action in c._actions:
+        if action.dest not in ("help", "run"):
+            r._add_action(action)
     sub.add_parser("rules", help="list the rules")
     sub.add_parser("serve", help="run the language server (stdio; --tcp --port N for 127.0.0.1)")
     e = sub.add_parser("explain", help="explain one rule: rationale, examples, references")
@@ -79,9 +90,20 @@ def _parser() -> argparse.ArgumentParser:
     return p
 
 
+def _run_options(p: argparse.ArgumentParser) -> None:
+    p.add_argument(
+        "--run",
+        action="store_true",
+        help="runtime mode: EXECUTE each analysed file in a child process (its own folder, stdin closed, "
+        "time and memory limits) and attach the statistics of its fits; never used by the pre-commit hook",
+    )
+    p.add_argument("--no-cache", action="store_true", help="with --run: run again even if nothing changed")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     args_list = list(sys.argv[1:] if argv is None else argv)
-    if not args_list or (args_list[0] not in ("check", "rules", "explain", "serve") and not args_list[0].startswith("-")):
+    commands = ("check", "run", "rules", "explain", "serve")
+    if not args_list or (args_list[0] not in commands and not args_list[0].startswith("-")):
         args_list.insert(0, "check")
     if args_list and args_list[0] == "serve":
         return _serve(args_list[1:])
@@ -90,6 +112,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         args = parser.parse_args(args_list)
     except SystemExit as exc:  # argparse already printed the problem
         return EXIT_USAGE if exc.code not in (0, None) else EXIT_OK
+    if args.command == "run":
+        args.run = True
     if args.command == "rules":
         sys.stdout.write(render_rules())
         return EXIT_OK
@@ -240,6 +264,11 @@ def run_check(args: argparse.Namespace) -> int:
     default_root = Path.cwd().resolve()
     texts: dict[Path, str | None] = {}
     module_cache: dict = {}
+    cache = None
+    if getattr(args, "run", False):
+        from regvet.runtime.runner import RunCache
+
+        cache = None if args.no_cache else RunCache()
     reports: list[FileReport] = []
     failed = False
     for file in files:
@@ -248,6 +277,8 @@ def run_check(args: argparse.Namespace) -> int:
         root = next((r for r in sorted(roots, key=lambda r: len(r.parts), reverse=True) if r in resolved.parents), None)
         root = root or (resolved.parent if default_root not in resolved.parents else default_root)
         report = analyze_file(file, settings, root, texts, module_cache)
+        if getattr(args, "run", False):
+            report = _run_file(file, report, settings, cache)
         for crash in report.crashes:
             failed = True
             where = "the analysis" if crash.where == "analysis" else f"rule {crash.where}"
@@ -262,6 +293,18 @@ def run_check(args: argparse.Namespace) -> int:
     threshold = Severity.parse(args.fail_on)
     hit = any(f.severity >= threshold and not f.waived for r in reports for f in r.findings)
     return EXIT_FINDINGS if hit else EXIT_OK
+
+
+def _run_file(file: Path, report: FileReport, settings: Settings, cache) -> FileReport:  # type: ignore[no-untyped-def]
+    """Runtime mode for one file (imports the runtime part only now)."""
+    from regvet.runtime.session import run_and_judge
+
+    try:
+        text = file.read_bytes().decode("utf-8-sig" if file.suffix == ".ipynb" else "utf-8")
+    except (OSError, UnicodeDecodeError):
+        return report
+    judged, _ = run_and_judge(report, file, text, settings, cache=cache)
+    return judged
 
 
 def analyze_file(

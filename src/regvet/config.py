@@ -123,6 +123,22 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                     raise ConfigError(source, f"expected one of {', '.join(_SEVERITIES)}, got {sev!r}", f"{key}.{rid}")
                 pairs.append((rid, sev.lower()))
             values[key] = tuple(sorted(pairs))
+        elif option.kind == "string":
+            if not isinstance(value, str):
+                raise bad()
+            values[key] = value
+        elif option.kind in ("int", "optional-int"):
+            if isinstance(value, bool) or not isinstance(value, int) or value < (0 if option.kind == "optional-int" else 1):
+                raise bad()
+            values[key] = value
+        elif option.kind == "seconds":
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or value <= 0:
+                raise bad()
+            values[key] = float(value)
+        elif option.kind == "hc":
+            if not isinstance(value, str) or value.upper() not in ("HC0", "HC1", "HC2", "HC3"):
+                raise bad()
+            values[key] = value.upper()
         elif option.kind == "helpers":
             if not isinstance(value, dict):
                 raise bad()

@@ -14,11 +14,12 @@ import re
 import traceback
 from contextlib import contextmanager
 from typing import Iterator
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from regvet.analysis.collect import ModuleProvider, NoModules, collect
 from regvet.model.facts import FileFacts
 from regvet.model.finding import Finding, Severity
+from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RuleInput
@@ -49,6 +50,7 @@ class FileReport:
     facts: FileFacts | None = field(default=None, compare=False, repr=False)
     cell_count: int | None = None
     cell_map: CellMap | None = field(default=None, compare=False, repr=False)
+    rule_input: RuleInput | None = field(default=None, compare=False, repr=False)
 
 
 def mentions_fits(text: str, path: str, provider: ModuleProvider) -> bool:
@@ -260,14 +262,32 @@ def _finish(
             if strict:
                 raise
             all_crashes.append(Crash(rule.id, _describe(exc)))
+    if inp.runtime is not None:
+        from regvet.rules.evidence import attach
+
+        findings = attach(findings, inp)
     findings = _apply_waivers(_dedupe(findings), inp.waivers)
     findings = [_with_severity(f, settings) for f in findings]
     if cell_map is not None:
         findings = [_to_cells(f, cell_map) for f in findings]
     findings.sort(key=Finding.sort_key)
     return FileReport(
-        path, tuple(findings), tuple(all_crashes), facts=inp.facts, cell_count=cell_count, cell_map=cell_map
-    )
+        path, tuple(findings), tuple(all_crashes), facts=inp.facts, cell_count=cell_count, cell_map=cell_map,
+        rule_input=inp,
+    )  # fmt: skip
+
+
+def with_runtime(report: FileReport, runtime: RuntimeFacts, settings: Settings | None = None) -> FileReport:
+    """The report again, with the rules also judging what a run showed (statistics and failures).
+
+    The facts are reused: nothing is parsed or collected a second time.
+    """
+    if report.rule_input is None:
+        return report
+    settings = settings or report.rule_input.settings
+    inp = replace(report.rule_input, runtime=runtime, settings=settings)
+    crashes = tuple(c for c in report.crashes if c.where == "analysis")
+    return _finish(report.path, settings, inp, report.cell_map, crashes, False, report.cell_count)
 
 
 def _dedupe(findings: list[Finding]) -> list[Finding]:

@@ -105,10 +105,34 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
         else:
             families.append(FamilyStatus(label, "missing"))
     families.append(_comparisons(report, fit))
+    run = _run_line(report, fit)
+    if run is not None:
+        families.append(run)
     name = f"`{fit.result_name}`" if fit.result_name else "this fit"
     what = f"formula `{fit.formula}`" if fit.formula else f"{fit.api} API"
     cov = fit.cov_type or "covariance not a literal"
     return FitStatus(fit, _span(report, fit.site.span), f"{name} ({fit.estimator}, {what}, {cov})", tuple(families))
+
+
+def _run_line(report: FileReport, fit: Fit) -> FamilyStatus | None:
+    """The statistics of the last run, when there is one (runtime mode)."""
+    inp = report.rule_input
+    if inp is None or inp.runtime is None:
+        return None
+    from regvet.rules.evidence import changed_coefficients, runs, summary
+
+    stats = runs(inp, fit.id)
+    if not stats:
+        return FamilyStatus("last run", "not reached", "the run recorded no statistics for this fit")
+    s = stats[0]
+    detail = summary(s)
+    changed = changed_coefficients(s)
+    if changed:
+        names = ", ".join(f"`{c['name']}`" for c in changed[:3])
+        detail += f"; 5 % significance changes under {changed[0].get('robust_type')} for {names}"
+    if len(stats) > 1:
+        detail += f" (first of {len(stats)} runs)"
+    return FamilyStatus("last run", "statistics", detail)
 
 
 def _comparisons(report: FileReport, fit: Fit) -> FamilyStatus:

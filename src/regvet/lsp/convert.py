@@ -92,10 +92,15 @@ def to_diagnostic(
     related: list[t.DiagnosticRelatedInformation],
     rule_doc_uri: str | None,
 ) -> t.Diagnostic:
-    data = {"rule": f.rule, "fix": f.fix}
+    data: dict[str, Any] = {"rule": f.rule, "fix": f.fix}
+    message = f.message
+    if f.stats:
+        data["stats"] = f.stats
+        if f.stats.get("summary"):
+            message += f" [run: {f.stats['summary']}]"
     return t.Diagnostic(
         range=positions.range(f.span),
-        message=f.message,
+        message=message,
         severity=SEVERITY[f.severity],
         code=f.rule,
         code_description=t.CodeDescription(href=rule_doc_uri) if rule_doc_uri else None,

@@ -36,7 +36,7 @@ from pygls.uris import from_fs_path, to_fs_path
 
 from regvet import __version__
 from regvet.config import ConfigError, find_config, load_settings
-from regvet.engine import FileReport, analyze, analyze_cells
+from regvet.engine import FileReport, analyze, analyze_cells, with_runtime
 from regvet.lsp.convert import Positions, json_safe, split_lines, to_diagnostic
 from regvet.model.settings import Settings
 from regvet.model.span import Span
@@ -92,6 +92,8 @@ class RegvetServer(LanguageServer):
         self.client_settings: dict[str, Any] = {}
         self.pending: dict[str, asyncio.Task] = {}
         self.results: dict[str, Result] = {}
+        #: statistics of the last explicit run per target, valid for the document version it ran on
+        self.runtime: dict[str, tuple[Any, Any]] = {}
         self.use_pull = False
         self.config_ready = asyncio.Event()
         self.configs: dict[Path | None, Settings | ConfigError] = {}
@@ -250,10 +252,15 @@ def run_analysis(ls: RegvetServer, snap: dict, overlay: dict[Path, str]) -> File
     module_key = path.stem if path is not None else ""
     if snap["kind"] == "notebook":
         code = [(i, text) for i, kind, _uri, text in snap["cells"] if kind == t.NotebookCellKind.Code]
-        return analyze_cells(code, len(snap["cells"]), shown, settings, provider=provider, module_key=module_key,
-                             module_cache=ls.module_cache)  # fmt: skip
-    return analyze(snap["text"], shown, settings, notebook=False, provider=provider, module_key=module_key,
-                   module_cache=ls.module_cache)  # fmt: skip
+        report = analyze_cells(code, len(snap["cells"]), shown, settings, provider=provider, module_key=module_key,
+                               module_cache=ls.module_cache)  # fmt: skip
+    else:
+        report = analyze(snap["text"], shown, settings, notebook=False, provider=provider, module_key=module_key,
+                         module_cache=ls.module_cache)  # fmt: skip
+    ran = ls.runtime.get(key)
+    if ran is not None and ran[0] == snap["version"]:
+        report = with_runtime(report, ran[1], settings)  # the last run still describes this text
+    return report
 
 
 def build_result(ls: RegvetServer, snap: dict, report: FileReport) -> Result:
@@ -671,6 +678,99 @@ def build_actions(uri: str, text: str, whole: str, version: int | None,
     from regvet.lsp.actions import quick_fixes
 
     return quick_fixes(uri, text, whole, version, diagnostics)
+
+
+# --- runtime mode, on request only ----------------------------------------------------------------
+def _notebook_json(snap: dict) -> str:
+    import json
+
+    cells = []
+    for _i, kind, _uri, text in snap["cells"]:
+        cells.append({"cell_type": "code" if kind == t.NotebookCellKind.Code else "markdown", "source": text})
+    return json.dumps({"cells": cells, "nbformat": 4, "nbformat_minor": 5, "metadata": {}})
+
+
+def _run_target(ls: RegvetServer, snap: dict, overlay: dict[Path, str], procs: list) -> tuple[FileReport, Any]:
+    """In the pool: static analysis, then the run (this EXECUTES the user's code), then judgement."""
+    from regvet.runtime.runner import RunCache
+    from regvet.runtime.session import run_and_judge
+
+    report = run_analysis(ls, snap, overlay)
+    fs = to_fs_path(snap["key"])
+    if not fs:
+        return report, None
+    path = Path(fs)
+    text = _notebook_json(snap) if snap["kind"] == "notebook" else snap["text"]
+    settings = ls.settings_for(path.resolve())
+    return run_and_judge(report, path, text, settings, cache=RunCache(), started=procs.append)
+
+
+def _kill_all(procs: list) -> None:
+    import os
+    import signal
+
+    for proc in procs:
+        try:
+            os.killpg(proc.pid, signal.SIGKILL)
+        except (ProcessLookupError, PermissionError, OSError):
+            pass
+
+
+@server.command("regvet.runFits")
+async def run_fits(ls: RegvetServer, uri: str) -> dict:
+    """Run the document's code (it EXECUTES it) and show the statistics of its fits.
+
+    Only ever started by the user (the editor's command). Reports work-done progress when the
+    client supports it; cancelling (progress cancel or ``$/cancelRequest``) kills the child.
+    """
+    key = ls.target_of(uri)
+    snap = ls.snapshot(key) if key else None
+    if snap is None:
+        return {"ran": False, "reason": "the document is not open"}
+    token = None
+    win = ls.client_capabilities.window
+    if win and win.work_done_progress:
+        token = str(uuid.uuid4())
+        await ls.work_done_progress.create_async(token)
+        ls.work_done_progress.begin(token, t.WorkDoneProgressBegin(
+            title="regvet: running the fits", message=Path(to_fs_path(key) or key).name, cancellable=True))  # fmt: skip
+    procs: list = []
+    loop = asyncio.get_running_loop()
+    future = loop.run_in_executor(ls.pool, _run_target, ls, snap, ls.overlay(), procs)
+    cancelled = False
+    try:
+        while not future.done():
+            if token is not None and ls.work_done_progress.tokens[token].cancelled() and not cancelled:
+                cancelled = True
+                _kill_all(procs)
+            await asyncio.wait([future], timeout=0.1)
+        report, result = future.result()
+    except asyncio.CancelledError:
+        _kill_all(procs)
+        raise
+    finally:
+        if token is not None:
+            ls.work_done_progress.end(token, t.WorkDoneProgressEnd(message="cancelled" if cancelled else "done"))
+    if cancelled:
+        return {"ran": False, "reason": "cancelled"}
+    runtime = report.rule_input.runtime if report.rule_input is not None else None
+    if runtime is not None:
+        ls.runtime[key] = (snap["version"], runtime)
+    if ls.current_version(key) == snap["version"]:
+        built = build_result(ls, snap, report)
+        ls.results[key] = built
+        if ls.use_pull:
+            refresh = ls.client_capabilities.workspace
+            if refresh and refresh.diagnostics and refresh.diagnostics.refresh_support:
+                ls.workspace_diagnostic_refresh(None)
+        else:
+            publish(ls, built)
+    fits = sum(len(v) for v in runtime.fit_stats.values()) if runtime else 0
+    return json_safe({
+        "ran": result is not None, "fits": fits, "cached": bool(runtime and runtime.cached),
+        "failed": runtime.failure.reason if runtime and runtime.failure else None,
+        "findings": len(report.findings),
+    })  # fmt: skip
 
 
 # --- entry point ---------------------------------------------------------------------------------

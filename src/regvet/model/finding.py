@@ -57,6 +57,8 @@ class Finding:
     reason: str | None = None
     fix: dict[str, Any] | None = field(default=None, compare=False, hash=False)
     stats: dict[str, Any] | None = field(default=None, compare=False, hash=False)
+    #: Ids of the fits the finding is about (so a run's statistics can be attached to it).
+    fits: tuple[int, ...] = field(default=(), compare=False, hash=False)
 
     def sort_key(self) -> tuple:
         return (*self.span.sort_key(), self.rule, self.message)

@@ -41,6 +41,11 @@ class Option:
             "globs": "a list of glob patterns",
             "strings": "a list of strings",
             "helpers": "a table of dotted function name = list of check families",
+            "string": "a string",
+            "int": "a positive whole number",
+            "optional-int": "a whole number, 0 or more",
+            "seconds": "a positive number of seconds",
+            "hc": 'one of "HC0", "HC1", "HC2", "HC3"',
         }[self.kind]
 
 
@@ -62,6 +67,18 @@ OPTIONS: tuple[Option, ...] = (
         (),
         "Functions regvet cannot read that run checks, e.g. {\"ourlib.check_fit\" = [\"form\", \"variance\"]}.",
     ),
+    # --- runtime mode (regvet check --run) ---
+    Option("python", "string", "", "Interpreter that runs the analysis in runtime mode (default: regvet's own)."),
+    Option("run_timeout", "seconds", 300.0, "Wall-clock limit for one script's run, in seconds."),
+    Option("run_memory_mb", "int", 8192, "Address-space limit for one script's run, in MB."),
+    Option("serial_lags", "optional-int", 0, "Lags for Breusch-Godfrey (default by the index frequency: 4, 12 or 1)."),
+    Option("time_column", "string", "", "A column that orders the data in time (besides a date index)."),
+    Option("white_max_columns", "int", 40, "Largest auxiliary regression for the full White test (else the special form)."),
+    Option("robust_se", "hc", "HC3", "Robust standard errors reported beside the usual ones."),
+    Option("robust_se_large", "hc", "HC1", "Robust standard errors used instead when n is large."),
+    Option("robust_se_large_n", "int", 100000, "From this many observations on, use `robust_se_large`."),
+    Option("cv_folds", "int", 5, "Folds of the cross-validation attached to compared fits."),
+    Option("cv_seed", "optional-int", 0, "Seed of the cross-validation's shuffle."),
 )
 
 
@@ -76,6 +93,17 @@ class Settings:
     exclude: tuple[str, ...] = ()
     break_candidates: tuple[str, ...] = ()
     diagnostic_helpers: tuple[tuple[str, tuple[str, ...]], ...] = ()
+    python: str = ""
+    run_timeout: float = 300.0
+    run_memory_mb: int = 8192
+    serial_lags: int = 0  # 0: by the index frequency
+    time_column: str = ""
+    white_max_columns: int = 40
+    robust_se: str = "HC3"
+    robust_se_large: str = "HC1"
+    robust_se_large_n: int = 100000
+    cv_folds: int = 5
+    cv_seed: int = 0
     #: Where the settings came from (a config file path), for messages only.
     source: str | None = field(default=None, compare=False)
 

@@ -30,10 +30,13 @@ def render(reports: list[FileReport], *, colour: bool = False, **_: object) -> s
             counts[f.severity] += 1
             sev = f.severity.label
             loc = location(report.path, f)
+            message = f.message
+            if f.stats and f.stats.get("summary"):
+                message += f" [run: {f.stats['summary']}]"
             if colour:
-                lines.append(f"{_BOLD}{loc}:{_RESET} {_COLOURS[f.severity]}{sev}{_RESET} {_DIM}{f.rule}{_RESET} {f.message}")
+                lines.append(f"{_BOLD}{loc}:{_RESET} {_COLOURS[f.severity]}{sev}{_RESET} {_DIM}{f.rule}{_RESET} {message}")
             else:
-                lines.append(f"{loc}: {sev} {f.rule} {f.message}")
+                lines.append(f"{loc}: {sev} {f.rule} {message}")
     total = sum(counts.values())
     analysed = sum(1 for r in reports if not r.skipped)
     parts = [f"{counts[s]} {s.label}{'s' if counts[s] != 1 and s != Severity.INFO else ''}" for s in reversed(Severity)]

@@ -3,14 +3,23 @@
 from __future__ import annotations
 
 from regvet.rules import (
+    break_rejected,
+    collinear_design,
     compare_across_outcomes,
+    compare_across_samples,
+    form_rejected,
+    hc_small_sample,
+    heteroskedastic_plain_se,
     mismatched_diagnostic,
     no_break_test,
     no_form_test,
     no_serial_test,
     no_variance_test,
+    nonnormal_small_sample,
     parse_error,
     r2_unadjusted_compare,
+    run_failed,
+    serial_correlation_plain_se,
     waiver_without_reason,
 )
 from regvet.rules.base import Rule, RuleInput
@@ -25,6 +34,16 @@ ALL_RULES: tuple[Rule, ...] = (
     no_break_test.RULE,
     waiver_without_reason.RULE,
     parse_error.RULE,
+    # from a run's statistics (regvet check --run)
+    heteroskedastic_plain_se.RULE,
+    form_rejected.RULE,
+    nonnormal_small_sample.RULE,
+    hc_small_sample.RULE,
+    compare_across_samples.RULE,
+    collinear_design.RULE,
+    serial_correlation_plain_se.RULE,
+    break_rejected.RULE,
+    run_failed.RULE,
 )
 RULES_BY_ID: dict[str, Rule] = {r.id: r for r in ALL_RULES}
 

@@ -17,6 +17,7 @@ from typing import Callable, Iterable, Iterator
 
 from regvet.model.facts import Check, Escape, FileFacts, Fit, Loc, Use
 from regvet.model.finding import Finding, Related, Severity
+from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.sources.notebook import CellMap
@@ -33,6 +34,7 @@ class RuleInput:
     waivers: tuple[Waiver, ...] = ()
     source_error: SourceError | None = None
     cell_map: CellMap | None = None
+    runtime: RuntimeFacts | None = None  # only in runtime mode
 
     def where(self, loc: Loc) -> str:
         """A location as a message names it: ``line 12``, ``cell 3, line 2`` or ``helpers.py, line 8``."""
@@ -75,6 +77,8 @@ class Rule:
     good: str
     check: Callable[[RuleInput], Iterable[Finding]] = field(compare=False)
     references: tuple[str, ...] = ()
+    #: Fires only from the statistics of a run (``regvet check --run``); its examples are run.
+    needs_run: bool = False
 
     def finding(
         self,
@@ -82,8 +86,9 @@ class Rule:
         message: str,
         related: Iterable[Related] = (),
         fix: dict | None = None,
+        fits: Iterable[int] = (),
     ) -> Finding:
-        return Finding(self.id, self.severity, span, message, tuple(related), fix=fix)
+        return Finding(self.id, self.severity, span, message, tuple(related), fix=fix, fits=tuple(fits))
 
 
 def related(loc: Loc, message: str) -> Related:
@@ -149,4 +154,5 @@ def missing_check(rule: Rule, fit: Fit, message: str, uses: list[Use], escapes: 
         message + escape_clause(escapes),
         [*fit_related(fit), *use_related(uses)],
         fix_data(fit),
+        fits=(fit.id,),
     )

@@ -36,6 +36,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             "sample, so across outcomes the comparison means nothing; compare models of the same outcome."
             + hint,
             [related(f.site, f"{describe_fit(f)} explains `{f.outcome.key}`") for f in known[:6]],  # type: ignore[union-attr]
+            fits=tuple(f.id for f in known),
         )
 
 

@@ -21,6 +21,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             "tested against the regressors of another say nothing about either model, and neither counts as "
             "checked; pass the residuals and the design of the same fit (e.g. `res.resid, res.model.exog`).",
             [related(f.site, f"{describe_fit(f)} is fitted here") for f in fits[:4]],
+            fits=tuple(f.id for f in fits),
         )
 
 

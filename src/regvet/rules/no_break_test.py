@@ -72,6 +72,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             "interacted)`), or run `breaks_cusumolsresid` on the residuals.",
             [*fit_related(fit), *use_related(uses, 1)],
             fix_data(fit),
+            fits=(fit.id,),
         )
 
 

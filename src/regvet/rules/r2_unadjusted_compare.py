@@ -35,6 +35,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 "model whatever the regressors are worth; compare `rsquared_adj`, AIC or BIC, or test the "
                 "extra terms with an F test (`anova_lm(small, large)`).",
                 [related(f.site, f"{describe_fit(f)} has {f.n_regressors} regressors") for f in fits[:6]],
+                fits=tuple(f.id for f in fits),
             )
 
 

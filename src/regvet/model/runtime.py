@@ -1,0 +1,36 @@
+"""What a run of the analysed code showed, as plain values the rules can read.
+
+The runtime mode (``regvet.runtime``, never imported by the static core) executes the
+script, computes statistics for every fit in the child process and matches them to the
+static fits; this module only holds the result. Statistics are JSON-safe dicts produced by
+the probe (see ``regvet/runtime/probe/regvet_stats.py`` for their keys).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from regvet.model.span import Span
+
+
+@dataclass(frozen=True)
+class RunFailure:
+    """Why the run did not complete (an exception, an early exit, a timeout, memory)."""
+
+    reason: str
+    detail: tuple[str, ...] = ()  # last lines of the traceback or of the output
+    span: Span | None = None  # where in the analysed file, when known (joined coordinates)
+
+
+@dataclass(frozen=True)
+class RuntimeFacts:
+    """Statistics per static fit id (one entry per time the fit ran), and the run's outcome."""
+
+    fit_stats: dict[int, tuple[dict[str, Any], ...]] = field(default_factory=dict)
+    failure: RunFailure | None = None
+    cached: bool = False
+    elapsed_s: float | None = None
+
+    def stats(self, fid: int) -> tuple[dict[str, Any], ...]:
+        return self.fit_stats.get(fid, ())

@@ -1,0 +1,202 @@
+"""Reading a run's statistics: shared by the rules that judge numbers and by the engine, which
+attaches the statistics of each fit to every finding about it.
+
+Statistics are the JSON-safe dicts the probe computed in the child process (keys documented
+in ``regvet/runtime/probe/regvet_stats.py``); nothing here computes a statistic.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any, Iterable
+
+from regvet.model.facts import Fit
+from regvet.model.finding import Finding
+from regvet.rules.base import RuleInput
+
+
+def runs(inp: RuleInput, fid: int) -> list[dict[str, Any]]:
+    """The statistics of every run of the fit (a fit in a loop runs several times)."""
+    if inp.runtime is None:
+        return []
+    return [r["stats"] for r in inp.runtime.stats(fid) if isinstance(r.get("stats"), dict)]
+
+
+def p(value: float | None) -> str:
+    if value is None:
+        return "p = ?"
+    if value < 0.001:
+        return "p < 0.001"
+    return f"p = {value:.3f}" if value < 0.1 else f"p = {value:.2f}"
+
+
+def num(value: float | None) -> str:
+    """Four significant digits (14.09, 5.339, 0.01234, 4.328e+04)."""
+    if value is None:
+        return "?"
+    return f"{value:.4g}"
+
+
+def get(stats: dict[str, Any], *path: str) -> Any:
+    node: Any = stats
+    for key in path:
+        if not isinstance(node, dict):
+            return None
+        node = node.get(key)
+    return node
+
+
+def in_runs(count: int, total: int) -> str:
+    return "" if total <= 1 else f" (in {count} of {total} runs of this fit)"
+
+
+def changed_coefficients(stats: dict[str, Any]) -> list[dict[str, Any]]:
+    return [c for c in stats.get("coefficients") or [] if c.get("significance_changes")]
+
+
+def coefficient_clause(stats: dict[str, Any], limit: int = 3) -> str:
+    """``with HC3, `fare` goes from p = 0.012 to 0.094`` for coefficients whose 5 % significance changes."""
+    changed = changed_coefficients(stats)
+    if not changed:
+        return "no coefficient changes significance at 5 % under robust standard errors, but the usual ones are still wrong"
+    kind = changed[0].get("robust_type") or "robust"
+    parts = [f"`{c['name']}` goes from {p(c.get('p'))} to {p(c.get('p_robust')).replace('p = ', '')}" for c in changed[:limit]]
+    more = f" and {len(changed) - limit} more" if len(changed) > limit else ""
+    return f"with {kind}, " + ", ".join(parts) + more
+
+
+def summary(stats: dict[str, Any]) -> str:
+    """A short clause for a text line: the headline numbers of one run."""
+    bits = [f"n={stats.get('nobs')}"]
+    bp = get(stats, "breusch_pagan", "lm_pvalue")
+    if bp is not None:
+        bits.append(f"BP {p(bp)}")
+    reset = get(stats, "reset", "pvalue")
+    if reset is not None:
+        bits.append(f"RESET {p(reset)}")
+    bg = get(stats, "breusch_godfrey", "lm_pvalue")
+    if bg is not None:
+        bits.append(f"BG {p(bg)}")
+    ci = get(stats, "condition_index", "value")
+    if ci is not None:
+        bits.append(f"cond. index {num(ci)}")
+    return ", ".join(bits)
+
+
+def comparison_row(fit: Fit, stats: dict[str, Any]) -> dict[str, Any]:
+    cv = stats.get("cv") or {}
+    return {
+        "fit": fit.result_name or fit.formula or f"fit {fit.id}",
+        "outcome": fit.outcome.key if fit.outcome else stats.get("endog_name"),
+        "nobs": stats.get("nobs"),
+        "rsquared": stats.get("rsquared"),
+        "rsquared_adj": stats.get("rsquared_adj"),
+        "aic": stats.get("aic"),
+        "bic": stats.get("bic"),
+        "cv_rmse": cv.get("rmse"),
+        "cv_mae": cv.get("mae"),
+        "cv_folds": cv.get("folds"),
+        "log_level_r2": stats.get("log_level_r2"),
+    }
+
+
+def nested_f_test(small: dict[str, Any], large: dict[str, Any]) -> dict[str, Any] | None:
+    """F test of the extra regressors when one fit's regressors are a subset of the other's (same rows)."""
+    names_s, names_l = set(small.get("param_names") or []), set(large.get("param_names") or [])
+    if not names_s or not names_s < names_l:
+        return None
+    if get(small, "rows", "fingerprint") != get(large, "rows", "fingerprint"):
+        return None
+    q = len(names_l) - len(names_s)
+    ssr_s, ssr_l, df = small.get("ssr"), large.get("ssr"), large.get("df_resid")
+    if None in (ssr_s, ssr_l, df) or df <= 0 or ssr_l <= 0:
+        return None
+    f = ((ssr_s - ssr_l) / q) / (ssr_l / df)
+    return {"f": f, "df_num": q, "df_denom": df, "pvalue": f_pvalue(f, q, df),
+            "restricted": sorted(names_s), "extra": sorted(names_l - names_s)}  # fmt: skip
+
+
+def f_pvalue(f: float, d1: float, d2: float) -> float | None:
+    """Upper tail of the F(d1, d2) distribution: I_{d2/(d2+d1 f)}(d2/2, d1/2), the regularized
+    incomplete beta function (continued fraction, modified Lentz method). The core has no scipy;
+    ``tests/test_evidence.py`` checks this against ``scipy.stats.f.sf``."""
+    if f is None or not math.isfinite(f) or d1 <= 0 or d2 <= 0:
+        return None
+    if f <= 0:
+        return 1.0
+    return _betainc(d2 / 2.0, d1 / 2.0, d2 / (d2 + d1 * f))
+
+
+def _betainc(a: float, b: float, x: float) -> float:
+    if x <= 0.0:
+        return 0.0
+    if x >= 1.0:
+        return 1.0
+    front = math.exp(math.lgamma(a + b) - math.lgamma(a) - math.lgamma(b) + a * math.log(x) + b * math.log1p(-x))
+    if x < (a + 1.0) / (a + b + 2.0):
+        return front * _betacf(a, b, x) / a
+    return 1.0 - front * _betacf(b, a, 1.0 - x) / b
+
+
+def _betacf(a: float, b: float, x: float) -> float:
+    tiny, eps = 1e-300, 1e-15
+    c, d = 1.0, 1.0 - (a + b) * x / (a + 1.0)
+    d = 1.0 / (d if abs(d) > tiny else tiny)
+    h = d
+    for m in range(1, 1000):
+        m2 = 2 * m
+        for num_ in (m * (b - m) * x / ((a + m2 - 1.0) * (a + m2)), -(a + m) * (a + b + m) * x / ((a + m2) * (a + m2 + 1.0))):
+            d = 1.0 + num_ * d
+            d = 1.0 / (d if abs(d) > tiny else tiny)
+            c = 1.0 + num_ / c
+            c = c if abs(c) > tiny else tiny
+            h *= d * c
+        if abs(d * c - 1.0) < eps:
+            break
+    return h
+
+
+def attach(findings: Iterable[Finding], inp: RuleInput) -> list[Finding]:
+    """Every finding about a fit that ran gets that fit's statistics (``Finding.stats``)."""
+    out = []
+    for f in findings:
+        if not f.fits or inp.runtime is None or f.stats is not None:
+            out.append(f)
+            continue
+        per_fit = []
+        for fid in f.fits:
+            stats = runs(inp, fid)
+            if stats:
+                fit = inp.facts.fit(fid)
+                per_fit.append({"fit": fit.result_name or fit.formula or f"fit {fid}", "runs": len(stats),
+                                "statistics": stats[0], "summary": summary(stats[0])})  # fmt: skip
+        if not per_fit:
+            out.append(f)
+            continue
+        payload: dict[str, Any] = {"summary": "; ".join(x["summary"] for x in per_fit[:2]), "fits": per_fit}
+        if f.rule in ("compare-across-outcomes", "r2-unadjusted-compare", "compare-across-samples"):
+            payload["comparison"] = _comparison(inp, f.fits)
+        out.append(f.with_(stats=payload))
+    return out
+
+
+def _comparison(inp: RuleInput, fids: tuple[int, ...]) -> dict[str, Any]:
+    rows = []
+    table = []
+    for fid in fids:
+        stats = runs(inp, fid)
+        if stats:
+            fit = inp.facts.fit(fid)
+            rows.append(comparison_row(fit, stats[0]))
+            table.append(stats[0])
+    result: dict[str, Any] = {"fits": rows}
+    tests = []
+    for i, a in enumerate(table):
+        for b in table[i + 1 :]:
+            for small, large in ((a, b), (b, a)):
+                test = nested_f_test(small, large)
+                if test is not None:
+                    tests.append(test)
+    if tests:
+        result["nested_f_tests"] = tests
+    return result

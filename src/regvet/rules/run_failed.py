@@ -1,0 +1,57 @@
+"""run-failed: the analysed code did not run to the end in runtime mode."""
+
+from __future__ import annotations
+
+from typing import Iterator
+
+from regvet.model.finding import Finding, Severity
+from regvet.model.span import Span
+from regvet.rules.base import Rule, RuleInput
+
+
+def check(inp: RuleInput) -> Iterator[Finding]:
+    failure = inp.runtime.failure if inp.runtime is not None else None
+    if failure is None:
+        return
+    detail = " | ".join(line.strip() for line in failure.detail[-4:] if line.strip())
+    kept = sum(1 for v in inp.runtime.fit_stats.values() for r in v if r.get("stats")) if inp.runtime else 0
+    yield RULE.finding(
+        failure.span or Span(1, 0, 1, 0),
+        f"The run of this file stopped: {failure.reason}."
+        + (f" Last output: {detail}." if detail else "")
+        + f" Statistics of the {kept} fit run(s) completed before that are kept; fits after it were not checked.",
+    )
+
+
+RULE = Rule(
+    id="run-failed",
+    severity=Severity.ERROR,
+    summary="In runtime mode, the file raised, exited early, timed out or ran out of memory.",
+    rationale=(
+        "The runtime mode runs each analysed file in a child process (its own folder, standard input closed, "
+        "a non-interactive plotting backend, a wall-clock limit `run_timeout` and an address-space limit "
+        "`run_memory_mb`). When the run stops before the end, the fits it did not reach have no statistics. "
+        "The finding is placed on the line that failed when it is in this file, and carries the last lines "
+        "of the traceback or the reason.\n\n"
+        "Runtime mode only."
+    ),
+    bad='''\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+
+crossings = pd.DataFrame({"fare": np.linspace(2, 9, 40), "riders": np.linspace(400, 300, 40)})
+res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
+raise RuntimeError("the ferry timetable file is missing")  # expect: run-failed
+''',
+    good='''\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+
+crossings = pd.DataFrame({"fare": np.linspace(2, 9, 40), "riders": np.linspace(400, 300, 40)})
+res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
+''',
+    check=check,
+    needs_run=True,
+)

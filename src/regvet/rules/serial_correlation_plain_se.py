@@ -1,0 +1,87 @@
+"""serial-correlation-plain-se: Breusch-Godfrey rejects on time-ordered data without HAC covariance."""
+
+from __future__ import annotations
+
+from typing import Iterator
+
+from regvet.analysis.catalog import HAC_COV
+from regvet.model.finding import Finding, Severity
+from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, use_related
+from regvet.rules.evidence import num, p, runs
+
+
+def check(inp: RuleInput) -> Iterator[Finding]:
+    alpha = inp.settings.alpha
+    for fit in inp.judged_fits():
+        if fit.cov_type in HAC_COV:
+            continue
+        uses = inp.uses(fit.id, ("inference", "robust"))
+        if not uses:
+            continue
+        for s in runs(inp, fit.id):
+            bg = s.get("breusch_godfrey") or {}
+            if str(s.get("cov_type", "")).lower() in HAC_COV or bg.get("lm_pvalue") is None or bg["lm_pvalue"] >= alpha:
+                continue
+            dw = s.get("durbin_watson")
+            dw_text = f", Durbin-Watson {num(dw)}" if dw is not None else ""
+            yield RULE.finding(
+                fit.site.span,
+                f"Breusch-Godfrey LM = {num(bg.get('lm'))} with {bg.get('lags')} lag(s), {p(bg['lm_pvalue'])}{dw_text}: "
+                f"the errors of {describe_fit(fit)} ({s.get('time_ordered')}) are correlated over time, so its "
+                "standard errors (robust HC ones too) are not valid. Use HAC covariance "
+                '(`cov_type="HAC", cov_kwds={"maxlags": ...}`) or model the dynamics.',
+                [*fit_related(fit), *use_related(uses, 1)],
+                fits=(fit.id,),
+            )
+            break
+
+
+RULE = Rule(
+    id="serial-correlation-plain-se",
+    severity=Severity.ERROR,
+    summary="Breusch-Godfrey rejects no serial correlation on time-ordered data, and the covariance is not HAC.",
+    rationale=(
+        "With errors correlated over time, OLS standard errors (including heteroskedasticity-robust ones) "
+        "are inconsistent, usually too small. Breusch-Godfrey regresses the residuals on the regressors and "
+        "their own lags (zero-padded, all observations: statsmodels' convention); lags default by the data's "
+        "frequency (4 quarterly, 12 monthly, 1 otherwise; common practice) or `serial_lags`.\n\n"
+        "Runtime mode only, for data with a date or period index or a configured `time_column`."
+    ),
+    bad='''\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+
+rng = np.random.default_rng(17)
+weeks = pd.date_range("2023-01-02", periods=156, freq="W-MON")
+u = np.zeros(156)
+for t in range(1, 156):
+    u[t] = 0.8 * u[t - 1] + rng.normal(0, 5)
+weekly = pd.DataFrame({"fare": rng.uniform(2, 9, 156)}, index=weeks)
+weekly["riders"] = 300 - 10 * weekly["fare"] + u
+res = smf.ols("riders ~ fare", data=weekly).fit()  # expect: serial-correlation-plain-se
+print(res.summary())
+''',
+    good='''\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+
+rng = np.random.default_rng(17)
+weeks = pd.date_range("2023-01-02", periods=156, freq="W-MON")
+u = np.zeros(156)
+for t in range(1, 156):
+    u[t] = 0.8 * u[t - 1] + rng.normal(0, 5)
+weekly = pd.DataFrame({"fare": rng.uniform(2, 9, 156)}, index=weeks)
+weekly["riders"] = 300 - 10 * weekly["fare"] + u
+res = smf.ols("riders ~ fare", data=weekly).fit(cov_type="HAC", cov_kwds={"maxlags": 4})
+print(res.summary())
+''',
+    check=check,
+    references=(
+        "Breusch, T. S. (1978). Australian Economic Papers 17, 334-355; Godfrey, L. G. (1978). Econometrica 46(6), "
+        "1293-1301.",
+        "Newey, W. K. and West, K. D. (1987). Econometrica 55(3), 703-708.",
+    ),
+    needs_run=True,
+)

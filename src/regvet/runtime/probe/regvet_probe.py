@@ -1,0 +1,252 @@
+"""The probe regvet injects into the analysed program's own interpreter.
+
+Runs in the child process only. Imports nothing from regvet (the child's environment may
+not have regvet installed at all): standard library, numpy and statsmodels, which the
+analysed code already uses. Started by ``regvet_probe_boot.py``.
+
+What it does:
+* wraps ``RegressionModel.fit`` and ``RegressionResults.get_robustcov_results`` so every OLS
+  or WLS results object the user's code creates is recorded with its call site (the frames
+  of the user's own files), and its statistics are computed and written at once, one JSON
+  line per fit, so a later crash loses nothing already computed;
+* records, with an audit hook, every file the program opens for reading (for the cache key);
+* makes ``matplotlib.pyplot.show`` a no-op (the backend is forced to Agg by the parent).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+import threading
+import time
+import traceback
+from typing import Any
+
+_state = threading.local()
+_PROBE_OPTIONS = frozenset({"cv_sites", "max_fits_per_site"})  # the probe's own, not statistics options
+_LIBRARY_DIRS: tuple[str, ...] = ()
+_PROBE_DIR = os.path.dirname(os.path.abspath(__file__))
+
+
+class Recorder:
+    """Writes one JSON object per line to the output file, flushed after each."""
+
+    def __init__(self, out_path: str, options: dict[str, Any], user_files: set[str]) -> None:
+        self.out = open(out_path, "w", encoding="utf-8")
+        self.options = options
+        self.user_files = user_files  # absolute paths and "<regvet-cell-N>" names
+        self.seq = 0
+        self.per_site: dict[tuple, int] = {}
+        self.limit = int(options.get("max_fits_per_site", 20))
+        self.opened: dict[str, None] = {}
+        self.ids: dict[int, int] = {}  # id(results) -> seq, for derived fits
+        self.keep: list[Any] = []  # keep results alive so ids stay unique during the run
+        self.cv_sites = {tuple(s) for s in options.get("cv_sites", [])}
+
+    def write(self, record: dict[str, Any]) -> None:
+        self.out.write(json.dumps(record, allow_nan=False, default=str) + "\n")
+        self.out.flush()
+
+    # --- call sites ----------------------------------------------------------------------------
+    def frames(self) -> list[list[Any]]:
+        """(file, line, col, end_line, end_col) of each frame in the user's code, innermost first."""
+        out: list[list[Any]] = []
+        frame = sys._getframe(2)
+        while frame is not None:
+            filename = frame.f_code.co_filename
+            if self._is_user(filename):
+                out.append([os.path.abspath(filename) if not filename.startswith("<") else filename,
+                            *_position(frame)])  # fmt: skip
+            frame = frame.f_back
+        return out
+
+    def _is_user(self, filename: str) -> bool:
+        if filename.startswith("<regvet-cell-"):
+            return True
+        if filename.startswith("<"):
+            return False
+        path = os.path.abspath(filename)
+        if path.startswith(_PROBE_DIR):
+            return False
+        if path in self.user_files:
+            return True
+        return not any(path.startswith(d) for d in _LIBRARY_DIRS)
+
+    def called_from_library(self) -> bool:
+        """Is the fit being made inside statsmodels or another library (an auxiliary regression)?"""
+        frame = sys._getframe(2)  # 0: here, 1: the fit wrapper, 2: whoever called fit
+        return frame is not None and not self._is_user(frame.f_code.co_filename)
+
+    # --- fits ----------------------------------------------------------------------------------
+    def record(self, res: Any, derived_from: Any = None) -> None:
+        frames = self.frames()
+        if not frames:
+            return
+        site = tuple(frames[0])
+        count = self.per_site.get(site, 0) + 1
+        self.per_site[site] = count
+        self.seq += 1
+        seq = self.seq
+        self.ids[id(res)] = seq
+        self.keep.append(res)
+        record: dict[str, Any] = {
+            "type": "fit",
+            "seq": seq,
+            "frames": frames,
+            "estimator": type(res.model).__name__,
+            "formula": getattr(res.model, "formula", None),
+            "cov_type": getattr(res, "cov_type", None),
+            "derived_from": self.ids.get(id(derived_from)) if derived_from is not None else None,
+            "occurrence": count,
+        }
+        if count > self.limit:
+            record["stats"] = None
+            record["note"] = f"statistics computed for the first {self.limit} runs of this call only"
+            self.write(record)
+            return
+        options = {k: v for k, v in self.options.items() if k not in _PROBE_OPTIONS}
+        options["cv"] = any(tuple(f[:3]) in self.cv_sites for f in frames)
+        start = time.perf_counter()
+        _state.busy = True
+        try:
+            from regvet_stats import fit_statistics
+
+            record["stats"] = fit_statistics(res, options)
+        except Exception as exc:  # a statistic failing must never fail the user's program
+            record["stats"] = None
+            record["stats_error"] = f"{type(exc).__name__}: {exc}"
+        finally:
+            _state.busy = False
+        record["stats_seconds"] = round(time.perf_counter() - start, 6)
+        self.write(record)
+
+    def finish(self, status: str, **extra: Any) -> None:
+        opened = []
+        for path in self.opened:
+            try:
+                st = os.stat(path)
+            except OSError:
+                continue
+            opened.append([path, st.st_size, st.st_mtime_ns])
+        self.write({"type": "end", "status": status, "opened": opened, **extra})
+        self.out.close()
+
+
+def _position(frame: Any) -> list[Any]:
+    """The current instruction's source position: line, column (UTF-8 bytes), end line, end column."""
+    code = frame.f_code
+    try:
+        positions = list(code.co_positions())  # Python 3.11+
+        line, end_line, col, end_col = positions[frame.f_lasti // 2]
+        if line is not None:
+            return [line, col, end_line, end_col]
+    except (AttributeError, IndexError, ValueError):
+        pass
+    return [frame.f_lineno, None, frame.f_lineno, None]
+
+
+_recorder: Recorder | None = None
+
+
+def install(recorder: Recorder) -> None:
+    """Patch statsmodels, matplotlib and the audit hook. Called once, before the user's code."""
+    global _recorder, _LIBRARY_DIRS
+    _recorder = recorder
+    import sysconfig
+
+    dirs = {sysconfig.get_paths().get(k) for k in ("stdlib", "platstdlib", "purelib", "platlib")}
+    dirs |= {sys.prefix, sys.base_prefix, sys.exec_prefix}
+    _LIBRARY_DIRS = tuple(sorted(os.path.abspath(d) + os.sep for d in dirs if d))
+    sys.addaudithook(_audit)
+    _patch_statsmodels()
+    _patch_matplotlib()
+
+
+def _audit(event: str, args: tuple) -> None:
+    if event != "open" or _recorder is None:
+        return
+    try:
+        path, mode, flags = args[0], args[1], args[2]
+        if not isinstance(path, (str, bytes, os.PathLike)):
+            return
+        reading = (mode is None and not (flags & (os.O_WRONLY | os.O_RDWR))) or (
+            isinstance(mode, str) and ("r" in mode or "+" in mode)
+        )
+        if reading:
+            full = os.path.abspath(os.fsdecode(path))
+            if not full.startswith(_LIBRARY_DIRS) and not full.startswith(_PROBE_DIR):
+                _recorder.opened[full] = None
+    except Exception:
+        pass
+
+
+def _patch_statsmodels() -> None:
+    from statsmodels.regression import linear_model as lm
+
+    original_fit = lm.RegressionModel.fit
+    original_robust = lm.RegressionResults.get_robustcov_results
+
+    def fit(self, *args, **kwargs):  # type: ignore[no-untyped-def]
+        res = original_fit(self, *args, **kwargs)
+        if type(self).__name__ in ("OLS", "WLS") and not getattr(_state, "busy", False):
+            if _recorder is not None and not _recorder.called_from_library():
+                _recorder.record(res)
+        return res
+
+    def get_robustcov_results(self, *args, **kwargs):  # type: ignore[no-untyped-def]
+        res = original_robust(self, *args, **kwargs)
+        if type(self.model).__name__ in ("OLS", "WLS") and not getattr(_state, "busy", False):
+            if _recorder is not None and not _recorder.called_from_library():
+                _recorder.record(res, derived_from=self)
+        return res
+
+    fit.__wrapped__ = original_fit  # type: ignore[attr-defined]
+    get_robustcov_results.__wrapped__ = original_robust  # type: ignore[attr-defined]
+    lm.RegressionModel.fit = fit  # type: ignore[method-assign]
+    lm.RegressionResults.get_robustcov_results = get_robustcov_results  # type: ignore[method-assign]
+
+
+class _ShowPatcher:
+    """Makes ``matplotlib.pyplot.show`` a no-op as soon as pyplot is imported."""
+
+    def find_spec(self, name, path=None, target=None):  # type: ignore[no-untyped-def]
+        if name != "matplotlib.pyplot":
+            return None
+        sys.meta_path.remove(self)
+        try:
+            import importlib.util
+
+            spec = importlib.util.find_spec(name)
+        finally:
+            sys.meta_path.insert(0, self)
+        if spec is None or spec.loader is None:
+            return spec
+        loader = spec.loader
+        exec_module = loader.exec_module
+
+        def patched(module):  # type: ignore[no-untyped-def]
+            exec_module(module)
+            module.show = lambda *a, **k: None
+
+        loader.exec_module = patched  # type: ignore[method-assign]
+        return spec
+
+
+def _patch_matplotlib() -> None:
+    if "matplotlib.pyplot" in sys.modules:
+        sys.modules["matplotlib.pyplot"].show = lambda *a, **k: None  # type: ignore[attr-defined]
+    else:
+        sys.meta_path.insert(0, _ShowPatcher())
+
+
+def traceback_tail(exc: BaseException, user_files: set[str], limit: int = 8) -> tuple[list[str], list[Any] | None]:
+    """The last lines of a traceback, and the innermost frame in the user's code."""
+    lines = traceback.format_exception(type(exc), exc, exc.__traceback__)
+    text = "".join(lines).rstrip().split("\n")
+    where = None
+    for tb_frame, lineno in traceback.walk_tb(exc.__traceback__):
+        name = tb_frame.f_code.co_filename
+        if name.startswith("<regvet-cell-") or os.path.abspath(name) in user_files:
+            where = [name if name.startswith("<") else os.path.abspath(name), lineno]
+    return text[-limit:], where

@@ -1,0 +1,84 @@
+"""Child-process entry point of regvet's runtime mode: set limits, install the probe, run the code.
+
+Usage (by the parent, never by hand):
+    python regvet_probe_boot.py REQUEST.json
+
+The request names the script (or the notebook's code cells), the output file and the
+options. The analysed code runs in its own folder as ``__main__``; notebook cells run in
+order in one namespace, each compiled under the name ``<regvet-cell-N>`` so call sites
+carry the cell. Standard library, numpy and statsmodels only.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+
+
+def _limit_memory(megabytes: int | None) -> None:
+    if not megabytes:
+        return
+    try:
+        import resource
+
+        limit = int(megabytes) * 1024 * 1024
+        resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
+    except (ImportError, ValueError, OSError):  # not on this platform: run without the limit
+        pass
+
+
+def main(argv: list[str]) -> int:
+    with open(argv[1], encoding="utf-8") as fh:
+        request = json.load(fh)
+    _limit_memory(request.get("memory_mb"))
+    sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+    import regvet_probe as probe
+
+    folder = request["folder"]
+    os.chdir(folder)
+    user_files = {os.path.abspath(p) for p in request.get("user_files", [])}
+    recorder = probe.Recorder(request["out"], request.get("options", {}), user_files)
+    recorder.write({"type": "start", "python": sys.version.split()[0], "pid": os.getpid()})
+    try:
+        probe.install(recorder)
+    except Exception as exc:  # statsmodels missing or broken in that interpreter
+        recorder.finish("probe-failed", message=f"{type(exc).__name__}: {exc}")
+        return 0
+    sys.argv = [request.get("script") or "notebook"]
+    sys.path.insert(0, folder)
+    try:
+        if request.get("cells") is not None:
+            namespace: dict = {"__name__": "__main__", "__builtins__": __builtins__}
+            for cell in request["cells"]:
+                code = compile(cell["source"], f"<regvet-cell-{cell['index']}>", "exec")
+                exec(code, namespace)  # noqa: S102 - running the user's notebook is the point
+        elif request.get("source") is not None:
+            # Exactly the text regvet analysed (an editor may hold unsaved changes), under the script's
+            # own file name so call sites point into it.
+            script = request["script"]
+            namespace = {"__name__": "__main__", "__file__": script, "__builtins__": __builtins__}
+            exec(compile(request["source"], script, "exec"), namespace)  # noqa: S102
+        else:
+            import runpy
+
+            runpy.run_path(request["script"], run_name="__main__")
+    except SystemExit as exc:
+        code = exc.code if isinstance(exc.code, int) or exc.code is None else str(exc.code)
+        tail, where = probe.traceback_tail(exc, user_files)
+        recorder.finish("exit", exit_code=code, where=where)
+        return 0
+    except MemoryError as exc:
+        tail, where = probe.traceback_tail(exc, user_files)
+        recorder.finish("memory", traceback=tail, where=where)
+        return 0
+    except BaseException as exc:  # the user's code failed: report it, keep what was recorded
+        tail, where = probe.traceback_tail(exc, user_files)
+        recorder.finish("exception", traceback=tail, where=where)
+        return 0
+    recorder.finish("ok")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv))

@@ -1,0 +1,1411 @@
+"""Diagnostic statistics for one statsmodels OLS or WLS fit, computed inside the user's interpreter.
+
+regvet's runtime mode puts this directory on ``PYTHONPATH`` of the child process that runs the
+user's script, so this module is imported by the *user's* Python. At import time it uses only the
+standard library, numpy, scipy (a statsmodels dependency) and statsmodels; it never imports regvet,
+and pandas only lazily, when the results object already holds pandas objects (an index, a data
+frame). The one public function is :func:`fit_statistics`.
+
+How the numbers are computed (and why), in short:
+
+* Everything is computed from the fit's own design, residuals and normalised covariance, without
+  refitting from scratch: no statistic allocates an n x k temporary; row-wise work is done in
+  blocks of ``chunk_rows`` rows.
+* The design is used in a better-conditioned basis with the same column space: when the model has an
+  explicit constant column c, every other column x_j is replaced by x_j - m_j c with
+  m_j = c'x_j / c'c (for OLS: the column mean). Projections, leverages and all auxiliary regressions
+  are invariant under this change of basis; coefficient covariances are mapped back exactly.
+  Cross-product matrices are equilibrated (scaled to unit diagonal) before they are inverted, so the
+  relative accuracy is about eps times the squared condition number of the *centred, unit-scaled*
+  design (Longley: 110, against 4.9e9 for the raw design), not of the raw one.
+* Auxiliary regressions are done by partitioned (Frisch-Waugh-Lovell) regression: RESET regresses
+  the residuals on the powers of the fitted values after residualising those on the design;
+  Breusch-Godfrey does the same with the lagged residuals; Breusch-Pagan needs only X'(u^2).
+  The full White test and the Chow test are done with a blocked (tall-skinny) QR decomposition and a
+  rank-revealing SVD of its small triangular factor, because their designs are often rank-deficient
+  by construction (a dummy's square equals the dummy; a dummy that is constant within a group).
+* WLS: every statistic is computed on the WLS-transformed (whitened) model: ``wendog`` = sqrt(w) y,
+  ``wexog`` = sqrt(w) X, ``wresid`` = sqrt(w) u (the output's ``"weights"`` note says so).
+
+Each statistic that cannot be computed is None in the output and its reason is recorded under
+``"errors"``; one failing statistic never stops the others.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import re
+import warnings
+from collections.abc import Callable, Iterator, Mapping
+from typing import Any
+
+import numpy as np
+from scipy import stats
+from statsmodels.regression.linear_model import OLS, WLS
+
+__all__ = ["DEFAULT_OPTIONS", "fit_statistics"]
+
+#: Options of :func:`fit_statistics` and their defaults.
+DEFAULT_OPTIONS: dict[str, Any] = {
+    # Full White test while its auxiliary regression has at most this many columns (incl. the
+    # constant), else the special form on the fitted values and their squares.
+    "white_max_columns": 40,
+    # Breusch-Godfrey lags; None: 4 for quarterly, 12 for monthly data, 1 otherwise (common practice).
+    "serial_lags": None,
+    # A column of the model's data frame that makes the data time-ordered.
+    "time_column": None,
+    # Column names (split the sample by its values) or pandas query expressions (split into the rows
+    # where it holds and where it does not).
+    "break_candidates": [],
+    # Heteroskedasticity-robust standard errors: this type, or robust_se_large when nobs >= robust_se_large_n.
+    "robust_se": "HC3",
+    "robust_se_large": "HC1",
+    "robust_se_large_n": 100_000,
+    # Deterministic k-fold cross-validation (off by default).
+    "cv": False,
+    "cv_folds": 5,
+    "cv_seed": 0,
+    # Rows per block in the row-wise passes.
+    "chunk_rows": 65_536,
+}
+
+_HC_TYPES = ("HC0", "HC1", "HC2", "HC3")
+_EPS = float(np.finfo(float).eps)
+_SIGNIFICANCE = 0.05
+
+FORM_BREUSCH_PAGAN = "Koenker studentized LM = n·R² of û² on the regressors; F from the same auxiliary regression"
+FORM_WHITE_FULL = "full"
+FORM_WHITE_SPECIAL = "special (ŷ, ŷ²)"
+FORM_RESET = "F test of powers 2 and 3 of the fitted values"
+FORM_JARQUE_BERA = "kurtosis is not excess kurtosis"
+FORM_CONDITION_INDEX = "Belsley-Kuh-Welsch: columns incl. the constant scaled to unit length, not centred"
+FORM_BREUSCH_GODFREY = "n·R² of û on the regressors and its lags (zero-padded, all n observations)"
+COEFFICIENT_TESTS = "t distribution with df_resid for both"
+WEIGHTS_NOTE = (
+    "WLS: all statistics use the whitened (WLS-transformed) model: wendog = √w·y, wexog = √w·X, "
+    "wresid = √w·û. Auxiliary regressions add an intercept when the whitened design has none; VIFs "
+    "are weighted (the regressors centred on their weighted means); the condition index is that of "
+    "the whitened design; cross-validation refits WLS and reports whitened prediction errors; "
+    "log_level_r2 uses the unweighted endog and fitted values."
+)
+
+
+class StatisticError(Exception):
+    """A statistic is undefined or cannot be computed for this fit; the message says why."""
+
+
+# --------------------------------------------------------------------------------------------
+# JSON-safe conversion
+
+
+def _num(value: Any) -> float | None:
+    """A finite Python float, or None for NaN, infinities, None and anything not numeric."""
+    if value is None:
+        return None
+    try:
+        out = float(np.asarray(value, dtype=float).reshape(()))
+    except (TypeError, ValueError):
+        return None
+    return out if math.isfinite(out) else None
+
+
+def _count(value: Any) -> int | float | None:
+    """An int when ``value`` is integral (statsmodels keeps df as floats), else a finite float or None."""
+    out = _num(value)
+    if out is None:
+        return None
+    return int(out) if out.is_integer() else out
+
+
+def _message(exc: BaseException) -> str:
+    if isinstance(exc, StatisticError):
+        return str(exc)
+    text = str(exc)
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+
+
+# --------------------------------------------------------------------------------------------
+# Options
+
+
+def _options(options: Mapping[str, Any] | None) -> dict[str, Any]:
+    """Merge ``options`` over the defaults; raise ValueError on unknown keys or bad values."""
+    opts = dict(DEFAULT_OPTIONS)
+    opts["break_candidates"] = []
+    if options:
+        unknown = sorted(set(options) - set(DEFAULT_OPTIONS))
+        if unknown:
+            raise ValueError(f"unknown fit_statistics option(s): {', '.join(unknown)}")
+        opts.update(options)
+    for key in ("white_max_columns", "robust_se_large_n", "cv_folds", "cv_seed", "chunk_rows"):
+        if isinstance(opts[key], bool) or not isinstance(opts[key], (int, np.integer)):
+            raise ValueError(f"option {key} must be an integer, not {opts[key]!r}")
+        opts[key] = int(opts[key])
+    if opts["chunk_rows"] < 1:
+        raise ValueError("option chunk_rows must be at least 1")
+    if opts["cv_folds"] < 2:
+        raise ValueError("option cv_folds must be at least 2")
+    lags = opts["serial_lags"]
+    if lags is not None and (isinstance(lags, bool) or not isinstance(lags, (int, np.integer)) or lags < 1):
+        raise ValueError(f"option serial_lags must be None or a positive integer, not {lags!r}")
+    for key in ("robust_se", "robust_se_large"):
+        if not isinstance(opts[key], str) or opts[key].upper() not in _HC_TYPES:
+            raise ValueError(f"option {key} must be one of {', '.join(_HC_TYPES)}, not {opts[key]!r}")
+        opts[key] = opts[key].upper()
+    cands = opts["break_candidates"]
+    if isinstance(cands, str) or not all(isinstance(c, str) for c in cands):
+        raise ValueError("option break_candidates must be a list of strings")
+    opts["break_candidates"] = list(cands)
+    if opts["time_column"] is not None and not isinstance(opts["time_column"], str):
+        raise ValueError("option time_column must be None or a column name")
+    opts["cv"] = bool(opts["cv"])
+    return opts
+
+
+# --------------------------------------------------------------------------------------------
+# Linear algebra helpers
+
+
+class _GInverse:
+    """A generalised inverse of a symmetric positive semi-definite matrix ``a``.
+
+    ``a`` is equilibrated (scaled to unit diagonal) and decomposed by ``eigh``; the ``rank``
+    largest eigen-directions are kept (fewer if their eigenvalues are numerical noise, below
+    10·p·eps of the largest). ``inv`` satisfies a·inv·a = a on the kept directions, which is all that
+    projections, quadratic forms c'a⁻c for c in the range of a, and residualisation need.
+    """
+
+    def __init__(self, a: np.ndarray, rank: int | None = None) -> None:
+        a = np.asarray(a, dtype=float)
+        p = a.shape[0]
+        a = (a + a.T) / 2.0
+        d = np.sqrt(np.clip(np.diag(a), 0.0, None))
+        d[~(d > 0)] = 1.0
+        scaled = a / np.outer(d, d)
+        if p == 0:
+            self.rank, self.eigenvalues, self.inv = 0, np.zeros(0), np.zeros((0, 0))
+            return
+        w, q = np.linalg.eigh(scaled)
+        w, q = w[::-1], q[:, ::-1]
+        tol = max(w[0], 0.0) * p * _EPS * 10.0
+        numeric = int(np.sum(w > tol))
+        keep = numeric if rank is None else max(0, min(int(rank), numeric))
+        self.rank = keep
+        self.eigenvalues = w
+        qk = q[:, :keep] / d[:, None]
+        self.inv = (qk / w[:keep]) @ qk.T
+
+    def quad(self, c: np.ndarray) -> float:
+        """c'·inv·c for a vector c."""
+        return float(c @ self.inv @ c)
+
+
+def _qr_r(block: np.ndarray) -> np.ndarray:
+    """The R factor of a block (rows x p), always returned with p columns."""
+    return np.linalg.qr(block, mode="r")
+
+
+class _TallQR:
+    """Blocked QR of a tall matrix fed in row blocks: keeps only the small triangular factor R."""
+
+    def __init__(self) -> None:
+        self.r: np.ndarray | None = None
+        self.rows = 0
+
+    def add(self, block: np.ndarray) -> None:
+        if block.shape[0] == 0:
+            return
+        self.rows += block.shape[0]
+        stacked = block if self.r is None else np.vstack([self.r, block])
+        self.r = _qr_r(stacked)
+
+
+def _ssr_on_columns(r: np.ndarray, n_rows: int, p: int) -> tuple[float, int]:
+    """(SSR, rank): last column of the matrix whose QR factor is ``r`` regressed on its first p columns.
+
+    The rank is numpy's ``matrix_rank`` rule (largest singular value x max(rows, p) x eps) applied to
+    the unit-length-scaled columns; the SSR is the squared norm of what the rank-revealing projection
+    leaves of the last column, so exactly collinear columns do not absorb a noise direction.
+    """
+    rx = r[:, :p]
+    z = r[:, p]
+    norms = np.sqrt(np.sum(rx * rx, axis=0))
+    norms[~(norms > 0)] = 1.0
+    u, sv, _ = np.linalg.svd(rx / norms, full_matrices=False)
+    if sv.size == 0 or sv[0] == 0:
+        return float(z @ z), 0
+    rank = int(np.sum(sv > sv[0] * max(n_rows, p) * _EPS))
+    ur = u[:, :rank]
+    rest = z - ur @ (ur.T @ z)
+    return float(rest @ rest), rank
+
+
+# --------------------------------------------------------------------------------------------
+# The fit
+
+
+class _Fit:
+    """The quantities of one fitted model that every statistic reads (nothing here copies n x k data)."""
+
+    def __init__(self, res: Any, opts: dict[str, Any]) -> None:
+        model = getattr(res, "model", None)
+        if isinstance(model, OLS):
+            self.estimator = "OLS"
+        elif isinstance(model, WLS):
+            self.estimator = "WLS"
+        else:
+            what = f"{type(model).__name__} results" if model is not None else type(res).__name__
+            raise TypeError(f"fit_statistics needs statsmodels OLS or WLS results, not {what}")
+        self.res = res
+        self.model = model
+        self.opts = opts
+        self.X = np.asarray(model.wexog)
+        if self.X.ndim != 2:
+            raise TypeError("the model's design must be two-dimensional")
+        self.n, self.k = self.X.shape
+        self.y = np.asarray(model.wendog, dtype=float).reshape(-1)
+        self.u = np.asarray(res.wresid, dtype=float).reshape(-1)
+        self.yhat = self.y - self.u  # whitened fitted values, wexog @ params
+        self.chunk = opts["chunk_rows"]
+        data = model.data
+        self.const_idx: int | None = getattr(data, "const_idx", None)
+        self.k_constant = int(getattr(model, "k_constant", 0) or 0)
+        self.weights: np.ndarray | None = None
+        if self.estimator == "WLS":
+            self.weights = np.broadcast_to(np.asarray(model.weights, dtype=float), (self.n,))
+        weights_constant = self.weights is None or bool(np.ptp(self.weights) == 0)
+        # Does the whitened design contain the constant 1 in its column space?
+        self.one_in_span = bool(self.k_constant) and weights_constant
+        rank = getattr(model, "rank", None)
+        self.rank = int(rank) if rank is not None else int(np.linalg.matrix_rank(self.X))
+        self.names = _param_names(model, self.X)
+        self.ssr = float(self.u @ self.u)
+        yy = float(self.y @ self.y)
+        self.finite = math.isfinite(self.ssr) and math.isfinite(yy)
+        self.perfect = self.finite and (self.ssr <= 1e-20 * yy or yy == 0.0)
+
+    def require_residuals(self) -> None:
+        """Raise when the residuals carry no information (non-finite values, or a perfect fit)."""
+        if not self.finite:
+            raise StatisticError(
+                "the endog or the residuals contain NaN or infinite values (missing values not dropped?)"
+            )
+        if self.perfect:
+            raise StatisticError(
+                "the residuals are numerically zero (a perfect fit): the statistic is undefined"
+            )
+
+
+def _constant_columns(X: np.ndarray, block: int = 4096) -> np.ndarray:
+    """Indexes of the columns whose entries are all equal (without an n x k temporary).
+
+    The first block of rows rules out almost every column; only the survivors are read further.
+    """
+    n = X.shape[0]
+    if n == 0:
+        return np.zeros(0, dtype=int)
+    first = np.asarray(X[0])
+    candidates = np.flatnonzero((np.asarray(X[:block]) == first).all(axis=0))
+    for j in list(candidates):
+        column = X[:, j]
+        for s in range(block, n, 65_536):
+            if not (column[s : s + 65_536] == first[j]).all():
+                candidates = candidates[candidates != j]
+                break
+    return candidates
+
+
+def _param_names(model: Any, X: np.ndarray) -> list[str]:
+    """The model's ``exog_names``, without statsmodels' n x k temporary for plain-array designs.
+
+    For an ndarray design statsmodels recomputes the names on every access from ``exog.var(0)``
+    (``statsmodels.base.data._make_exog_names``); the same rule is applied here with ``ptp``, which
+    needs no temporary: the first column without variation is "const", the others x1, x2, ...
+    """
+    data = model.data
+    if type(getattr(data, "orig_exog", None)) is not np.ndarray or getattr(data, "_param_names", None):
+        return [str(x) for x in model.exog_names]
+    k = X.shape[1]
+    flat = _constant_columns(X)
+    if flat.size:
+        names = [f"x{i:d}" for i in range(1, k)]
+        names.insert(int(flat[0]), "const")
+        return names
+    return [f"x{i:d}" for i in range(1, k + 1)]
+
+
+class _Basis:
+    """The design in a basis with the same column space: V = X·A, better conditioned than X.
+
+    With an explicit constant column c (index ``c``), column j of V is x_j − m_j·c with
+    m_j = c'x_j / c'c; otherwise V = X. A = I − e_c m' (m_c = 0), so Xβ = Vβ_V gives β = A·β_V and
+    Cov(β) = A·Cov(β_V)·A'; X'X = A⁻ᵀ(V'V)A⁻¹ with A⁻¹ = I + e_c m'.
+    """
+
+    def __init__(self, fit: _Fit) -> None:
+        self.X = fit.X
+        self.n, self.k = fit.n, fit.k
+        self.c = fit.const_idx
+        self.chunk = fit.chunk
+        self.m: np.ndarray | None = None
+        self.shift: np.ndarray | None = None  # a·m when the constant column is the constant a
+        if self.c is not None:
+            num = np.zeros(self.k)
+            den = 0.0
+            for s, e in self.spans():
+                block = np.asarray(self.X[s:e], dtype=float)
+                col = block[:, self.c]
+                num += block.T @ col
+                den += float(col @ col)
+            m = num / den
+            m[self.c] = 0.0
+            self.m = m
+            if fit.one_in_span and fit.estimator == "OLS":
+                self.shift = float(np.asarray(self.X[0, self.c], dtype=float)) * m
+
+    def spans(self) -> Iterator[tuple[int, int]]:
+        """(start, stop) of every row block."""
+        for s in range(0, self.n, self.chunk):
+            yield s, min(self.n, s + self.chunk)
+
+    def _centre(self, block: np.ndarray) -> np.ndarray:
+        if self.m is None:
+            return block
+        if self.shift is not None:
+            return block - self.shift
+        out = np.outer(block[:, self.c], self.m)
+        np.subtract(block, out, out=out)
+        return out
+
+    def rows(self, s: int, e: int) -> np.ndarray:
+        """Rows s..e of V (a new array, or a read-only view of X when no change of basis is needed)."""
+        return self._centre(np.asarray(self.X[s:e], dtype=float))
+
+    def take(self, positions: np.ndarray) -> np.ndarray:
+        """The rows of V at these positions."""
+        return self._centre(np.asarray(self.X[positions], dtype=float))
+
+    def to_params(self, cov_v: np.ndarray) -> np.ndarray:
+        """Map a covariance of β_V to the covariance of the model's parameters β."""
+        if self.m is None:
+            return cov_v
+        a = np.eye(self.k)
+        a[self.c, :] -= self.m
+        return a @ cov_v @ a.T
+
+    def to_raw_gram(self, g: np.ndarray) -> np.ndarray:
+        """X'X from V'V."""
+        if self.m is None:
+            return g
+        ainv = np.eye(self.k)
+        ainv[self.c, :] += self.m
+        return ainv.T @ g @ ainv
+
+
+# --------------------------------------------------------------------------------------------
+# Passes over the rows
+
+
+Consumer = Callable[[int, int, np.ndarray], None]
+
+
+def _sweep(basis: _Basis, consumers: dict[str, Consumer], failed: dict[str, BaseException]) -> None:
+    """One pass over the row blocks of V, feeding each block to every consumer.
+
+    A consumer that raises is dropped for the rest of the pass and its exception kept in ``failed``.
+    """
+    active = {name: fn for name, fn in consumers.items() if name not in failed}
+    if not active:
+        return
+    for s, e in basis.spans():
+        v = basis.rows(s, e)
+        for name, fn in list(active.items()):
+            try:
+                fn(s, e, v)
+            except Exception as exc:  # noqa: BLE001 - isolate one statistic's failure
+                failed[name] = exc
+                del active[name]
+        if not active:
+            return
+
+
+def _plus(g: np.ndarray, sums: np.ndarray, n: int) -> np.ndarray:
+    """The cross-product matrix of [1, V] from V'V, V'1 and n."""
+    k = g.shape[0]
+    out = np.empty((k + 1, k + 1))
+    out[0, 0] = n
+    out[0, 1:] = sums
+    out[1:, 0] = sums
+    out[1:, 1:] = g
+    return out
+
+
+# --------------------------------------------------------------------------------------------
+# Row labels, time order, groups (pandas only when the fit already holds pandas objects)
+
+
+def _is_pandas(obj: Any) -> bool:
+    return type(obj).__module__.split(".")[0] == "pandas"
+
+
+def _fingerprint(labels: Any, n: int) -> str:
+    """SHA-1 hex digest identifying a fit's rows.
+
+    Integer labels (and ``range(n)`` when the fit has none) hash as ``b"int64:"`` + their
+    little-endian int64 bytes; datetime labels as ``b"datetime64[ns]:"`` + int64 nanoseconds;
+    period labels as ``b"period[FREQ]:"`` + int64 ordinals; any other labels as ``b"str:"`` + the
+    UTF-8 of their ``str()`` joined by U+001F. Two fits on the same observations get the same digest.
+    """
+    h = hashlib.sha1()
+    if labels is None:
+        h.update(b"int64:")
+        h.update(np.arange(n, dtype="<i8").tobytes())
+        return h.hexdigest()
+    if _is_pandas(labels):
+        import pandas as pd
+
+        if isinstance(labels, pd.PeriodIndex):
+            h.update(f"period[{labels.freqstr}]:".encode())
+            h.update(np.asarray(labels.asi8, dtype="<i8").tobytes())
+            return h.hexdigest()
+        if isinstance(labels, pd.DatetimeIndex):
+            values = np.asarray(labels.tz_localize(None) if labels.tz is not None else labels)
+            h.update(b"datetime64[ns]:")
+            h.update(values.astype("datetime64[ns]").view("<i8").tobytes())
+            return h.hexdigest()
+    arr = np.asarray(labels)
+    if arr.dtype.kind in "iu" and arr.ndim == 1:
+        h.update(b"int64:")
+        h.update(arr.astype("<i8").tobytes())
+        return h.hexdigest()
+    h.update(b"str:")
+    h.update("\x1f".join(str(x) for x in arr.tolist()).encode("utf-8", "surrogatepass"))
+    return h.hexdigest()
+
+
+def _frame(fit: _Fit) -> Any:
+    """The model's data frame (formula fits), as a pandas DataFrame, or None."""
+    frame = getattr(fit.model.data, "frame", None)
+    if frame is None:
+        return None
+    if hasattr(frame, "columns"):
+        return frame
+    import pandas as pd
+
+    return pd.DataFrame(frame)
+
+
+def _aligned(values: Any, frame: Any, fit: _Fit) -> np.ndarray:
+    """The entries of a frame-aligned Series for the fit's rows, in the fit's row order."""
+    labels = fit.model.data.row_labels
+    if len(frame) == fit.n and (labels is None or frame.index.equals(labels)):
+        return np.asarray(values)
+    if labels is not None and frame.index.is_unique:
+        try:
+            return np.asarray(values.loc[labels])
+        except KeyError:
+            pass
+    raise StatisticError("cannot align the data frame's rows with the rows the fit used")
+
+
+def _periods_per_year(offset: Any) -> float | None:
+    code = str(getattr(offset, "rule_code", "") or "").split("-")[0]
+    mult = int(getattr(offset, "n", 1) or 1)
+    code = code[2:] if code.startswith("CB") else code[1:] if code.startswith("B") else code
+    if code in ("Q", "QE", "QS"):
+        return 4.0 / mult
+    if code in ("M", "ME", "MS"):
+        return 12.0 / mult
+    return None
+
+
+def _lags_for(offset: Any) -> int:
+    """Breusch-Godfrey lags by data frequency: 4 quarterly, 12 monthly, 1 otherwise (common practice)."""
+    per_year = _periods_per_year(offset) if offset is not None else None
+    if per_year == 4.0:
+        return 4
+    if per_year == 12.0:
+        return 12
+    return 1
+
+
+def _time_order(fit: _Fit) -> tuple[str | None, Any]:
+    """(reason the data is time-ordered or None, the data frequency as a pandas offset or None)."""
+    labels = fit.model.data.row_labels
+    if labels is not None and _is_pandas(labels):
+        import pandas as pd
+
+        if isinstance(labels, (pd.DatetimeIndex, pd.PeriodIndex)):
+            kind = "DatetimeIndex" if isinstance(labels, pd.DatetimeIndex) else "PeriodIndex"
+            freq = labels.freq
+            if freq is None and len(labels) >= 3:
+                try:
+                    inferred = pd.infer_freq(labels)
+                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
+                except (TypeError, ValueError):
+                    freq = None
+            reason = f"the fit's rows have a {kind}"
+            if not labels.is_monotonic_increasing:
+                reason += " (rows are not in time order; the statistics use the row order)"
+            return reason, freq
+    column = fit.opts["time_column"]
+    frame = _frame(fit) if column is not None else None
+    if frame is not None and column in frame.columns:
+        import pandas as pd
+
+        series = frame[column]
+        freq = None
+        if isinstance(series.dtype, pd.PeriodDtype):
+            freq = series.dtype.freq
+        elif pd.api.types.is_datetime64_any_dtype(series.dtype):
+            values = pd.DatetimeIndex(series.dropna().unique()).sort_values()
+            if len(values) >= 3:
+                try:
+                    inferred = pd.infer_freq(values)
+                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
+                except (TypeError, ValueError):
+                    freq = None
+        reason = f"time_column {column!r} is in the model's data frame"
+        try:
+            if not series.is_monotonic_increasing:
+                reason += " (rows are not in time order; the statistics use the row order)"
+        except TypeError:
+            pass
+        return reason, freq
+    return None, None
+
+
+def _candidate_groups(fit: _Fit, candidate: str) -> tuple[np.ndarray, list[str]]:
+    """(group code of every row used by the fit, group labels) for one break candidate."""
+    frame = _frame(fit)
+    if frame is not None and candidate in frame.columns:
+        import pandas as pd
+
+        values = _aligned(frame[candidate], frame, fit)
+        try:
+            codes, uniques = pd.factorize(values, sort=True, use_na_sentinel=False)
+        except TypeError:
+            codes, uniques = pd.factorize(values, sort=False, use_na_sentinel=False)
+        return np.asarray(codes), [str(x) for x in list(uniques)]
+    if candidate in fit.names:
+        column = np.asarray(fit.model.exog[:, fit.names.index(candidate)])
+        uniques, codes = np.unique(column, return_inverse=True)
+        return codes.reshape(-1), [str(x) for x in uniques.tolist()]
+    if frame is None:
+        raise StatisticError(
+            f"{candidate!r} is not a column of the design and the fit has no data frame "
+            "(not a formula fit), so a query expression cannot be evaluated"
+        )
+    try:
+        result = frame.eval(candidate)
+    except Exception as exc:  # noqa: BLE001 - any pandas parse/eval error
+        raise StatisticError(
+            f"{candidate!r} is neither a column of the data frame nor a query expression it can evaluate "
+            f"({_message(exc)})"
+        ) from exc
+    if not hasattr(result, "__len__") or len(result) != len(frame):
+        raise StatisticError(f"the query expression {candidate!r} does not give one value per row")
+    import pandas as pd
+
+    result = pd.Series(np.asarray(result), index=frame.index)
+    if result.dtype != bool:
+        if not pd.api.types.is_bool_dtype(result.dtype) and result.dtype != object:
+            raise StatisticError(f"the query expression {candidate!r} is not a true/false condition")
+        result = result.fillna(False).astype(bool)
+    holds = _aligned(result, frame, fit).astype(bool)
+    return np.where(holds, 0, 1), ["holds", "does not hold"]
+
+
+# --------------------------------------------------------------------------------------------
+# The computation
+
+
+_LOG_CALL = re.compile(r"^(?:[A-Za-z_][A-Za-z_0-9]*\.)*(log|log10|log2|log1p|ln)\((.*)\)$")
+_LOG_NAME = re.compile(r"^(?:log|ln)_[A-Za-z_0-9]")
+_BASES = {"log": math.e, "ln": math.e, "log1p": math.e, "log10": 10.0, "log2": 2.0}
+
+
+def _log_base(name: str) -> float | None:
+    """The base of the log transform that an endog name shows (np.log(x), log10(x), log_x), or None."""
+    text = name.strip()
+    while text.startswith("I(") and text.endswith(")") and _balanced(text[2:-1]):
+        text = text[2:-1].strip()
+    match = _LOG_CALL.match(text)
+    if match and _balanced(match.group(2)):
+        return _BASES[match.group(1)]
+    if _LOG_NAME.match(text):
+        return math.e
+    return None
+
+
+def _balanced(text: str) -> bool:
+    depth = 0
+    for ch in text:
+        depth += ch == "("
+        depth -= ch == ")"
+        if depth < 0:
+            return False
+    return depth == 0
+
+
+class _Stats:
+    """Runs every statistic for one fit; see :func:`fit_statistics` for the output contract."""
+
+    def __init__(self, fit: _Fit) -> None:
+        self.fit = fit
+        self.opts = fit.opts
+        self.out: dict[str, Any] = {}
+        self.errors: dict[str, str] = {}
+        #: Row passes (and shared steps) that failed, by name; the statistics that need them say so.
+        self.failed: dict[str, BaseException] = {}
+        # Defaults for everything prepare() sets, so that a failure there leaves a consistent state.
+        self.reset_z: np.ndarray | None = None
+        self.yhat_varies = False
+        # Robust SE type (the large-sample type from robust_se_large_n rows on).
+        large = fit.n >= self.opts["robust_se_large_n"]
+        self.hc: str = self.opts["robust_se_large"] if large else self.opts["robust_se"]
+        self.time_reason: str | None = None
+        self.lags = 0
+        self.white_columns = 0
+        self.white_full = False
+
+    # -- helpers ------------------------------------------------------------------------------
+
+    def put(self, key: str, compute: Callable[[], Any]) -> None:
+        """Store compute() under ``key``; on failure store None and record why under errors[key]."""
+        try:
+            self.out[key] = compute()
+        except Exception as exc:  # noqa: BLE001 - one statistic never fails the others
+            self.out[key] = None
+            self.errors[key] = _message(exc)
+
+    def need(self, *names: str) -> None:
+        """Raise the failure of a row pass that a statistic depends on."""
+        for name in names:
+            if name in self.failed:
+                raise StatisticError(f"{name} pass failed: {_message(self.failed[name])}")
+
+    # -- the whole run -------------------------------------------------------------------------
+
+    def phase(self, step: Callable[[], None]) -> None:
+        """Run a shared step; if it fails, every statistic that depends on a row pass reports why."""
+        try:
+            step()
+        except Exception as exc:  # noqa: BLE001
+            for name in ("design", "gram", "reset_cross", "reset", "lags", "bg", "meat", "cv", "cv_predict",
+                         "white_full"):
+                self.failed.setdefault(name, exc)
+
+    def run(self) -> dict[str, Any]:
+        """Compute every statistic; the output dict of :func:`fit_statistics`."""
+        fit = self.fit
+        self.basic()
+        self.put("rows", lambda: {"count": fit.n, "fingerprint": _fingerprint(fit.model.data.row_labels, fit.n)})
+        self.put("log_level_r2", self.log_level_r2)
+        self.out["weights"] = WEIGHTS_NOTE if fit.estimator == "WLS" else None
+
+        self.phase(self.prepare)
+        self.phase(self.pass_one)
+        self.phase(self.solve)
+        self.phase(self.pass_two)
+
+        self.put("breusch_pagan", self.breusch_pagan)
+        self.put("white", self.white)
+        self.put("reset", self.reset)
+        self.put("jarque_bera", self.jarque_bera)
+        self.put("condition_index", self.condition_index)
+        self.put("vif", self.vif)
+        self.time_series()
+        self.out["chow"] = self.chow()
+        self.out["coefficient_tests"] = COEFFICIENT_TESTS
+        self.put("coefficients", self.coefficients)
+        if self.opts["cv"]:
+            self.put("cv", self.cross_validation)
+        self.out["errors"] = self.errors
+        return self.out
+
+    def basic(self) -> None:
+        fit, res, model = self.fit, self.fit.res, self.fit.model
+        self.out["estimator"] = fit.estimator
+        self.out["nobs"] = fit.n
+        self.out["k"] = fit.k
+        self.out["n_regressors"] = fit.k - (1 if fit.const_idx is not None else 0)
+        self.put("df_resid", lambda: _count(res.df_resid))
+        for key in ("rsquared", "rsquared_adj", "aic", "bic", "llf", "ssr"):
+            self.put(key, lambda key=key: _num(getattr(res, key)))
+        self.put("resid_sd", lambda: _num(math.sqrt(float(res.scale))) if float(res.scale) >= 0 else None)
+        self.put("cov_type", lambda: str(res.cov_type))
+        self.put("use_t", lambda: bool(res.use_t))
+        self.out["has_constant"] = bool(fit.k_constant)
+        self.out["param_names"] = list(fit.names)
+        self.put("endog_name", lambda: str(model.endog_names))
+
+    def log_level_r2(self) -> float | None:
+        """corr(exp(endog), exp(fitted))² when the endog's name shows a log transform, else None."""
+        fit = self.fit
+        base = _log_base(str(fit.model.endog_names))
+        if base is None:
+            return None
+        endog = np.asarray(fit.model.endog, dtype=float).reshape(-1)
+        fitted = np.asarray(fit.res.fittedvalues, dtype=float).reshape(-1)
+        # corr is invariant to scaling each variable, so exp(v - max v) avoids overflow.
+        a = np.power(base, endog - np.max(endog))
+        b = np.power(base, fitted - np.max(fitted))
+        a = a - a.mean()
+        b = b - b.mean()
+        den = float(a @ a) * float(b @ b)
+        if not den > 0:
+            raise StatisticError("exp(endog) or exp(fitted values) is constant")
+        return _num(float(a @ b) ** 2 / den)
+
+    # -- shared computations -------------------------------------------------------------------
+
+    def prepare(self) -> None:
+        """n-vectors and choices shared by several statistics (cheap: no n x k work)."""
+        fit = self.fit
+        u = fit.u
+        self.g = u * u
+        self.g_mean = float(self.g.mean()) if fit.n else 0.0
+        self.g_c = self.g - self.g_mean
+        self.u_mean = float(u.mean()) if fit.n else 0.0
+        # RESET columns: powers of the (whitened) fitted values, centred and scaled when the constant is
+        # in the design's column space (the span of [X, ŷ², ŷ³] is then unchanged).
+        if fit.n:
+            a = float(fit.yhat.mean()) if fit.one_in_span else 0.0
+            z = fit.yhat - a
+            b = math.sqrt(float(z @ z) / fit.n)
+            rms = math.sqrt(float(fit.yhat @ fit.yhat) / fit.n)
+            spread = float(np.ptp(fit.yhat))
+            # Fitted values equal up to rounding (a model with only a constant) carry no information.
+            self.yhat_varies = spread > 1e-10 * rms
+            if b > 0 and self.yhat_varies:
+                self.reset_z = z / b
+        # Time order and BG lags.
+        try:
+            reason, freq = _time_order(fit)
+        except Exception as exc:  # noqa: BLE001
+            self.errors["time_ordered"] = _message(exc)
+            reason, freq = None, None
+        if reason is not None:
+            self.time_reason = reason
+            self.lags = int(self.opts["serial_lags"] or _lags_for(freq))
+            self.u_padded = np.concatenate([np.zeros(self.lags), u])
+        # White: which form.
+        p_plus = fit.k + (0 if fit.one_in_span else 1)
+        self.white_columns = p_plus * (p_plus + 1) // 2
+        self.white_full = self.white_columns <= self.opts["white_max_columns"]
+        # Cross-validation folds.
+        if self.opts["cv"]:
+            folds = self.opts["cv_folds"]
+            if folds > fit.n:
+                self.failed["cv"] = StatisticError(f"cv_folds ({folds}) is larger than nobs ({fit.n})")
+            else:
+                perm = np.random.default_rng(self.opts["cv_seed"]).permutation(fit.n)
+                self.fold_of = np.empty(fit.n, dtype=np.intp)
+                for j, part in enumerate(np.array_split(perm, folds)):
+                    self.fold_of[part] = j
+
+    def lag_block(self, s: int, e: int) -> np.ndarray:
+        """Rows s..e of the zero-padded lagged residuals û_{t-1}..û_{t-p}."""
+        p = self.lags
+        return np.column_stack([self.u_padded[s + p - j : e + p - j] for j in range(1, p + 1)])
+
+    def reset_block(self, s: int, e: int) -> np.ndarray:
+        z = self.reset_z[s:e]
+        z2 = z * z
+        return np.column_stack([z2, z2 * z])
+
+    def pass_one(self) -> None:
+        """Row pass 1: V'V, V'1, V'[û, û² − mean, RESET columns, lags], HC0 meat, CV fold sums."""
+        fit = self.fit
+        try:
+            self.basis = _Basis(fit)
+        except Exception as exc:  # noqa: BLE001
+            self.failed["design"] = exc
+            for name in ("gram", "reset_cross", "lags", "meat", "cv"):
+                self.failed.setdefault(name, exc)
+            return
+        k = fit.k
+        self.G = np.zeros((k, k))
+        self.sums = np.zeros(k)
+        self.cross = np.zeros((k, 2))  # columns: û, û² − mean
+        self.cross_reset = np.zeros((k, 2))
+        u, gc = fit.u, self.g_c
+
+        def gram(s: int, e: int, v: np.ndarray) -> None:
+            self.G += v.T @ v
+            self.sums += v.sum(axis=0)
+            self.cross += v.T @ np.column_stack([u[s:e], gc[s:e]])
+
+        consumers: dict[str, Consumer] = {"gram": gram}
+        if self.reset_z is not None:
+            def reset(s: int, e: int, v: np.ndarray) -> None:
+                self.cross_reset += v.T @ self.reset_block(s, e)
+
+            consumers["reset_cross"] = reset
+        else:
+            self.failed["reset_cross"] = StatisticError("the fitted values are constant")
+        if self.lags:
+            self.cross_lags = np.zeros((k, self.lags))
+            self.sum_lags = np.zeros(self.lags)
+
+            def lags(s: int, e: int, v: np.ndarray) -> None:
+                block = self.lag_block(s, e)
+                self.cross_lags += v.T @ block
+                self.sum_lags += block.sum(axis=0)
+
+            consumers["lags"] = lags
+        if self.hc in ("HC0", "HC1"):
+            self.meat = np.zeros((k, k))
+
+            absu = np.abs(u)
+
+            def meat(s: int, e: int, v: np.ndarray) -> None:
+                w = v * absu[s:e, None]
+                self.meat += w.T @ w
+
+            consumers["meat"] = meat
+        if self.opts["cv"] and "cv" not in self.failed:
+            folds = self.opts["cv_folds"]
+            self.fold_gram = np.zeros((folds, k, k))
+            self.fold_cross = np.zeros((folds, k))
+
+            def cv(s: int, e: int, v: np.ndarray) -> None:
+                which = self.fold_of[s:e]
+                us = u[s:e]
+                for j in range(folds):
+                    sel = which == j
+                    if sel.any():
+                        vj = v[sel]
+                        self.fold_gram[j] += vj.T @ vj
+                        self.fold_cross[j] += vj.T @ us[sel]
+
+            consumers["cv"] = cv
+        _sweep(self.basis, consumers, self.failed)
+
+    def solve(self) -> None:
+        """Generalised inverses of V'V and of [1, V]'[1, V] (the auxiliary regressions' design)."""
+        if "gram" in self.failed:
+            return
+        fit = self.fit
+        if not (np.isfinite(self.G).all() and np.isfinite(self.sums).all()):
+            self.failed["gram"] = StatisticError("the design contains NaN or infinite values")
+            return
+        try:
+            self.Ginv = _GInverse(self.G, rank=fit.rank)
+            if fit.one_in_span:
+                self.Gp = self.G
+                self.Gpinv = self.Ginv
+            else:
+                self.Gp = _plus(self.G, self.sums, fit.n)
+                self.Gpinv = _GInverse(self.Gp, rank=fit.rank + 1)
+        except Exception as exc:  # noqa: BLE001
+            self.failed["gram"] = exc
+
+    def plus_cross(self, cross_v: np.ndarray, sums: np.ndarray) -> np.ndarray:
+        """[1, V]'R (or V'R when 1 is already in the design's span) from V'R and 1'R."""
+        if self.fit.one_in_span:
+            return cross_v
+        return np.vstack([sums[None, :], cross_v])
+
+    def pass_two(self) -> None:
+        """Row pass 2 (needs the inverses): leverages and HC2/HC3 meat, residualised RESET columns and
+        lags, CV predictions, and the full White auxiliary regression."""
+        if "gram" in self.failed:
+            for name in ("meat", "reset", "bg", "cv", "white_full"):
+                self.failed.setdefault(name, self.failed["gram"])
+            return
+        fit = self.fit
+        k = fit.k
+        u = fit.u
+        consumers: dict[str, Consumer] = {}
+        Ginv = self.Ginv.inv
+
+        if self.hc in ("HC2", "HC3"):
+            self.meat = np.zeros((k, k))
+            self.max_leverage = 0.0
+            power = 1 if self.hc == "HC2" else 2
+
+            def meat(s: int, e: int, v: np.ndarray) -> None:
+                h = np.einsum("ij,ij->i", v @ Ginv, v)
+                self.max_leverage = max(self.max_leverage, float(h.max(initial=0.0)))
+                w = self.g[s:e] / (1.0 - h) ** power
+                self.meat += (v * w[:, None]).T @ v
+
+            consumers["meat"] = meat
+
+        if "reset_cross" not in self.failed:
+            b_reset = Ginv @ self.cross_reset
+            self.reset_rr = np.zeros((2, 2))
+            self.reset_ru = np.zeros(2)
+
+            def reset(s: int, e: int, v: np.ndarray) -> None:
+                r = self.reset_block(s, e) - v @ b_reset
+                self.reset_rr += r.T @ r
+                self.reset_ru += r.T @ u[s:e]
+
+            consumers["reset"] = reset
+        else:
+            self.failed["reset"] = self.failed["reset_cross"]
+
+        if self.lags and "lags" not in self.failed:
+            b_lags = self.Gpinv.inv @ self.plus_cross(self.cross_lags, self.sum_lags)
+            p = self.lags
+            self.bg_rr = np.zeros((p, p))
+            self.bg_ru = np.zeros(p)
+            one = not fit.one_in_span
+
+            def bg(s: int, e: int, v: np.ndarray) -> None:
+                fitted = v @ b_lags[1:] + b_lags[0] if one else v @ b_lags
+                r = self.lag_block(s, e) - fitted
+                self.bg_rr += r.T @ r
+                self.bg_ru += r.T @ u[s:e]
+
+            consumers["bg"] = bg
+        elif self.lags:
+            self.failed["bg"] = self.failed["lags"]
+
+        if self.opts["cv"] and "cv" not in self.failed:
+            folds = self.opts["cv_folds"]
+            total_cross = self.cross[:, 0]
+            deltas = []
+            for j in range(folds):
+                train = _GInverse(self.G - self.fold_gram[j], rank=fit.rank)
+                deltas.append(train.inv @ (total_cross - self.fold_cross[j]))
+            self.cv_sse = 0.0
+            self.cv_sae = 0.0
+
+            def cv(s: int, e: int, v: np.ndarray) -> None:
+                which = self.fold_of[s:e]
+                err = u[s:e].copy()
+                for j in range(folds):
+                    sel = which == j
+                    if sel.any():
+                        err[sel] -= v[sel] @ deltas[j]
+                self.cv_sse += float(err @ err)
+                self.cv_sae += float(np.abs(err).sum())
+
+            consumers["cv_predict"] = cv
+
+        if self.white_full:
+            # Products of the (RMS-scaled) columns of [1, V]: the same span as het_white's products.
+            scale = np.sqrt(np.diag(self.G) / max(fit.n, 1))
+            scale[~(scale > 0)] = 1.0
+            one = not fit.one_in_span
+            p_plus = k + (1 if one else 0)
+            i0, i1 = np.triu_indices(p_plus)
+            self.white_qr = _TallQR()
+            g = self.g
+
+            def white(s: int, e: int, v: np.ndarray) -> None:
+                w = v / scale
+                if one:
+                    w = np.column_stack([np.ones(e - s), w])
+                self.white_qr.add(np.column_stack([w[:, i0] * w[:, i1], g[s:e]]))
+
+            consumers["white_full"] = white
+
+        _sweep(self.basis, consumers, self.failed)
+
+    # -- statistics ----------------------------------------------------------------------------
+
+    def _aux_result(self, ess: float, tss: float, df_model: int, df_resid: float) -> dict[str, Any]:
+        n = self.fit.n
+        if not tss > 0:
+            raise StatisticError("the dependent variable of the auxiliary regression is constant")
+        if df_model <= 0 or df_resid <= 0:
+            raise StatisticError("the auxiliary regression has no degrees of freedom")
+        ess = min(max(ess, 0.0), tss)
+        lm = n * ess / tss
+        ssr = tss - ess
+        f = (ess / df_model) / (ssr / df_resid) if ssr > 0 else math.inf
+        return {
+            "lm": _num(lm),
+            "lm_pvalue": _num(stats.chi2.sf(lm, df_model)),
+            "f": _num(f),
+            "f_pvalue": _num(stats.f.sf(f, df_model, df_resid)) if math.isfinite(f) else _num(0.0),
+            "df": int(df_model),
+        }
+
+    def breusch_pagan(self) -> dict[str, Any]:
+        """Koenker's studentized BP: n·R² of û² on the design (with an intercept); = het_breuschpagan."""
+        self.fit.require_residuals()
+        self.need("gram")
+        fit = self.fit
+        c = self.plus_cross(self.cross[:, 1:2], np.array([0.0]))[:, 0]
+        ess = self.Gpinv.quad(c)
+        tss = float(self.g_c @ self.g_c)
+        rank = self.Gpinv.rank
+        out = {"form": FORM_BREUSCH_PAGAN}
+        out.update(self._aux_result(ess, tss, rank - 1, fit.n - rank))
+        return out
+
+    def white(self) -> dict[str, Any]:
+        """White's test: full (û² on levels, squares, cross-products) or special (û² on ŷ, ŷ²)."""
+        fit = self.fit
+        fit.require_residuals()
+        tss = float(self.g_c @ self.g_c)
+        if self.white_full:
+            self.need("gram", "white_full")
+            qr = self.white_qr
+            if qr.r is None:
+                raise StatisticError("no observations")
+            p = qr.r.shape[1] - 1
+            ssr, rank = _ssr_on_columns(qr.r, qr.rows, p)
+            out = {"form": FORM_WHITE_FULL}
+            out.update(self._aux_result(tss - ssr, tss, rank - 1, fit.n - rank))
+            out["columns"] = int(p)
+            return out
+        # Special form: û² on [1, ŷ, ŷ²], with ŷ standardised (same span).
+        yhat = fit.yhat
+        t = yhat - yhat.mean()
+        sd = math.sqrt(float(t @ t) / fit.n) if fit.n else 0.0
+        if not (sd > 0 and self.yhat_varies):
+            raise StatisticError("the fitted values are constant")
+        t = t / sd
+        t2 = t * t
+        t2 = t2 - t2.mean()
+        z = np.column_stack([t, t2])
+        gi = _GInverse(z.T @ z)
+        c = z.T @ self.g_c
+        ess = gi.quad(c)
+        out = {"form": FORM_WHITE_SPECIAL}
+        out.update(self._aux_result(ess, tss, gi.rank, fit.n - gi.rank - 1))
+        out["columns"] = 3
+        return out
+
+    def reset(self) -> dict[str, Any]:
+        """RESET with ŷ², ŷ³: F of the powers added to the model (= linear_reset(power=3, use_f=True))."""
+        fit = self.fit
+        fit.require_residuals()
+        self.need("gram", "reset")
+        gi = _GInverse(self.reset_rr)
+        q = gi.rank
+        if q == 0:
+            raise StatisticError("the powers of the fitted values lie in the span of the regressors")
+        ess = gi.quad(self.reset_ru)
+        df_denom = float(fit.res.df_resid) - q
+        ssr_u = fit.ssr - ess
+        if df_denom <= 0:
+            raise StatisticError("too few residual degrees of freedom for the RESET regression")
+        f = (ess / q) / (ssr_u / df_denom) if ssr_u > 0 else math.inf
+        return {
+            "form": FORM_RESET,
+            "f": _num(f),
+            "pvalue": _num(stats.f.sf(f, q, df_denom)) if math.isfinite(f) else _num(0.0),
+            "df_num": int(q),
+            "df_denom": _count(df_denom),
+        }
+
+    def jarque_bera(self) -> dict[str, Any]:
+        """JB = n/6·(S² + (K − 3)²/4) with biased moments; K is not excess kurtosis (= stattools.jarque_bera)."""
+        fit = self.fit
+        fit.require_residuals()
+        if fit.n < 2:
+            raise StatisticError("fewer than two residuals")
+        d = fit.u - self.u_mean
+        d2 = d * d
+        m2 = float(d2.mean())
+        if not m2 > 0:
+            raise StatisticError("the residuals are constant")
+        m3 = float((d2 * d).mean())
+        m4 = float((d2 * d2).mean())
+        skew = m3 / m2**1.5
+        kurt = m4 / m2**2
+        jb = fit.n / 6.0 * (skew**2 + (kurt - 3.0) ** 2 / 4.0)
+        return {
+            "statistic": _num(jb),
+            "pvalue": _num(stats.chi2.sf(jb, 2)),
+            "skew": _num(skew),
+            "kurtosis": _num(kurt),
+            "form": FORM_JARQUE_BERA,
+        }
+
+    def _full_rank(self, what: str) -> None:
+        fit = self.fit
+        if fit.rank < fit.k:
+            raise StatisticError(
+                f"the design is rank-deficient (rank {fit.rank} < {fit.k} columns: perfectly collinear "
+                f"regressors), so {what}"
+            )
+
+    def condition_index(self) -> dict[str, Any]:
+        """Belsley-Kuh-Welsch condition number: columns (incl. the constant) scaled to unit length."""
+        self.need("gram")
+        self._full_rank("the condition index is infinite")
+        xtx = self.basis.to_raw_gram(self.G)
+        d = np.sqrt(np.diag(xtx))
+        if not np.all(d > 0):
+            raise StatisticError("a column of the design is all zeros")
+        lam = np.linalg.eigvalsh(xtx / np.outer(d, d))
+        if not lam[0] > 0:
+            raise StatisticError("the scaled design is numerically singular: the condition index is infinite")
+        return {"value": _num(math.sqrt(lam[-1] / lam[0])), "form": FORM_CONDITION_INDEX}
+
+    def vif(self) -> dict[str, Any]:
+        """Centred VIFs of the non-constant regressors: diag of the inverse correlation matrix."""
+        self.need("gram")
+        self._full_rank("the VIFs are infinite")
+        fit = self.fit
+        if fit.const_idx is not None:
+            idx = [j for j in range(fit.k) if j != fit.const_idx]
+            centred = self.G[np.ix_(idx, idx)]  # V's columns are already centred on the constant
+        else:
+            idx = list(range(fit.k))
+            centred = self.G - np.outer(self.sums, self.sums) / fit.n
+        if not idx:
+            return {"max": None, "variable": None, "values": {}}
+        d = np.sqrt(np.diag(centred))
+        if not np.all(d > 0):
+            bad = [fit.names[idx[i]] for i in np.flatnonzero(~(d > 0))]
+            raise StatisticError(f"regressor(s) without variation: {', '.join(bad)}")
+        corr = centred / np.outer(d, d)
+        w = np.linalg.eigvalsh(corr)
+        if not w[0] > w[-1] * len(idx) * _EPS * 10:
+            raise StatisticError(
+                "the centred regressors are perfectly collinear (e.g. a full set of dummies without a "
+                "constant column), so the VIFs are infinite"
+            )
+        values = np.diag(np.linalg.inv(corr))
+        names = [fit.names[j] for j in idx]
+        top = int(np.argmax(values))
+        return {
+            "max": _num(values[top]),
+            "variable": names[top],
+            "values": {name: _num(v) for name, v in zip(names, values)},
+        }
+
+    def time_series(self) -> None:
+        self.out["time_ordered"] = self.time_reason
+        if self.time_reason is None:
+            self.out["durbin_watson"] = None
+            self.out["breusch_godfrey"] = None
+            return
+        self.put("durbin_watson", self.durbin_watson)
+        self.put("breusch_godfrey", self.breusch_godfrey)
+
+    def durbin_watson(self) -> float | None:
+        """Σ(Δû)² / Σû² in row order (= statsmodels' durbin_watson)."""
+        fit = self.fit
+        fit.require_residuals()
+        diff = np.diff(fit.u)
+        return _num(float(diff @ diff) / fit.ssr)
+
+    def breusch_godfrey(self) -> dict[str, Any]:
+        """BG LM = n·R² of û on [design, intercept if none, lags 1..p zero-padded] (= acorr_breusch_godfrey)."""
+        fit = self.fit
+        fit.require_residuals()
+        self.need("gram", "lags", "bg")
+        n, p = fit.n, self.lags
+        d = fit.u - self.u_mean
+        tss = float(d @ d)
+        # ESS of the centred residuals on the design (zero for OLS with a constant) plus, by FWL, the
+        # ESS of the residuals on the lags after residualising the lags on the design.
+        c_design = self.plus_cross(self.cross[:, 0:1] - self.u_mean * self.sums[:, None], np.array([0.0]))[:, 0]
+        ess_design = self.Gpinv.quad(c_design)
+        gi = _GInverse(self.bg_rr)
+        ess_lags = gi.quad(self.bg_ru)
+        df_resid = n - self.Gpinv.rank - p
+        if not tss > 0:
+            raise StatisticError("the residuals are constant")
+        if df_resid <= 0:
+            raise StatisticError(f"too few observations for {p} lags")
+        ess = min(ess_design + ess_lags, tss)
+        lm = n * ess / tss
+        ssr = tss - ess
+        f = (ess_lags / p) / (ssr / df_resid) if ssr > 0 else math.inf
+        return {
+            "lm": _num(lm),
+            "lm_pvalue": _num(stats.chi2.sf(lm, p)),
+            "f": _num(f),
+            "f_pvalue": _num(stats.f.sf(f, p, df_resid)) if math.isfinite(f) else _num(0.0),
+            "lags": int(p),
+            "form": FORM_BREUSCH_GODFREY,
+        }
+
+    def chow(self) -> list[dict[str, Any]]:
+        """One Chow F test per break candidate, from the pooled and the per-group SSRs."""
+        out = []
+        for candidate in self.opts["break_candidates"]:
+            entry: dict[str, Any] = {
+                "candidate": candidate,
+                "groups": None,
+                "group_sizes": None,
+                "f": None,
+                "pvalue": None,
+                "df_num": None,
+                "df_denom": None,
+            }
+            try:
+                entry.update(self._chow_one(candidate))
+            except Exception as exc:  # noqa: BLE001
+                self.errors[f"chow:{candidate}"] = _message(exc)
+            out.append(entry)
+        return out
+
+    def _chow_one(self, candidate: str) -> dict[str, Any]:
+        fit = self.fit
+        fit.require_residuals()
+        self.need("design")
+        codes, labels = _candidate_groups(fit, candidate)
+        counts = np.bincount(codes, minlength=len(labels))
+        present = np.flatnonzero(counts)
+        sizes = [{"label": labels[j], "nobs": int(counts[j])} for j in present]
+        if len(present) < 2:
+            raise StatisticError(f"{candidate!r} does not split the fit's rows into two or more groups")
+        order = np.argsort(codes, kind="stable")
+        bounds = np.concatenate([[0], np.cumsum(counts)])
+        k, n, u = fit.k, fit.n, fit.u
+        ssr_groups, rank_groups = 0.0, 0
+        for j in present:
+            positions = order[bounds[j] : bounds[j + 1]]
+            qr = _TallQR()
+            for s in range(0, positions.size, fit.chunk):
+                pos = positions[s : s + fit.chunk]
+                qr.add(np.column_stack([self.basis.take(pos), u[pos]]))
+            ssr_j, rank_j = _ssr_on_columns(qr.r, qr.rows, k)
+            ssr_groups += ssr_j
+            rank_groups += rank_j
+        df_num = rank_groups - fit.rank
+        df_denom = n - rank_groups
+        result: dict[str, Any] = {
+            "groups": len(sizes),
+            "group_sizes": sizes,
+            "df_num": int(df_num),
+            "df_denom": int(df_denom),
+        }
+        if df_num <= 0:
+            raise StatisticError("the group-wise regressions add no parameters")
+        if df_denom <= 0:
+            raise StatisticError("too few observations per group for separate regressions")
+        if not ssr_groups > 0:
+            raise StatisticError("the group-wise regressions fit perfectly: F is infinite")
+        f = ((fit.ssr - ssr_groups) / df_num) / (ssr_groups / df_denom)
+        result["f"] = _num(f)
+        result["pvalue"] = _num(stats.f.sf(f, df_num, df_denom))
+        return result
+
+    def coefficients(self) -> list[dict[str, Any]]:
+        """Estimates with the usual and the heteroskedasticity-robust (HC) standard errors."""
+        fit, res = self.fit, self.fit.res
+        est = np.asarray(res.params, dtype=float).reshape(-1)
+        df = float(res.df_resid)
+        scale = float(res.scale)
+        se = np.sqrt(scale * np.diag(np.asarray(res.normalized_cov_params, dtype=float)))
+        se_r: np.ndarray | None = None
+        try:
+            fit.require_residuals()
+            self.need("gram", "meat")
+            self._full_rank("the coefficients are not identified and robust standard errors are not computed")
+            if self.hc in ("HC2", "HC3") and self.max_leverage >= 1.0 - 1e-10:
+                raise StatisticError(
+                    f"an observation has leverage 1 (e.g. a dummy for a single row): {self.hc} is undefined"
+                )
+            cov_v = self.Ginv.inv @ self.meat @ self.Ginv.inv
+            if self.hc == "HC1":
+                cov_v = cov_v * (fit.n / df)
+            se_r = np.sqrt(np.clip(np.diag(self.basis.to_params(cov_v)), 0.0, None))
+        except Exception as exc:  # noqa: BLE001
+            self.errors["coefficients"] = f"robust standard errors: {_message(exc)}"
+
+        def test(b: float, s: float | None) -> tuple[float | None, float | None]:
+            if fit.perfect or s is None or not s > 0 or not math.isfinite(s) or df <= 0:
+                return None, None
+            t = b / s
+            return _num(t), _num(2.0 * stats.t.sf(abs(t), df))
+
+        out = []
+        for j, name in enumerate(fit.names):
+            t, p = test(est[j], float(se[j]))
+            s_r = float(se_r[j]) if se_r is not None else None
+            t_r, p_r = test(est[j], s_r)
+            change = None if p is None or p_r is None else bool((p < _SIGNIFICANCE) != (p_r < _SIGNIFICANCE))
+            out.append(
+                {
+                    "name": name,
+                    "estimate": _num(est[j]),
+                    "se": _num(se[j]),
+                    "t": t,
+                    "p": p,
+                    "se_robust": _num(s_r),
+                    "t_robust": t_r,
+                    "p_robust": p_r,
+                    "robust_type": self.hc,
+                    "significance_changes": change,
+                }
+            )
+        return out
+
+    def cross_validation(self) -> dict[str, Any]:
+        """k-fold CV: refit on each training fold (by updating the full fit), predict the held-out fold."""
+        self.need("gram", "cv", "cv_predict")
+        if not self.fit.finite:
+            raise StatisticError("the endog or the residuals contain NaN or infinite values")
+        n = self.fit.n
+        return {
+            "folds": int(self.opts["cv_folds"]),
+            "seed": int(self.opts["cv_seed"]),
+            "rmse": _num(math.sqrt(self.cv_sse / n)),
+            "mae": _num(self.cv_sae / n),
+        }
+
+
+def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[str, Any]:
+    """Diagnostic statistics for one statsmodels OLS or WLS results object, as a JSON-safe dict.
+
+    ``res`` is a ``RegressionResults`` (or its wrapper) of an ``OLS`` or ``WLS`` model, possibly from
+    ``get_robustcov_results`` or fitted with ``cov_type=...``; anything else raises TypeError. It is
+    read, never modified. ``options`` override :data:`DEFAULT_OPTIONS`; an unknown key or a bad
+    value raises ValueError.
+
+    The result holds only str, int, float, bool, None, lists and dicts (no NaN or infinities: None
+    instead, no numpy scalars), so ``json.dumps(result, allow_nan=False)`` always works. A statistic
+    that cannot be computed is None and ``result["errors"][name]`` says why (Chow candidates are
+    recorded as ``"chow:<candidate>"``; a failure of the robust standard errors alone under
+    ``"coefficients"``). Keys:
+
+    * ``estimator`` ("OLS"/"WLS"), ``nobs``, ``k`` (parameters incl. the constant), ``n_regressors``
+      (excl. an explicit constant column), ``df_resid``, ``rsquared``, ``rsquared_adj``, ``aic``,
+      ``bic``, ``llf``, ``ssr``, ``resid_sd`` (sqrt of scale), ``cov_type``, ``use_t``,
+      ``has_constant``, ``param_names``, ``endog_name``: as statsmodels reports them.
+    * ``rows``: ``{"count", "fingerprint"}``, see :func:`_fingerprint`.
+    * ``log_level_r2``: for an endog named like a log transform (``np.log(y)``, ``log10(y)``,
+      ``log_y``), the squared correlation of exp(endog) and exp(fitted values) (in the log's base);
+      else None.
+    * ``breusch_pagan``: ``{"form", "lm", "lm_pvalue", "f", "f_pvalue", "df"}``, Koenker's form,
+      = ``het_breuschpagan(resid, exog)`` (default robust=True).
+    * ``white``: ``{"form", "lm", "lm_pvalue", "f", "f_pvalue", "df", "columns"}``: "full"
+      (= ``het_white(resid, exog)``, df from the rank) while the auxiliary regression has at most
+      ``white_max_columns`` columns, else "special (ŷ, ŷ²)" (= ``het_breuschpagan(resid, [1, ŷ, ŷ²])``).
+    * ``reset``: ``{"form", "f", "pvalue", "df_num", "df_denom"}`` = ``linear_reset(res, power=3, use_f=True)``.
+    * ``jarque_bera``: ``{"statistic", "pvalue", "skew", "kurtosis", "form"}`` = ``stattools.jarque_bera``.
+    * ``condition_index``: ``{"value", "form"}``, Belsley-Kuh-Welsch (unit-length columns incl. the
+      constant, not centred; not statsmodels' raw ``condition_number``).
+    * ``vif``: ``{"max", "variable", "values": {name: vif}}``, centred VIFs of the non-constant
+      regressors (= ``variance_inflation_factor(exog, i)``, standardize=True).
+    * ``time_ordered``: why the data is time-ordered (DatetimeIndex/PeriodIndex rows, or
+      ``time_column`` in the model's data frame), else None; then ``durbin_watson`` (float) and
+      ``breusch_godfrey`` ``{"lm", "lm_pvalue", "f", "f_pvalue", "lags", "form"}``
+      (= ``acorr_breusch_godfrey(res, nlags=lags)``), both None when not time-ordered.
+    * ``chow``: one ``{"candidate", "groups" (how many), "group_sizes": [{"label", "nobs"}], "f",
+      "pvalue", "df_num", "df_denom"}`` per break candidate (in the order given; the values are None
+      and ``errors["chow:<candidate>"]`` says why when it cannot be computed), F = ((SSR_pooled − Σ SSR_g)/df_num)/(Σ SSR_g/df_denom) with
+      df_num = Σ rank_g − rank and df_denom = n − Σ rank_g ((G−1)k and n − Gk at full rank); equal
+      to the F test of all group interactions.
+    * ``coefficient_tests``: "t distribution with df_resid for both".
+    * ``coefficients``: per parameter ``{"name", "estimate", "se", "t", "p", "se_robust",
+      "t_robust", "p_robust", "robust_type", "significance_changes"}``; ``se`` is the usual SE,
+      the robust one is ``robust_se`` (``robust_se_large`` when nobs >= ``robust_se_large_n``);
+      significance_changes = (p < 0.05) != (p_robust < 0.05).
+    * ``cv`` (only with ``cv=True``): ``{"folds", "seed", "rmse", "mae"}``: row positions shuffled by
+      ``numpy.random.default_rng(seed).permutation(n)``, split by ``numpy.array_split`` into folds;
+      the model refitted on each training part, prediction errors of the held-out part pooled.
+    * ``weights``: None for OLS; for WLS a note that every statistic uses the whitened model.
+    * ``errors``: ``{name: message}`` for every statistic that could not be computed.
+    """
+    opts = _options(options)
+    with warnings.catch_warnings(), np.errstate(all="ignore"):
+        warnings.simplefilter("ignore")
+        fit = _Fit(res, opts)
+        return _Stats(fit).run()

@@ -1,0 +1,240 @@
+"""Running analysed code in a child process with the probe injected, with limits and a cache.
+
+This is the parent side of the runtime mode: it never imports numpy or statsmodels
+itself. The child is the configured interpreter (default: the one running regvet),
+started in the script's own folder with standard input closed, the matplotlib backend
+forced to Agg, an address-space limit and a wall-clock timeout. Its findings come back as
+JSON lines in a temporary file, written as each fit completes.
+
+**This executes the user's code.** It is only ever reached through an explicit request
+(``regvet check --run`` / ``regvet run``, or the editor's ``regvet.runFits`` command).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import signal
+import subprocess
+import sys
+import tempfile
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any, Callable
+
+PROBE_DIR = Path(__file__).resolve().parent / "probe"
+BOOT = PROBE_DIR / "regvet_probe_boot.py"
+STDOUT_TAIL = 20
+
+
+@dataclass
+class RunResult:
+    """What one run produced: fit records (with statistics), how it ended, and cache facts."""
+
+    fits: list[dict[str, Any]] = field(default_factory=list)
+    end: dict[str, Any] | None = None  # the probe's last record; None when the child was killed
+    timed_out: bool = False
+    returncode: int | None = None
+    signal: int | None = None
+    output_tail: list[str] = field(default_factory=list)
+    elapsed_s: float = 0.0
+    cached: bool = False
+    command_error: str | None = None
+
+    @property
+    def completed(self) -> bool:
+        return self.end is not None and self.end.get("status") == "ok"
+
+    def to_json(self) -> dict[str, Any]:
+        return {
+            "fits": self.fits, "end": self.end, "timed_out": self.timed_out, "returncode": self.returncode,
+            "signal": self.signal, "output_tail": self.output_tail, "elapsed_s": self.elapsed_s,
+            "command_error": self.command_error,
+        }  # fmt: skip
+
+    @classmethod
+    def from_json(cls, data: dict[str, Any]) -> "RunResult":
+        return cls(**{k: data.get(k) for k in ("fits", "end", "timed_out", "returncode", "signal",
+                                               "output_tail", "elapsed_s", "command_error")})  # fmt: skip
+
+
+def probe_version() -> str:
+    """A hash of the probe's own files: a changed probe invalidates every cached run."""
+    h = hashlib.sha256()
+    for path in sorted(PROBE_DIR.glob("*.py")):
+        h.update(path.name.encode())
+        h.update(path.read_bytes())
+    return h.hexdigest()[:16]
+
+
+def default_cache_dir() -> Path:
+    base = os.environ.get("REGVET_CACHE_DIR")
+    if base:
+        return Path(base)
+    xdg = os.environ.get("XDG_CACHE_HOME")
+    return Path(xdg) / "regvet" / "runs" if xdg else Path.home() / ".cache" / "regvet" / "runs"
+
+
+class RunCache:
+    """Runs keyed by the script's content, interpreter and options; valid while every file the run
+    read keeps its size and modification time."""
+
+    def __init__(self, folder: Path | None = None) -> None:
+        self.folder = folder or default_cache_dir()
+
+    @staticmethod
+    def key(path: Path, content: bytes, python: str, options: dict[str, Any]) -> str:
+        h = hashlib.sha256()
+        for part in (str(path.resolve()), python, probe_version(), json.dumps(options, sort_keys=True)):
+            h.update(part.encode())
+            h.update(b"\0")
+        h.update(content)
+        return h.hexdigest()
+
+    def get(self, key: str) -> RunResult | None:
+        entry = self.folder / f"{key}.json"
+        try:
+            data = json.loads(entry.read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            return None
+        for path, size, mtime in data.get("opened", []):
+            try:
+                st = os.stat(path)
+            except OSError:
+                return None
+            if st.st_size != size or st.st_mtime_ns != mtime:
+                return None
+        result = RunResult.from_json(data["result"])
+        result.cached = True
+        return result
+
+    def put(self, key: str, result: RunResult) -> None:
+        if result.end is None:  # killed (timeout, memory): run again next time
+            return
+        opened = result.end.get("opened", [])
+        try:
+            self.folder.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(dir=self.folder, suffix=".tmp")
+            with os.fdopen(fd, "w", encoding="utf-8") as fh:
+                json.dump({"opened": opened, "result": result.to_json()}, fh)
+            os.replace(tmp, self.folder / f"{key}.json")
+        except OSError:
+            pass  # a cache that cannot be written only costs a re-run
+
+
+def run(
+    path: Path,
+    *,
+    cells: list[dict[str, Any]] | None = None,
+    python: str = "",
+    timeout: float = 300.0,
+    memory_mb: int | None = None,
+    options: dict[str, Any] | None = None,
+    user_files: list[str] | None = None,
+    cache: RunCache | None = None,
+    content: bytes | None = None,
+    started: Callable[[subprocess.Popen], None] | None = None,
+) -> RunResult:
+    """Run one script (or a notebook's code cells) under the probe; never raises for the user's faults.
+
+    ``started`` receives the child process (the language server uses it to cancel a run).
+    """
+    options = options or {}
+    interpreter = python or sys.executable
+    content = content if content is not None else path.read_bytes()
+    key = RunCache.key(path, content, interpreter, {**options, "cells": cells is not None}) if cache else ""
+    if cache is not None:
+        hit = cache.get(key)
+        if hit is not None:
+            return hit
+    result = RunResult()
+    with tempfile.TemporaryDirectory(prefix="regvet-run-") as tmp:
+        out = Path(tmp) / "out.jsonl"
+        request = {
+            "folder": str(path.resolve().parent),
+            "script": None if cells is not None else str(path.resolve()),
+            "source": None if cells is not None else content.decode("utf-8", errors="replace"),
+            "cells": cells,
+            "out": str(out),
+            "options": options,
+            "memory_mb": memory_mb,
+            "user_files": [str(path.resolve()), *(user_files or [])],
+        }
+        req = Path(tmp) / "request.json"
+        req.write_text(json.dumps(request), encoding="utf-8")
+        env = dict(os.environ)
+        env["MPLBACKEND"] = "Agg"
+        env["PYTHONPATH"] = os.pathsep.join(filter(None, [str(PROBE_DIR), env.get("PYTHONPATH", "")]))
+        env["PYTHONUNBUFFERED"] = "1"
+        env.pop("PYTHONSTARTUP", None)
+        log = Path(tmp) / "output.txt"
+        start = time.perf_counter()
+        with open(log, "wb") as output:
+            try:
+                proc = subprocess.Popen(
+                    [interpreter, str(BOOT), str(req)],
+                    cwd=request["folder"],
+                    stdin=subprocess.DEVNULL,
+                    stdout=output,
+                    stderr=subprocess.STDOUT,
+                    env=env,
+                    start_new_session=True,  # its own process group: a timeout kills its children too
+                )
+            except OSError as exc:
+                result.command_error = f"cannot start {interpreter}: {exc.strerror or exc}"
+                return result
+            if started is not None:
+                started(proc)
+            try:
+                proc.wait(timeout=timeout)
+            except subprocess.TimeoutExpired:
+                result.timed_out = True
+                _kill(proc)
+        result.elapsed_s = round(time.perf_counter() - start, 3)
+        result.returncode = proc.returncode
+        if proc.returncode is not None and proc.returncode < 0:
+            result.signal = -proc.returncode
+        result.output_tail = _tail(log)
+        for record in _records(out):
+            if record.get("type") == "fit":
+                result.fits.append(record)
+            elif record.get("type") == "end":
+                result.end = record
+    if cache is not None:
+        cache.put(key, result)
+    return result
+
+
+def _kill(proc: subprocess.Popen) -> None:
+    try:
+        os.killpg(proc.pid, signal.SIGKILL)
+    except (ProcessLookupError, PermissionError, AttributeError):
+        proc.kill()
+    proc.wait()
+
+
+def _tail(path: Path) -> list[str]:
+    try:
+        data = path.read_bytes()[-20000:]
+    except OSError:
+        return []
+    lines = data.decode("utf-8", errors="replace").rstrip().split("\n")
+    return [line for line in lines[-STDOUT_TAIL:] if line.strip()]
+
+
+def _records(path: Path) -> list[dict[str, Any]]:
+    out = []
+    try:
+        text = path.read_text(encoding="utf-8", errors="replace")
+    except OSError:
+        return out
+    for line in text.split("\n"):
+        if not line.strip():
+            continue
+        try:
+            out.append(json.loads(line))
+        except ValueError:
+            break  # a line cut short by a kill: everything before it is good
+    return out

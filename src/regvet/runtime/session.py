@@ -1,0 +1,231 @@
+"""Runtime mode, end to end for one file: run it, match each recorded fit to a static fit, judge.
+
+The static report comes first (it says which fits exist and which are compared); the run
+adds statistics; ``engine.with_runtime`` re-judges the same facts with them. Nothing is
+parsed twice.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Callable
+
+from regvet.engine import FileReport, with_runtime
+from regvet.model.facts import Fit
+from regvet.model.runtime import RunFailure, RuntimeFacts
+from regvet.model.settings import Settings
+from regvet.model.span import Span
+from regvet.runtime.runner import RunCache, RunResult, run
+from regvet.sources.notebook import read_notebook
+
+
+@dataclass
+class _Source:
+    """The analysed file's Python as the static analysis saw it (joined cells for a notebook)."""
+
+    path: Path
+    lines: list[str]
+    cells: list[dict[str, Any]] | None  # notebook code cells for the child: index + neutralised source
+    cell_start: dict[int, int]  # cell index -> first line in the joined module
+
+
+def _source(path: Path, text: str, report: FileReport) -> _Source | None:
+    if report.cell_map is None:
+        return _Source(path, text.split("\n"), None, {})
+    nb = read_notebook(text)
+    if not hasattr(nb, "python"):
+        return None
+    lines = nb.python.split("\n")  # type: ignore[union-attr]
+    starts = list(report.cell_map.starts) + [len(lines) + 1]
+    cells = []
+    for i, index in enumerate(report.cell_map.cells):
+        body = "\n".join(lines[starts[i] - 1 : starts[i + 1] - 1])
+        cells.append({"index": index, "source": body})
+    return _Source(path, lines, cells, dict(zip(report.cell_map.cells, report.cell_map.starts)))
+
+
+def options_for(settings: Settings) -> dict[str, Any]:
+    """What the probe needs from the configuration (alpha is applied here, not in the child)."""
+    return {
+        "white_max_columns": settings.white_max_columns,
+        "serial_lags": settings.serial_lags or None,
+        "time_column": settings.time_column or None,
+        "break_candidates": list(settings.break_candidates),
+        "robust_se": settings.robust_se,
+        "robust_se_large": settings.robust_se_large,
+        "robust_se_large_n": settings.robust_se_large_n,
+        "cv_folds": settings.cv_folds,
+        "cv_seed": settings.cv_seed,
+    }
+
+
+def _byte_col(line: str, col: int) -> int:
+    return len(line[:col].encode("utf-8"))
+
+
+def _code_point_col(line: str, byte_col: int | None) -> int | None:
+    if byte_col is None:
+        return None
+    return len(line.encode("utf-8")[:byte_col].decode("utf-8", errors="replace"))
+
+
+def _frame_position(src: _Source, frame: list[Any]) -> tuple[int, int | None] | None:
+    """A recorded frame as (line, code-point column) in the analysed file's coordinates, or None."""
+    name, line, col = frame[0], frame[1], frame[2]
+    if line is None:
+        return None
+    if src.cells is not None:
+        if not isinstance(name, str) or not name.startswith("<regvet-cell-"):
+            return None
+        index = int(name[len("<regvet-cell-") : -1])
+        start = src.cell_start.get(index)
+        if start is None:
+            return None
+        line = start + line - 1
+    elif Path(name) != src.path.resolve():
+        return None
+    text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
+    return line, _code_point_col(text, col)
+
+
+def _cv_sites(src: _Source, report: FileReport) -> list[list[Any]]:
+    """Where the fits whose measures are compared are made (the child cross-validates those)."""
+    facts = report.facts
+    if facts is None:
+        return []
+    sites = []
+    for comp in facts.comparisons:
+        for fid, _ in comp.measures:
+            fit = facts.fit(fid)
+            for loc in (fit.site, fit.fit_call):
+                if loc.path is not None:
+                    continue
+                line, col = loc.span.line, loc.span.col
+                text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
+                if src.cells is not None:
+                    cell, cell_line = report.cell_map.locate(line)  # type: ignore[union-attr]
+                    sites.append([f"<regvet-cell-{cell}>", cell_line, _byte_col(text, col)])
+                else:
+                    sites.append([str(src.path.resolve()), line, _byte_col(text, col)])
+    return sites
+
+
+def match(src: _Source, report: FileReport, result: RunResult) -> dict[int, tuple[dict[str, Any], ...]]:
+    """Recorded fits -> static fit ids, by call site (outermost matching frame first), then formula."""
+    facts = report.facts
+    if facts is None:
+        return {}
+    by_pos: dict[tuple[int, int], list[Fit]] = {}
+    by_line: dict[int, list[Fit]] = {}
+    for fit in facts.fits:
+        if fit.site.path is None:
+            by_pos.setdefault((fit.site.span.line, fit.site.span.col), []).append(fit)
+            by_line.setdefault(fit.site.span.line, []).append(fit)
+    out: dict[int, list[dict[str, Any]]] = {}
+    for record in result.fits:
+        candidates: list[Fit] = []
+        for frame in reversed(record.get("frames") or []):  # outermost first
+            pos = _frame_position(src, frame)
+            if pos is None:
+                continue
+            line, col = pos
+            candidates = by_pos.get((line, col), []) if col is not None else by_line.get(line, [])
+            if candidates:
+                break
+        if not candidates:
+            continue
+        formula = record.get("formula")
+        if formula and any(f.formula == formula for f in candidates):
+            candidates = [f for f in candidates if f.formula == formula]
+        derived = record.get("derived_from") is not None
+        preferred = [f for f in candidates if (f.parent is not None) == derived]
+        for fit in preferred or candidates:
+            out.setdefault(fit.id, []).append(record)
+    return {k: tuple(v) for k, v in out.items()}
+
+
+def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int | None) -> RunFailure | None:
+    end = result.end
+    if result.command_error:
+        return RunFailure(result.command_error)
+    if end is None:
+        if result.timed_out:
+            return RunFailure(f"it ran for more than {timeout:g} s (`run_timeout`) and was stopped", tuple(result.output_tail))
+        if result.signal == 9:
+            return RunFailure("the process was killed (signal 9), most likely for using too much memory",
+                              tuple(result.output_tail))  # fmt: skip
+        return RunFailure(f"the process ended without reporting (exit status {result.returncode})",
+                          tuple(result.output_tail))  # fmt: skip
+    status = end.get("status")
+    span = None
+    where = end.get("where")
+    if where:
+        pos = _frame_position(src, [where[0], where[1], None])
+        if pos is not None:
+            line = pos[0]
+            text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
+            indent = len(text) - len(text.lstrip())
+            span = Span(line, indent, line, len(text.rstrip()))
+    if status == "ok":
+        return None
+    if status == "exception":
+        tb = tuple(end.get("traceback") or ())
+        last = tb[-1] if tb else "an exception"
+        return RunFailure(f"it raised {last}", tb, span)
+    if status == "exit":
+        return RunFailure(f"it called sys.exit({end.get('exit_code')!r}) before the end", (), span)
+    if status == "memory":
+        limit = f" (`run_memory_mb` = {memory_mb})" if memory_mb else ""
+        return RunFailure(f"it ran out of memory{limit}", tuple(end.get("traceback") or ()), span)
+    if status == "probe-failed":
+        return RunFailure(f"the probe could not start in that interpreter: {end.get('message')}")
+    return RunFailure(f"it ended with status {status!r}")
+
+
+def run_and_judge(
+    report: FileReport,
+    path: Path,
+    text: str,
+    settings: Settings,
+    *,
+    cache: RunCache | None,
+    started: Callable[[Any], None] | None = None,
+) -> tuple[FileReport, RunResult | None]:
+    """Run ``path`` under the probe and return its report re-judged with the statistics.
+
+    Files with nothing to run (no statsmodels, or a parse error) are returned unchanged.
+    """
+    if report.skipped or report.facts is None or not report.facts.fits and not _mentions_fit_call(text):
+        return report, None
+    if any(f.rule == "parse-error" for f in report.findings):
+        return report, None
+    src = _source(path, text, report)
+    if src is None:
+        return report, None
+    options = options_for(settings)
+    options["cv_sites"] = _cv_sites(src, report)
+    memory = settings.run_memory_mb or None
+    result = run(
+        path,
+        cells=src.cells,
+        python=settings.python,
+        timeout=settings.run_timeout,
+        memory_mb=memory,
+        options=options,
+        user_files=list(report.facts.dependencies),
+        cache=cache,
+        content=text.encode("utf-8"),
+        started=started,
+    )
+    facts = RuntimeFacts(
+        fit_stats=match(src, report, result),
+        failure=failure_of(src, result, settings.run_timeout, memory),
+        cached=result.cached,
+        elapsed_s=result.elapsed_s,
+    )
+    return with_runtime(report, facts, settings), result
+
+
+def _mentions_fit_call(text: str) -> bool:
+    return ".fit(" in text
