@@ -22,8 +22,10 @@ SERVER = [sys.executable, "-m", "regvet", "serve"]
 
 
 def capabilities(*, pull: bool = False, notebook: bool = False, configuration: bool = True,
-                 watched: bool = True, encodings: list[str] | None = None) -> t.ClientCapabilities:  # fmt: skip
+                 watched: bool = True, encodings: list[str] | None = None,
+                 progress: bool = False) -> t.ClientCapabilities:  # fmt: skip
     return t.ClientCapabilities(
+        window=t.WindowClientCapabilities(work_done_progress=True) if progress else None,
         workspace=t.WorkspaceClientCapabilities(
             configuration=configuration,
             did_change_watched_files=t.DidChangeWatchedFilesClientCapabilities(dynamic_registration=watched),

@@ -428,3 +428,64 @@ async def test_editor_skip_adds_to_the_projects_skip_and_empty_lists_change_noth
         c.lsp.workspace_did_change_configuration(t.DidChangeConfigurationParams(settings=None))
         await c.until(lambda: len(c.lsp.diagnostics[uri]) == 0)
         await c.until(lambda: any("no-such-rule" in m.message for m in c.lsp.log_messages))
+
+
+RUNNABLE = textwrap.dedent(
+    """\
+    import numpy as np
+    import pandas as pd
+    import statsmodels.formula.api as smf
+
+    rng = np.random.default_rng(11)
+    fare = rng.uniform(2.0, 9.0, 200)
+    crossings = pd.DataFrame({"fare": fare, "riders": 400 - 12 * fare + rng.normal(0, 1, 200) * fare**2})
+    res = smf.ols("riders ~ fare", data=crossings).fit()
+    print(res.summary())
+    """
+)
+
+
+async def test_run_fits_command_reports_progress_and_attaches_statistics(project, monkeypatch):
+    monkeypatch.setenv("REGVET_CACHE_DIR", str(project / "cache"))
+    async with session(project, capabilities(progress=True)) as c:
+        assert "regvet.runFits" in c.server_capabilities.execute_command_provider.commands
+        uri = c.open(project / "model.py", RUNNABLE)
+        before = await c.diagnostics_for(uri, 1)
+        assert codes(before) == ["no-form-test", "no-variance-test"]  # typing never runs the code
+        count = len(c.published)
+        answer = await c.lsp.workspace_execute_command_async(
+            t.ExecuteCommandParams(command="regvet.runFits", arguments=[uri]))  # fmt: skip
+        assert answer["ran"] is True and answer["fits"] == 1 and answer["failed"] is None
+        await c.until(lambda: len(c.published) > count)
+        diags = c.lsp.diagnostics[uri]
+        assert codes(diags) == ["heteroskedastic-plain-se", "no-form-test", "no-variance-test"]
+        hetero = next(d for d in diags if d.code == "heteroskedastic-plain-se")
+        assert "Breusch-Pagan LM =" in hetero.message and hetero.data["stats"]["fits"][0]["statistics"]["nobs"] == 200
+        variance = next(d for d in diags if d.code == "no-variance-test")
+        assert "[run: n=200, BP p < 0.001" in variance.message
+        [reports] = list(c.lsp.progress_reports.values())
+        assert reports[0].kind == "begin" and reports[0].cancellable and reports[-1].kind == "end"
+        hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(7, 8)))
+        assert "- last run: **statistics**: n=200, BP p < 0.001" in hover.contents.value
+        # an edit makes the statistics stale: they are dropped until the next run
+        version = c.edit(uri, (9, 0), (9, 0), "# edited\n")
+        assert "heteroskedastic-plain-se" not in codes(await c.diagnostics_for(uri, version))
+
+
+async def test_run_fits_can_be_cancelled(project, monkeypatch):
+    monkeypatch.setenv("REGVET_CACHE_DIR", str(project / "cache"))
+    slow = RUNNABLE + "import time\ntime.sleep(120)\n"
+    async with session(project, capabilities(progress=True)) as c:
+        uri = c.open(project / "model.py", slow)
+        await c.diagnostics_for(uri, 1)
+        request = asyncio.ensure_future(c.lsp.workspace_execute_command_async(
+            t.ExecuteCommandParams(command="regvet.runFits", arguments=[uri])))  # fmt: skip
+        await c.until(lambda: c.lsp.progress_reports)
+        [token] = list(c.lsp.progress_reports)
+        started = time.monotonic()
+        c.lsp.window_work_done_progress_cancel(t.WorkDoneProgressCancelParams(token=token))
+        answer = await asyncio.wait_for(request, 30)
+        assert answer == {"ran": False, "reason": "cancelled"} and time.monotonic() - started < 20
+        assert c.lsp.progress_reports[token][-1].kind == "end"
+        hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(7, 8)))
+        assert hover is not None  # the server still answers
