@@ -1,5 +1,8 @@
 """Benchmarks for regvet, run by ``make bench``. Results go to ``bench/results/latest.json``.
 
+runtime: a script fitting OLS on 10^6 rows and 20 regressors, run plainly and under the probe
+(``bench/runtime.py``), and the statistics alone in process (``bench/runtime_stats.py``).
+
 language_server: median latency from ``didChange`` to the matching ``publishDiagnostics``
 for generated scripts of about 200, 2,000 and 10,000 lines (debounce 0), and the server's
 resident memory over 1,000 edits (see ``bench/lsp.py``).
@@ -84,6 +87,8 @@ def main() -> int:
 
     sys.path.insert(0, str(HERE))
     import lsp
+    import runtime
+    import runtime_stats
 
     RESULTS.mkdir(exist_ok=True)
     with tempfile.TemporaryDirectory() as tmp:
@@ -94,6 +99,8 @@ def main() -> int:
         "date": time.strftime("%Y-%m-%d"),
         "scan_statsmodels": bench_scan(),
         "language_server": server,
+        "runtime": runtime.run(),
+        "runtime_statistics_in_process": runtime_stats.run(),
     }
     out = RESULTS / "latest.json"
     tmp = out.with_suffix(".json.tmp")
@@ -109,6 +116,11 @@ def main() -> int:
               f"(max {row['max_ms']} ms over {row['edits']} edits)")  # fmt: skip
     mem = result["language_server"]["memory"]
     print(f"server RSS over 1000 edits of a {mem['lines']}-line script (MB): {mem['rss_mb_after_edits']}")
+    rt = result["runtime"]
+    print(f"runtime mode, OLS n={rt['n']:,} k={rt['k']}: plain run {rt['plain_run_s']} s, under the probe "
+          f"{rt['probed_run_s']} s; statistics {rt['statistics_s']} s for a {rt['fit_s']} s fit "
+          f"(ratio {rt['statistics_over_fit']}); peak RSS {rt['plain_peak_rss_mb']} -> {rt['probed_peak_rss_mb']} MB "
+          f"(design {rt['design_mb']} MB); cached re-run {rt['cached_rerun_s']} s")  # fmt: skip
     print(f"written to {out.relative_to(HERE.parent)}")
     return 0
 

@@ -25,16 +25,20 @@ ALLOWED = {
     "config": {"model", "rules", "config"},
     "output": {"model", "rules", "engine", "output", "__init__"},
     "project": {"model", "sources", "analysis", "project"},
-    "cli": {"model", "sources", "analysis", "rules", "engine", "config", "output", "project", "cli", "lsp",
+    "cli": {"model", "sources", "analysis", "rules", "engine", "config", "output", "project", "cli", "lsp", "runtime",
             "__init__"},
     "precommit": {"cli", "precommit"},
-    "status": {"model", "analysis", "engine", "status"},
+    "status": {"model", "analysis", "rules", "engine", "status"},
     "edits": {"model", "sources", "edits"},
     "lsp": {"model", "sources", "analysis", "rules", "engine", "config", "project", "status", "edits", "cli", "lsp",
-            "__init__"},
+            "runtime", "__init__"},
+    "runtime": {"model", "sources", "engine", "runtime"},
 }
+#: Fronts that may reach the runtime mode (lazily, on an explicit request).
+RUNTIME_USERS = {"cli", "lsp", "runtime"}
 #: The only layers that may import a heavy package, and which.
 HEAVY_ALLOWED = {"lsp": {"pygls", "lsprotocol"}, "edits": {"libcst"}}
+PROBE = SRC / "runtime" / "probe"
 
 
 def _layer(path: Path) -> str:
@@ -54,7 +58,7 @@ def _imports(path: Path) -> set[str]:
     return out
 
 
-MODULES = sorted(p for p in SRC.rglob("*.py") if _layer(p) in ALLOWED)
+MODULES = sorted(p for p in SRC.rglob("*.py") if _layer(p) in ALLOWED and PROBE not in p.parents)
 
 
 @pytest.mark.parametrize("path", MODULES, ids=lambda p: str(p.relative_to(SRC)))
@@ -81,6 +85,21 @@ def test_only_the_language_server_imports_pygls_and_only_edits_import_libcst():
             assert _layer(path) == "lsp", path
         if "libcst" in tops:
             assert _layer(path) == "edits", path
+
+
+def test_the_static_core_never_imports_the_runtime_mode():
+    for path in MODULES:
+        if _layer(path) in RUNTIME_USERS:
+            continue
+        assert not any(n.startswith("regvet.runtime") for n in _imports(path)), path
+
+
+@pytest.mark.parametrize("path", sorted(PROBE.glob("*.py")), ids=lambda p: p.name)
+def test_the_probe_needs_only_the_standard_library_numpy_scipy_and_statsmodels(path):
+    """The probe runs in the user's interpreter, where regvet may not be installed."""
+    allowed = set(sys.stdlib_module_names) | {"numpy", "scipy", "statsmodels", "pandas", "regvet_probe", "regvet_stats"}
+    for name in _imports(path):
+        assert name.split(".")[0] in allowed, f"{path.name} imports {name}"
 
 
 def test_importing_the_cli_loads_no_heavy_package():

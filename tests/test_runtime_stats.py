@@ -6,8 +6,8 @@ elsewhere:
 1. Formula agreement on generated data (fixed numpy seeds, invented data): every statistic equals
    statsmodels 0.15's own function to a relative 1e-8 (or, where statsmodels has none: the special
    White test, the Chow test, WLS VIFs, cross-validation, a hand-built regression with statsmodels
-   OLS/WLS). Each of these runs with the default row blocks and with tiny ones (``chunk_rows=37``), so
-   the blocked passes are exercised.
+   OLS/WLS). The checks of the blocked row passes run with the default row blocks and with tiny ones
+   (``chunk_rows=37``), and one test asserts that the block size changes no output.
 2. Published values, with the source named beside each check; the values and tolerances are those
    of the project's check-values notes (printed textbook values: half a unit in the last printed
    digit; NIST certified values: relative 1e-7; values marked there "from memory" say so here too):

@@ -37,7 +37,7 @@ class Option:
         return {
             "float": "a number between 0 and 1",
             "rules": "a list of rule ids",
-            "severity-map": 'a table of rule id = "error" | "warning" | "info"',
+            "severity-map": 'a table of rule id = "error", "warning" or "info"',
             "globs": "a list of glob patterns",
             "strings": "a list of strings",
             "helpers": "a table of dotted function name = list of check families",
@@ -50,7 +50,7 @@ class Option:
 
 
 OPTIONS: tuple[Option, ...] = (
-    Option("alpha", "float", 0.05, "Significance level for tests (used by the runtime mode)."),
+    Option("alpha", "float", 0.05, "Significance level of the tests the runtime mode judges."),
     Option("only", "rules", (), "Report only these rules."),
     Option("skip", "rules", (), "Never report these rules."),
     Option("severity", "severity-map", (), "Per-rule severity overrides."),

@@ -70,9 +70,15 @@ def _code_point_col(line: str, byte_col: int | None) -> int | None:
     return len(line.encode("utf-8")[:byte_col].decode("utf-8", errors="replace"))
 
 
-def _frame_position(src: _Source, frame: list[Any]) -> tuple[int, int | None] | None:
-    """A recorded frame as (line, code-point column) in the analysed file's coordinates, or None."""
+def _frame_position(src: _Source, frame: list[Any], end: bool = False) -> tuple[int, int | None] | None:
+    """A recorded frame as (line, code-point column) in the analysed file's coordinates, or None.
+
+    With ``end``, the position just past the call: CPython narrows the *start* of a multi-line
+    method call to the method name, but the end is always the closing parenthesis.
+    """
     name, line, col = frame[0], frame[1], frame[2]
+    if end and len(frame) >= 5:
+        line, col = frame[3], frame[4]
     if line is None:
         return None
     if src.cells is not None:
@@ -101,7 +107,7 @@ def _cv_sites(src: _Source, report: FileReport) -> list[list[Any]]:
             for loc in (fit.site, fit.fit_call):
                 if loc.path is not None:
                     continue
-                line, col = loc.span.line, loc.span.col
+                line, col = loc.span.end_line, loc.span.end_col
                 text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
                 if src.cells is not None:
                     cell, cell_line = report.cell_map.locate(line)  # type: ignore[union-attr]
@@ -116,21 +122,22 @@ def match(src: _Source, report: FileReport, result: RunResult) -> dict[int, tupl
     facts = report.facts
     if facts is None:
         return {}
-    by_pos: dict[tuple[int, int], list[Fit]] = {}
-    by_line: dict[int, list[Fit]] = {}
+    by_end: dict[tuple[int, int], list[Fit]] = {}
     for fit in facts.fits:
         if fit.site.path is None:
-            by_pos.setdefault((fit.site.span.line, fit.site.span.col), []).append(fit)
-            by_line.setdefault(fit.site.span.line, []).append(fit)
+            by_end.setdefault((fit.site.span.end_line, fit.site.span.end_col), []).append(fit)
     out: dict[int, list[dict[str, Any]]] = {}
     for record in result.fits:
         candidates: list[Fit] = []
         for frame in reversed(record.get("frames") or []):  # outermost first
-            pos = _frame_position(src, frame)
+            pos = _frame_position(src, frame, end=True)
             if pos is None:
                 continue
             line, col = pos
-            candidates = by_pos.get((line, col), []) if col is not None else by_line.get(line, [])
+            if col is not None:
+                candidates = by_end.get((line, col), [])
+            else:  # no column information (Python 3.10): any fit whose site spans the line
+                candidates = [f for f in facts.fits if f.site.path is None and f.site.span.line <= line <= f.site.span.end_line]
             if candidates:
                 break
         if not candidates:

@@ -106,7 +106,7 @@ class Recorder:
             self.write(record)
             return
         options = {k: v for k, v in self.options.items() if k not in _PROBE_OPTIONS}
-        options["cv"] = any(tuple(f[:3]) in self.cv_sites for f in frames)
+        options["cv"] = any((f[0], f[3], f[4]) in self.cv_sites for f in frames)  # by end position
         start = time.perf_counter()
         _state.busy = True
         try:

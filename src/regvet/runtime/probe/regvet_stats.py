@@ -895,11 +895,9 @@ class _Stats:
         try:
             self.Ginv = _GInverse(self.G, rank=fit.rank)
             if fit.one_in_span:
-                self.Gp = self.G
                 self.Gpinv = self.Ginv
             else:
-                self.Gp = _plus(self.G, self.sums, fit.n)
-                self.Gpinv = _GInverse(self.Gp, rank=fit.rank + 1)
+                self.Gpinv = _GInverse(_plus(self.G, self.sums, fit.n), rank=fit.rank + 1)
         except Exception as exc:  # noqa: BLE001
             self.failed["gram"] = exc
 
@@ -998,11 +996,15 @@ class _Stats:
             self.white_qr = _TallQR()
             g = self.g
 
+            # Sub-blocks of rows keep the product block no larger than a block of the design.
+            sub = max(1, (self.basis.chunk * k) // (i0.size + 1))
+
             def white(s: int, e: int, v: np.ndarray) -> None:
-                w = v / scale
-                if one:
-                    w = np.column_stack([np.ones(e - s), w])
-                self.white_qr.add(np.column_stack([w[:, i0] * w[:, i1], g[s:e]]))
+                for t in range(0, e - s, sub):
+                    w = v[t : t + sub] / scale
+                    if one:
+                        w = np.column_stack([np.ones(w.shape[0]), w])
+                    self.white_qr.add(np.column_stack([w[:, i0] * w[:, i1], g[s + t : s + t + w.shape[0]]]))
 
             consumers["white_full"] = white
 
