@@ -42,3 +42,5 @@ def test_readme_performance_figures_come_from_the_benchmark_file():
     server = json.loads((ROOT / "bench" / "results" / "latest.json").read_text())["language_server"]
     for row in server["analysis"] + server["latency"]:
         assert f"{row['median_ms']} ms" in README
+    runtime = json.loads((ROOT / "bench" / "results" / "latest.json").read_text())["runtime"]
+    assert f"ratio of {runtime['statistics_over_fit']}" in README
