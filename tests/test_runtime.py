@@ -239,3 +239,62 @@ def test_text_output_carries_a_statistics_clause(tmp_path, monkeypatch, run_cli)
     code, sarif, _ = run_cli("check", "--run", "model.py", "--format", "sarif")
     results = json.loads(sarif)["runs"][0]["results"]
     assert all(r["properties"]["regvet"]["fits"][0]["statistics"]["nobs"] == 120 for r in results)
+
+
+def test_compared_fits_get_comparable_measures(tmp_path):
+    code = textwrap.dedent(
+        """\
+        import numpy as np
+        import pandas as pd
+        import statsmodels.formula.api as smf
+
+        rng = np.random.default_rng(21)
+        crossings = pd.DataFrame({"fare": rng.uniform(2, 9, 150), "wind_speed": rng.uniform(0, 30, 150)})
+        crossings["riders"] = np.exp(6 - 0.1 * crossings["fare"] - 0.01 * crossings["wind_speed"] + rng.normal(0, 0.1, 150))
+        level = smf.ols("riders ~ fare", data=crossings).fit()
+        logged = smf.ols("np.log(riders) ~ fare", data=crossings).fit()
+        larger = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()
+        pick = level if level.rsquared > logged.rsquared else logged
+        better = larger.rsquared > level.rsquared
+        """
+    )
+    report, _ = judge(tmp_path, code)
+    across = next(f for f in report.findings if f.rule == "compare-across-outcomes")
+    rows = {r["outcome"]: r for r in across.stats["comparison"]["fits"]}
+    assert rows["log(riders)"]["log_level_r2"] is not None and rows["riders"]["rsquared"] is not None
+    r2 = next(f for f in report.findings if f.rule == "r2-unadjusted-compare")
+    rows = r2.stats["comparison"]["fits"]
+    assert all(r["cv_folds"] == 5 and r["cv_rmse"] > 0 and r["aic"] is not None for r in rows)
+    [test] = r2.stats["comparison"]["nested_f_tests"]
+    assert test["extra"] == ["wind_speed"] and test["df_num"] == 1 and 0 <= test["pvalue"] <= 1
+    # the nested F test equals statsmodels' compare_f_test on the same fits
+    import numpy as np
+    import pandas as pd
+    import statsmodels.formula.api as smf
+
+    rng = np.random.default_rng(21)
+    crossings = pd.DataFrame({"fare": rng.uniform(2, 9, 150), "wind_speed": rng.uniform(0, 30, 150)})
+    crossings["riders"] = np.exp(6 - 0.1 * crossings["fare"] - 0.01 * crossings["wind_speed"] + rng.normal(0, 0.1, 150))
+    small = smf.ols("riders ~ fare", data=crossings).fit()
+    large = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()
+    f, pvalue, _ = large.compare_f_test(small)
+    assert test["f"] == pytest.approx(f, rel=1e-9) and test["pvalue"] == pytest.approx(pvalue, rel=1e-7)
+
+
+def test_an_interpreter_without_statsmodels_gives_run_failed(tmp_path):
+    import shutil
+    import subprocess
+    import sys
+
+    base = shutil.which("python3", path=str(Path(sys.base_prefix) / "bin"))
+    if base is None or subprocess.run([base, "-c", "import statsmodels"], capture_output=True).returncode == 0:
+        pytest.skip("no interpreter without statsmodels on this machine")
+    report, _ = judge(tmp_path, FIT, settings=Settings(python=base, run_timeout=60))
+    [failed] = [f for f in report.findings if f.rule == "run-failed"]
+    assert "the probe could not start in that interpreter" in failed.message and "statsmodels" in failed.message
+
+
+def test_a_missing_interpreter_gives_run_failed(tmp_path):
+    report, _ = judge(tmp_path, FIT, settings=Settings(python=str(tmp_path / "no-such-python"), run_timeout=60))
+    [failed] = [f for f in report.findings if f.rule == "run-failed"]
+    assert "cannot start" in failed.message

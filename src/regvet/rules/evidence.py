@@ -80,6 +80,9 @@ def summary(stats: dict[str, Any]) -> str:
     ci = get(stats, "condition_index", "value")
     if ci is not None:
         bits.append(f"cond. index {num(ci)}")
+    cv = stats.get("cv")
+    if isinstance(cv, dict) and cv.get("rmse") is not None:
+        bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv['rmse'])}")
     return ", ".join(bits)
 
 
