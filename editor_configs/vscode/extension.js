@@ -31,9 +31,23 @@ async function restart() {
   await client.start();
 }
 
+// Runtime mode EXECUTES the file: only on request, and only in a trusted workspace.
+async function runFits() {
+  const editor = vscode.window.activeTextEditor;
+  if (!editor || !client) return;
+  if (!vscode.workspace.isTrusted) {
+    vscode.window.showWarningMessage("regvet: running the fits executes the code; trust this workspace first.");
+    return;
+  }
+  const uri = editor.document.uri.toString();
+  const answer = await client.sendRequest("workspace/executeCommand", { command: "regvet.runFits", arguments: [uri] });
+  if (answer && answer.failed) vscode.window.showWarningMessage(`regvet: the run stopped: ${answer.failed}`);
+}
+
 async function activate(context) {
   context.subscriptions.push(
     vscode.commands.registerCommand("regvet.restart", restart),
+    vscode.commands.registerCommand("regvet.runFitsOfFile", runFits),
     vscode.workspace.onDidChangeConfiguration((event) => {
       if (event.affectsConfiguration("regvet.server.path")) return restart();
     }),
