@@ -367,18 +367,36 @@ def test_trailing_waiver_without_a_comment_and_with_trailing_spaces_and_crlf():
 
 
 @pytest.mark.parametrize(
-    "old",
+    "old,line,indent",
     [
-        'results = [\n    smf.ols("""riders ~ fare\n    + fuel_price""", data=crossings).fit(),\n]\n',
-        "if True:\n    results = f(1,\n        m.fit() + \\\n        2)\n",
+        ('results = [\n    smf.ols("""riders ~ fare\n    + fuel_price""", data=crossings).fit(),\n]\n', 2, "    "),
+        ("if True:\n    results = f(1,\n        m.fit() + \\\n        2)\n", 3, "        "),
     ],
 )
-def test_waiver_goes_above_the_statement_when_the_line_cannot_take_a_comment(old):
-    line = 2 if old.startswith("results") else 3
+def test_waiver_goes_alone_directly_above_a_line_that_cannot_take_a_comment(old, line, indent):
     new = checked(old, add_waiver(old, line, "no-form-test"))
-    indent = "" if old.startswith("results") else "    "
     assert changes(old, new) == [("", f"{indent}# regvet: waive no-form-test -- REASON\n")]
-    assert new.split("\n")[line - 2 if indent else 0].strip().startswith("# regvet")
+    assert new.split("\n")[line - 1] == f"{indent}# regvet: waive no-form-test -- REASON"
+
+
+def test_a_waiver_placed_above_a_line_inside_brackets_is_honoured():
+    old = (
+        "import statsmodels.formula.api as smf\n"
+        "results = [\n"
+        '    smf.ols("""riders ~ fare\n    + fuel_price""", data=crossings).fit(),\n'
+        "]\n"
+        "print(results[0].params)\n"
+    )
+    [finding] = [f for f in analyze(old, "w.py", strict=True).findings if f.rule == "no-form-test"]
+    new = checked(old, add_waiver(old, finding.span.line, "no-form-test"))
+    [after] = [f for f in analyze(new, "w.py", strict=True).findings if f.rule == "no-form-test"]
+    assert after.waived and after.reason == "REASON"
+
+
+def test_no_waiver_where_no_line_can_hold_one():
+    old = "x = 1 + \\\n    f(\"\"\"a\n    b\"\"\") + m.fit()\n"
+    with pytest.raises(EditError):
+        add_waiver(old, 2, "no-form-test")
 
 
 @pytest.mark.parametrize(

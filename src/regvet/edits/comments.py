@@ -24,7 +24,8 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
     On the first line of a statement the comment goes alone on a new line above it, at its
     indentation. Inside a multi-line statement it is appended to ``line`` (before any comment
     already there), unless that line ends inside a string or with a backslash; then it goes alone
-    above the statement's first line. A waiver comment already on the chosen line, or alone on
+    on a new line directly above ``line`` (valid inside brackets), and when that is not possible
+    either (after a backslash, inside a string) :class:`EditError` is raised. A waiver comment already on the chosen line, or alone on
     the line above it, gets ``rule`` added to its rule list (and ``reason`` if it has none)
     instead. Raises :class:`EditError` for a line outside the file, a rule id or reason a waiver
     cannot hold, or a file :mod:`tokenize` cannot read.
@@ -42,9 +43,15 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
     elif (
         line not in layout.code_end
         or line in layout.open_at_end
-        or lines[line - 1][layout.code_end[line] :].strip().startswith("\\")  # a backslash continuation
+        or _backslash(lines, layout, line)
     ):
-        anchor, alone = layout.statement_line(line), True
+        # No trailing comment possible on this line. A comment line directly above it is valid
+        # Python when the previous line ends inside brackets, and the engine honours a waiver
+        # alone on the line above the finding; after a backslash or inside a string it is not.
+        previous = line - 1
+        if previous < 1 or previous in layout.open_at_end or _backslash(lines, layout, previous):
+            raise EditError(f"no line next to line {line} can hold a waiver comment")
+        anchor, alone = line, True
     else:
         anchor, alone = line, False
     comment = f"# regvet: waive {rule} -- {reason}"
@@ -65,6 +72,12 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
         return source[:at] + comment + "  " + source[at:]
     at = offset(source, line, layout.code_end[line])
     return source[:at] + "  " + comment + source[at:]
+
+
+def _backslash(lines: list[str], layout: "_Layout", line: int) -> bool:
+    """Does ``line`` end with a backslash continuation?"""
+    end = layout.code_end.get(line)
+    return end is not None and lines[line - 1][end:].strip().startswith("\\")
 
 
 @dataclass
