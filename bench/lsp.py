@@ -1,7 +1,8 @@
 """Language-server benchmarks: edit-to-diagnostics latency and memory across many edits.
 
 Drives a real ``regvet serve`` process over stdio with a pygls client (debounce set to 0,
-so the figure is analysis plus transport, not waiting).
+so the figure is analysis plus transport, not waiting). Edits are incremental, as editors send
+them while typing (one line inserted at the end of the script per edit).
 """
 
 from __future__ import annotations
@@ -63,6 +64,21 @@ class Bench:
             t.DidOpenTextDocumentParams(t.TextDocumentItem(uri=uri, language_id="python", version=1, text=text))
         )
 
+    def insert(self, uri: str, line: int, text: str) -> int:
+        """An incremental change, as editors send while typing: insert ``text`` at the start of ``line``."""
+        self.versions[uri] += 1
+        self.client.text_document_did_change(
+            t.DidChangeTextDocumentParams(
+                text_document=t.VersionedTextDocumentIdentifier(uri=uri, version=self.versions[uri]),
+                content_changes=[
+                    t.TextDocumentContentChangePartial(
+                        range=t.Range(t.Position(line, 0), t.Position(line, 0)), text=text
+                    )
+                ],
+            )
+        )
+        return self.versions[uri]
+
     def change(self, uri: str, text: str) -> int:
         self.versions[uri] += 1
         self.client.text_document_did_change(
@@ -87,10 +103,10 @@ async def latency(root: Path, lines: int, edits: int = 25) -> dict:
     bench.open(uri, base)
     await bench.wait(uri, 1)
     samples = []
-    for i in range(edits):
-        text = base + f"\nnote_{i} = {i}\n"
+    last = base.count("\n")
+    for i in range(edits):  # typing at the end of the script: one small incremental edit each
         sent = time.perf_counter()
-        version = bench.change(uri, text)
+        version = bench.insert(uri, last + i, f"note_{i} = {i}\n")
         samples.append(await bench.wait(uri, version) - sent)
     await bench.stop()
     return {"lines": base.count("\n"), "median_ms": round(statistics.median(samples) * 1000, 1),
