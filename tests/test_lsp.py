@@ -6,7 +6,6 @@ import asyncio
 import json
 import socket
 import subprocess
-import sys
 import textwrap
 import time
 

@@ -21,7 +21,6 @@ from __future__ import annotations
 import json
 import subprocess
 import sys
-import textwrap
 
 import pytest
 from conftest import found

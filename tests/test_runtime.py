@@ -14,11 +14,10 @@ import textwrap
 from pathlib import Path
 
 import pytest
-from conftest import found
 
 from regvet.engine import analyze
 from regvet.model.settings import Settings
-from regvet.runtime.runner import RunCache, run
+from regvet.runtime.runner import RunCache
 from regvet.runtime.session import run_and_judge
 
 FIT = textwrap.dedent(
@@ -41,7 +40,7 @@ def judge(tmp_path: Path, code: str, name: str = "model.py", settings: Settings 
     path.write_text(code)
     settings = settings or Settings(run_timeout=60)
     report = analyze(code, str(path), settings, strict=True)
-    return run_and_judge(report, path, code, settings, cache=cache)
+    return run_and_judge(report, path, settings, cache=cache)
 
 
 def test_statistics_are_attached_to_static_findings(tmp_path):
@@ -166,7 +165,7 @@ def test_fit_made_in_a_helper_function_is_matched_at_the_call_site(tmp_path):
 
     settings = Settings(run_timeout=60)
     report = analyze(code, str(path), settings, provider=FileModules(tmp_path, path), strict=True)
-    judged, result = run_and_judge(report, path, code, settings, cache=None)
+    judged, result = run_and_judge(report, path, settings, cache=None)
     f = next(f for f in judged.findings if f.rule == "no-variance-test")
     assert f.span.line == 9 and f.stats and f.stats["fits"][0]["statistics"]["nobs"] == 120
 

@@ -39,7 +39,7 @@ def run_example(tmp_path: Path, name: str, code: str):
     path.write_text(code)
     settings = settings_of(code)
     report = analyze(code, str(path), settings, strict=True)
-    judged, result = run_and_judge(report, path, code, settings, cache=RunCache(tmp_path / "cache"))
+    judged, result = run_and_judge(report, path, settings, cache=RunCache(tmp_path / "cache"))
     return judged, result
 
 

@@ -299,11 +299,7 @@ def _run_file(file: Path, report: FileReport, settings: Settings, cache) -> File
     """Runtime mode for one file (imports the runtime part only now)."""
     from regvet.runtime.session import run_and_judge
 
-    try:
-        text = file.read_bytes().decode("utf-8-sig" if file.suffix == ".ipynb" else "utf-8")
-    except (OSError, UnicodeDecodeError):
-        return report
-    judged, _ = run_and_judge(report, file, text, settings, cache=cache)
+    judged, _ = run_and_judge(report, file, settings, cache=cache)
     return judged
 
 

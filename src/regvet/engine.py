@@ -51,9 +51,11 @@ class FileReport:
     cell_count: int | None = None
     cell_map: CellMap | None = field(default=None, compare=False, repr=False)
     rule_input: RuleInput | None = field(default=None, compare=False, repr=False)
+    #: The Python that was analysed (a notebook's code cells joined, magics neutralised).
+    python: str | None = field(default=None, compare=False, repr=False)
 
 
-def mentions_fits(text: str, path: str, provider: ModuleProvider) -> bool:
+def mentions_fits(text: str, provider: ModuleProvider) -> bool:
     """Cheap pre-check: does the file mention statsmodels or import a project module that does?"""
     if "statsmodels" in text:
         return True
@@ -193,13 +195,13 @@ def _analyze_python(
     provider = provider or NoModules()
     cell_map = nb.cell_map if nb is not None else None
     cell_count = nb.cell_count if nb is not None else None
-    if skip_unrelated and not mentions_fits(python, path, provider):
+    if skip_unrelated and not mentions_fits(python, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
     tree = parse(python, path)
     waivers = tuple(find_waivers(python))
     if isinstance(tree, SourceError):
         inp = RuleInput(FileFacts(), settings, waivers, tree, cell_map)
-        return _finish(path, settings, inp, cell_map, (), strict, cell_count)
+        return replace(_finish(path, settings, inp, cell_map, (), strict, cell_count), python=python)
     crashes: list[Crash] = []
     try:
         facts = collect(
@@ -222,7 +224,7 @@ def _analyze_python(
         facts = FileFacts()
         crashes.append(Crash("analysis", _describe(exc)))
     inp = RuleInput(facts, settings, waivers, cell_map=cell_map)
-    return _finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count)
+    return replace(_finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count), python=python)
 
 
 def error_report(path: str, error: SourceError, settings: Settings | None = None) -> FileReport:
@@ -287,7 +289,8 @@ def with_runtime(report: FileReport, runtime: RuntimeFacts, settings: Settings |
     settings = settings or report.rule_input.settings
     inp = replace(report.rule_input, runtime=runtime, settings=settings)
     crashes = tuple(c for c in report.crashes if c.where == "analysis")
-    return _finish(report.path, settings, inp, report.cell_map, crashes, False, report.cell_count)
+    judged = _finish(report.path, settings, inp, report.cell_map, crashes, False, report.cell_count)
+    return replace(judged, python=report.python)
 
 
 def _dedupe(findings: list[Finding]) -> list[Finding]:

@@ -39,7 +39,7 @@ from regvet.model.facts import (
     Outcome,
     Use,
 )
-from regvet.model.span import Span
+from regvet.model.span import Span, code_point_col
 
 MAX_CALL_DEPTH = 6
 MAX_VARIANTS = 24  # distinct formula literals one constructor call may stand for
@@ -1233,7 +1233,7 @@ class Collector:
         if q.startswith("pandas.read_"):
             extra: list[tuple] = []
             if any(k in kwargs for k in cat.TIME_READ_KEYWORDS):
-                extra.append(("timed", f"the data is read with `parse_dates`"))
+                extra.append(("timed", "the data is read with `parse_dates`"))
             return tags(("data", ("call", id(node))), *extra)
         if q.startswith("numpy.") or q.startswith("scipy.special."):
             return self.numpy_call(q.rsplit(".", 1)[1], args, kwargs, node)
@@ -1751,10 +1751,7 @@ def _cp(lines: list[str], line: int, byte_col: int) -> int:
     """UTF-8 byte column (what ``ast`` gives) to a code-point column."""
     if line - 1 >= len(lines) or line < 1:
         return byte_col
-    text = lines[line - 1]
-    if text.isascii():
-        return byte_col
-    return len(text.encode("utf-8")[:byte_col].decode("utf-8", errors="replace"))
+    return code_point_col(lines[line - 1], byte_col)
 
 
 def _dotted(node: ast.expr) -> str | None:

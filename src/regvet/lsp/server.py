@@ -39,7 +39,6 @@ from regvet.config import ConfigError, find_config, load_settings
 from regvet.engine import FileReport, analyze, analyze_cells, with_runtime
 from regvet.lsp.convert import Positions, json_safe, split_lines, to_diagnostic
 from regvet.model.settings import Settings
-from regvet.model.span import Span
 from regvet.project import FileModules
 from regvet.rules import RULES_BY_ID
 
@@ -681,28 +680,19 @@ def build_actions(uri: str, text: str, whole: str, version: int | None,
 
 
 # --- runtime mode, on request only ----------------------------------------------------------------
-def _notebook_json(snap: dict) -> str:
-    import json
-
-    cells = []
-    for _i, kind, _uri, text in snap["cells"]:
-        cells.append({"cell_type": "code" if kind == t.NotebookCellKind.Code else "markdown", "source": text})
-    return json.dumps({"cells": cells, "nbformat": 4, "nbformat_minor": 5, "metadata": {}})
-
-
-def _run_target(ls: RegvetServer, snap: dict, overlay: dict[Path, str], procs: list) -> tuple[FileReport, Any]:
-    """In the pool: static analysis, then the run (this EXECUTES the user's code), then judgement."""
+def _run_target(ls: RegvetServer, snap: dict, overlay: dict[Path, str], procs: list,
+                current: FileReport | None) -> tuple[FileReport, Any]:  # fmt: skip
+    """In the pool: the static report (reused when it is of this version), then the run (this
+    EXECUTES the user's code), then judgement."""
     from regvet.runtime.runner import RunCache
     from regvet.runtime.session import run_and_judge
 
-    report = run_analysis(ls, snap, overlay)
+    report = current if current is not None else run_analysis(ls, snap, overlay)
     fs = to_fs_path(snap["key"])
     if not fs:
         return report, None
     path = Path(fs)
-    text = _notebook_json(snap) if snap["kind"] == "notebook" else snap["text"]
-    settings = ls.settings_for(path.resolve())
-    return run_and_judge(report, path, text, settings, cache=RunCache(), started=procs.append)
+    return run_and_judge(report, path, ls.settings_for(path.resolve()), cache=RunCache(), started=procs.append)
 
 
 def _kill_all(procs: list) -> None:
@@ -736,7 +726,9 @@ async def run_fits(ls: RegvetServer, uri: str) -> dict:
             title="regvet: running the fits", message=Path(to_fs_path(key) or key).name, cancellable=True))  # fmt: skip
     procs: list = []
     loop = asyncio.get_running_loop()
-    future = loop.run_in_executor(ls.pool, _run_target, ls, snap, ls.overlay(), procs)
+    previous = ls.results.get(key)
+    current = previous.report if previous is not None and previous.version == snap["version"] else None
+    future = loop.run_in_executor(ls.pool, _run_target, ls, snap, ls.overlay(), procs, current)
     cancelled = False
     try:
         while not future.done():

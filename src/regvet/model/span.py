@@ -14,6 +14,18 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 
+def code_point_col(text: str, byte_col: int) -> int:
+    """A UTF-8 byte column of ``text`` (what ``ast`` and CPython's code positions give) in code points."""
+    if text.isascii():
+        return byte_col
+    return len(text.encode("utf-8")[:byte_col].decode("utf-8", errors="replace"))
+
+
+def byte_col(text: str, col: int) -> int:
+    """A code-point column of ``text`` as a UTF-8 byte column."""
+    return col if text.isascii() else len(text[:col].encode("utf-8"))
+
+
 @dataclass(frozen=True, order=True)
 class Span:
     line: int

@@ -6,7 +6,7 @@ from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, use_related
-from regvet.rules.evidence import get, num, p, runs
+from regvet.rules.evidence import num, p, runs
 
 SMALL_DF = 30  # common practice; no published threshold
 

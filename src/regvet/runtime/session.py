@@ -15,9 +15,8 @@ from regvet.engine import FileReport, with_runtime
 from regvet.model.facts import Fit
 from regvet.model.runtime import RunFailure, RuntimeFacts
 from regvet.model.settings import Settings
-from regvet.model.span import Span
+from regvet.model.span import Span, byte_col, code_point_col
 from regvet.runtime.runner import RunCache, RunResult, run
-from regvet.sources.notebook import read_notebook
 
 
 @dataclass
@@ -30,18 +29,16 @@ class _Source:
     cell_start: dict[int, int]  # cell index -> first line in the joined module
 
 
-def _source(path: Path, text: str, report: FileReport) -> _Source | None:
-    if report.cell_map is None:
-        return _Source(path, text.split("\n"), None, {})
-    nb = read_notebook(text)
-    if not hasattr(nb, "python"):
+def _source(path: Path, report: FileReport) -> _Source | None:
+    if report.python is None:
         return None
-    lines = nb.python.split("\n")  # type: ignore[union-attr]
+    lines = report.python.split("\n")
+    if report.cell_map is None:
+        return _Source(path, lines, None, {})
     starts = list(report.cell_map.starts) + [len(lines) + 1]
     cells = []
     for i, index in enumerate(report.cell_map.cells):
-        body = "\n".join(lines[starts[i] - 1 : starts[i + 1] - 1])
-        cells.append({"index": index, "source": body})
+        cells.append({"index": index, "source": "\n".join(lines[starts[i] - 1 : starts[i + 1] - 1])})
     return _Source(path, lines, cells, dict(zip(report.cell_map.cells, report.cell_map.starts)))
 
 
@@ -58,16 +55,6 @@ def options_for(settings: Settings) -> dict[str, Any]:
         "cv_folds": settings.cv_folds,
         "cv_seed": settings.cv_seed,
     }
-
-
-def _byte_col(line: str, col: int) -> int:
-    return len(line[:col].encode("utf-8"))
-
-
-def _code_point_col(line: str, byte_col: int | None) -> int | None:
-    if byte_col is None:
-        return None
-    return len(line.encode("utf-8")[:byte_col].decode("utf-8", errors="replace"))
 
 
 def _frame_position(src: _Source, frame: list[Any], end: bool = False) -> tuple[int, int | None] | None:
@@ -92,7 +79,7 @@ def _frame_position(src: _Source, frame: list[Any], end: bool = False) -> tuple[
     elif Path(name) != src.path.resolve():
         return None
     text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
-    return line, _code_point_col(text, col)
+    return line, None if col is None else code_point_col(text, col)
 
 
 def _cv_sites(src: _Source, report: FileReport) -> list[list[Any]]:
@@ -111,9 +98,9 @@ def _cv_sites(src: _Source, report: FileReport) -> list[list[Any]]:
                 text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
                 if src.cells is not None:
                     cell, cell_line = report.cell_map.locate(line)  # type: ignore[union-attr]
-                    sites.append([f"<regvet-cell-{cell}>", cell_line, _byte_col(text, col)])
+                    sites.append([f"<regvet-cell-{cell}>", cell_line, byte_col(text, col)])
                 else:
-                    sites.append([str(src.path.resolve()), line, _byte_col(text, col)])
+                    sites.append([str(src.path.resolve()), line, byte_col(text, col)])
     return sites
 
 
@@ -193,7 +180,6 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
 def run_and_judge(
     report: FileReport,
     path: Path,
-    text: str,
     settings: Settings,
     *,
     cache: RunCache | None,
@@ -201,13 +187,17 @@ def run_and_judge(
 ) -> tuple[FileReport, RunResult | None]:
     """Run ``path`` under the probe and return its report re-judged with the statistics.
 
-    Files with nothing to run (no statsmodels, or a parse error) are returned unchanged.
+    What runs is exactly the Python the static analysis read (``report.python``: an editor's
+    unsaved text, a notebook's code cells), and it keys the cache. Files with nothing to run (no
+    statsmodels, or a parse error) are returned unchanged.
     """
-    if report.skipped or report.facts is None or not report.facts.fits and not _mentions_fit_call(text):
+    if report.skipped or report.facts is None or report.python is None:
+        return report, None
+    if not report.facts.fits and ".fit(" not in report.python:
         return report, None
     if any(f.rule == "parse-error" for f in report.findings):
         return report, None
-    src = _source(path, text, report)
+    src = _source(path, report)
     if src is None:
         return report, None
     options = options_for(settings)
@@ -222,7 +212,7 @@ def run_and_judge(
         options=options,
         user_files=list(report.facts.dependencies),
         cache=cache,
-        content=text.encode("utf-8"),
+        content=report.python.encode("utf-8"),
         started=started,
     )
     facts = RuntimeFacts(
@@ -233,6 +223,3 @@ def run_and_judge(
     )
     return with_runtime(report, facts, settings), result
 
-
-def _mentions_fit_call(text: str) -> bool:
-    return ".fit(" in text

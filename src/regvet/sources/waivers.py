@@ -29,7 +29,7 @@ class Waiver:
     malformed: str | None = None  # why the rule list could not be read
 
 
-def _parse(kind: str, rest: str) -> tuple[tuple[str, ...], str | None, str | None]:
+def _parse(rest: str) -> tuple[tuple[str, ...], str | None, str | None]:
     reason: str | None = None
     rest = rest.split("#", 1)[0]  # a further comment on the line (another tool's, a test marker) is not ours
     if "--" in rest:
@@ -57,7 +57,7 @@ def find_waivers(text: str) -> list[Waiver]:
             m = _DIRECTIVE.match(tok.string)
             if not m:
                 continue
-            rules, reason, malformed = _parse(m["kind"], m["rest"])
+            rules, reason, malformed = _parse(m["rest"])
             line, col = tok.start
             before = lines[line - 1][:col] if line - 1 < len(lines) else ""
             found.append(
