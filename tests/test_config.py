@@ -157,3 +157,24 @@ def test_diagnostic_helpers_count_as_checks(tmp_path, run_cli):
     write(tmp_path / "regvet.toml", 'diagnostic_helpers = { "ourlib.checks.run_all" = ["form", "variance"] }\n')
     code, out, _ = run_cli("check", str(script))
     assert code == 0, out
+
+
+def test_settings_and_the_option_table_describe_the_same_keys():
+    """``OPTIONS`` drives validation and docs, ``Settings`` holds the values: neither may gain a key alone."""
+    import dataclasses
+
+    from regvet.model.settings import OPTIONS, Settings
+
+    fields = {f.name: f for f in dataclasses.fields(Settings) if f.compare}  # `source` is bookkeeping
+    options = {o.name: o for o in OPTIONS}
+    assert list(fields) == list(options)
+    defaults = Settings()
+    for name, option in options.items():
+        value = getattr(defaults, name)
+        if option.kind in ("rules",):
+            assert value == frozenset(option.default), name
+        elif option.kind in ("globs", "strings", "severity-map", "helpers"):
+            assert tuple(value) == tuple(option.default), name
+        else:
+            assert value == option.default, name
+        assert option.expected  # every kind has the text an error message shows
