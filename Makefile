@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test bench clean
+.PHONY: demo test test-fast bench clean
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
@@ -18,6 +18,10 @@ demo: $(STAMP)
 
 test: $(STAMP)
 	$(BIN)/python -m pytest -q
+
+# Everything but the slow groups (see SLOW_GROUPS in tests/conftest.py): under 30 s on two cores.
+test-fast: $(STAMP)
+	$(BIN)/python -m pytest -q -m "not (runtime or server or editors or scan or precommit)"
 
 bench: $(STAMP)
 	$(BIN)/python bench/run.py

@@ -48,3 +48,28 @@ def run_cli(capsys):
 
 
 sys.path.insert(0, str(Path(__file__).parent))
+
+#: The slow groups, by test module (or ``module::test`` prefix): each gets its marker, so that
+#: ``make test-fast`` can leave them out. ``make test`` runs everything.
+SLOW_GROUPS: dict[str, str] = {
+    "test_runtime.py": "runtime",  # the analysed code runs in real child processes
+    "test_runtime_rules.py": "runtime",
+    "test_demo.py::test_demo_run_gives_the_documented_findings_from_the_numbers": "runtime",
+    "test_demo.py::test_demo_scripts_run": "runtime",
+    "test_demo.py::test_demo_notebook_cells_run_in_order": "runtime",
+    "test_demo.py::test_demo_data_regenerates_byte_for_byte": "runtime",
+    "test_published_examples.py": "runtime",  # runs the published examples' scripts for real
+    "test_lsp.py": "server",  # the real language server over stdio and TCP
+    "test_editors.py": "editors",  # Neovim and Emacs, headless
+    "test_robustness.py": "scan",  # the whole installed statsmodels and standard library
+    "test_precommit.py": "precommit",  # the real pre-commit tool builds a hook environment
+}
+
+
+def pytest_collection_modifyitems(config, items):
+    for item in items:
+        name = item.nodeid.split("/")[-1]
+        for prefix, marker in SLOW_GROUPS.items():
+            if name == prefix or name.startswith(prefix + "::") or name.startswith(prefix + "["):
+                item.add_marker(getattr(pytest.mark, marker))
+                break
