@@ -30,8 +30,8 @@ ALLOWED = {
     "precommit": {"cli", "precommit"},
     "status": {"model", "analysis", "rules", "engine", "status"},
     "edits": {"model", "sources", "edits"},
-    "lsp": {"model", "sources", "analysis", "rules", "engine", "config", "project", "status", "edits", "cli", "lsp",
-            "runtime", "__init__"},
+    "lsp": {"model", "sources", "analysis", "rules", "engine", "config", "project", "status", "edits", "lsp", "runtime",
+            "__init__"},
     "runtime": {"model", "sources", "engine", "runtime"},
 }
 #: Fronts that may reach the runtime mode (lazily, on an explicit request).
@@ -108,3 +108,97 @@ def test_importing_the_cli_loads_no_heavy_package():
     code = "import sys, regvet.cli; print(sorted(m for m in sys.modules if m.split('.')[0] in %r))" % sorted(HEAVY)
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert proc.stdout.strip() == "[]"
+
+
+# --- the import graph has no cycles ----------------------------------------------------------------
+def _module_name(path: Path) -> str:
+    rel = path.relative_to(SRC.parent).with_suffix("")
+    parts = rel.parts[:-1] if rel.name == "__init__" else rel.parts
+    return ".".join(parts)
+
+
+def _is_module(name: str) -> bool:
+    rel = Path(*name.split(".")[1:]) if "." in name else Path()
+    return (SRC / rel).with_suffix(".py").is_file() or (SRC / rel / "__init__.py").is_file()
+
+
+def _regvet_imports(path: Path) -> set[str]:
+    """The regvet modules ``path`` imports anywhere in its text (lazy imports inside functions included)."""
+    tree = ast.parse(path.read_text(), filename=str(path))
+    package = _module_name(path) if path.name == "__init__.py" else _module_name(path).rpartition(".")[0]
+    out: set[str] = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Import):
+            out.update(a.name for a in node.names)
+        elif isinstance(node, ast.ImportFrom):
+            base = node.module or ""
+            if node.level:
+                anchor = package.split(".")[: len(package.split(".")) - (node.level - 1)]
+                base = ".".join([*anchor, *([base] if base else [])])
+            for a in node.names:
+                sub = f"{base}.{a.name}"
+                out.add(sub if _is_module(sub) else base)
+    return {n for n in out if n == "regvet" or n.startswith("regvet.")}
+
+
+def _layer_of(module: str) -> str:
+    parts = module.split(".")
+    if len(parts) == 1:
+        return "__init__"
+    return parts[1]
+
+
+def find_cycle(graph: dict[str, set[str]]) -> list[str] | None:
+    """A cycle of ``graph`` as a list of nodes whose last equals its first, or None."""
+    state: dict[str, int] = {}  # 1: on the current path, 2: done
+    path: list[str] = []
+
+    def visit(node: str) -> list[str] | None:
+        state[node] = 1
+        path.append(node)
+        for nxt in sorted(graph.get(node, ())):
+            if state.get(nxt) == 1:
+                return path[path.index(nxt) :] + [nxt]
+            if nxt not in state:
+                found = visit(nxt)
+                if found:
+                    return found
+        path.pop()
+        state[node] = 2
+        return None
+
+    for start in sorted(graph):
+        if start not in state:
+            found = visit(start)
+            if found:
+                return found
+    return None
+
+
+ALL_MODULES = sorted(p for p in SRC.rglob("*.py") if PROBE not in p.parents)
+MODULE_GRAPH = {_module_name(p): _regvet_imports(p) - {_module_name(p)} for p in ALL_MODULES}
+
+
+def test_the_cycle_finder_finds_a_cycle():
+    assert find_cycle({"a": {"b"}, "b": {"c"}, "c": {"a"}, "d": {"a"}}) == ["a", "b", "c", "a"]
+    assert find_cycle({"a": {"b", "c"}, "b": {"c"}, "c": set()}) is None
+
+
+def test_the_import_graph_has_no_cycle_between_layers():
+    layers: dict[str, set[str]] = {}
+    why: dict[tuple[str, str], str] = {}
+    for module, targets in MODULE_GRAPH.items():
+        for target in targets:
+            a, b = _layer_of(module), _layer_of(target)
+            if a != b:
+                layers.setdefault(a, set()).add(b)
+                why.setdefault((a, b), f"{module} imports {target}")
+    cycle = find_cycle(layers)
+    assert cycle is None, "layers import each other: " + " -> ".join(cycle) + " (" + "; ".join(
+        why[(a, b)] for a, b in zip(cycle, cycle[1:])
+    ) + ")"
+
+
+def test_the_import_graph_of_modules_has_no_cycle():
+    cycle = find_cycle(MODULE_GRAPH)
+    assert cycle is None, "modules import each other: " + " -> ".join(cycle)

@@ -23,19 +23,12 @@ from regvet.model.finding import Severity
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
 from regvet.project import FileModules, display_path
-from regvet.rules import ALL_RULES, RULES_BY_ID
+from regvet.rules import RULES_BY_ID
+from regvet.rules.texts import CAUTION, explain, render_rules
 from regvet.sources.python import SourceError, decode
 
 EXIT_OK, EXIT_FINDINGS, EXIT_USAGE, EXIT_FAILED = 0, 1, 2, 3
 EXTRA_EXCLUDE = (".ipynb_checkpoints", "__pycache__", ".tox", ".nox", ".mypy_cache")
-
-CAUTION = (
-    "Passing regvet does not make a model right. regvet finds specification checks that are missing or "
-    "failed; it cannot judge whether the economics of a model make sense, whether the variables measure "
-    "what they should, or whether the data support causal claims. That judgement stays with the analyst, "
-    "and results that inform policy or money deserve review by a qualified statistician or econometrician "
-    "under the rules of their field or institution."
-)
 
 
 class UsageError(Exception):
@@ -145,29 +138,6 @@ def _serve(argv: list[str]) -> int:
         return serve_main(argv)
     except SystemExit as exc:
         return EXIT_USAGE if exc.code not in (0, None) else EXIT_OK
-
-
-# --- rules and explain -------------------------------------------------------------------------
-def render_rules() -> str:
-    width = max(len(r.id) for r in ALL_RULES)
-    lines = [f"{r.id:<{width}}  {r.severity.label:<7}  {r.summary}" for r in ALL_RULES]
-    return "\n".join(lines) + "\n"
-
-
-def explain(rule_id: str) -> str:
-    """The full text for one rule; the language server shows the same text."""
-    r = RULES_BY_ID[rule_id]
-    out = [f"{r.id} ({r.severity.label} by default)", "", r.summary, "", r.rationale, ""]
-    out += ["Flagged:", "", _indent(r.bad), "", "Passes:", "", _indent(r.good), ""]
-    if r.references:
-        out += ["References:"] + [f"  - {ref}" for ref in r.references] + [""]
-    out += [f"Waive with `# regvet: waive {r.id} -- reason` when the check truly does not apply.", ""]
-    out += [CAUTION, ""]
-    return "\n".join(out)
-
-
-def _indent(code: str) -> str:
-    return "\n".join(("    " + line) if line else "" for line in code.rstrip("\n").split("\n"))
 
 
 # --- check -------------------------------------------------------------------------------------

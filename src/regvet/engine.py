@@ -255,6 +255,7 @@ def _finish(
 ) -> FileReport:
     findings: list[Finding] = []
     all_crashes = list(crashes)
+    inp = replace(inp, known_rules=frozenset(r.id for r in ALL_RULES))
     for rule in ALL_RULES:
         if not settings.enabled(rule.id):
             continue

@@ -102,7 +102,7 @@ class RegvetServer(LanguageServer):
         self._doc_uris: dict[str, str | None] = {}
         self._warned: set[tuple] = set()
         atexit.register(shutil.rmtree, self.rule_docs, True)
-        from regvet.cli import explain
+        from regvet.rules.texts import explain
 
         for rid in RULES_BY_ID:
             (self.rule_docs / f"{rid}.md").write_text(explain(rid), encoding="utf-8")

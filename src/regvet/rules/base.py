@@ -35,6 +35,8 @@ class RuleInput:
     source_error: SourceError | None = None
     cell_map: CellMap | None = None
     runtime: RuntimeFacts | None = None  # only in runtime mode
+    #: Ids of every rule in the catalogue (the engine fills it in), so waivers can name unknown ones.
+    known_rules: frozenset[str] = frozenset()
 
     def where(self, loc: Loc) -> str:
         """A location as a message names it: ``line 12``, ``cell 3, line 2`` or ``helpers.py, line 8``."""

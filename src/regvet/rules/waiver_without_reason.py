@@ -9,8 +9,6 @@ from regvet.rules.base import Rule, RuleInput
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
-    from regvet.rules import RULES_BY_ID
-
     for w in inp.waivers:
         form = "waive-file" if w.file_wide else "waive"
         if w.malformed:
@@ -19,7 +17,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 f"This waiver {w.malformed}; write `# regvet: {form} RULE -- reason`. It has no effect.",
             )
             continue
-        unknown = [r for r in w.rules if r not in RULES_BY_ID]
+        unknown = [r for r in w.rules if r not in inp.known_rules]
         if unknown:
             yield RULE.finding(
                 w.span,
