@@ -18,8 +18,9 @@ from typing import Sequence
 
 from regvet import __version__
 from regvet.config import ConfigError, find_config, load_settings
-from regvet.engine import FileReport, analyze, error_report
+from regvet.engine import analyze, error_report
 from regvet.model.finding import Severity
+from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
 from regvet.project import FileModules, display_path

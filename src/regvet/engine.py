@@ -14,16 +14,18 @@ import re
 import traceback
 from contextlib import contextmanager
 from typing import Iterator
-from dataclasses import dataclass, field, replace
+from dataclasses import replace
 
 from regvet.analysis.collect import ModuleProvider, NoModules, collect
+from regvet.model.cells import CellMap
 from regvet.model.facts import FileFacts
 from regvet.model.finding import Finding, Severity
+from regvet.model.report import Crash, FileReport
 from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RuleInput
-from regvet.sources.notebook import CellMap, NotebookSource, join_cells, read_notebook
+from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
 from regvet.sources.python import SourceError, parse
 from regvet.sources.waivers import Waiver, find_waivers
 
@@ -31,28 +33,6 @@ _IMPORT = re.compile(
     r"^[ \t]*(?:from[ \t]+(\.*[\w.]*)[ \t]+import[ \t]+\(?([\w., \t]*)|import[ \t]+([\w., \t]+))", re.MULTILINE
 )
 _ENGINE_RULES = frozenset({"parse-error", "waiver-without-reason"})
-
-
-@dataclass(frozen=True)
-class Crash:
-    """A part of regvet that failed on this file (its findings are lost, the rest are kept)."""
-
-    where: str  # "analysis" or a rule id
-    message: str
-
-
-@dataclass(frozen=True)
-class FileReport:
-    path: str
-    findings: tuple[Finding, ...] = ()
-    crashes: tuple[Crash, ...] = ()
-    skipped: bool = False  # nothing regression-related in the file: not analysed
-    facts: FileFacts | None = field(default=None, compare=False, repr=False)
-    cell_count: int | None = None
-    cell_map: CellMap | None = field(default=None, compare=False, repr=False)
-    rule_input: RuleInput | None = field(default=None, compare=False, repr=False)
-    #: The Python that was analysed (a notebook's code cells joined, magics neutralised).
-    python: str | None = field(default=None, compare=False, repr=False)
 
 
 def mentions_fits(text: str, provider: ModuleProvider) -> bool:
@@ -285,7 +265,7 @@ def with_runtime(report: FileReport, runtime: RuntimeFacts, settings: Settings |
 
     The facts are reused: nothing is parsed or collected a second time.
     """
-    if report.rule_input is None:
+    if not isinstance(report.rule_input, RuleInput):
         return report
     settings = settings or report.rule_input.settings
     inp = replace(report.rule_input, runtime=runtime, settings=settings)

@@ -9,10 +9,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from regvet.analysis.catalog import HAC_COV, ROBUST_COV
-from regvet.engine import FileReport
 from regvet.model.facts import Fit, Loc
 from regvet.model.finding import Finding
+from regvet.model.report import FileReport
 from regvet.model.span import Span
+from regvet.rules.base import RuleInput
 
 FAMILY_RULES = {
     "functional form": ("form", "no-form-test"),
@@ -117,7 +118,7 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
 def _run_line(report: FileReport, fit: Fit) -> FamilyStatus | None:
     """The statistics of the last run, when there is one (runtime mode)."""
     inp = report.rule_input
-    if inp is None or inp.runtime is None:
+    if not isinstance(inp, RuleInput) or inp.runtime is None:
         return None
     from regvet.rules.evidence import changed_coefficients, runs, summary
 

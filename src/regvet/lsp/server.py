@@ -36,8 +36,9 @@ from pygls.uris import from_fs_path, to_fs_path
 
 from regvet import __version__
 from regvet.config import ConfigError, find_config, load_settings
-from regvet.engine import FileReport, analyze, analyze_cells, with_runtime
+from regvet.engine import analyze, analyze_cells, with_runtime
 from regvet.lsp.convert import Positions, json_safe, split_lines, to_diagnostic
+from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 from regvet.project import FileModules
 from regvet.rules import RULES_BY_ID

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from regvet.engine import FileReport
 from regvet.model.finding import Severity
+from regvet.model.report import FileReport
 
 _LEVEL = {Severity.ERROR: "error", Severity.WARNING: "warning", Severity.INFO: "notice"}
 

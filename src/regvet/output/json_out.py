@@ -5,8 +5,8 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from regvet.engine import FileReport
 from regvet.model.finding import Finding
+from regvet.model.report import FileReport
 
 
 def finding_dict(path: str, f: Finding) -> dict[str, Any]:

@@ -15,8 +15,8 @@ from typing import Any
 from urllib.parse import quote
 
 from regvet import __version__
-from regvet.engine import FileReport
 from regvet.model.finding import Finding, Severity
+from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES
 

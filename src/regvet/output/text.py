@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from regvet.engine import FileReport
 from regvet.model.finding import Finding, Severity
+from regvet.model.report import FileReport
 
 _COLOURS = {Severity.ERROR: "\033[31m", Severity.WARNING: "\033[33m", Severity.INFO: "\033[36m"}
 _BOLD, _DIM, _RESET = "\033[1m", "\033[2m", "\033[0m"

@@ -15,12 +15,12 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from typing import Callable, Iterable, Iterator
 
+from regvet.model.cells import CellMap
 from regvet.model.facts import Check, Escape, FileFacts, Fit, Loc, Use
 from regvet.model.finding import Finding, Related, Severity
 from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
-from regvet.sources.notebook import CellMap
 from regvet.sources.python import SourceError
 from regvet.sources.waivers import Waiver
 

@@ -11,8 +11,9 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any, Callable
 
-from regvet.engine import FileReport, with_runtime
+from regvet.engine import with_runtime
 from regvet.model.facts import Fit
+from regvet.model.report import FileReport
 from regvet.model.runtime import RunFailure, RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span, byte_col, code_point_col
