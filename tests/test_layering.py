@@ -32,7 +32,7 @@ ALLOWED = {
     "edits": {"model", "sources", "edits"},
     "lsp": {"model", "sources", "analysis", "rules", "engine", "config", "project", "status", "edits", "lsp", "runtime",
             "__init__"},
-    "runtime": {"model", "sources", "engine", "runtime"},
+    "runtime": {"model", "sources", "rules", "engine", "runtime"},
 }
 #: Fronts that may reach the runtime mode (lazily, on an explicit request).
 RUNTIME_USERS = {"cli", "lsp", "runtime"}

@@ -32,7 +32,6 @@ from regvet.sources.waivers import Waiver, find_waivers
 _IMPORT = re.compile(
     r"^[ \t]*(?:from[ \t]+(\.*[\w.]*)[ \t]+import[ \t]+\(?([\w., \t]*)|import[ \t]+([\w., \t]+))", re.MULTILINE
 )
-_ENGINE_RULES = frozenset({"parse-error", "waiver-without-reason"})
 
 
 def mentions_fits(text: str, provider: ModuleProvider) -> bool:
@@ -248,8 +247,9 @@ def _finish(
     if inp.runtime is not None:
         from regvet.rules.evidence import attach
 
-        findings = attach(findings, inp)
-    findings = _apply_waivers(_dedupe(findings), inp.waivers)
+        findings = attach(findings, inp, comparing=frozenset(r.id for r in ALL_RULES if r.compares_fits))
+    unwaivable = frozenset(r.id for r in ALL_RULES if not r.waivable)
+    findings = _apply_waivers(_dedupe(findings), inp.waivers, unwaivable)
     findings = [_with_severity(f, settings) for f in findings]
     if cell_map is not None:
         findings = [_to_cells(f, cell_map) for f in findings]
@@ -281,13 +281,14 @@ def _dedupe(findings: list[Finding]) -> list[Finding]:
     return list(seen.values())
 
 
-def _apply_waivers(findings: list[Finding], waivers: tuple[Waiver, ...]) -> list[Finding]:
+def _apply_waivers(findings: list[Finding], waivers: tuple[Waiver, ...], unwaivable: frozenset[str]) -> list[Finding]:
+    """Mark the findings a valid waiver covers; the findings of rules that are not waivable stay as they are."""
     valid = [w for w in waivers if w.reason is not None and not w.malformed]
     if not valid:
         return findings
     out = []
     for f in findings:
-        if f.rule in _ENGINE_RULES:
+        if f.rule in unwaivable:
             out.append(f)
             continue
         reason = None

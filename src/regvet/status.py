@@ -13,14 +13,17 @@ from regvet.model.facts import Fit, Loc
 from regvet.model.finding import Finding
 from regvet.model.report import FileReport
 from regvet.model.span import Span
+from regvet.rules import ALL_RULES, rules_for_family
 from regvet.rules.base import RuleInput
 
-FAMILY_RULES = {
-    "functional form": ("form", "no-form-test"),
-    "variance": ("variance", "no-variance-test"),
-    "normality": ("normality", None),
-    "serial correlation": ("serial", "no-serial-test"),
-    "breaks": ("breaks", "no-break-test"),
+#: The check families the hover shows, by label (the rules that report each one missing say so
+#: with ``Rule.family``).
+FAMILY_LABELS = {
+    "functional form": "form",
+    "variance": "variance",
+    "normality": "normality",
+    "serial correlation": "serial",
+    "breaks": "breaks",
 }
 
 
@@ -73,10 +76,12 @@ def fits_at(report: FileReport, line: int, col: int, cell: int | None = None) ->
     return out
 
 
-def _finding_for(report: FileReport, rule: str, fit: Fit) -> Finding | None:
+def _finding_for(report: FileReport, family: str, fit: Fit) -> Finding | None:
+    """The finding on the fit's site of a rule that reports ``family`` missing, if any."""
+    rules = {r.id for r in rules_for_family(family)}
     site = _span(report, fit.site.span)
     for f in report.findings:
-        if f.rule == rule and f.span == site:
+        if f.rule in rules and f.span == site:
             return f
     return None
 
@@ -87,9 +92,9 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
     assert facts is not None
     members = facts.family_of(fit.id)
     families: list[FamilyStatus] = []
-    for label, (family, rule) in FAMILY_RULES.items():
+    for label, family in FAMILY_LABELS.items():
         checks = [c for m in sorted(members) for c in facts.events_of("checks", m) if c.family == family]
-        finding = _finding_for(report, rule, fit) if rule else None
+        finding = _finding_for(report, family, fit)
         if checks:
             c = checks[0]
             families.append(FamilyStatus(label, "done", f"`{c.function}` ({_where(report, c.loc)})"))
@@ -143,7 +148,7 @@ def _comparisons(report: FileReport, fit: Fit) -> FamilyStatus:
     mine = [c for c in facts.comparisons if any(facts.root(fid) in roots for fid, _ in c.measures)]
     if not mine:
         return FamilyStatus("comparisons", "not needed", "its fit measures are not compared")
-    bad_rules = ("compare-across-outcomes", "r2-unadjusted-compare")
+    bad_rules = {r.id for r in ALL_RULES if r.compares_fits}
     for comp in mine:
         span = _span(report, comp.loc.span) if comp.loc.path is None else None
         for f in report.findings:

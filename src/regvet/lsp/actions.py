@@ -10,12 +10,12 @@ import re
 
 from lsprotocol import types as t
 
-from regvet.lsp.convert import Positions
+from regvet.lsp.convert import CONFIG_ERROR, Positions
 from regvet.model.span import Span
+from regvet.rules import RULES_BY_ID, QuickFix
 
 RESET = ("statsmodels.stats.diagnostic", "linear_reset")
 BREUSCH_PAGAN = ("statsmodels.stats.diagnostic", "het_breuschpagan")
-_NOT_WAIVABLE = {"parse-error", "waiver-without-reason", "config-error"}
 
 
 def _span(values: object) -> Span | None:
@@ -67,20 +67,22 @@ def quick_fixes(uri: str, text: str, whole: str, version: int | None,
         result = fix.get("result") if isinstance(fix.get("result"), str) else None
         candidates: list[tuple[str, object, bool]] = []
         try:
-            if rule in ("no-variance-test",) and fit_call is not None:
-                candidates.append(('Use robust standard errors (cov_type="HC3")',
-                                   lambda: set_cov_type(text, fit_call, "HC3"), True))  # fmt: skip
-            if rule == "no-form-test" and statement is not None and result:
-                code = f'print("RESET:", linear_reset({result}, power=3, use_f=True))'
-                imports = () if _imported(whole, RESET[1]) else (RESET,)
-                candidates.append((f"Insert a RESET test of `{result}` after the fit",
-                                   lambda c=code, i=imports: insert_after_statement(text, statement, c, i), True))  # fmt: skip
-            if rule == "no-variance-test" and statement is not None and result:
-                code = f'print("Breusch-Pagan:", het_breuschpagan({result}.resid, {result}.model.exog))'
-                imports = () if _imported(whole, BREUSCH_PAGAN[1]) else (BREUSCH_PAGAN,)
-                candidates.append((f"Insert a Breusch-Pagan test of `{result}` after the fit",
-                                   lambda c=code, i=imports: insert_after_statement(text, statement, c, i), False))  # fmt: skip
-            if rule not in _NOT_WAIVABLE:
+            known = RULES_BY_ID.get(rule)
+            for kind in known.quick_fixes if known is not None else ():
+                if kind is QuickFix.ROBUST_COVARIANCE and fit_call is not None:
+                    candidates.append(('Use robust standard errors (cov_type="HC3")',
+                                       lambda: set_cov_type(text, fit_call, "HC3"), True))  # fmt: skip
+                if kind is QuickFix.INSERT_RESET and statement is not None and result:
+                    code = f'print("RESET:", linear_reset({result}, power=3, use_f=True))'
+                    imports = () if _imported(whole, RESET[1]) else (RESET,)
+                    candidates.append((f"Insert a RESET test of `{result}` after the fit",
+                                       lambda c=code, i=imports: insert_after_statement(text, statement, c, i), True))  # fmt: skip
+                if kind is QuickFix.INSERT_BREUSCH_PAGAN and statement is not None and result:
+                    code = f'print("Breusch-Pagan:", het_breuschpagan({result}.resid, {result}.model.exog))'
+                    imports = () if _imported(whole, BREUSCH_PAGAN[1]) else (BREUSCH_PAGAN,)
+                    candidates.append((f"Insert a Breusch-Pagan test of `{result}` after the fit",
+                                       lambda c=code, i=imports: insert_after_statement(text, statement, c, i), False))  # fmt: skip
+            if rule != CONFIG_ERROR and (known is None or known.waivable):
                 line = diag.range.start.line + 1
                 candidates.append((f"Waive {rule} here (write the reason)",
                                    lambda r=rule, ln=line: add_waiver(text, ln, r, "REASON"), False))  # fmt: skip

@@ -17,6 +17,8 @@ from regvet.model.finding import Finding, Severity
 from regvet.model.span import Span
 
 _LINE_BREAK = re.compile(r"\r\n|\r|\n")
+#: The code of the server's diagnostic on a broken config file (not a rule: nothing to waive).
+CONFIG_ERROR = "config-error"
 SEVERITY = {
     Severity.ERROR: t.DiagnosticSeverity.Error,
     Severity.WARNING: t.DiagnosticSeverity.Warning,

@@ -37,7 +37,7 @@ from pygls.uris import from_fs_path, to_fs_path
 from regvet import __version__
 from regvet.config import ConfigError, find_config, load_settings
 from regvet.engine import analyze, analyze_cells, with_runtime
-from regvet.lsp.convert import Positions, json_safe, split_lines, to_diagnostic
+from regvet.lsp.convert import CONFIG_ERROR, Positions, json_safe, split_lines, to_diagnostic
 from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 from regvet.project import FileModules
@@ -343,7 +343,7 @@ def publish_config_errors(ls: RegvetServer) -> None:
         ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[t.Diagnostic(
             range=t.Range(t.Position(line, 0), t.Position(line, 1_000)),
             message=f"regvet cannot use this configuration ({err}); using the defaults until it is fixed.",
-            severity=t.DiagnosticSeverity.Error, source="regvet", code="config-error")]))  # fmt: skip
+            severity=t.DiagnosticSeverity.Error, source="regvet", code=CONFIG_ERROR)]))  # fmt: skip
     for uri in ls.config_diagnostics - current:
         ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[]))
     ls.config_diagnostics = current

@@ -22,7 +22,7 @@ from regvet.rules import (
     serial_correlation_plain_se,
     waiver_without_reason,
 )
-from regvet.rules.base import Rule, RuleInput
+from regvet.rules.base import QuickFix, Rule, RuleInput
 
 ALL_RULES: tuple[Rule, ...] = (
     no_form_test.RULE,
@@ -47,4 +47,10 @@ ALL_RULES: tuple[Rule, ...] = (
 )
 RULES_BY_ID: dict[str, Rule] = {r.id: r for r in ALL_RULES}
 
-__all__ = ["ALL_RULES", "RULES_BY_ID", "Rule", "RuleInput"]
+
+def rules_for_family(family: str) -> tuple[Rule, ...]:
+    """The rules that report a missing check of ``family`` (a key of ``model.settings.FAMILIES``)."""
+    return tuple(r for r in ALL_RULES if r.family == family)
+
+
+__all__ = ["ALL_RULES", "RULES_BY_ID", "QuickFix", "Rule", "RuleInput", "rules_for_family"]

@@ -6,12 +6,17 @@ assumption it protects, what satisfies it), a bad and a good example, references
 and a ``check`` function from :class:`RuleInput` to findings. The same text feeds
 ``regvet explain``, ``regvet rules``, the README table and the language server.
 
+What other parts need to know about a rule is declared on it too (the check family
+it reports missing, whether it compares fits, its quick fixes, whether it can be
+waived, whether its finding stops a run), so no other module lists rule ids.
+
 Examples mark each expected finding with a trailing ``# expect: RULE`` comment on
 the line where the finding starts; ``tests/test_rule_examples.py`` runs them all.
 """
 
 from __future__ import annotations
 
+import enum
 from dataclasses import dataclass, field
 from typing import Callable, Iterable, Iterator
 
@@ -69,6 +74,17 @@ class RuleInput:
         return sorted(self.facts.events_of("escapes", fid), key=lambda e: (e.loc.path or "", e.loc.span.sort_key()))
 
 
+class QuickFix(enum.Enum):
+    """An edit an editor can offer for a rule's finding besides a waiver (``lsp/actions.py`` makes it)."""
+
+    #: Set ``cov_type="HC3"`` on the fit call.
+    ROBUST_COVARIANCE = "robust-covariance"
+    #: Insert a RESET test of the fit after the statement that makes it.
+    INSERT_RESET = "insert-reset"
+    #: Insert a Breusch-Pagan test of the fit after the statement that makes it.
+    INSERT_BREUSCH_PAGAN = "insert-breusch-pagan"
+
+
 @dataclass(frozen=True)
 class Rule:
     id: str
@@ -81,6 +97,18 @@ class Rule:
     references: tuple[str, ...] = ()
     #: Fires only from the statistics of a run (``regvet check --run``); its examples are run.
     needs_run: bool = False
+    #: The check family (a key of ``model.settings.FAMILIES``) whose missing check this rule
+    #: reports; the hover status shows that family as missing, or waived, from its finding.
+    family: str | None = None
+    #: Judges a comparison between fits: after a run its findings carry the compared fits' table,
+    #: and the hover status shows the comparison as failed.
+    compares_fits: bool = False
+    #: Edits an editor may offer for a finding, in the order offered (a waiver comes last).
+    quick_fixes: tuple[QuickFix, ...] = ()
+    #: False for the rules the engine owns: their findings are never waived and no waiver is offered.
+    waivable: bool = True
+    #: A finding of this rule means the file cannot run: the runtime mode leaves such a file alone.
+    blocks_run: bool = False
 
     def finding(
         self,

@@ -78,4 +78,5 @@ best = small if small.aic < large.aic else large
         "Wooldridge, J. M. Introductory Econometrics, Sec. 6.4 (predicting y when log(y) is the dependent "
         "variable) (from memory).",
     ),
+    compares_fits=True,
 )

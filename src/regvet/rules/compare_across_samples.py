@@ -73,4 +73,5 @@ better = large.aic < small.aic
 ''',
     check=check,
     needs_run=True,
+    compares_fits=True,
 )

@@ -8,7 +8,7 @@ in ``regvet/runtime/probe/regvet_stats.py``); nothing here computes a statistic.
 from __future__ import annotations
 
 import math
-from typing import Any, Iterable
+from typing import Any, Collection, Iterable
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding
@@ -159,8 +159,12 @@ def _betacf(a: float, b: float, x: float) -> float:
     return h
 
 
-def attach(findings: Iterable[Finding], inp: RuleInput) -> list[Finding]:
-    """Every finding about a fit that ran gets that fit's statistics (``Finding.stats``)."""
+def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[str] = ()) -> list[Finding]:
+    """Every finding about a fit that ran gets that fit's statistics (``Finding.stats``).
+
+    Findings of the rules in ``comparing`` (those with ``Rule.compares_fits``) also get the
+    compared fits' table and the F tests between nested ones.
+    """
     out = []
     for f in findings:
         if not f.fits or inp.runtime is None or f.stats is not None:
@@ -177,7 +181,7 @@ def attach(findings: Iterable[Finding], inp: RuleInput) -> list[Finding]:
             out.append(f)
             continue
         payload: dict[str, Any] = {"summary": "; ".join(x["summary"] for x in per_fit[:2]), "fits": per_fit}
-        if f.rule in ("compare-across-outcomes", "r2-unadjusted-compare", "compare-across-samples"):
+        if f.rule in comparing:
             payload["comparison"] = _comparison(inp, f.fits)
         out.append(f.with_(stats=payload))
     return out

@@ -118,4 +118,5 @@ print(res.params)
         "Brown, R. L., Durbin, J. and Evans, J. M. (1975). Techniques for testing the constancy of regression "
         "relationships over time. JRSS B 37(2), 149-192.",
     ),
+    family="breaks",
 )

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check
+from regvet.rules.base import QuickFix, Rule, RuleInput, describe_fit, missing_check
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -73,4 +73,6 @@ print(res.params)
         "analysis. JRSS B 31(2), 350-371.",
         "statsmodels: statsmodels.stats.diagnostic.linear_reset (returns a Wald chi-square unless use_f=True).",
     ),
+    family="form",
+    quick_fixes=(QuickFix.INSERT_RESET,),
 )

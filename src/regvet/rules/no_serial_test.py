@@ -72,4 +72,5 @@ print(res.summary(), hac.summary())
         "Newey, W. K. and West, K. D. (1987). Econometrica 55(3), 703-708.",
         "Durbin, J. and Watson, G. S. (1950, 1951). Biometrika 37, 409-428; 38, 159-178.",
     ),
+    family="serial",
 )

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check
+from regvet.rules.base import QuickFix, Rule, RuleInput, describe_fit, missing_check
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -74,4 +74,6 @@ print(res.summary(), robust.summary())
         "Long, J. S. and Ervin, L. H. (2000). Using heteroscedasticity consistent standard errors in the linear "
         "regression model. The American Statistician 54(3), 217-224.",
     ),
+    family="variance",
+    quick_fixes=(QuickFix.ROBUST_COVARIANCE, QuickFix.INSERT_BREUSCH_PAGAN),
 )

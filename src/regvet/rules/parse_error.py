@@ -34,4 +34,6 @@ import statsmodels.formula.api as smf
 res = smf.ols("riders ~ fare", data=crossings).fit()
 ''',
     check=check,
+    waivable=False,
+    blocks_run=True,
 )

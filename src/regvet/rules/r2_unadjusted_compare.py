@@ -72,4 +72,5 @@ if large.rsquared_adj > small.rsquared_adj:
 ''',
     check=check,
     references=("Theil, H. (1961). Economic Forecasts and Policy (adjusted R²) (from memory).",),
+    compares_fits=True,
 )

@@ -61,4 +61,5 @@ res = smf.ols("riders ~ fare", data=crossings).fit()  # regvet: waive no-form-te
 print(res.params)
 ''',
     check=check,
+    waivable=False,
 )

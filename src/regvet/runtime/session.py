@@ -17,6 +17,7 @@ from regvet.model.report import FileReport
 from regvet.model.runtime import RunFailure, RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span, byte_col, code_point_col
+from regvet.rules import RULES_BY_ID
 from regvet.runtime.runner import RunCache, RunResult, run
 
 
@@ -196,7 +197,7 @@ def run_and_judge(
         return report, None
     if not report.facts.fits and ".fit(" not in report.python:
         return report, None
-    if any(f.rule == "parse-error" for f in report.findings):
+    if any(f.rule in RULES_BY_ID and RULES_BY_ID[f.rule].blocks_run for f in report.findings):
         return report, None
     src = _source(path, report)
     if src is None:
