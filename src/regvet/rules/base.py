@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import enum
 from dataclasses import dataclass, field
-from typing import Callable, Iterable, Iterator
+from typing import Callable, Iterable, Iterator, Sequence
 
 from regvet.model.cells import CellMap
 from regvet.model.facts import Check, Escape, FileFacts, Fit, Loc, Use
@@ -120,6 +120,29 @@ class Rule:
     ) -> Finding:
         return Finding(self.id, self.severity, span, message, tuple(related), fix=fix, fits=tuple(fits))
 
+    def fit_finding(self, fit: Fit, message: str, uses: Sequence[Use] = (), fix: dict | None = None) -> Finding:
+        """A finding about one fit, placed on its site: related to where a fit made inside a function
+        is made and to the first three of ``uses``."""
+        return self.finding(fit.site.span, message, [*fit_related(fit), *use_related(uses)], fix, fits=(fit.id,))
+
+
+def once_per_root(inp: RuleInput, judge: Callable[[RuleInput, Fit], Finding | None]) -> Iterator[Finding]:
+    """The findings ``judge`` gives for the judged fits, at most one per root fit.
+
+    A fit and the robust-covariance copies derived from it share their residuals, so what one of
+    them shows holds for all: once ``judge`` returns a finding for one, the others are skipped.
+    A judge that reads a run's statistics returns the finding of the first run that fires.
+    """
+    reported: set[int] = set()
+    for fit in inp.judged_fits():
+        root = inp.facts.root(fit.id)
+        if root in reported:
+            continue
+        found = judge(inp, fit)
+        if found is not None:
+            reported.add(root)
+            yield found
+
 
 def related(loc: Loc, message: str) -> Related:
     return Related(loc.span, message, loc.path)
@@ -144,7 +167,7 @@ def fit_related(fit: Fit) -> list[Related]:
     return out
 
 
-def use_related(uses: list[Use], limit: int = 3) -> list[Related]:
+def use_related(uses: Sequence[Use], limit: int = 3) -> list[Related]:
     out = []
     for use in uses[:limit]:
         what = "inference" if use.kind == "inference" else "estimates"
@@ -179,10 +202,4 @@ def fix_data(fit: Fit) -> dict | None:
 
 def missing_check(rule: Rule, fit: Fit, message: str, uses: list[Use], escapes: list[Escape]) -> Finding:
     """The finding of a check missing on a fit: placed on the fit, related to its uses, with fix data."""
-    return rule.finding(
-        fit.site.span,
-        message + escape_clause(escapes),
-        [*fit_related(fit), *use_related(uses)],
-        fix_data(fit),
-        fits=(fit.id,),
-    )
+    return rule.fit_finding(fit, message + escape_clause(escapes), uses, fix_data(fit))

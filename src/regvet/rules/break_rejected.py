@@ -4,35 +4,34 @@ from __future__ import annotations
 
 from typing import Iterator
 
+from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related
+from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
 from regvet.rules.evidence import num, p, runs
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
+    return once_per_root(inp, _judge)
+
+
+def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     alpha = inp.settings.alpha
-    seen: set[int] = set()
-    for fit in inp.judged_fits():
-        root = inp.facts.root(fit.id)
-        if root in seen or not inp.uses(fit.id, ("estimate", "inference", "robust")):
+    if not inp.uses(fit.id, ("estimate", "inference", "robust")):
+        return None
+    for s in runs(inp, fit.id):
+        rejected = [c for c in s.get("chow") or [] if c.get("pvalue") is not None and c["pvalue"] < alpha]
+        if not rejected:
             continue
-        for s in runs(inp, fit.id):
-            rejected = [c for c in s.get("chow") or [] if c.get("pvalue") is not None and c["pvalue"] < alpha]
-            if not rejected:
-                continue
-            seen.add(root)
-            c = rejected[0]
-            yield RULE.finding(
-                fit.site.span,
-                f"Chow test at `{c.get('candidate')}` ({c.get('groups')} groups): F({c.get('df_num')}, "
-                f"{c.get('df_denom')}) = {num(c.get('f'))}, {p(c.get('pvalue'))}. The coefficients of "
-                f"{describe_fit(fit)} differ across the break, so one pooled set describes neither side; fit the "
-                "groups separately or interact the regressors with the group. (The Chow test assumes equal error "
-                "variances across groups.)",
-                fit_related(fit),
-                fits=(fit.id,),
-            )
-            break
+        c = rejected[0]
+        return RULE.fit_finding(
+            fit,
+            f"Chow test at `{c.get('candidate')}` ({c.get('groups')} groups): F({c.get('df_num')}, "
+            f"{c.get('df_denom')}) = {num(c.get('f'))}, {p(c.get('pvalue'))}. The coefficients of "
+            f"{describe_fit(fit)} differ across the break, so one pooled set describes neither side; fit the "
+            "groups separately or interact the regressors with the group. (The Chow test assumes equal error "
+            "variances across groups.)",
+        )
+    return None
 
 
 RULE = Rule(

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 from typing import Iterator
 
+from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related
+from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
 from regvet.rules.evidence import get, num, runs
 
 CONDITION = 30  # Belsley, Kuh and Welsch (1980)
@@ -13,32 +14,30 @@ VIF = 10  # common practice
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
-    seen: set[int] = set()
-    for fit in inp.judged_fits():
-        root = inp.facts.root(fit.id)
-        if root in seen or not inp.uses(fit.id, ("estimate", "inference", "robust")):
+    return once_per_root(inp, _judge)
+
+
+def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
+    if not inp.uses(fit.id, ("estimate", "inference", "robust")):
+        return None
+    for s in runs(inp, fit.id):
+        ci = get(s, "condition_index", "value")
+        vif, var = get(s, "vif", "max"), get(s, "vif", "variable")
+        parts = []
+        if ci is not None and ci > CONDITION:
+            parts.append(f"the scaled condition index is {num(ci)} (above {CONDITION})")
+        if vif is not None and vif > VIF:
+            parts.append(f"`{var}` has a VIF of {num(vif)} (above {VIF})")
+        if not parts:
             continue
-        for s in runs(inp, fit.id):
-            ci = get(s, "condition_index", "value")
-            vif, var = get(s, "vif", "max"), get(s, "vif", "variable")
-            parts = []
-            if ci is not None and ci > CONDITION:
-                parts.append(f"the scaled condition index is {num(ci)} (above {CONDITION})")
-            if vif is not None and vif > VIF:
-                parts.append(f"`{var}` has a VIF of {num(vif)} (above {VIF})")
-            if not parts:
-                continue
-            seen.add(root)
-            yield RULE.finding(
-                fit.site.span,
-                f"In {describe_fit(fit)}, " + " and ".join(parts) + ": some regressors are close to linear "
-                "combinations of others, so their separate coefficients are poorly determined (large standard "
-                "errors, signs that flip with small changes in the data). Drop or combine redundant regressors, "
-                "or interpret only the combinations the data can tell apart.",
-                fit_related(fit),
-                fits=(fit.id,),
-            )
-            break
+        return RULE.fit_finding(
+            fit,
+            f"In {describe_fit(fit)}, " + " and ".join(parts) + ": some regressors are close to linear "
+            "combinations of others, so their separate coefficients are poorly determined (large standard "
+            "errors, signs that flip with small changes in the data). Drop or combine redundant regressors, "
+            "or interpret only the combinations the data can tell apart.",
+        )
+    return None
 
 
 RULE = Rule(

@@ -4,34 +4,34 @@ from __future__ import annotations
 
 from typing import Iterator
 
+from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, use_related
+from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
 from regvet.rules.evidence import get, in_runs, num, p, runs
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
+    return once_per_root(inp, _judge)
+
+
+def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     alpha = inp.settings.alpha
-    seen: set[int] = set()
-    for fit in inp.judged_fits():
-        root = inp.facts.root(fit.id)
-        uses = inp.uses(fit.id, ("estimate", "inference", "robust"))
-        stats = runs(inp, fit.id)
-        if root in seen or not uses or not stats:
-            continue
-        rejecting = [s for s in stats if (get(s, "reset", "pvalue") is not None and s["reset"]["pvalue"] < alpha)]
-        if not rejecting:
-            continue
-        seen.add(root)
-        r = rejecting[0]["reset"]
-        yield RULE.finding(
-            fit.site.span,
-            f"RESET F({r.get('df_num')}, {r.get('df_denom')}) = {num(r.get('f'))}, {p(r.get('pvalue'))}"
-            f"{in_runs(len(rejecting), len(stats))}: powers of the fitted values of {describe_fit(fit)} still "
-            "explain the outcome, so the linear form is wrong and every coefficient is suspect. Try logs, "
-            "squares or interactions the theory suggests, and test again.",
-            [*fit_related(fit), *use_related(uses, 1)],
-            fits=(fit.id,),
-        )
+    uses = inp.uses(fit.id, ("estimate", "inference", "robust"))
+    stats = runs(inp, fit.id)
+    if not uses or not stats:
+        return None
+    rejecting = [s for s in stats if (get(s, "reset", "pvalue") is not None and s["reset"]["pvalue"] < alpha)]
+    if not rejecting:
+        return None
+    r = rejecting[0]["reset"]
+    return RULE.fit_finding(
+        fit,
+        f"RESET F({r.get('df_num')}, {r.get('df_denom')}) = {num(r.get('f'))}, {p(r.get('pvalue'))}"
+        f"{in_runs(len(rejecting), len(stats))}: powers of the fitted values of {describe_fit(fit)} still "
+        "explain the outcome, so the linear form is wrong and every coefficient is suspect. Try logs, "
+        "squares or interactions the theory suggests, and test again.",
+        uses[:1],
+    )
 
 
 RULE = Rule(

@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related
+from regvet.rules.base import Rule, RuleInput, describe_fit
 from regvet.rules.evidence import runs
 
 SMALL_N = 250  # Long and Ervin (2000)
@@ -17,13 +17,11 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             cov = str(s.get("cov_type") or "").upper()
             n = s.get("nobs")
             if cov in ("HC0", "HC1") and n is not None and n < SMALL_N:
-                yield RULE.finding(
-                    fit.site.span,
+                yield RULE.fit_finding(
+                    fit,
                     f"{describe_fit(fit)} uses {cov} standard errors with n = {n:g}. Below about 250 observations "
                     "HC0 and HC1 tend to be too small; Long and Ervin (2000) recommend HC3 "
                     '(`cov_type="HC3"`).',
-                    fit_related(fit),
-                    fits=(fit.id,),
                 )
                 break
 

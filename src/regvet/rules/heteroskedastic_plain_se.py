@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, use_related
+from regvet.rules.base import Rule, RuleInput, describe_fit
 from regvet.rules.evidence import coefficient_clause, get, in_runs, num, p, runs
 
 
@@ -33,13 +33,12 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             if bp.get("lm_pvalue") is not None and bp["lm_pvalue"] < alpha
             else f"White ({white.get('form')}) LM = {num(white.get('lm'))}, {p(white.get('lm_pvalue'))}"
         )
-        yield RULE.finding(
-            fit.site.span,
+        yield RULE.fit_finding(
+            fit,
             f"{test}{in_runs(len(rejecting), len(stats))}: the error variance of {describe_fit(fit)} is not "
             f"constant, so its usual t tests (`{uses[0].member}`) are not valid; {coefficient_clause(s)}. "
             'Report robust standard errors (`.fit(cov_type="HC3")`).',
-            [*fit_related(fit), *use_related(uses)],
-            fits=(fit.id,),
+            uses,
         )
 
 

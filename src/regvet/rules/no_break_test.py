@@ -3,18 +3,20 @@
 from __future__ import annotations
 
 import re
+from functools import lru_cache
 from typing import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, fix_data, use_related
+from regvet.rules.base import Rule, RuleInput, describe_fit, fix_data, once_per_root
 
 _IDENT = re.compile(r"[A-Za-z_]\w*")
 _QUERY_WORDS = frozenset({"and", "or", "not", "in", "True", "False", "None", "is"})
 
 
+@lru_cache(maxsize=64)
 def _candidate_columns(candidates: tuple[str, ...]) -> dict[str, str]:
-    """Column name -> the candidate entry naming it."""
+    """Column name -> the candidate entry naming it (cached: asked once per fit; do not modify)."""
     out: dict[str, str] = {}
     for entry in candidates:
         stripped = re.sub(r"(['\"]).*?\1", "", entry)
@@ -38,42 +40,39 @@ def _group_tested(inp: RuleInput, fit: Fit, groups: set[str]) -> bool:
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
+    return once_per_root(inp, _judge)
+
+
+def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
+    members = inp.facts.family_of(fit.id)
+    uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
+    if not uses:
+        return None
+    if inp.checks(fit.id, "breaks"):
+        return None
+    # Every intercept-only group, and every configured candidate the fit uses, needs its own test.
     candidates = _candidate_columns(inp.settings.break_candidates)
-    seen: set[int] = set()
-    for fit in inp.judged_fits():
-        root = inp.facts.root(fit.id)
-        if root in seen:
-            continue
-        members = inp.facts.family_of(fit.id)
-        uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
-        if not uses:
-            continue
-        if inp.checks(fit.id, "breaks"):
-            continue
-        # Every intercept-only group, and every configured candidate the fit uses, needs its own test.
-        shift = {g for g in fit.shift_groups if not _group_tested(inp, fit, {g})}
-        named = {c: e for c, e in candidates.items() if c in fit.columns and not _group_tested(inp, fit, {c})}
-        if not shift and not named:
-            continue
-        seen.add(root)
-        if shift:
-            g = sorted(shift)[0]
-            why = (
-                f"its formula lets `C({g})` shift only the intercept, so every slope is assumed equal across "
-                f"the groups of `{g}`"
-            )
-        else:
-            entry = sorted(named.values())[0]
-            why = f"it uses data with a configured break candidate (`{entry}`)"
-        yield RULE.finding(
-            fit.site.span,
-            f"{describe_fit(fit)}: {why}, and no structural-break test was applied. Test whether the slopes "
-            "differ (a Chow test, or an F test of the interactions with the group, e.g. `anova_lm(restricted, "
-            "interacted)`), or run `breaks_cusumolsresid` on the residuals.",
-            [*fit_related(fit), *use_related(uses, 1)],
-            fix_data(fit),
-            fits=(fit.id,),
+    shift = {g for g in fit.shift_groups if not _group_tested(inp, fit, {g})}
+    named = {c: e for c, e in candidates.items() if c in fit.columns and not _group_tested(inp, fit, {c})}
+    if not shift and not named:
+        return None
+    if shift:
+        g = sorted(shift)[0]
+        why = (
+            f"its formula lets `C({g})` shift only the intercept, so every slope is assumed equal across "
+            f"the groups of `{g}`"
         )
+    else:
+        entry = sorted(named.values())[0]
+        why = f"it uses data with a configured break candidate (`{entry}`)"
+    return RULE.fit_finding(
+        fit,
+        f"{describe_fit(fit)}: {why}, and no structural-break test was applied. Test whether the slopes "
+        "differ (a Chow test, or an F test of the interactions with the group, e.g. `anova_lm(restricted, "
+        "interacted)`), or run `breaks_cusumolsresid` on the residuals.",
+        uses[:1],
+        fix_data(fit),
+    )
 
 
 RULE = Rule(

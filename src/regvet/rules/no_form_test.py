@@ -4,36 +4,36 @@ from __future__ import annotations
 
 from typing import Iterator
 
+from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import QuickFix, Rule, RuleInput, describe_fit, missing_check
+from regvet.rules.base import QuickFix, Rule, RuleInput, describe_fit, missing_check, once_per_root
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
-    seen_roots: set[int] = set()
-    for fit in inp.judged_fits():
-        root = inp.facts.root(fit.id)
-        if root in seen_roots:
-            continue
-        members = inp.facts.family_of(fit.id)
-        uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
-        escapes = [e for m in sorted(members) for e in inp.escapes(m)]
-        if not uses and not escapes:
-            continue
-        if inp.checks(fit.id, "form"):
-            continue
-        seen_roots.add(root)
-        target = inp.facts.fit(root) if inp.facts.fit(root).site.path is None else fit
-        used = f" (first at {inp.where(uses[0].loc)}, `{uses[0].member}`)" if uses else ""
-        yield missing_check(
-            RULE,
-            target,
-            f"{describe_fit(target)} has its estimates used{used} but no functional-form test was run on it. "
-            "The coefficients assume the model is linear in these regressors with no missing powers or "
-            "interactions; run a RESET test (`linear_reset(res, power=3, use_f=True)`) and revisit the "
-            "specification if it rejects.",
-            uses,
-            escapes,
-        )
+    return once_per_root(inp, _judge)
+
+
+def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
+    members = inp.facts.family_of(fit.id)
+    uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
+    escapes = [e for m in sorted(members) for e in inp.escapes(m)]
+    if not uses and not escapes:
+        return None
+    if inp.checks(fit.id, "form"):
+        return None
+    root = inp.facts.fit(inp.facts.root(fit.id))
+    target = root if root.site.path is None else fit
+    used = f" (first at {inp.where(uses[0].loc)}, `{uses[0].member}`)" if uses else ""
+    return missing_check(
+        RULE,
+        target,
+        f"{describe_fit(target)} has its estimates used{used} but no functional-form test was run on it. "
+        "The coefficients assume the model is linear in these regressors with no missing powers or "
+        "interactions; run a RESET test (`linear_reset(res, power=3, use_f=True)`) and revisit the "
+        "specification if it rejects.",
+        uses,
+        escapes,
+    )
 
 
 RULE = Rule(

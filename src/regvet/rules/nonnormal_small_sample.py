@@ -5,7 +5,7 @@ from __future__ import annotations
 from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, use_related
+from regvet.rules.base import Rule, RuleInput, describe_fit
 from regvet.rules.evidence import num, p, runs
 
 SMALL_DF = 30  # common practice; no published threshold
@@ -22,14 +22,13 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             df = s.get("df_resid")
             if df is None or df >= SMALL_DF or not s.get("use_t") or jb.get("pvalue") is None or jb["pvalue"] >= alpha:
                 continue
-            yield RULE.finding(
-                fit.site.span,
+            yield RULE.fit_finding(
+                fit,
                 f"Jarque-Bera = {num(jb.get('statistic'))}, {p(jb.get('pvalue'))} (skewness {num(jb.get('skew'))}, "
                 f"kurtosis {num(jb.get('kurtosis'))}) with only {df:g} residual degrees of freedom: the exact t and "
                 f"F distributions {describe_fit(fit)} reports assume normal errors, and this sample is too small "
                 "for the large-sample approximation to take over. Treat its p-values as rough, or use a bootstrap.",
-                [*fit_related(fit), *use_related(uses, 1)],
-                fits=(fit.id,),
+                uses[:1],
             )
             break
 

@@ -6,7 +6,7 @@ from typing import Iterator
 
 from regvet.analysis.catalog import HAC_COV
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fit_related, use_related
+from regvet.rules.base import Rule, RuleInput, describe_fit
 from regvet.rules.evidence import num, p, runs
 
 
@@ -24,14 +24,13 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 continue
             dw = s.get("durbin_watson")
             dw_text = f", Durbin-Watson {num(dw)}" if dw is not None else ""
-            yield RULE.finding(
-                fit.site.span,
+            yield RULE.fit_finding(
+                fit,
                 f"Breusch-Godfrey LM = {num(bg.get('lm'))} with {bg.get('lags')} lag(s), {p(bg['lm_pvalue'])}{dw_text}: "
                 f"the errors of {describe_fit(fit)} ({s.get('time_ordered')}) are correlated over time, so its "
                 "standard errors (robust HC ones too) are not valid. Use HAC covariance "
                 '(`cov_type="HAC", cov_kwds={"maxlags": ...}`) or model the dynamics.',
-                [*fit_related(fit), *use_related(uses, 1)],
-                fits=(fit.id,),
+                uses[:1],
             )
             break
 
