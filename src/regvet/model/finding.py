@@ -7,6 +7,7 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 from regvet.model.span import Span
+from regvet.model.stats_schema import FindingStats
 
 
 class Severity(enum.IntEnum):
@@ -56,7 +57,7 @@ class Finding:
     waived: bool = False
     reason: str | None = None
     fix: dict[str, Any] | None = field(default=None, compare=False, hash=False)
-    stats: dict[str, Any] | None = field(default=None, compare=False, hash=False)
+    stats: FindingStats | None = field(default=None, compare=False, hash=False)
     #: Ids of the fits the finding is about (so a run's statistics can be attached to it).
     fits: tuple[int, ...] = field(default=(), compare=False, hash=False)
 

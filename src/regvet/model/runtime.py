@@ -3,15 +3,15 @@
 The runtime mode (``regvet.runtime``, never imported by the static core) executes the
 script, computes statistics for every fit in the child process and matches them to the
 static fits; this module only holds the result. Statistics are JSON-safe dicts produced by
-the probe (see ``regvet/runtime/probe/regvet_stats.py`` for their keys).
+the probe; ``regvet.model.stats_schema`` describes their keys.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
 
 from regvet.model.span import Span
+from regvet.model.stats_schema import FitRecord
 
 
 @dataclass(frozen=True)
@@ -27,10 +27,11 @@ class RunFailure:
 class RuntimeFacts:
     """Statistics per static fit id (one entry per time the fit ran), and the run's outcome."""
 
-    fit_stats: dict[int, tuple[dict[str, Any], ...]] = field(default_factory=dict)
+    fit_stats: dict[int, tuple[FitRecord, ...]] = field(default_factory=dict)
     failure: RunFailure | None = None
     cached: bool = False
     elapsed_s: float | None = None
 
-    def stats(self, fid: int) -> tuple[dict[str, Any], ...]:
+    def stats(self, fid: int) -> tuple[FitRecord, ...]:
+        """The probe's records of every run of the fit (``FitRecord.stats`` holds the statistics)."""
         return self.fit_stats.get(fid, ())

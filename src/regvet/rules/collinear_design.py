@@ -7,7 +7,7 @@ from typing import Iterator
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
-from regvet.rules.evidence import get, num, runs
+from regvet.rules.evidence import num, runs
 
 CONDITION = 30  # Belsley, Kuh and Welsch (1980)
 VIF = 10  # common practice
@@ -21,8 +21,10 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     if not inp.uses(fit.id, ("estimate", "inference", "robust")):
         return None
     for s in runs(inp, fit.id):
-        ci = get(s, "condition_index", "value")
-        vif, var = get(s, "vif", "max"), get(s, "vif", "variable")
+        index, vifs = s.get("condition_index"), s.get("vif")
+        ci = index.get("value") if index is not None else None
+        vif = vifs.get("max") if vifs is not None else None
+        var = vifs.get("variable") if vifs is not None else None
         parts = []
         if ci is not None and ci > CONDITION:
             parts.append(f"the scaled condition index is {num(ci)} (above {CONDITION})")

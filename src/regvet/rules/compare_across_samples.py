@@ -6,7 +6,7 @@ from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput, describe_fit, related
-from regvet.rules.evidence import get, runs
+from regvet.rules.evidence import fingerprint, runs
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -18,7 +18,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         for fit in fits:
             stats = runs(inp, fit.id)
             if len(stats) == 1:  # a fit run several times has no single sample
-                seen[fit.result_name or str(fit.id)] = (fit, get(stats[0], "rows", "fingerprint"), stats[0].get("nobs"))
+                seen[fit.result_name or str(fit.id)] = (fit, fingerprint(stats[0]), stats[0].get("nobs"))
         if len({v[1] for v in seen.values()}) < 2:
             continue
         listed = ", ".join(f"{describe_fit(f)} n = {n}" for f, _, n in seen.values())

@@ -1,25 +1,39 @@
 """Reading a run's statistics: shared by the rules that judge numbers and by the engine, which
 attaches the statistics of each fit to every finding about it.
 
-Statistics are the JSON-safe dicts the probe computed in the child process (keys documented
-in ``regvet/runtime/probe/regvet_stats.py``); nothing here computes a statistic.
+Statistics are the JSON-safe dicts the probe computed in the child process, typed by
+``regvet.model.stats_schema`` (``FitStatistics``); nothing here computes a statistic.
 """
 
 from __future__ import annotations
 
 import math
-from typing import Any, Collection, Iterable
+from typing import Collection, Iterable
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding
+from regvet.model.stats_schema import (
+    Coefficient,
+    ComparisonRow,
+    ComparisonTable,
+    FindingStats,
+    FitEvidence,
+    FitStatistics,
+    NestedFTest,
+)
 from regvet.rules.base import RuleInput
 
 
-def runs(inp: RuleInput, fid: int) -> list[dict[str, Any]]:
+def runs(inp: RuleInput, fid: int) -> list[FitStatistics]:
     """The statistics of every run of the fit (a fit in a loop runs several times)."""
     if inp.runtime is None:
         return []
-    return [r["stats"] for r in inp.runtime.stats(fid) if isinstance(r.get("stats"), dict)]
+    out = []
+    for record in inp.runtime.stats(fid):
+        stats = record.get("stats")
+        if isinstance(stats, dict):
+            out.append(stats)
+    return out
 
 
 def p(value: float | None) -> str:
@@ -37,24 +51,21 @@ def num(value: float | None) -> str:
     return f"{value:.4g}"
 
 
-def get(stats: dict[str, Any], *path: str) -> Any:
-    node: Any = stats
-    for key in path:
-        if not isinstance(node, dict):
-            return None
-        node = node.get(key)
-    return node
+def fingerprint(stats: FitStatistics) -> str | None:
+    """The digest of the rows a run's fit used (equal for fits on the same observations)."""
+    rows = stats.get("rows")
+    return rows.get("fingerprint") if rows is not None else None
 
 
 def in_runs(count: int, total: int) -> str:
     return "" if total <= 1 else f" (in {count} of {total} runs of this fit)"
 
 
-def changed_coefficients(stats: dict[str, Any]) -> list[dict[str, Any]]:
+def changed_coefficients(stats: FitStatistics) -> list[Coefficient]:
     return [c for c in stats.get("coefficients") or [] if c.get("significance_changes")]
 
 
-def coefficient_clause(stats: dict[str, Any], limit: int = 3) -> str:
+def coefficient_clause(stats: FitStatistics, limit: int = 3) -> str:
     """``with HC3, `fare` goes from p = 0.012 to 0.094`` for coefficients whose 5 % significance changes."""
     changed = changed_coefficients(stats)
     if not changed:
@@ -65,29 +76,29 @@ def coefficient_clause(stats: dict[str, Any], limit: int = 3) -> str:
     return f"with {kind}, " + ", ".join(parts) + more
 
 
-def summary(stats: dict[str, Any]) -> str:
+def summary(stats: FitStatistics) -> str:
     """A short clause for a text line: the headline numbers of one run."""
     bits = [f"n={stats.get('nobs')}"]
-    bp = get(stats, "breusch_pagan", "lm_pvalue")
-    if bp is not None:
-        bits.append(f"BP {p(bp)}")
-    reset = get(stats, "reset", "pvalue")
-    if reset is not None:
-        bits.append(f"RESET {p(reset)}")
-    bg = get(stats, "breusch_godfrey", "lm_pvalue")
-    if bg is not None:
-        bits.append(f"BG {p(bg)}")
-    ci = get(stats, "condition_index", "value")
-    if ci is not None:
-        bits.append(f"cond. index {num(ci)}")
+    bp = stats.get("breusch_pagan")
+    if bp is not None and bp.get("lm_pvalue") is not None:
+        bits.append(f"BP {p(bp.get('lm_pvalue'))}")
+    reset = stats.get("reset")
+    if reset is not None and reset.get("pvalue") is not None:
+        bits.append(f"RESET {p(reset.get('pvalue'))}")
+    bg = stats.get("breusch_godfrey")
+    if bg is not None and bg.get("lm_pvalue") is not None:
+        bits.append(f"BG {p(bg.get('lm_pvalue'))}")
+    ci = stats.get("condition_index")
+    if ci is not None and ci.get("value") is not None:
+        bits.append(f"cond. index {num(ci.get('value'))}")
     cv = stats.get("cv")
-    if isinstance(cv, dict) and cv.get("rmse") is not None:
-        bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv['rmse'])}")
+    if cv is not None and cv.get("rmse") is not None:
+        bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv.get('rmse'))}")
     return ", ".join(bits)
 
 
-def comparison_row(fit: Fit, stats: dict[str, Any]) -> dict[str, Any]:
-    cv = stats.get("cv") or {}
+def comparison_row(fit: Fit, stats: FitStatistics) -> ComparisonRow:
+    cv = stats.get("cv")
     return {
         "fit": fit.result_name or fit.formula or f"fit {fit.id}",
         "outcome": fit.outcome.key if fit.outcome else stats.get("endog_name"),
@@ -96,23 +107,23 @@ def comparison_row(fit: Fit, stats: dict[str, Any]) -> dict[str, Any]:
         "rsquared_adj": stats.get("rsquared_adj"),
         "aic": stats.get("aic"),
         "bic": stats.get("bic"),
-        "cv_rmse": cv.get("rmse"),
-        "cv_mae": cv.get("mae"),
-        "cv_folds": cv.get("folds"),
+        "cv_rmse": cv.get("rmse") if cv is not None else None,
+        "cv_mae": cv.get("mae") if cv is not None else None,
+        "cv_folds": cv.get("folds") if cv is not None else None,
         "log_level_r2": stats.get("log_level_r2"),
     }
 
 
-def nested_f_test(small: dict[str, Any], large: dict[str, Any]) -> dict[str, Any] | None:
+def nested_f_test(small: FitStatistics, large: FitStatistics) -> NestedFTest | None:
     """F test of the extra regressors when one fit's regressors are a subset of the other's (same rows)."""
     names_s, names_l = set(small.get("param_names") or []), set(large.get("param_names") or [])
     if not names_s or not names_s < names_l:
         return None
-    if get(small, "rows", "fingerprint") != get(large, "rows", "fingerprint"):
+    if fingerprint(small) != fingerprint(large):
         return None
     q = len(names_l) - len(names_s)
     ssr_s, ssr_l, df = small.get("ssr"), large.get("ssr"), large.get("df_resid")
-    if None in (ssr_s, ssr_l, df) or df <= 0 or ssr_l <= 0:
+    if ssr_s is None or ssr_l is None or df is None or df <= 0 or ssr_l <= 0:
         return None
     f = ((ssr_s - ssr_l) / q) / (ssr_l / df)
     return {"f": f, "df_num": q, "df_denom": df, "pvalue": f_pvalue(f, q, df),
@@ -170,7 +181,7 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
         if not f.fits or inp.runtime is None or f.stats is not None:
             out.append(f)
             continue
-        per_fit = []
+        per_fit: list[FitEvidence] = []
         for fid in f.fits:
             stats = runs(inp, fid)
             if stats:
@@ -180,24 +191,24 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
         if not per_fit:
             out.append(f)
             continue
-        payload: dict[str, Any] = {"summary": "; ".join(x["summary"] for x in per_fit[:2]), "fits": per_fit}
+        payload: FindingStats = {"summary": "; ".join(x["summary"] for x in per_fit[:2]), "fits": per_fit}
         if f.rule in comparing:
             payload["comparison"] = _comparison(inp, f.fits)
         out.append(f.with_(stats=payload))
     return out
 
 
-def _comparison(inp: RuleInput, fids: tuple[int, ...]) -> dict[str, Any]:
-    rows = []
-    table = []
+def _comparison(inp: RuleInput, fids: tuple[int, ...]) -> ComparisonTable:
+    rows: list[ComparisonRow] = []
+    table: list[FitStatistics] = []
     for fid in fids:
         stats = runs(inp, fid)
         if stats:
             fit = inp.facts.fit(fid)
             rows.append(comparison_row(fit, stats[0]))
             table.append(stats[0])
-    result: dict[str, Any] = {"fits": rows}
-    tests = []
+    result: ComparisonTable = {"fits": rows}
+    tests: list[NestedFTest] = []
     for i, a in enumerate(table):
         for b in table[i + 1 :]:
             for small, large in ((a, b), (b, a)):

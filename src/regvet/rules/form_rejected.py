@@ -7,7 +7,7 @@ from typing import Iterator
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
-from regvet.rules.evidence import get, in_runs, num, p, runs
+from regvet.rules.evidence import in_runs, num, p, runs
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -20,10 +20,11 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     stats = runs(inp, fit.id)
     if not uses or not stats:
         return None
-    rejecting = [s for s in stats if (get(s, "reset", "pvalue") is not None and s["reset"]["pvalue"] < alpha)]
+    resets = [reset for s in stats if (reset := s.get("reset")) is not None]
+    rejecting = [r for r in resets if (pvalue := r.get("pvalue")) is not None and pvalue < alpha]
     if not rejecting:
         return None
-    r = rejecting[0]["reset"]
+    r = rejecting[0]
     return RULE.fit_finding(
         fit,
         f"RESET F({r.get('df_num')}, {r.get('df_denom')}) = {num(r.get('f'))}, {p(r.get('pvalue'))}"

@@ -6,7 +6,8 @@ from typing import Iterator
 
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput, describe_fit
-from regvet.rules.evidence import coefficient_clause, get, in_runs, num, p, runs
+from regvet.model.stats_schema import FitStatistics
+from regvet.rules.evidence import coefficient_clause, in_runs, num, p, runs
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -18,21 +19,10 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         stats = runs(inp, fit.id)
         if not uses or not stats:
             continue
-        rejecting = []
-        for s in stats:
-            bp, white = get(s, "breusch_pagan", "lm_pvalue"), get(s, "white", "lm_pvalue")
-            if (bp is not None and bp < alpha) or (white is not None and white < alpha):
-                rejecting.append(s)
+        rejecting = [(s, test) for s in stats if (test := _rejection(s, alpha)) is not None]
         if not rejecting:
             continue
-        s = rejecting[0]
-        bp = s.get("breusch_pagan") or {}
-        white = s.get("white") or {}
-        test = (
-            f"Breusch-Pagan LM = {num(bp.get('lm'))}, {p(bp.get('lm_pvalue'))}"
-            if bp.get("lm_pvalue") is not None and bp["lm_pvalue"] < alpha
-            else f"White ({white.get('form')}) LM = {num(white.get('lm'))}, {p(white.get('lm_pvalue'))}"
-        )
+        s, test = rejecting[0]
         yield RULE.fit_finding(
             fit,
             f"{test}{in_runs(len(rejecting), len(stats))}: the error variance of {describe_fit(fit)} is not "
@@ -40,6 +30,17 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             'Report robust standard errors (`.fit(cov_type="HC3")`).',
             uses,
         )
+
+
+def _rejection(s: FitStatistics, alpha: float) -> str | None:
+    """The heteroskedasticity test that rejects in one run (Breusch-Pagan first, then White), or None."""
+    bp = s.get("breusch_pagan")
+    if bp is not None and (pvalue := bp.get("lm_pvalue")) is not None and pvalue < alpha:
+        return f"Breusch-Pagan LM = {num(bp.get('lm'))}, {p(pvalue)}"
+    white = s.get("white")
+    if white is not None and (pvalue := white.get("lm_pvalue")) is not None and pvalue < alpha:
+        return f"White ({white.get('form')}) LM = {num(white.get('lm'))}, {p(pvalue)}"
+    return None
 
 
 RULE = Rule(

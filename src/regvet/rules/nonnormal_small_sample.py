@@ -18,13 +18,14 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if not uses:
             continue
         for s in runs(inp, fit.id):
-            jb = s.get("jarque_bera") or {}
+            jb = s.get("jarque_bera")
             df = s.get("df_resid")
-            if df is None or df >= SMALL_DF or not s.get("use_t") or jb.get("pvalue") is None or jb["pvalue"] >= alpha:
+            pvalue = jb.get("pvalue") if jb is not None else None
+            if jb is None or df is None or df >= SMALL_DF or not s.get("use_t") or pvalue is None or pvalue >= alpha:
                 continue
             yield RULE.fit_finding(
                 fit,
-                f"Jarque-Bera = {num(jb.get('statistic'))}, {p(jb.get('pvalue'))} (skewness {num(jb.get('skew'))}, "
+                f"Jarque-Bera = {num(jb.get('statistic'))}, {p(pvalue)} (skewness {num(jb.get('skew'))}, "
                 f"kurtosis {num(jb.get('kurtosis'))}) with only {df:g} residual degrees of freedom: the exact t and "
                 f"F distributions {describe_fit(fit)} reports assume normal errors, and this sample is too small "
                 "for the large-sample approximation to take over. Treat its p-values as rough, or use a bootstrap.",

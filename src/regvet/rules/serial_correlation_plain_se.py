@@ -19,14 +19,15 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if not uses:
             continue
         for s in runs(inp, fit.id):
-            bg = s.get("breusch_godfrey") or {}
-            if str(s.get("cov_type", "")).lower() in HAC_COV or bg.get("lm_pvalue") is None or bg["lm_pvalue"] >= alpha:
+            bg = s.get("breusch_godfrey")
+            pvalue = bg.get("lm_pvalue") if bg is not None else None
+            if str(s.get("cov_type", "")).lower() in HAC_COV or bg is None or pvalue is None or pvalue >= alpha:
                 continue
             dw = s.get("durbin_watson")
             dw_text = f", Durbin-Watson {num(dw)}" if dw is not None else ""
             yield RULE.fit_finding(
                 fit,
-                f"Breusch-Godfrey LM = {num(bg.get('lm'))} with {bg.get('lags')} lag(s), {p(bg['lm_pvalue'])}{dw_text}: "
+                f"Breusch-Godfrey LM = {num(bg.get('lm'))} with {bg.get('lags')} lag(s), {p(pvalue)}{dw_text}: "
                 f"the errors of {describe_fit(fit)} ({s.get('time_ordered')}) are correlated over time, so its "
                 "standard errors (robust HC ones too) are not valid. Use HAC covariance "
                 '(`cov_type="HAC", cov_kwds={"maxlags": ...}`) or model the dynamics.',

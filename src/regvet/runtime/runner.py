@@ -22,7 +22,9 @@ import tempfile
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any, Callable, cast
+
+from regvet.model.stats_schema import FitRecord
 
 PROBE_DIR = Path(__file__).resolve().parent / "probe"
 BOOT = PROBE_DIR / "regvet_probe_boot.py"
@@ -33,7 +35,7 @@ STDOUT_TAIL = 20
 class RunResult:
     """What one run produced: fit records (with statistics), how it ended, and cache facts."""
 
-    fits: list[dict[str, Any]] = field(default_factory=list)
+    fits: list[FitRecord] = field(default_factory=list)
     end: dict[str, Any] | None = None  # the probe's last record; None when the child was killed
     timed_out: bool = False
     returncode: int | None = None
@@ -199,7 +201,7 @@ def run(
         result.output_tail = _tail(log)
         for record in _records(out):
             if record.get("type") == "fit":
-                result.fits.append(record)
+                result.fits.append(cast(FitRecord, record))  # the probe writes FitRecord lines
             elif record.get("type") == "end":
                 result.end = record
     if cache is not None:

@@ -17,6 +17,7 @@ from regvet.model.report import FileReport
 from regvet.model.runtime import RunFailure, RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span, byte_col, code_point_col
+from regvet.model.stats_schema import FitRecord
 from regvet.rules import RULES_BY_ID
 from regvet.runtime.runner import RunCache, RunResult, run
 
@@ -106,7 +107,7 @@ def _cv_sites(src: _Source, report: FileReport) -> list[list[Any]]:
     return sites
 
 
-def match(src: _Source, report: FileReport, result: RunResult) -> dict[int, tuple[dict[str, Any], ...]]:
+def match(src: _Source, report: FileReport, result: RunResult) -> dict[int, tuple[FitRecord, ...]]:
     """Recorded fits -> static fit ids, by call site (outermost matching frame first), then formula."""
     facts = report.facts
     if facts is None:
@@ -115,7 +116,7 @@ def match(src: _Source, report: FileReport, result: RunResult) -> dict[int, tupl
     for fit in facts.fits:
         if fit.site.path is None:
             by_end.setdefault((fit.site.span.end_line, fit.site.span.end_col), []).append(fit)
-    out: dict[int, list[dict[str, Any]]] = {}
+    out: dict[int, list[FitRecord]] = {}
     for record in result.fits:
         candidates: list[Fit] = []
         for frame in reversed(record.get("frames") or []):  # outermost first
