@@ -3,6 +3,8 @@
 model <- sources <- analysis <- rules <- engine <- fronts (cli, project, output).
 The static core never imports numpy, pandas, scipy, statsmodels, libcst or pygls; ``edits`` (the
 quick-fix rewrites, imported lazily by the language server) is the one package that imports libcst.
+The import graph (every import, lazy ones inside functions included) has no cycle, neither between
+layers nor between modules.
 """
 
 from __future__ import annotations
