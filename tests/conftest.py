@@ -59,6 +59,8 @@ SLOW_GROUPS: dict[str, str] = {
     "test_demo.py::test_demo_notebook_cells_run_in_order": "runtime",
     "test_demo.py::test_demo_data_regenerates_byte_for_byte": "runtime",
     "test_published_examples.py": "runtime",  # runs the published examples' scripts for real
+    "test_stats_schema.py::test_the_fit_records_of_a_real_run_match_the_schema": "runtime",
+    "test_stats_schema.py::test_a_robust_copy_records_the_fit_it_came_from": "runtime",
     "test_lsp.py": "server",  # the real language server over stdio and TCP
     "test_editors.py": "editors",  # Neovim and Emacs, headless
     "test_robustness.py": "scan",  # the whole installed statsmodels and standard library
