@@ -98,10 +98,21 @@ class RegvetServer(LanguageServer):
         self.configs: dict[Path | None, Settings | ConfigError] = {}
         self.config_diagnostics: set[str] = set()
         self.module_cache: LRU = LRU(64)
-        self.rule_docs = Path(tempfile.mkdtemp(prefix="regvet-rules-"))
+        self._rule_docs: Path | None = None
         self._doc_uris: dict[str, str | None] = {}
         self._warned: set[tuple] = set()
-        atexit.register(shutil.rmtree, self.rule_docs, True)
+
+    @property
+    def rule_docs(self) -> Path:
+        """A temporary folder with one Markdown document per rule (the diagnostics link to them),
+        written when the first diagnostic needs it and removed when the process exits."""
+        if self._rule_docs is None:
+            self._rule_docs = Path(tempfile.mkdtemp(prefix="regvet-rules-"))
+            atexit.register(shutil.rmtree, self._rule_docs, True)
+            self._write_rule_docs()
+        return self._rule_docs
+
+    def _write_rule_docs(self) -> None:
         from regvet.cli import explain
 
         for rid in RULES_BY_ID:
@@ -221,9 +232,6 @@ class RegvetServer(LanguageServer):
 
     def config_errors(self) -> list[ConfigError]:
         return [v for v in self.configs.values() if isinstance(v, ConfigError)]
-
-
-server = RegvetServer()
 
 
 # --- analysis (runs in the private pool) ---------------------------------------------------------
@@ -423,7 +431,6 @@ def all_targets(ls: RegvetServer) -> list[str]:
 
 
 # --- lifecycle and configuration -----------------------------------------------------------------
-@server.feature(t.INITIALIZE)
 def on_initialize(ls: RegvetServer, params: t.InitializeParams) -> None:
     td = params.capabilities.text_document
     ls.use_pull = bool(td and td.diagnostic)
@@ -477,7 +484,6 @@ async def pull_settings(ls: RegvetServer) -> None:
         ls.config_ready.set()
 
 
-@server.feature(t.INITIALIZED)
 async def on_initialized(ls: RegvetServer, params: t.InitializedParams) -> None:
     await pull_settings(ls)
     ws = ls.client_capabilities.workspace
@@ -501,7 +507,6 @@ async def on_initialized(ls: RegvetServer, params: t.InitializedParams) -> None:
         )
 
 
-@server.feature(t.WORKSPACE_DID_CHANGE_CONFIGURATION)
 async def on_config(ls: RegvetServer, params: t.DidChangeConfigurationParams) -> None:
     pushed = params.settings.get("regvet") if isinstance(params.settings, dict) else None
     if isinstance(pushed, dict):
@@ -513,7 +518,6 @@ async def on_config(ls: RegvetServer, params: t.DidChangeConfigurationParams) ->
         schedule(ls, key, 0)
 
 
-@server.feature(t.WORKSPACE_DID_CHANGE_WATCHED_FILES)
 def on_watched(ls: RegvetServer, params: t.DidChangeWatchedFilesParams) -> None:
     config_changed = False
     for change in params.changes:
@@ -539,14 +543,12 @@ def _is_python(ls: RegvetServer, uri: str) -> bool:
     return uri.endswith(".py") or (doc is not None and doc.language_id == "python")
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_OPEN)
 def did_open(ls: RegvetServer, params: t.DidOpenTextDocumentParams) -> None:
     uri = params.text_document.uri
     if _is_python(ls, uri):
         schedule(ls, uri, 0)
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_CHANGE)
 def did_change(ls: RegvetServer, params: t.DidChangeTextDocumentParams) -> None:
     uri = params.text_document.uri
     if _is_python(ls, uri):
@@ -556,14 +558,12 @@ def did_change(ls: RegvetServer, params: t.DidChangeTextDocumentParams) -> None:
             schedule_dependents(ls, Path(path), ls.debounce)
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_SAVE, t.SaveOptions(include_text=False))
 def did_save(ls: RegvetServer, params: t.DidSaveTextDocumentParams) -> None:
     uri = params.text_document.uri
     if _is_python(ls, uri):
         schedule(ls, uri, 0)
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_CLOSE)
 def did_close(ls: RegvetServer, params: t.DidCloseTextDocumentParams) -> None:
     uri = params.text_document.uri
     forget(ls, uri)
@@ -572,12 +572,10 @@ def did_close(ls: RegvetServer, params: t.DidCloseTextDocumentParams) -> None:
 
 
 # --- notebooks -----------------------------------------------------------------------------------
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_OPEN)
 def nb_open(ls: RegvetServer, params: t.DidOpenNotebookDocumentParams) -> None:
     schedule(ls, params.notebook_document.uri, 0)
 
 
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_CHANGE)
 def nb_change(ls: RegvetServer, params: t.DidChangeNotebookDocumentParams) -> None:
     key = params.notebook_document.uri
     nb = ls.workspace.get_notebook_document(notebook_uri=key)
@@ -589,12 +587,10 @@ def nb_change(ls: RegvetServer, params: t.DidChangeNotebookDocumentParams) -> No
     schedule(ls, key, ls.debounce)
 
 
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_SAVE)
 def nb_save(ls: RegvetServer, params: t.DidSaveNotebookDocumentParams) -> None:
     schedule(ls, params.notebook_document.uri, 0)
 
 
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_CLOSE)
 def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None:
     forget(ls, params.notebook_document.uri)
     if not ls.use_pull:
@@ -603,7 +599,6 @@ def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None
 
 
 # --- hover and code actions ----------------------------------------------------------------------
-@server.feature(t.TEXT_DOCUMENT_HOVER)
 async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
     from regvet.status import fit_status, fits_at
 
@@ -638,9 +633,6 @@ async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
     return t.Hover(contents=t.MarkupContent(kind=t.MarkupKind.Markdown, value="\n\n---\n\n".join(parts)))
 
 
-@server.feature(
-    t.TEXT_DOCUMENT_CODE_ACTION, t.CodeActionOptions(code_action_kinds=[t.CodeActionKind.QuickFix])
-)
 async def code_action(ls: RegvetServer, params: t.CodeActionParams) -> list[t.CodeAction] | None:
     uri = params.text_document.uri
     doc = ls.open_text(uri)
@@ -706,7 +698,6 @@ def _kill_all(procs: list) -> None:
             pass
 
 
-@server.command("regvet.runFits")
 async def run_fits(ls: RegvetServer, uri: str) -> dict:
     """Run the document's code (it EXECUTES it) and show the statistics of its fits.
 
@@ -765,6 +756,40 @@ async def run_fits(ls: RegvetServer, uri: str) -> dict:
     })  # fmt: skip
 
 
+# --- the server ----------------------------------------------------------------------------------
+RUN_FITS = "regvet.runFits"
+
+
+def create_server() -> RegvetServer:
+    """A new server with every feature registered on it; nothing is started, read or written.
+
+    Each call builds an independent instance (its own documents, results, settings and pool), so
+    tests and embedders can make as many as they like. Pull diagnostics are added later, inside
+    ``initialize``, for clients that can pull.
+    """
+    server = RegvetServer()
+    for method, handler, options in (
+        (t.INITIALIZE, on_initialize, None),
+        (t.INITIALIZED, on_initialized, None),
+        (t.WORKSPACE_DID_CHANGE_CONFIGURATION, on_config, None),
+        (t.WORKSPACE_DID_CHANGE_WATCHED_FILES, on_watched, None),
+        (t.TEXT_DOCUMENT_DID_OPEN, did_open, None),
+        (t.TEXT_DOCUMENT_DID_CHANGE, did_change, None),
+        (t.TEXT_DOCUMENT_DID_SAVE, did_save, t.SaveOptions(include_text=False)),
+        (t.TEXT_DOCUMENT_DID_CLOSE, did_close, None),
+        (t.NOTEBOOK_DOCUMENT_DID_OPEN, nb_open, None),
+        (t.NOTEBOOK_DOCUMENT_DID_CHANGE, nb_change, None),
+        (t.NOTEBOOK_DOCUMENT_DID_SAVE, nb_save, None),
+        (t.NOTEBOOK_DOCUMENT_DID_CLOSE, nb_close, None),
+        (t.TEXT_DOCUMENT_HOVER, hover, None),
+        (t.TEXT_DOCUMENT_CODE_ACTION, code_action,
+         t.CodeActionOptions(code_action_kinds=[t.CodeActionKind.QuickFix])),
+    ):  # fmt: skip
+        server.feature(method, options)(handler)
+    server.command(RUN_FITS)(run_fits)
+    return server
+
+
 # --- entry point ---------------------------------------------------------------------------------
 def main(argv: list[str] | None = None) -> int:
     import argparse
@@ -779,6 +804,7 @@ def main(argv: list[str] | None = None) -> int:
         level=logging.INFO if args.log_file else logging.WARNING,
         format="%(asctime)s %(name)s %(levelname)s %(message)s",
     )
+    server = create_server()
     if args.tcp:
         server.start_tcp("127.0.0.1", args.port)
     else:
