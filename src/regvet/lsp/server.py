@@ -72,6 +72,46 @@ class Result:
     cells: dict[int, str] = field(default_factory=dict)  # notebook cell index -> cell URI
 
 
+@dataclass(frozen=True)
+class FileSnapshot:
+    """An open Python file as one analysis sees it, taken on the event loop."""
+
+    key: str  # the analysed target: the URI the file was opened under
+    uri: str  # the document's URI as the client sent it (diagnostics are published under it)
+    version: int | None
+    text: str
+
+
+@dataclass(frozen=True)
+class CellSnapshot:
+    """One cell of a notebook snapshot (markdown cells too: they keep the cell numbering)."""
+
+    index: int
+    kind: t.NotebookCellKind
+    uri: str
+    text: str
+
+    @property
+    def is_code(self) -> bool:
+        return self.kind == t.NotebookCellKind.Code
+
+
+@dataclass(frozen=True)
+class NotebookSnapshot:
+    """An open notebook as one analysis sees it: every cell's text, taken on the event loop."""
+
+    key: str  # the notebook's URI
+    version: tuple[int, tuple[int | None, ...]]  # the notebook's version and each cell document's
+    cells: tuple[CellSnapshot, ...]
+
+    def code_cells(self) -> list[tuple[int, str]]:
+        """(cell index, text) of every code cell, in notebook order: what the engine analyses."""
+        return [(c.index, c.text) for c in self.cells if c.is_code]
+
+
+Snapshot = FileSnapshot | NotebookSnapshot
+
+
 class RegvetServer(LanguageServer):
     def __init__(self) -> None:
         super().__init__(
@@ -156,7 +196,7 @@ class RegvetServer(LanguageServer):
             return uri
         return uri if self.open_text(uri) is not None else None
 
-    def snapshot(self, key: str) -> dict | None:
+    def snapshot(self, key: str) -> Snapshot | None:
         """Everything one analysis needs, taken on the event loop: texts and versions."""
         nb = self.workspace.get_notebook_document(notebook_uri=key)
         if nb is not None:
@@ -166,16 +206,16 @@ class RegvetServer(LanguageServer):
                 doc = self.open_text(cell.document)
                 text = doc.source if doc is not None else ""
                 versions.append(doc.version if doc is not None else None)
-                cells.append((index, cell.kind, cell.document, text))
-            return {"kind": "notebook", "key": key, "version": (nb.version, tuple(versions)), "cells": cells}
+                cells.append(CellSnapshot(index, cell.kind, cell.document, text))
+            return NotebookSnapshot(key, (nb.version, tuple(versions)), tuple(cells))
         doc = self.open_text(key)
         if doc is None:
             return None
-        return {"kind": "file", "key": key, "version": doc.version, "text": doc.source, "uri": doc.uri}
+        return FileSnapshot(key, doc.uri, doc.version, doc.source)
 
     def current_version(self, key: str) -> Any:
         snap = self.snapshot(key)
-        return None if snap is None else snap["version"]
+        return None if snap is None else snap.version
 
     def overlay(self) -> dict[Path, str]:
         out: dict[Path, str] = {}
@@ -247,8 +287,8 @@ def _root_for(ls: RegvetServer, path: Path) -> Path:
     return best or path.parent
 
 
-def run_analysis(ls: RegvetServer, snap: dict, overlay: dict[Path, str]) -> FileReport:
-    key = snap["key"]
+def run_analysis(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str]) -> FileReport:
+    key = snap.key
     fs = to_fs_path(key)
     path = Path(fs).resolve() if fs else None
     settings = ls.settings_for(path)
@@ -257,34 +297,35 @@ def run_analysis(ls: RegvetServer, snap: dict, overlay: dict[Path, str]) -> File
     )
     shown = str(path) if path is not None else key
     module_key = path.stem if path is not None else ""
-    if snap["kind"] == "notebook":
-        code = [(i, text) for i, kind, _uri, text in snap["cells"] if kind == t.NotebookCellKind.Code]
-        report = analyze_cells(code, len(snap["cells"]), shown, settings, provider=provider, module_key=module_key,
-                               module_cache=ls.module_cache)  # fmt: skip
+    if isinstance(snap, NotebookSnapshot):
+        report = analyze_cells(snap.code_cells(), len(snap.cells), shown, settings, provider=provider,
+                               module_key=module_key, module_cache=ls.module_cache)  # fmt: skip
     else:
-        report = analyze(snap["text"], shown, settings, notebook=False, provider=provider, module_key=module_key,
+        report = analyze(snap.text, shown, settings, notebook=False, provider=provider, module_key=module_key,
                          module_cache=ls.module_cache)  # fmt: skip
     ran = ls.runtime.get(key)
-    if ran is not None and ran[0] == snap["version"]:
+    if ran is not None and ran[0] == snap.version:
         report = with_runtime(report, ran[1], settings)  # the last run still describes this text
     return report
 
 
-def build_result(ls: RegvetServer, snap: dict, report: FileReport) -> Result:
+def build_result(ls: RegvetServer, snap: Snapshot, report: FileReport) -> Result:
     encoding = ls.workspace.position_encoding
-    if snap["kind"] == "notebook":
-        texts = {uri: text for _i, kind, uri, text in snap["cells"] if kind == t.NotebookCellKind.Code}
-        cells = {i: uri for i, kind, uri, _text in snap["cells"]}
+    file_uri: str | None = None
+    if isinstance(snap, NotebookSnapshot):
+        texts = {c.uri: c.text for c in snap.cells if c.is_code}
+        cells = {c.index: c.uri for c in snap.cells}
         diagnostics: dict[str, list[t.Diagnostic]] = {uri: [] for uri in texts}
     else:
-        texts = {snap["uri"]: snap["text"]}
+        file_uri = snap.uri
+        texts = {snap.uri: snap.text}
         cells = {}
-        diagnostics = {snap["uri"]: []}
+        diagnostics = {snap.uri: []}
     positions = {uri: Positions(text, encoding) for uri, text in texts.items()}
     for f in report.findings:
         if f.waived:
             continue
-        uri = cells.get(f.span.cell) if f.span.cell is not None else snap.get("uri")
+        uri = cells.get(f.span.cell) if f.span.cell is not None else file_uri
         if uri is None or uri not in positions:
             continue
         related = []
@@ -302,7 +343,7 @@ def build_result(ls: RegvetServer, snap: dict, report: FileReport) -> Result:
                                                message=r.message)  # fmt: skip
             )
         diagnostics[uri].append(to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule)))
-    return Result(snap["version"], report, diagnostics, texts, cells)
+    return Result(snap.version, report, diagnostics, texts, cells)
 
 
 def _read(path: str) -> str:
@@ -324,7 +365,7 @@ async def analyse(ls: RegvetServer, key: str) -> Result | None:
     overlay = ls.overlay()
     loop = asyncio.get_running_loop()
     report = await loop.run_in_executor(ls.pool, run_analysis, ls, snap, overlay)
-    if ls.current_version(key) != snap["version"]:
+    if ls.current_version(key) != snap.version:
         return None  # edited while we worked: a newer analysis is on its way
     result = build_result(ls, snap, report)
     ls.results[key] = result
@@ -672,7 +713,7 @@ def build_actions(uri: str, text: str, whole: str, version: int | None,
 
 
 # --- runtime mode, on request only ----------------------------------------------------------------
-def _run_target(ls: RegvetServer, snap: dict, overlay: dict[Path, str], procs: list,
+def _run_target(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str], procs: list,
                 current: FileReport | None) -> tuple[FileReport, Any]:  # fmt: skip
     """In the pool: the static report (reused when it is of this version), then the run (this
     EXECUTES the user's code), then judgement."""
@@ -680,7 +721,7 @@ def _run_target(ls: RegvetServer, snap: dict, overlay: dict[Path, str], procs: l
     from regvet.runtime.session import run_and_judge
 
     report = current if current is not None else run_analysis(ls, snap, overlay)
-    fs = to_fs_path(snap["key"])
+    fs = to_fs_path(snap.key)
     if not fs:
         return report, None
     path = Path(fs)
@@ -718,7 +759,7 @@ async def run_fits(ls: RegvetServer, uri: str) -> dict:
     procs: list = []
     loop = asyncio.get_running_loop()
     previous = ls.results.get(key)
-    current = previous.report if previous is not None and previous.version == snap["version"] else None
+    current = previous.report if previous is not None and previous.version == snap.version else None
     future = loop.run_in_executor(ls.pool, _run_target, ls, snap, ls.overlay(), procs, current)
     cancelled = False
     try:
@@ -738,8 +779,8 @@ async def run_fits(ls: RegvetServer, uri: str) -> dict:
         return {"ran": False, "reason": "cancelled"}
     runtime = report.rule_input.runtime if report.rule_input is not None else None
     if runtime is not None:
-        ls.runtime[key] = (snap["version"], runtime)
-    if ls.current_version(key) == snap["version"]:
+        ls.runtime[key] = (snap.version, runtime)
+    if ls.current_version(key) == snap.version:
         built = build_result(ls, snap, report)
         ls.results[key] = built
         if ls.use_pull:
