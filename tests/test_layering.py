@@ -23,15 +23,16 @@ ALLOWED = {
     "rules": {"model", "sources", "analysis", "rules"},
     "engine": {"model", "sources", "analysis", "rules", "engine"},
     "config": {"model", "rules", "config"},
+    "workspace": {"model", "rules", "config", "workspace"},
     "output": {"model", "rules", "engine", "output", "__init__"},
     "project": {"model", "sources", "analysis", "project"},
     "cli": {"model", "sources", "analysis", "rules", "engine", "config", "output", "project", "cli", "lsp", "runtime",
-            "__init__"},
+            "workspace", "__init__"},
     "precommit": {"cli", "precommit"},
     "status": {"model", "analysis", "rules", "engine", "status"},
     "edits": {"model", "sources", "edits"},
     "lsp": {"model", "sources", "analysis", "rules", "engine", "config", "project", "status", "edits", "cli", "lsp",
-            "runtime", "__init__"},
+            "runtime", "workspace", "__init__"},
     "runtime": {"model", "sources", "engine", "runtime"},
 }
 #: Fronts that may reach the runtime mode (lazily, on an explicit request).

@@ -25,7 +25,7 @@ import tempfile
 import uuid
 from collections import OrderedDict
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 from urllib.parse import unquote
@@ -35,12 +35,13 @@ from pygls.lsp.server import LanguageServer
 from pygls.uris import from_fs_path, to_fs_path
 
 from regvet import __version__
-from regvet.config import ConfigError, find_config, load_settings
+from regvet.config import ConfigError, find_config
 from regvet.engine import FileReport, analyze, analyze_cells, with_runtime
 from regvet.lsp.convert import Positions, split_lines, to_diagnostic
 from regvet.model.settings import Settings
 from regvet.project import FileModules
 from regvet.rules import RULES_BY_ID
+from regvet.workspace import ConfigCache, Overrides, project_root, split_rule_ids
 
 log = logging.getLogger("regvet.lsp")
 DEFAULT_DEBOUNCE_MS = 300
@@ -135,7 +136,7 @@ class RegvetServer(LanguageServer):
         self.runtime: dict[str, tuple[Any, Any]] = {}
         self.use_pull = False
         self.config_ready = asyncio.Event()
-        self.configs: dict[Path | None, Settings | ConfigError] = {}
+        self.configs = ConfigCache()
         self.config_diagnostics: set[str] = set()
         self.module_cache: LRU = LRU(64)
         self._rule_docs: Path | None = None
@@ -233,58 +234,36 @@ class RegvetServer(LanguageServer):
                 cfg = find_config(path)
             except OSError:
                 cfg = None
-            if cfg not in self.configs:
-                try:
-                    self.configs[cfg] = load_settings(cfg) if cfg is not None else Settings()
-                except ConfigError as exc:
-                    self.configs[cfg] = exc
-            loaded = self.configs[cfg]
+            loaded = self.configs.load(cfg)
             base = loaded if isinstance(loaded, Settings) else Settings()
-        return self.apply_client(base)
+        return self.client_overrides().apply(base)
 
-    def apply_client(self, s: Settings) -> Settings:
-        c = self.client_settings
-        changes: dict[str, Any] = {}
-        alpha = c.get("alpha")
-        if isinstance(alpha, (int, float)) and not isinstance(alpha, bool) and 0 < alpha < 1:
-            changes["alpha"] = float(alpha)
-        # The editor adds to the project's `skip` and narrows with a non-empty `only`; an empty list
-        # changes nothing, so an editor cannot silently drop what the project decided.
+    def client_overrides(self) -> Overrides:
+        """The editor's `alpha`, `skip` and `only` (laid over the project's settings as the CLI's flags are)."""
+        alpha = self.client_settings.get("alpha")
+        good_alpha = isinstance(alpha, (int, float)) and not isinstance(alpha, bool) and 0 < alpha < 1
         skip = self._rule_ids("skip")
-        if skip:
-            changes["skip"] = s.skip | skip
         only = self._rule_ids("only")
-        if only:
-            changes["only"] = only
-        return replace(s, **changes) if changes else s
+        return Overrides(only=only, skip=skip, alpha=float(alpha) if good_alpha else None)
 
     def _rule_ids(self, key: str) -> frozenset[str]:
         value = self.client_settings.get(key)
         if not isinstance(value, list):
             return frozenset()
-        unknown = [v for v in value if v not in RULES_BY_ID]
+        known, unknown = split_rule_ids(value)
         if unknown and (key, tuple(unknown)) not in self._warned:
             self._warned.add((key, tuple(unknown)))
             self.window_log_message(t.LogMessageParams(
                 type=t.MessageType.Warning,
                 message=f"regvet: setting `{key}` names unknown rule ids {unknown}; they are ignored"))  # fmt: skip
-        return frozenset(v for v in value if isinstance(v, str) and v in RULES_BY_ID)
-
-    def config_errors(self) -> list[ConfigError]:
-        return [v for v in self.configs.values() if isinstance(v, ConfigError)]
+        return known
 
 
 # --- analysis (runs in the private pool) ---------------------------------------------------------
 def _root_for(ls: RegvetServer, path: Path) -> Path:
-    best: Path | None = None
-    for folder in ls.workspace.folders.values():
-        fpath = to_fs_path(folder.uri)
-        if fpath and (path == Path(fpath) or Path(fpath) in path.parents):
-            if best is None or len(Path(fpath).parts) > len(best.parts):
-                best = Path(fpath)
-    if best is None and ls.workspace.root_path and Path(ls.workspace.root_path) in path.parents:
-        best = Path(ls.workspace.root_path)
-    return best or path.parent
+    folders = [Path(fs) for fs in (to_fs_path(f.uri) for f in ls.workspace.folders.values()) if fs]
+    root = ls.workspace.root_path
+    return project_root(path, folders, Path(root) if root else None)
 
 
 def run_analysis(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str]) -> FileReport:
@@ -384,7 +363,7 @@ def publish(ls: RegvetServer, result: Result) -> None:
 def publish_config_errors(ls: RegvetServer) -> None:
     """One diagnostic on each broken config file; cleared once it is fixed."""
     current: set[str] = set()
-    for err in ls.config_errors():
+    for err in ls.configs.errors():
         uri = from_fs_path(str(Path(err.path).resolve()))
         current.add(uri)
         line = _config_error_line(err)
