@@ -59,3 +59,25 @@ def test_rule_documents_are_written_when_first_linked(tmp_path, monkeypatch):
     [folder] = tmp_path.iterdir()
     assert "no-form-test" in (folder / "no-form-test.md").read_text(encoding="utf-8")
     assert server.rule_doc_uri("no-such-rule") is None
+
+
+async def test_a_config_error_is_marked_from_where_the_config_error_says_in_client_units(tmp_path):
+    from lsp_client import session
+    from pygls.uris import from_fs_path
+
+    (tmp_path / ".git").mkdir()
+    cfg = tmp_path / "pyproject.toml"
+    cfg.write_text('[tool.regvet]\nname = "🚢" x\n', encoding="utf-8")  # invalid TOML after a non-BMP character
+    cfg_uri = from_fs_path(str(cfg))
+    async with session(tmp_path) as c:
+        c.open(tmp_path / "model.py", "import statsmodels.api as sm\n")
+        await c.until(lambda: c.lsp.diagnostics.get(cfg_uri))
+        [d] = c.lsp.diagnostics[cfg_uri]
+        # tomllib: column 12 counted from 1 in code points; the ship is two UTF-16 units
+        assert "invalid TOML" in d.message and (d.range.start.line, d.range.start.character) == (1, 12)
+        cfg.write_text('[tool.regvet]\nseverity = { no-form-test = "warning", no-variance-test = "fatal" }\n')
+        c.lsp.workspace_did_change_watched_files(t.DidChangeWatchedFilesParams(
+            changes=[t.FileEvent(uri=cfg_uri, type=t.FileChangeType.Changed)]))  # fmt: skip
+        await c.until(lambda: "fatal" in c.lsp.diagnostics[cfg_uri][0].message)
+        [d] = c.lsp.diagnostics[cfg_uri]
+        assert (d.range.start.line, d.range.start.character) == (1, 39) and d.range.end.line == 1

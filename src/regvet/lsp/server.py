@@ -37,7 +37,7 @@ from pygls.uris import from_fs_path, to_fs_path
 from regvet import __version__
 from regvet.config import ConfigError, find_config
 from regvet.engine import FileReport, analyze, analyze_cells, with_runtime
-from regvet.lsp.convert import Positions, split_lines, to_diagnostic
+from regvet.lsp.convert import Positions, to_diagnostic
 from regvet.model.settings import Settings
 from regvet.project import FileModules
 from regvet.rules import RULES_BY_ID
@@ -366,9 +366,8 @@ def publish_config_errors(ls: RegvetServer) -> None:
     for err in ls.configs.errors():
         uri = from_fs_path(str(Path(err.path).resolve()))
         current.add(uri)
-        line = _config_error_line(err)
         ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[t.Diagnostic(
-            range=t.Range(t.Position(line, 0), t.Position(line, 1_000)),
+            range=_config_error_range(err, ls.workspace.position_encoding),
             message=f"regvet cannot use this configuration ({err}); using the defaults until it is fixed.",
             severity=t.DiagnosticSeverity.Error, source="regvet", code="config-error")]))  # fmt: skip
     for uri in ls.config_diagnostics - current:
@@ -376,18 +375,13 @@ def publish_config_errors(ls: RegvetServer) -> None:
     ls.config_diagnostics = current
 
 
-def _config_error_line(err: ConfigError) -> int:
-    import re
-
-    m = re.search(r"line (\d+)", err.detail)
-    if m:
-        return int(m.group(1)) - 1
-    if err.key:
-        name = err.key.split(".")[-1]
-        for i, line in enumerate(split_lines(_read(err.path))):
-            if line.strip().startswith(name) or f" {name} " in line or f"{name} =" in line:
-                return i
-    return 0
+def _config_error_range(err: ConfigError, encoding: str | None) -> t.Range:
+    """From where the error is (the TOML error, the bad key) to the end of its line; the first line
+    when the file gives no position (unreadable, not UTF-8)."""
+    if err.line is None:
+        return t.Range(t.Position(0, 0), t.Position(0, 1_000))
+    start = Positions(_read(err.path), encoding).to_client(err.line, err.column or 0)
+    return t.Range(start, t.Position(start.line, 1_000))
 
 
 async def lint_later(ls: RegvetServer, key: str, delay: float) -> None:
