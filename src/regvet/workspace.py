@@ -42,7 +42,8 @@ class ConfigCache:
 
     def errors(self) -> list[ConfigError]:
         """The config files read so far that cannot be used."""
-        return [v for v in self._loaded.values() if isinstance(v, ConfigError)]
+        # A snapshot of the values: the language server may add an entry from its pool meanwhile.
+        return [v for v in list(self._loaded.values()) if isinstance(v, ConfigError)]
 
     def clear(self) -> None:
         """Forget everything read (a config file changed on disk)."""
