@@ -17,7 +17,7 @@ from pathlib import Path
 from typing import Sequence
 
 from regvet import __version__
-from regvet.config import ConfigError, find_config, load_settings
+from regvet.config import ConfigError, load_settings
 from regvet.engine import analyze, error_report
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
@@ -27,6 +27,7 @@ from regvet.project import FileModules, display_path
 from regvet.rules import RULES_BY_ID
 from regvet.rules.texts import CAUTION, explain, render_rules
 from regvet.sources.python import SourceError, decode
+from regvet.workspace import ConfigCache, Overrides, project_root, split_rule_ids
 
 EXIT_OK, EXIT_FINDINGS, EXIT_USAGE, EXIT_FAILED = 0, 1, 2, 3
 EXTRA_EXCLUDE = (".ipynb_checkpoints", "__pycache__", ".tox", ".nox", ".mypy_cache")
@@ -131,7 +132,7 @@ def main(argv: Sequence[str] | None = None) -> int:
 def _serve(argv: list[str]) -> int:
     """``regvet serve [--tcp --port N]``: the language server (imports pygls only now)."""
     try:
-        from regvet.lsp.server import main as serve_main
+        from regvet.lsp.app import main as serve_main
     except ImportError as exc:  # pragma: no cover - pygls is a core dependency
         sys.stderr.write(f"regvet: error: the language server needs pygls: {exc}\n")
         return EXIT_USAGE
@@ -145,11 +146,10 @@ def _serve(argv: list[str]) -> int:
 def _rule_list(text: str | None, flag: str) -> frozenset[str]:
     if not text:
         return frozenset()
-    ids = [t.strip() for t in text.split(",") if t.strip()]
-    unknown = [i for i in ids if i not in RULES_BY_ID]
+    known, unknown = split_rule_ids(t.strip() for t in text.split(",") if t.strip())
     if unknown:
         raise UsageError(f"{flag}: `{unknown[0]}` is not a rule id (see `regvet rules`)")
-    return frozenset(ids)
+    return known
 
 
 def _excluded(rel: Path, patterns: Sequence[str]) -> bool:
@@ -191,11 +191,10 @@ def collect_files(paths: Sequence[str], exclude: Sequence[str]) -> list[Path]:
 
 
 class _SettingsFinder:
-    """Settings per file: the nearest config file (cached per folder), or one forced file, with CLI overrides."""
+    """Settings per file: the nearest config file (each read once), or one forced file, with CLI overrides."""
 
     def __init__(self, args: argparse.Namespace) -> None:
-        self.only = _rule_list(args.only, "--only")
-        self.skip = _rule_list(args.skip, "--skip")
+        self.overrides = Overrides(only=_rule_list(args.only, "--only"), skip=_rule_list(args.skip, "--skip"))
         self.no_config = args.no_config
         self.forced: Settings | None = None
         if args.config:
@@ -203,27 +202,17 @@ class _SettingsFinder:
             if not path.is_file():
                 raise UsageError(f"--config: no such file: {args.config}")
             self.forced = load_settings(path)
-        self.by_file: dict[Path | None, Settings] = {}
-
-    def _overrides(self, s: Settings) -> Settings:
-        from dataclasses import replace
-
-        changes = {}
-        if self.only:
-            changes["only"] = self.only
-        if self.skip:
-            changes["skip"] = s.skip | self.skip
-        return replace(s, **changes) if changes else s
+        self.configs = ConfigCache()
 
     def for_path(self, path: Path) -> Settings:
         if self.forced is not None:
-            return self._overrides(self.forced)
+            return self.overrides.apply(self.forced)
         if self.no_config:
-            return self._overrides(Settings())
-        cfg = find_config(path)
-        if cfg not in self.by_file:
-            self.by_file[cfg] = load_settings(cfg) if cfg is not None else Settings()
-        return self._overrides(self.by_file[cfg])
+            return self.overrides.apply(Settings())
+        loaded = self.configs.for_file(path)
+        if isinstance(loaded, ConfigError):
+            raise loaded
+        return self.overrides.apply(loaded)
 
 
 def run_check(args: argparse.Namespace) -> int:
@@ -244,9 +233,7 @@ def run_check(args: argparse.Namespace) -> int:
     failed = False
     for file in files:
         settings = finder.for_path(file)
-        resolved = file.resolve()
-        root = next((r for r in sorted(roots, key=lambda r: len(r.parts), reverse=True) if r in resolved.parents), None)
-        root = root or (resolved.parent if default_root not in resolved.parents else default_root)
+        root = project_root(file.resolve(), roots, default_root)
         report = analyze_file(file, settings, root, texts, module_cache)
         if getattr(args, "run", False):
             report = _run_file(file, report, settings, cache)

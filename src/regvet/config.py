@@ -9,6 +9,8 @@ or ``.hg``). Every key is described once, in :data:`regvet.model.settings.OPTION
 from __future__ import annotations
 
 import difflib
+import json
+import re
 import sys
 from dataclasses import replace
 from pathlib import Path
@@ -27,12 +29,19 @@ _SEVERITIES = ("error", "warning", "info")
 
 
 class ConfigError(Exception):
-    """A configuration file that cannot be used. ``str()`` names the file, the key and what was expected."""
+    """A configuration file that cannot be used. ``str()`` names the file, the key and what was expected.
 
-    def __init__(self, path: str, message: str, key: str | None = None) -> None:
+    ``line`` (1-based) and ``column`` (0-based, in code points, as in regvet's spans) say where in
+    the file: the TOML syntax error, or where the bad key is written; both None when unknown.
+    """
+
+    def __init__(self, path: str, message: str, key: str | None = None, line: int | None = None,
+                 column: int | None = None) -> None:  # fmt: skip
         self.path = path
         self.key = key
         self.detail = message
+        self.line = line
+        self.column = column
         where = f"{path}: " + (f"key `{key}`: " if key else "")
         super().__init__(where + message)
 
@@ -63,16 +72,27 @@ def _has_table(path: Path) -> bool:
 
 def load_table(path: Path) -> dict[str, Any]:
     """The regvet table of a config file (empty when a pyproject.toml has none)."""
+    return _read_table(path)[1]
+
+
+def _read_table(path: Path) -> tuple[str, dict[str, Any]]:
+    """(the file's text, its regvet table)."""
     try:
         raw = path.read_bytes()
     except OSError as exc:
         raise ConfigError(str(path), f"cannot read the file: {exc.strerror or exc}") from None
     try:
-        data = tomllib.loads(raw.decode("utf-8"))
+        text = raw.decode("utf-8")
+        data = tomllib.loads(text)
     except UnicodeDecodeError:
         raise ConfigError(str(path), "the file is not UTF-8 text") from None
     except tomllib.TOMLDecodeError as exc:
-        raise ConfigError(str(path), f"invalid TOML: {exc}") from None
+        line, column = _toml_error_position(exc, text)
+        raise ConfigError(str(path), f"invalid TOML: {exc}", line=line, column=column) from None
+    return text, _regvet_table(path, data)
+
+
+def _regvet_table(path: Path, data: dict[str, Any]) -> dict[str, Any]:
     if path.name == "pyproject.toml":
         tool = data.get("tool", {})
         table = tool.get("regvet", {}) if isinstance(tool, dict) else {}
@@ -173,5 +193,112 @@ def _tomltype(value: Any) -> str:
 
 
 def load_settings(path: Path, base: Settings | None = None) -> Settings:
-    """Read and validate one config file."""
-    return settings_from_table(load_table(path), str(path), base)
+    """Read and validate one config file. A :class:`ConfigError` about a key carries where it is written."""
+    text, table = _read_table(path)
+    try:
+        return settings_from_table(table, str(path), base)
+    except ConfigError as exc:
+        if exc.key is not None and exc.line is None:
+            where = _key_position(text, exc.key, ("tool", "regvet") if path.name == "pyproject.toml" else ())
+            if where is not None:
+                exc.line, exc.column = where
+        raise
+
+
+# --- positions in the file, for editors ------------------------------------------------------------
+_TOML_AT = re.compile(r"\(at line (\d+), column (\d+)\)")
+_BARE_KEY = re.compile(r"[A-Za-z0-9_-]+")
+_LINE_BREAK = re.compile(r"\r\n|\n")
+
+
+def _toml_error_position(exc: Exception, text: str) -> tuple[int | None, int | None]:
+    """(1-based line, 0-based column) of a TOML syntax error.
+
+    Newer parsers (tomli >= 2.1, Python >= 3.14) carry ``lineno``/``colno``; older ones only say
+    "(at line L, column C)" or "(at end of document)" at the end of the message. Both count the
+    column from 1 in code points.
+    """
+    line, col = getattr(exc, "lineno", None), getattr(exc, "colno", None)
+    if isinstance(line, int) and isinstance(col, int):
+        return line, max(col - 1, 0)
+    match = _TOML_AT.search(str(exc))
+    if match:
+        return int(match.group(1)), max(int(match.group(2)) - 1, 0)
+    if "(at end of document)" in str(exc):
+        return text.count("\n") + 1, len(text) - (text.rfind("\n") + 1)
+    return None, None
+
+
+def _toml_key(line: str, start: int) -> tuple[tuple[str, ...], int] | None:
+    """The (dotted) TOML key that begins at ``line[start]`` and the index just after it, or None."""
+    parts: list[str] = []
+    i = start
+    while True:
+        while i < len(line) and line[i] in " \t":
+            i += 1
+        if i < len(line) and line[i] in "\"'":
+            quote = line[i]
+            end = i + 1
+            while end < len(line) and line[end] != quote:
+                end += 2 if quote == '"' and line[end] == "\\" else 1
+            if end >= len(line):
+                return None
+            raw = line[i + 1 : end]
+            try:
+                part = json.loads(f'"{raw}"') if quote == '"' else raw  # TOML basic strings escape as JSON
+            except ValueError:
+                part = raw
+            i = end + 1
+        else:
+            match = _BARE_KEY.match(line, i)
+            if match is None:
+                return None
+            part, i = match.group(), match.end()
+        parts.append(part)
+        while i < len(line) and line[i] in " \t":
+            i += 1
+        if i < len(line) and line[i] == ".":
+            i += 1
+            continue
+        return tuple(parts), i
+
+
+def _key_position(text: str, key: str, table: tuple[str, ...]) -> tuple[int, int] | None:
+    """Where a key of the regvet table is written: (1-based line, 0-based column), or None.
+
+    ``key`` is an option (``alpha``) or one entry of a table-valued option (``severity.<rule-id>``,
+    ``diagnostic_helpers.<name>``, where the name may itself hold dots). ``table`` is the regvet
+    table's path (``tool.regvet`` in a pyproject.toml, the top level of a regvet.toml). The entry's
+    own line wins (in a ``[tool.regvet.severity]`` table or as a dotted key); else the option's line
+    (an inline table: at the entry inside it when it can be found); else None.
+    """
+    option, _, entry = key.partition(".")
+    target = (*table, option)
+    current: tuple[str, ...] = ()
+    fallback: tuple[int, int] | None = None
+    for number, line in enumerate(_LINE_BREAK.split(text), 1):
+        indent = len(line) - len(line.lstrip(" \t"))
+        if line.startswith("[", indent):
+            header = _toml_key(line, indent + (2 if line.startswith("[[", indent) else 1))
+            if header is None:
+                continue
+            current = header[0]
+            path, column, rest = current, indent, ""
+        else:
+            found = _toml_key(line, indent)
+            if found is None or not line[found[1] :].lstrip(" \t").startswith("="):
+                continue
+            path, column, rest = current + found[0], indent, line[found[1] :]
+        if entry and path == (*target, entry):
+            return number, column
+        if path == target:
+            if not entry:
+                return number, column
+            if fallback is None:
+                fallback = (number, column)
+                for spelled in (f'"{entry}"', f"'{entry}'", entry):
+                    at = rest.find(spelled)
+                    if at >= 0:
+                        fallback = (number, len(line) - len(rest) + at)
+                        break
+    return fallback

@@ -25,7 +25,7 @@ import tempfile
 import uuid
 from collections import OrderedDict
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 from urllib.parse import unquote
@@ -35,13 +35,14 @@ from pygls.lsp.server import LanguageServer
 from pygls.uris import from_fs_path, to_fs_path
 
 from regvet import __version__
-from regvet.config import ConfigError, find_config, load_settings
+from regvet.config import ConfigError, find_config
 from regvet.engine import analyze, analyze_cells, with_runtime
-from regvet.lsp.convert import CONFIG_ERROR, Positions, json_safe, split_lines, to_diagnostic
+from regvet.lsp.convert import CONFIG_ERROR, Positions, to_diagnostic
 from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 from regvet.project import FileModules
 from regvet.rules import RULES_BY_ID
+from regvet.workspace import ConfigCache, Overrides, project_root, split_rule_ids
 
 log = logging.getLogger("regvet.lsp")
 DEFAULT_DEBOUNCE_MS = 300
@@ -73,6 +74,46 @@ class Result:
     cells: dict[int, str] = field(default_factory=dict)  # notebook cell index -> cell URI
 
 
+@dataclass(frozen=True)
+class FileSnapshot:
+    """An open Python file as one analysis sees it, taken on the event loop."""
+
+    key: str  # the analysed target: the URI the file was opened under
+    uri: str  # the document's URI as the client sent it (diagnostics are published under it)
+    version: int | None
+    text: str
+
+
+@dataclass(frozen=True)
+class CellSnapshot:
+    """One cell of a notebook snapshot (markdown cells too: they keep the cell numbering)."""
+
+    index: int
+    kind: t.NotebookCellKind
+    uri: str
+    text: str
+
+    @property
+    def is_code(self) -> bool:
+        return self.kind == t.NotebookCellKind.Code
+
+
+@dataclass(frozen=True)
+class NotebookSnapshot:
+    """An open notebook as one analysis sees it: every cell's text, taken on the event loop."""
+
+    key: str  # the notebook's URI
+    version: tuple[int, tuple[int | None, ...]]  # the notebook's version and each cell document's
+    cells: tuple[CellSnapshot, ...]
+
+    def code_cells(self) -> list[tuple[int, str]]:
+        """(cell index, text) of every code cell, in notebook order: what the engine analyses."""
+        return [(c.index, c.text) for c in self.cells if c.is_code]
+
+
+Snapshot = FileSnapshot | NotebookSnapshot
+
+
 class RegvetServer(LanguageServer):
     def __init__(self) -> None:
         super().__init__(
@@ -96,13 +137,24 @@ class RegvetServer(LanguageServer):
         self.runtime: dict[str, tuple[Any, Any]] = {}
         self.use_pull = False
         self.config_ready = asyncio.Event()
-        self.configs: dict[Path | None, Settings | ConfigError] = {}
+        self.configs = ConfigCache()
         self.config_diagnostics: set[str] = set()
         self.module_cache: LRU = LRU(64)
-        self.rule_docs = Path(tempfile.mkdtemp(prefix="regvet-rules-"))
+        self._rule_docs: Path | None = None
         self._doc_uris: dict[str, str | None] = {}
         self._warned: set[tuple] = set()
-        atexit.register(shutil.rmtree, self.rule_docs, True)
+
+    @property
+    def rule_docs(self) -> Path:
+        """A temporary folder with one Markdown document per rule (the diagnostics link to them),
+        written when the first diagnostic needs it and removed when the process exits."""
+        if self._rule_docs is None:
+            self._rule_docs = Path(tempfile.mkdtemp(prefix="regvet-rules-"))
+            atexit.register(shutil.rmtree, self._rule_docs, True)
+            self._write_rule_docs()
+        return self._rule_docs
+
+    def _write_rule_docs(self) -> None:
         from regvet.rules.texts import explain
 
         for rid in RULES_BY_ID:
@@ -146,7 +198,7 @@ class RegvetServer(LanguageServer):
             return uri
         return uri if self.open_text(uri) is not None else None
 
-    def snapshot(self, key: str) -> dict | None:
+    def snapshot(self, key: str) -> Snapshot | None:
         """Everything one analysis needs, taken on the event loop: texts and versions."""
         nb = self.workspace.get_notebook_document(notebook_uri=key)
         if nb is not None:
@@ -156,16 +208,16 @@ class RegvetServer(LanguageServer):
                 doc = self.open_text(cell.document)
                 text = doc.source if doc is not None else ""
                 versions.append(doc.version if doc is not None else None)
-                cells.append((index, cell.kind, cell.document, text))
-            return {"kind": "notebook", "key": key, "version": (nb.version, tuple(versions)), "cells": cells}
+                cells.append(CellSnapshot(index, cell.kind, cell.document, text))
+            return NotebookSnapshot(key, (nb.version, tuple(versions)), tuple(cells))
         doc = self.open_text(key)
         if doc is None:
             return None
-        return {"kind": "file", "key": key, "version": doc.version, "text": doc.source, "uri": doc.uri}
+        return FileSnapshot(key, doc.uri, doc.version, doc.source)
 
     def current_version(self, key: str) -> Any:
         snap = self.snapshot(key)
-        return None if snap is None else snap["version"]
+        return None if snap is None else snap.version
 
     def overlay(self) -> dict[Path, str]:
         out: dict[Path, str] = {}
@@ -183,65 +235,40 @@ class RegvetServer(LanguageServer):
                 cfg = find_config(path)
             except OSError:
                 cfg = None
-            if cfg not in self.configs:
-                try:
-                    self.configs[cfg] = load_settings(cfg) if cfg is not None else Settings()
-                except ConfigError as exc:
-                    self.configs[cfg] = exc
-            loaded = self.configs[cfg]
+            loaded = self.configs.load(cfg)
             base = loaded if isinstance(loaded, Settings) else Settings()
-        return self.apply_client(base)
+        return self.client_overrides().apply(base)
 
-    def apply_client(self, s: Settings) -> Settings:
-        c = self.client_settings
-        changes: dict[str, Any] = {}
-        alpha = c.get("alpha")
-        if isinstance(alpha, (int, float)) and not isinstance(alpha, bool) and 0 < alpha < 1:
-            changes["alpha"] = float(alpha)
-        # The editor adds to the project's `skip` and narrows with a non-empty `only`; an empty list
-        # changes nothing, so an editor cannot silently drop what the project decided.
+    def client_overrides(self) -> Overrides:
+        """The editor's `alpha`, `skip` and `only` (laid over the project's settings as the CLI's flags are)."""
+        alpha = self.client_settings.get("alpha")
+        good_alpha = isinstance(alpha, (int, float)) and not isinstance(alpha, bool) and 0 < alpha < 1
         skip = self._rule_ids("skip")
-        if skip:
-            changes["skip"] = s.skip | skip
         only = self._rule_ids("only")
-        if only:
-            changes["only"] = only
-        return replace(s, **changes) if changes else s
+        return Overrides(only=only, skip=skip, alpha=float(alpha) if good_alpha else None)
 
     def _rule_ids(self, key: str) -> frozenset[str]:
         value = self.client_settings.get(key)
         if not isinstance(value, list):
             return frozenset()
-        unknown = [v for v in value if v not in RULES_BY_ID]
+        known, unknown = split_rule_ids(value)
         if unknown and (key, tuple(unknown)) not in self._warned:
             self._warned.add((key, tuple(unknown)))
             self.window_log_message(t.LogMessageParams(
                 type=t.MessageType.Warning,
                 message=f"regvet: setting `{key}` names unknown rule ids {unknown}; they are ignored"))  # fmt: skip
-        return frozenset(v for v in value if isinstance(v, str) and v in RULES_BY_ID)
-
-    def config_errors(self) -> list[ConfigError]:
-        return [v for v in self.configs.values() if isinstance(v, ConfigError)]
-
-
-server = RegvetServer()
+        return known
 
 
 # --- analysis (runs in the private pool) ---------------------------------------------------------
 def _root_for(ls: RegvetServer, path: Path) -> Path:
-    best: Path | None = None
-    for folder in ls.workspace.folders.values():
-        fpath = to_fs_path(folder.uri)
-        if fpath and (path == Path(fpath) or Path(fpath) in path.parents):
-            if best is None or len(Path(fpath).parts) > len(best.parts):
-                best = Path(fpath)
-    if best is None and ls.workspace.root_path and Path(ls.workspace.root_path) in path.parents:
-        best = Path(ls.workspace.root_path)
-    return best or path.parent
+    folders = [Path(fs) for fs in (to_fs_path(f.uri) for f in ls.workspace.folders.values()) if fs]
+    root = ls.workspace.root_path
+    return project_root(path, folders, Path(root) if root else None)
 
 
-def run_analysis(ls: RegvetServer, snap: dict, overlay: dict[Path, str]) -> FileReport:
-    key = snap["key"]
+def run_analysis(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str]) -> FileReport:
+    key = snap.key
     fs = to_fs_path(key)
     path = Path(fs).resolve() if fs else None
     settings = ls.settings_for(path)
@@ -250,34 +277,35 @@ def run_analysis(ls: RegvetServer, snap: dict, overlay: dict[Path, str]) -> File
     )
     shown = str(path) if path is not None else key
     module_key = path.stem if path is not None else ""
-    if snap["kind"] == "notebook":
-        code = [(i, text) for i, kind, _uri, text in snap["cells"] if kind == t.NotebookCellKind.Code]
-        report = analyze_cells(code, len(snap["cells"]), shown, settings, provider=provider, module_key=module_key,
-                               module_cache=ls.module_cache)  # fmt: skip
+    if isinstance(snap, NotebookSnapshot):
+        report = analyze_cells(snap.code_cells(), len(snap.cells), shown, settings, provider=provider,
+                               module_key=module_key, module_cache=ls.module_cache)  # fmt: skip
     else:
-        report = analyze(snap["text"], shown, settings, notebook=False, provider=provider, module_key=module_key,
+        report = analyze(snap.text, shown, settings, notebook=False, provider=provider, module_key=module_key,
                          module_cache=ls.module_cache)  # fmt: skip
     ran = ls.runtime.get(key)
-    if ran is not None and ran[0] == snap["version"]:
+    if ran is not None and ran[0] == snap.version:
         report = with_runtime(report, ran[1], settings)  # the last run still describes this text
     return report
 
 
-def build_result(ls: RegvetServer, snap: dict, report: FileReport) -> Result:
+def build_result(ls: RegvetServer, snap: Snapshot, report: FileReport) -> Result:
     encoding = ls.workspace.position_encoding
-    if snap["kind"] == "notebook":
-        texts = {uri: text for _i, kind, uri, text in snap["cells"] if kind == t.NotebookCellKind.Code}
-        cells = {i: uri for i, kind, uri, _text in snap["cells"]}
+    file_uri: str | None = None
+    if isinstance(snap, NotebookSnapshot):
+        texts = {c.uri: c.text for c in snap.cells if c.is_code}
+        cells = {c.index: c.uri for c in snap.cells}
         diagnostics: dict[str, list[t.Diagnostic]] = {uri: [] for uri in texts}
     else:
-        texts = {snap["uri"]: snap["text"]}
+        file_uri = snap.uri
+        texts = {snap.uri: snap.text}
         cells = {}
-        diagnostics = {snap["uri"]: []}
+        diagnostics = {snap.uri: []}
     positions = {uri: Positions(text, encoding) for uri, text in texts.items()}
     for f in report.findings:
         if f.waived:
             continue
-        uri = cells.get(f.span.cell) if f.span.cell is not None else snap.get("uri")
+        uri = cells.get(f.span.cell) if f.span.cell is not None else file_uri
         if uri is None or uri not in positions:
             continue
         related = []
@@ -295,7 +323,7 @@ def build_result(ls: RegvetServer, snap: dict, report: FileReport) -> Result:
                                                message=r.message)  # fmt: skip
             )
         diagnostics[uri].append(to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule)))
-    return Result(snap["version"], report, diagnostics, texts, cells)
+    return Result(snap.version, report, diagnostics, texts, cells)
 
 
 def _read(path: str) -> str:
@@ -317,7 +345,7 @@ async def analyse(ls: RegvetServer, key: str) -> Result | None:
     overlay = ls.overlay()
     loop = asyncio.get_running_loop()
     report = await loop.run_in_executor(ls.pool, run_analysis, ls, snap, overlay)
-    if ls.current_version(key) != snap["version"]:
+    if ls.current_version(key) != snap.version:
         return None  # edited while we worked: a newer analysis is on its way
     result = build_result(ls, snap, report)
     ls.results[key] = result
@@ -336,12 +364,11 @@ def publish(ls: RegvetServer, result: Result) -> None:
 def publish_config_errors(ls: RegvetServer) -> None:
     """One diagnostic on each broken config file; cleared once it is fixed."""
     current: set[str] = set()
-    for err in ls.config_errors():
+    for err in ls.configs.errors():
         uri = from_fs_path(str(Path(err.path).resolve()))
         current.add(uri)
-        line = _config_error_line(err)
         ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[t.Diagnostic(
-            range=t.Range(t.Position(line, 0), t.Position(line, 1_000)),
+            range=_config_error_range(err, ls.workspace.position_encoding),
             message=f"regvet cannot use this configuration ({err}); using the defaults until it is fixed.",
             severity=t.DiagnosticSeverity.Error, source="regvet", code=CONFIG_ERROR)]))  # fmt: skip
     for uri in ls.config_diagnostics - current:
@@ -349,18 +376,13 @@ def publish_config_errors(ls: RegvetServer) -> None:
     ls.config_diagnostics = current
 
 
-def _config_error_line(err: ConfigError) -> int:
-    import re
-
-    m = re.search(r"line (\d+)", err.detail)
-    if m:
-        return int(m.group(1)) - 1
-    if err.key:
-        name = err.key.split(".")[-1]
-        for i, line in enumerate(split_lines(_read(err.path))):
-            if line.strip().startswith(name) or f" {name} " in line or f"{name} =" in line:
-                return i
-    return 0
+def _config_error_range(err: ConfigError, encoding: str | None) -> t.Range:
+    """From where the error is (the TOML error, the bad key) to the end of its line; the first line
+    when the file gives no position (unreadable, not UTF-8)."""
+    if err.line is None:
+        return t.Range(t.Position(0, 0), t.Position(0, 1_000))
+    start = Positions(_read(err.path), encoding).to_client(err.line, err.column or 0)
+    return t.Range(start, t.Position(start.line, 1_000))
 
 
 async def lint_later(ls: RegvetServer, key: str, delay: float) -> None:
@@ -424,7 +446,6 @@ def all_targets(ls: RegvetServer) -> list[str]:
 
 
 # --- lifecycle and configuration -----------------------------------------------------------------
-@server.feature(t.INITIALIZE)
 def on_initialize(ls: RegvetServer, params: t.InitializeParams) -> None:
     td = params.capabilities.text_document
     ls.use_pull = bool(td and td.diagnostic)
@@ -478,7 +499,6 @@ async def pull_settings(ls: RegvetServer) -> None:
         ls.config_ready.set()
 
 
-@server.feature(t.INITIALIZED)
 async def on_initialized(ls: RegvetServer, params: t.InitializedParams) -> None:
     await pull_settings(ls)
     ws = ls.client_capabilities.workspace
@@ -502,7 +522,6 @@ async def on_initialized(ls: RegvetServer, params: t.InitializedParams) -> None:
         )
 
 
-@server.feature(t.WORKSPACE_DID_CHANGE_CONFIGURATION)
 async def on_config(ls: RegvetServer, params: t.DidChangeConfigurationParams) -> None:
     pushed = params.settings.get("regvet") if isinstance(params.settings, dict) else None
     if isinstance(pushed, dict):
@@ -514,7 +533,6 @@ async def on_config(ls: RegvetServer, params: t.DidChangeConfigurationParams) ->
         schedule(ls, key, 0)
 
 
-@server.feature(t.WORKSPACE_DID_CHANGE_WATCHED_FILES)
 def on_watched(ls: RegvetServer, params: t.DidChangeWatchedFilesParams) -> None:
     config_changed = False
     for change in params.changes:
@@ -540,14 +558,12 @@ def _is_python(ls: RegvetServer, uri: str) -> bool:
     return uri.endswith(".py") or (doc is not None and doc.language_id == "python")
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_OPEN)
 def did_open(ls: RegvetServer, params: t.DidOpenTextDocumentParams) -> None:
     uri = params.text_document.uri
     if _is_python(ls, uri):
         schedule(ls, uri, 0)
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_CHANGE)
 def did_change(ls: RegvetServer, params: t.DidChangeTextDocumentParams) -> None:
     uri = params.text_document.uri
     if _is_python(ls, uri):
@@ -557,14 +573,12 @@ def did_change(ls: RegvetServer, params: t.DidChangeTextDocumentParams) -> None:
             schedule_dependents(ls, Path(path), ls.debounce)
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_SAVE, t.SaveOptions(include_text=False))
 def did_save(ls: RegvetServer, params: t.DidSaveTextDocumentParams) -> None:
     uri = params.text_document.uri
     if _is_python(ls, uri):
         schedule(ls, uri, 0)
 
 
-@server.feature(t.TEXT_DOCUMENT_DID_CLOSE)
 def did_close(ls: RegvetServer, params: t.DidCloseTextDocumentParams) -> None:
     uri = params.text_document.uri
     forget(ls, uri)
@@ -573,12 +587,10 @@ def did_close(ls: RegvetServer, params: t.DidCloseTextDocumentParams) -> None:
 
 
 # --- notebooks -----------------------------------------------------------------------------------
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_OPEN)
 def nb_open(ls: RegvetServer, params: t.DidOpenNotebookDocumentParams) -> None:
     schedule(ls, params.notebook_document.uri, 0)
 
 
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_CHANGE)
 def nb_change(ls: RegvetServer, params: t.DidChangeNotebookDocumentParams) -> None:
     key = params.notebook_document.uri
     nb = ls.workspace.get_notebook_document(notebook_uri=key)
@@ -590,12 +602,10 @@ def nb_change(ls: RegvetServer, params: t.DidChangeNotebookDocumentParams) -> No
     schedule(ls, key, ls.debounce)
 
 
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_SAVE)
 def nb_save(ls: RegvetServer, params: t.DidSaveNotebookDocumentParams) -> None:
     schedule(ls, params.notebook_document.uri, 0)
 
 
-@server.feature(t.NOTEBOOK_DOCUMENT_DID_CLOSE)
 def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None:
     forget(ls, params.notebook_document.uri)
     if not ls.use_pull:
@@ -604,7 +614,6 @@ def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None
 
 
 # --- hover and code actions ----------------------------------------------------------------------
-@server.feature(t.TEXT_DOCUMENT_HOVER)
 async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
     from regvet.status import fit_status, fits_at
 
@@ -639,9 +648,6 @@ async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
     return t.Hover(contents=t.MarkupContent(kind=t.MarkupKind.Markdown, value="\n\n---\n\n".join(parts)))
 
 
-@server.feature(
-    t.TEXT_DOCUMENT_CODE_ACTION, t.CodeActionOptions(code_action_kinds=[t.CodeActionKind.QuickFix])
-)
 async def code_action(ls: RegvetServer, params: t.CodeActionParams) -> list[t.CodeAction] | None:
     uri = params.text_document.uri
     doc = ls.open_text(uri)
@@ -680,108 +686,5 @@ def build_actions(uri: str, text: str, whole: str, version: int | None,
     return quick_fixes(uri, text, whole, version, diagnostics)
 
 
-# --- runtime mode, on request only ----------------------------------------------------------------
-def _run_target(ls: RegvetServer, snap: dict, overlay: dict[Path, str], procs: list,
-                current: FileReport | None) -> tuple[FileReport, Any]:  # fmt: skip
-    """In the pool: the static report (reused when it is of this version), then the run (this
-    EXECUTES the user's code), then judgement."""
-    from regvet.runtime.runner import RunCache
-    from regvet.runtime.session import run_and_judge
-
-    report = current if current is not None else run_analysis(ls, snap, overlay)
-    fs = to_fs_path(snap["key"])
-    if not fs:
-        return report, None
-    path = Path(fs)
-    return run_and_judge(report, path, ls.settings_for(path.resolve()), cache=RunCache(), started=procs.append)
-
-
-def _kill_all(procs: list) -> None:
-    import os
-    import signal
-
-    for proc in procs:
-        try:
-            os.killpg(proc.pid, signal.SIGKILL)
-        except (ProcessLookupError, PermissionError, OSError):
-            pass
-
-
-@server.command("regvet.runFits")
-async def run_fits(ls: RegvetServer, uri: str) -> dict:
-    """Run the document's code (it EXECUTES it) and show the statistics of its fits.
-
-    Only ever started by the user (the editor's command). Reports work-done progress when the
-    client supports it; cancelling (progress cancel or ``$/cancelRequest``) kills the child.
-    """
-    key = ls.target_of(uri)
-    snap = ls.snapshot(key) if key else None
-    if snap is None:
-        return {"ran": False, "reason": "the document is not open"}
-    token = None
-    win = ls.client_capabilities.window
-    if win and win.work_done_progress:
-        token = str(uuid.uuid4())
-        await ls.work_done_progress.create_async(token)
-        ls.work_done_progress.begin(token, t.WorkDoneProgressBegin(
-            title="regvet: running the fits", message=Path(to_fs_path(key) or key).name, cancellable=True))  # fmt: skip
-    procs: list = []
-    loop = asyncio.get_running_loop()
-    previous = ls.results.get(key)
-    current = previous.report if previous is not None and previous.version == snap["version"] else None
-    future = loop.run_in_executor(ls.pool, _run_target, ls, snap, ls.overlay(), procs, current)
-    cancelled = False
-    try:
-        while not future.done():
-            if token is not None and ls.work_done_progress.tokens[token].cancelled() and not cancelled:
-                cancelled = True
-                _kill_all(procs)
-            await asyncio.wait([future], timeout=0.1)
-        report, result = future.result()
-    except asyncio.CancelledError:
-        _kill_all(procs)
-        raise
-    finally:
-        if token is not None:
-            ls.work_done_progress.end(token, t.WorkDoneProgressEnd(message="cancelled" if cancelled else "done"))
-    if cancelled:
-        return {"ran": False, "reason": "cancelled"}
-    runtime = report.rule_input.runtime if report.rule_input is not None else None
-    if runtime is not None:
-        ls.runtime[key] = (snap["version"], runtime)
-    if ls.current_version(key) == snap["version"]:
-        built = build_result(ls, snap, report)
-        ls.results[key] = built
-        if ls.use_pull:
-            refresh = ls.client_capabilities.workspace
-            if refresh and refresh.diagnostics and refresh.diagnostics.refresh_support:
-                ls.workspace_diagnostic_refresh(None)
-        else:
-            publish(ls, built)
-    fits = sum(len(v) for v in runtime.fit_stats.values()) if runtime else 0
-    return json_safe({
-        "ran": result is not None, "fits": fits, "cached": bool(runtime and runtime.cached),
-        "failed": runtime.failure.reason if runtime and runtime.failure else None,
-        "findings": len(report.findings),
-    })  # fmt: skip
-
-
-# --- entry point ---------------------------------------------------------------------------------
-def main(argv: list[str] | None = None) -> int:
-    import argparse
-
-    parser = argparse.ArgumentParser(prog="regvet serve", description="Run the regvet language server.")
-    parser.add_argument("--tcp", action="store_true", help="listen on TCP (127.0.0.1) instead of stdio")
-    parser.add_argument("--port", type=int, default=2087, help="TCP port (default 2087)")
-    parser.add_argument("--log-file", help="write the server log here (stdout carries the protocol)")
-    args = parser.parse_args(argv)
-    logging.basicConfig(
-        filename=args.log_file,
-        level=logging.INFO if args.log_file else logging.WARNING,
-        format="%(asctime)s %(name)s %(levelname)s %(message)s",
-    )
-    if args.tcp:
-        server.start_tcp("127.0.0.1", args.port)
-    else:
-        server.start_io()
-    return 0
+# --- the server ----------------------------------------------------------------------------------
+RUN_FITS = "regvet.runFits"

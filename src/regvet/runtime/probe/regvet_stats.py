@@ -4,7 +4,10 @@ regvet's runtime mode puts this directory on ``PYTHONPATH`` of the child process
 user's script, so this module is imported by the *user's* Python. At import time it uses only the
 standard library, numpy, scipy (a statsmodels dependency) and statsmodels; it never imports regvet,
 and pandas only lazily, when the results object already holds pandas objects (an index, a data
-frame). The one public function is :func:`fit_statistics`.
+frame). The one public function is :func:`fit_statistics`. Its two helpers sit beside it and follow
+the same import rules: ``regvet_linalg`` (the design's basis, row passes, QR, generalised inverses)
+and ``regvet_align`` (row fingerprint, time order and frequency, frame columns aligned with the
+fit's rows, break-candidate groups).
 
 How the numbers are computed (and why), in short:
 
@@ -33,16 +36,30 @@ Each statistic that cannot be computed is None in the output and its reason is r
 
 from __future__ import annotations
 
-import hashlib
 import math
 import re
 import warnings
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Mapping
 from typing import Any
 
 import numpy as np
 from scipy import stats
 from statsmodels.regression.linear_model import OLS, WLS
+
+# Siblings in this folder (the probe's own modules, never regvet itself).
+from regvet_align import RowDataError, candidate_groups, fingerprint, lags_for, time_order
+from regvet_linalg import (
+    EPS,
+    Basis,
+    Consumer,
+    GInverse,
+    TallQR,
+    constant_columns,
+    gram_with_constant,
+    leverages,
+    ssr_on_columns,
+    sweep,
+)
 
 __all__ = ["DEFAULT_OPTIONS", "fit_statistics"]
 
@@ -71,7 +88,6 @@ DEFAULT_OPTIONS: dict[str, Any] = {
 }
 
 _HC_TYPES = ("HC0", "HC1", "HC2", "HC3")
-_EPS = float(np.finfo(float).eps)
 _SIGNIFICANCE = 0.05
 
 FORM_BREUSCH_PAGAN = "Koenker studentized LM = n·R² of û² on the regressors; F from the same auxiliary regression"
@@ -119,7 +135,7 @@ def _count(value: Any) -> int | float | None:
 
 
 def _message(exc: BaseException) -> str:
-    if isinstance(exc, StatisticError):
+    if isinstance(exc, (StatisticError, RowDataError)):
         return str(exc)
     text = str(exc)
     return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
@@ -161,84 +177,6 @@ def _options(options: Mapping[str, Any] | None) -> dict[str, Any]:
         raise ValueError("option time_column must be None or a column name")
     opts["cv"] = bool(opts["cv"])
     return opts
-
-
-# --------------------------------------------------------------------------------------------
-# Linear algebra helpers
-
-
-class _GInverse:
-    """A generalised inverse of a symmetric positive semi-definite matrix ``a``.
-
-    ``a`` is equilibrated (scaled to unit diagonal) and decomposed by ``eigh``; the ``rank``
-    largest eigen-directions are kept (fewer if their eigenvalues are numerical noise, below
-    10·p·eps of the largest). ``inv`` satisfies a·inv·a = a on the kept directions, which is all that
-    projections, quadratic forms c'a⁻c for c in the range of a, and residualisation need.
-    """
-
-    def __init__(self, a: np.ndarray, rank: int | None = None) -> None:
-        a = np.asarray(a, dtype=float)
-        p = a.shape[0]
-        a = (a + a.T) / 2.0
-        d = np.sqrt(np.clip(np.diag(a), 0.0, None))
-        d[~(d > 0)] = 1.0
-        scaled = a / np.outer(d, d)
-        if p == 0:
-            self.rank, self.eigenvalues, self.inv = 0, np.zeros(0), np.zeros((0, 0))
-            return
-        w, q = np.linalg.eigh(scaled)
-        w, q = w[::-1], q[:, ::-1]
-        tol = max(w[0], 0.0) * p * _EPS * 10.0
-        numeric = int(np.sum(w > tol))
-        keep = numeric if rank is None else max(0, min(int(rank), numeric))
-        self.rank = keep
-        self.eigenvalues = w
-        qk = q[:, :keep] / d[:, None]
-        self.inv = (qk / w[:keep]) @ qk.T
-
-    def quad(self, c: np.ndarray) -> float:
-        """c'·inv·c for a vector c."""
-        return float(c @ self.inv @ c)
-
-
-def _qr_r(block: np.ndarray) -> np.ndarray:
-    """The R factor of a block (rows x p), always returned with p columns."""
-    return np.linalg.qr(block, mode="r")
-
-
-class _TallQR:
-    """Blocked QR of a tall matrix fed in row blocks: keeps only the small triangular factor R."""
-
-    def __init__(self) -> None:
-        self.r: np.ndarray | None = None
-        self.rows = 0
-
-    def add(self, block: np.ndarray) -> None:
-        if block.shape[0] == 0:
-            return
-        self.rows += block.shape[0]
-        stacked = block if self.r is None else np.vstack([self.r, block])
-        self.r = _qr_r(stacked)
-
-
-def _ssr_on_columns(r: np.ndarray, n_rows: int, p: int) -> tuple[float, int]:
-    """(SSR, rank): last column of the matrix whose QR factor is ``r`` regressed on its first p columns.
-
-    The rank is numpy's ``matrix_rank`` rule (largest singular value x max(rows, p) x eps) applied to
-    the unit-length-scaled columns; the SSR is the squared norm of what the rank-revealing projection
-    leaves of the last column, so exactly collinear columns do not absorb a noise direction.
-    """
-    rx = r[:, :p]
-    z = r[:, p]
-    norms = np.sqrt(np.sum(rx * rx, axis=0))
-    norms[~(norms > 0)] = 1.0
-    u, sv, _ = np.linalg.svd(rx / norms, full_matrices=False)
-    if sv.size == 0 or sv[0] == 0:
-        return float(z @ z), 0
-    rank = int(np.sum(sv > sv[0] * max(n_rows, p) * _EPS))
-    ur = u[:, :rank]
-    rest = z - ur @ (ur.T @ z)
-    return float(rest @ rest), rank
 
 
 # --------------------------------------------------------------------------------------------
@@ -297,25 +235,6 @@ class _Fit:
             )
 
 
-def _constant_columns(X: np.ndarray, block: int = 4096) -> np.ndarray:
-    """Indexes of the columns whose entries are all equal (without an n x k temporary).
-
-    The first block of rows rules out almost every column; only the survivors are read further.
-    """
-    n = X.shape[0]
-    if n == 0:
-        return np.zeros(0, dtype=int)
-    first = np.asarray(X[0])
-    candidates = np.flatnonzero((np.asarray(X[:block]) == first).all(axis=0))
-    for j in list(candidates):
-        column = X[:, j]
-        for s in range(block, n, 65_536):
-            if not (column[s : s + 65_536] == first[j]).all():
-                candidates = candidates[candidates != j]
-                break
-    return candidates
-
-
 def _param_names(model: Any, X: np.ndarray) -> list[str]:
     """The model's ``exog_names``, without statsmodels' n x k temporary for plain-array designs.
 
@@ -327,294 +246,12 @@ def _param_names(model: Any, X: np.ndarray) -> list[str]:
     if type(getattr(data, "orig_exog", None)) is not np.ndarray or getattr(data, "_param_names", None):
         return [str(x) for x in model.exog_names]
     k = X.shape[1]
-    flat = _constant_columns(X)
+    flat = constant_columns(X)
     if flat.size:
         names = [f"x{i:d}" for i in range(1, k)]
         names.insert(int(flat[0]), "const")
         return names
     return [f"x{i:d}" for i in range(1, k + 1)]
-
-
-class _Basis:
-    """The design in a basis with the same column space: V = X·A, better conditioned than X.
-
-    With an explicit constant column c (index ``c``), column j of V is x_j − m_j·c with
-    m_j = c'x_j / c'c; otherwise V = X. A = I − e_c m' (m_c = 0), so Xβ = Vβ_V gives β = A·β_V and
-    Cov(β) = A·Cov(β_V)·A'; X'X = A⁻ᵀ(V'V)A⁻¹ with A⁻¹ = I + e_c m'.
-    """
-
-    def __init__(self, fit: _Fit) -> None:
-        self.X = fit.X
-        self.n, self.k = fit.n, fit.k
-        self.c = fit.const_idx
-        self.chunk = fit.chunk
-        self.m: np.ndarray | None = None
-        self.shift: np.ndarray | None = None  # a·m when the constant column is the constant a
-        if self.c is not None:
-            num = np.zeros(self.k)
-            den = 0.0
-            for s, e in self.spans():
-                block = np.asarray(self.X[s:e], dtype=float)
-                col = block[:, self.c]
-                num += block.T @ col
-                den += float(col @ col)
-            m = num / den
-            m[self.c] = 0.0
-            self.m = m
-            if fit.one_in_span and fit.estimator == "OLS":
-                self.shift = float(np.asarray(self.X[0, self.c], dtype=float)) * m
-
-    def spans(self) -> Iterator[tuple[int, int]]:
-        """(start, stop) of every row block."""
-        for s in range(0, self.n, self.chunk):
-            yield s, min(self.n, s + self.chunk)
-
-    def _centre(self, block: np.ndarray) -> np.ndarray:
-        if self.m is None:
-            return block
-        if self.shift is not None:
-            return block - self.shift
-        out = np.outer(block[:, self.c], self.m)
-        np.subtract(block, out, out=out)
-        return out
-
-    def rows(self, s: int, e: int) -> np.ndarray:
-        """Rows s..e of V (a new array, or a read-only view of X when no change of basis is needed)."""
-        return self._centre(np.asarray(self.X[s:e], dtype=float))
-
-    def take(self, positions: np.ndarray) -> np.ndarray:
-        """The rows of V at these positions."""
-        return self._centre(np.asarray(self.X[positions], dtype=float))
-
-    def to_params(self, cov_v: np.ndarray) -> np.ndarray:
-        """Map a covariance of β_V to the covariance of the model's parameters β."""
-        if self.m is None:
-            return cov_v
-        a = np.eye(self.k)
-        a[self.c, :] -= self.m
-        return a @ cov_v @ a.T
-
-    def to_raw_gram(self, g: np.ndarray) -> np.ndarray:
-        """X'X from V'V."""
-        if self.m is None:
-            return g
-        ainv = np.eye(self.k)
-        ainv[self.c, :] += self.m
-        return ainv.T @ g @ ainv
-
-
-# --------------------------------------------------------------------------------------------
-# Passes over the rows
-
-
-Consumer = Callable[[int, int, np.ndarray], None]
-
-
-def _sweep(basis: _Basis, consumers: dict[str, Consumer], failed: dict[str, BaseException]) -> None:
-    """One pass over the row blocks of V, feeding each block to every consumer.
-
-    A consumer that raises is dropped for the rest of the pass and its exception kept in ``failed``.
-    """
-    active = {name: fn for name, fn in consumers.items() if name not in failed}
-    if not active:
-        return
-    for s, e in basis.spans():
-        v = basis.rows(s, e)
-        for name, fn in list(active.items()):
-            try:
-                fn(s, e, v)
-            except Exception as exc:  # noqa: BLE001 - isolate one statistic's failure
-                failed[name] = exc
-                del active[name]
-        if not active:
-            return
-
-
-def _plus(g: np.ndarray, sums: np.ndarray, n: int) -> np.ndarray:
-    """The cross-product matrix of [1, V] from V'V, V'1 and n."""
-    k = g.shape[0]
-    out = np.empty((k + 1, k + 1))
-    out[0, 0] = n
-    out[0, 1:] = sums
-    out[1:, 0] = sums
-    out[1:, 1:] = g
-    return out
-
-
-# --------------------------------------------------------------------------------------------
-# Row labels, time order, groups (pandas only when the fit already holds pandas objects)
-
-
-def _is_pandas(obj: Any) -> bool:
-    return type(obj).__module__.split(".")[0] == "pandas"
-
-
-def _fingerprint(labels: Any, n: int) -> str:
-    """SHA-1 hex digest identifying a fit's rows.
-
-    Integer labels (and ``range(n)`` when the fit has none) hash as ``b"int64:"`` + their
-    little-endian int64 bytes; datetime labels as ``b"datetime64[ns]:"`` + int64 nanoseconds;
-    period labels as ``b"period[FREQ]:"`` + int64 ordinals; any other labels as ``b"str:"`` + the
-    UTF-8 of their ``str()`` joined by U+001F. Two fits on the same observations get the same digest.
-    """
-    h = hashlib.sha1()
-    if labels is None:
-        h.update(b"int64:")
-        h.update(np.arange(n, dtype="<i8").tobytes())
-        return h.hexdigest()
-    if _is_pandas(labels):
-        import pandas as pd
-
-        if isinstance(labels, pd.PeriodIndex):
-            h.update(f"period[{labels.freqstr}]:".encode())
-            h.update(np.asarray(labels.asi8, dtype="<i8").tobytes())
-            return h.hexdigest()
-        if isinstance(labels, pd.DatetimeIndex):
-            values = np.asarray(labels.tz_localize(None) if labels.tz is not None else labels)
-            h.update(b"datetime64[ns]:")
-            h.update(values.astype("datetime64[ns]").view("<i8").tobytes())
-            return h.hexdigest()
-    arr = np.asarray(labels)
-    if arr.dtype.kind in "iu" and arr.ndim == 1:
-        h.update(b"int64:")
-        h.update(arr.astype("<i8").tobytes())
-        return h.hexdigest()
-    h.update(b"str:")
-    h.update("\x1f".join(str(x) for x in arr.tolist()).encode("utf-8", "surrogatepass"))
-    return h.hexdigest()
-
-
-def _frame(fit: _Fit) -> Any:
-    """The model's data frame (formula fits), as a pandas DataFrame, or None."""
-    frame = getattr(fit.model.data, "frame", None)
-    if frame is None:
-        return None
-    if hasattr(frame, "columns"):
-        return frame
-    import pandas as pd
-
-    return pd.DataFrame(frame)
-
-
-def _aligned(values: Any, frame: Any, fit: _Fit) -> np.ndarray:
-    """The entries of a frame-aligned Series for the fit's rows, in the fit's row order."""
-    labels = fit.model.data.row_labels
-    if len(frame) == fit.n and (labels is None or frame.index.equals(labels)):
-        return np.asarray(values)
-    if labels is not None and frame.index.is_unique:
-        try:
-            return np.asarray(values.loc[labels])
-        except KeyError:
-            pass
-    raise StatisticError("cannot align the data frame's rows with the rows the fit used")
-
-
-def _periods_per_year(offset: Any) -> float | None:
-    code = str(getattr(offset, "rule_code", "") or "").split("-")[0]
-    mult = int(getattr(offset, "n", 1) or 1)
-    code = code[2:] if code.startswith("CB") else code[1:] if code.startswith("B") else code
-    if code in ("Q", "QE", "QS"):
-        return 4.0 / mult
-    if code in ("M", "ME", "MS"):
-        return 12.0 / mult
-    return None
-
-
-def _lags_for(offset: Any) -> int:
-    """Breusch-Godfrey lags by data frequency: 4 quarterly, 12 monthly, 1 otherwise (common practice)."""
-    per_year = _periods_per_year(offset) if offset is not None else None
-    if per_year == 4.0:
-        return 4
-    if per_year == 12.0:
-        return 12
-    return 1
-
-
-def _time_order(fit: _Fit) -> tuple[str | None, Any]:
-    """(reason the data is time-ordered or None, the data frequency as a pandas offset or None)."""
-    labels = fit.model.data.row_labels
-    if labels is not None and _is_pandas(labels):
-        import pandas as pd
-
-        if isinstance(labels, (pd.DatetimeIndex, pd.PeriodIndex)):
-            kind = "DatetimeIndex" if isinstance(labels, pd.DatetimeIndex) else "PeriodIndex"
-            freq = labels.freq
-            if freq is None and len(labels) >= 3:
-                try:
-                    inferred = pd.infer_freq(labels)
-                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
-                except (TypeError, ValueError):
-                    freq = None
-            reason = f"the fit's rows have a {kind}"
-            if not labels.is_monotonic_increasing:
-                reason += " (rows are not in time order; the statistics use the row order)"
-            return reason, freq
-    column = fit.opts["time_column"]
-    frame = _frame(fit) if column is not None else None
-    if frame is not None and column in frame.columns:
-        import pandas as pd
-
-        series = frame[column]
-        freq = None
-        if isinstance(series.dtype, pd.PeriodDtype):
-            freq = series.dtype.freq
-        elif pd.api.types.is_datetime64_any_dtype(series.dtype):
-            values = pd.DatetimeIndex(series.dropna().unique()).sort_values()
-            if len(values) >= 3:
-                try:
-                    inferred = pd.infer_freq(values)
-                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
-                except (TypeError, ValueError):
-                    freq = None
-        reason = f"time_column {column!r} is in the model's data frame"
-        try:
-            if not series.is_monotonic_increasing:
-                reason += " (rows are not in time order; the statistics use the row order)"
-        except TypeError:
-            pass
-        return reason, freq
-    return None, None
-
-
-def _candidate_groups(fit: _Fit, candidate: str) -> tuple[np.ndarray, list[str]]:
-    """(group code of every row used by the fit, group labels) for one break candidate."""
-    frame = _frame(fit)
-    if frame is not None and candidate in frame.columns:
-        import pandas as pd
-
-        values = _aligned(frame[candidate], frame, fit)
-        try:
-            codes, uniques = pd.factorize(values, sort=True, use_na_sentinel=False)
-        except TypeError:
-            codes, uniques = pd.factorize(values, sort=False, use_na_sentinel=False)
-        return np.asarray(codes), [str(x) for x in list(uniques)]
-    if candidate in fit.names:
-        column = np.asarray(fit.model.exog[:, fit.names.index(candidate)])
-        uniques, codes = np.unique(column, return_inverse=True)
-        return codes.reshape(-1), [str(x) for x in uniques.tolist()]
-    if frame is None:
-        raise StatisticError(
-            f"{candidate!r} is not a column of the design and the fit has no data frame "
-            "(not a formula fit), so a query expression cannot be evaluated"
-        )
-    try:
-        result = frame.eval(candidate)
-    except Exception as exc:  # noqa: BLE001 - any pandas parse/eval error
-        raise StatisticError(
-            f"{candidate!r} is neither a column of the data frame nor a query expression it can evaluate "
-            f"({_message(exc)})"
-        ) from exc
-    if not hasattr(result, "__len__") or len(result) != len(frame):
-        raise StatisticError(f"the query expression {candidate!r} does not give one value per row")
-    import pandas as pd
-
-    result = pd.Series(np.asarray(result), index=frame.index)
-    if result.dtype != bool:
-        if not pd.api.types.is_bool_dtype(result.dtype) and result.dtype != object:
-            raise StatisticError(f"the query expression {candidate!r} is not a true/false condition")
-        result = result.fillna(False).astype(bool)
-    holds = _aligned(result, frame, fit).astype(bool)
-    return np.where(holds, 0, 1), ["holds", "does not hold"]
 
 
 # --------------------------------------------------------------------------------------------
@@ -701,7 +338,7 @@ class _Stats:
         """Compute every statistic; the output dict of :func:`fit_statistics`."""
         fit = self.fit
         self.basic()
-        self.put("rows", lambda: {"count": fit.n, "fingerprint": _fingerprint(fit.model.data.row_labels, fit.n)})
+        self.put("rows", lambda: {"count": fit.n, "fingerprint": fingerprint(fit.model.data.row_labels, fit.n)})
         self.put("log_level_r2", self.log_level_r2)
         self.out["weights"] = WEIGHTS_NOTE if fit.estimator == "WLS" else None
 
@@ -783,13 +420,13 @@ class _Stats:
                 self.reset_z = z / b
         # Time order and BG lags.
         try:
-            reason, freq = _time_order(fit)
+            reason, freq = time_order(fit.model, self.opts["time_column"])
         except Exception as exc:  # noqa: BLE001
             self.errors["time_ordered"] = _message(exc)
             reason, freq = None, None
         if reason is not None:
             self.time_reason = reason
-            self.lags = int(self.opts["serial_lags"] or _lags_for(freq))
+            self.lags = int(self.opts["serial_lags"] or lags_for(freq))
             self.u_padded = np.concatenate([np.zeros(self.lags), u])
         # White: which form.
         p_plus = fit.k + (0 if fit.one_in_span else 1)
@@ -820,7 +457,7 @@ class _Stats:
         """Row pass 1: V'V, V'1, V'[û, û² − mean, RESET columns, lags], HC0 meat, CV fold sums."""
         fit = self.fit
         try:
-            self.basis = _Basis(fit)
+            self.basis = Basis(fit.X, fit.const_idx, fit.chunk, fit.one_in_span and fit.estimator == "OLS")
         except Exception as exc:  # noqa: BLE001
             self.failed["design"] = exc
             for name in ("gram", "reset_cross", "lags", "meat", "cv"):
@@ -882,7 +519,7 @@ class _Stats:
                         self.fold_cross[j] += vj.T @ us[sel]
 
             consumers["cv"] = cv
-        _sweep(self.basis, consumers, self.failed)
+        sweep(self.basis, consumers, self.failed)
 
     def solve(self) -> None:
         """Generalised inverses of V'V and of [1, V]'[1, V] (the auxiliary regressions' design)."""
@@ -893,11 +530,11 @@ class _Stats:
             self.failed["gram"] = StatisticError("the design contains NaN or infinite values")
             return
         try:
-            self.Ginv = _GInverse(self.G, rank=fit.rank)
+            self.Ginv = GInverse(self.G, rank=fit.rank)
             if fit.one_in_span:
                 self.Gpinv = self.Ginv
             else:
-                self.Gpinv = _GInverse(_plus(self.G, self.sums, fit.n), rank=fit.rank + 1)
+                self.Gpinv = GInverse(gram_with_constant(self.G, self.sums, fit.n), rank=fit.rank + 1)
         except Exception as exc:  # noqa: BLE001
             self.failed["gram"] = exc
 
@@ -926,7 +563,7 @@ class _Stats:
             power = 1 if self.hc == "HC2" else 2
 
             def meat(s: int, e: int, v: np.ndarray) -> None:
-                h = np.einsum("ij,ij->i", v @ Ginv, v)
+                h = leverages(v, Ginv)
                 self.max_leverage = max(self.max_leverage, float(h.max(initial=0.0)))
                 w = self.g[s:e] / (1.0 - h) ** power
                 self.meat += (v * w[:, None]).T @ v
@@ -969,7 +606,7 @@ class _Stats:
             total_cross = self.cross[:, 0]
             deltas = []
             for j in range(folds):
-                train = _GInverse(self.G - self.fold_gram[j], rank=fit.rank)
+                train = GInverse(self.G - self.fold_gram[j], rank=fit.rank)
                 deltas.append(train.inv @ (total_cross - self.fold_cross[j]))
             self.cv_sse = 0.0
             self.cv_sae = 0.0
@@ -993,7 +630,7 @@ class _Stats:
             one = not fit.one_in_span
             p_plus = k + (1 if one else 0)
             i0, i1 = np.triu_indices(p_plus)
-            self.white_qr = _TallQR()
+            self.white_qr = TallQR()
             g = self.g
 
             # Sub-blocks of rows keep the product block no larger than a block of the design.
@@ -1008,7 +645,7 @@ class _Stats:
 
             consumers["white_full"] = white
 
-        _sweep(self.basis, consumers, self.failed)
+        sweep(self.basis, consumers, self.failed)
 
     # -- statistics ----------------------------------------------------------------------------
 
@@ -1054,7 +691,7 @@ class _Stats:
             if qr.r is None:
                 raise StatisticError("no observations")
             p = qr.r.shape[1] - 1
-            ssr, rank = _ssr_on_columns(qr.r, qr.rows, p)
+            ssr, rank = ssr_on_columns(qr.r, qr.rows, p)
             out = {"form": FORM_WHITE_FULL}
             out.update(self._aux_result(tss - ssr, tss, rank - 1, fit.n - rank))
             out["columns"] = int(p)
@@ -1069,7 +706,7 @@ class _Stats:
         t2 = t * t
         t2 = t2 - t2.mean()
         z = np.column_stack([t, t2])
-        gi = _GInverse(z.T @ z)
+        gi = GInverse(z.T @ z)
         c = z.T @ self.g_c
         ess = gi.quad(c)
         out = {"form": FORM_WHITE_SPECIAL}
@@ -1082,7 +719,7 @@ class _Stats:
         fit = self.fit
         fit.require_residuals()
         self.need("gram", "reset")
-        gi = _GInverse(self.reset_rr)
+        gi = GInverse(self.reset_rr)
         q = gi.rank
         if q == 0:
             raise StatisticError("the powers of the fitted values lie in the span of the regressors")
@@ -1164,7 +801,7 @@ class _Stats:
             raise StatisticError(f"regressor(s) without variation: {', '.join(bad)}")
         corr = centred / np.outer(d, d)
         w = np.linalg.eigvalsh(corr)
-        if not w[0] > w[-1] * len(idx) * _EPS * 10:
+        if not w[0] > w[-1] * len(idx) * EPS * 10:
             raise StatisticError(
                 "the centred regressors are perfectly collinear (e.g. a full set of dummies without a "
                 "constant column), so the VIFs are infinite"
@@ -1206,7 +843,7 @@ class _Stats:
         # ESS of the residuals on the lags after residualising the lags on the design.
         c_design = self.plus_cross(self.cross[:, 0:1] - self.u_mean * self.sums[:, None], np.array([0.0]))[:, 0]
         ess_design = self.Gpinv.quad(c_design)
-        gi = _GInverse(self.bg_rr)
+        gi = GInverse(self.bg_rr)
         ess_lags = gi.quad(self.bg_ru)
         df_resid = n - self.Gpinv.rank - p
         if not tss > 0:
@@ -1250,7 +887,7 @@ class _Stats:
         fit = self.fit
         fit.require_residuals()
         self.need("design")
-        codes, labels = _candidate_groups(fit, candidate)
+        codes, labels = candidate_groups(fit.model, fit.n, fit.names, candidate)
         counts = np.bincount(codes, minlength=len(labels))
         present = np.flatnonzero(counts)
         sizes = [{"label": labels[j], "nobs": int(counts[j])} for j in present]
@@ -1262,11 +899,11 @@ class _Stats:
         ssr_groups, rank_groups = 0.0, 0
         for j in present:
             positions = order[bounds[j] : bounds[j + 1]]
-            qr = _TallQR()
+            qr = TallQR()
             for s in range(0, positions.size, fit.chunk):
                 pos = positions[s : s + fit.chunk]
                 qr.add(np.column_stack([self.basis.take(pos), u[pos]]))
-            ssr_j, rank_j = _ssr_on_columns(qr.r, qr.rows, k)
+            ssr_j, rank_j = ssr_on_columns(qr.r, qr.rows, k)
             ssr_groups += ssr_j
             rank_groups += rank_j
         df_num = rank_groups - fit.rank
@@ -1371,7 +1008,7 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
       (excl. an explicit constant column), ``df_resid``, ``rsquared``, ``rsquared_adj``, ``aic``,
       ``bic``, ``llf``, ``ssr``, ``resid_sd`` (sqrt of scale), ``cov_type``, ``use_t``,
       ``has_constant``, ``param_names``, ``endog_name``: as statsmodels reports them.
-    * ``rows``: ``{"count", "fingerprint"}``, see :func:`_fingerprint`.
+    * ``rows``: ``{"count", "fingerprint"}``, see :func:`regvet_align.fingerprint`.
     * ``log_level_r2``: for an endog named like a log transform (``np.log(y)``, ``log10(y)``,
       ``log_y``), the squared correlation of exp(endog) and exp(fitted values) (in the log's base);
       else None.

@@ -1,0 +1,82 @@
+"""The language server assembled: ``create_server()`` wires the features of :mod:`regvet.lsp.server`
+and the ``regvet.runFits`` command of :mod:`regvet.lsp.run_command` onto a fresh server, and
+``main()`` is ``regvet serve``. Importing this module starts, reads and writes nothing.
+"""
+
+from __future__ import annotations
+
+import logging
+
+from lsprotocol import types as t
+
+from regvet.lsp.run_command import run_fits
+from regvet.lsp.server import (
+    RUN_FITS,
+    RegvetServer,
+    code_action,
+    did_change,
+    did_close,
+    did_open,
+    did_save,
+    hover,
+    nb_change,
+    nb_close,
+    nb_open,
+    nb_save,
+    on_config,
+    on_initialize,
+    on_initialized,
+    on_watched,
+)
+
+
+def create_server() -> RegvetServer:
+    """A new server with every feature registered on it; nothing is started, read or written.
+
+    Each call builds an independent instance (its own documents, results, settings and pool), so
+    tests and embedders can make as many as they like. Pull diagnostics are added later, inside
+    ``initialize``, for clients that can pull.
+    """
+    server = RegvetServer()
+    for method, handler, options in (
+        (t.INITIALIZE, on_initialize, None),
+        (t.INITIALIZED, on_initialized, None),
+        (t.WORKSPACE_DID_CHANGE_CONFIGURATION, on_config, None),
+        (t.WORKSPACE_DID_CHANGE_WATCHED_FILES, on_watched, None),
+        (t.TEXT_DOCUMENT_DID_OPEN, did_open, None),
+        (t.TEXT_DOCUMENT_DID_CHANGE, did_change, None),
+        (t.TEXT_DOCUMENT_DID_SAVE, did_save, t.SaveOptions(include_text=False)),
+        (t.TEXT_DOCUMENT_DID_CLOSE, did_close, None),
+        (t.NOTEBOOK_DOCUMENT_DID_OPEN, nb_open, None),
+        (t.NOTEBOOK_DOCUMENT_DID_CHANGE, nb_change, None),
+        (t.NOTEBOOK_DOCUMENT_DID_SAVE, nb_save, None),
+        (t.NOTEBOOK_DOCUMENT_DID_CLOSE, nb_close, None),
+        (t.TEXT_DOCUMENT_HOVER, hover, None),
+        (t.TEXT_DOCUMENT_CODE_ACTION, code_action,
+         t.CodeActionOptions(code_action_kinds=[t.CodeActionKind.QuickFix])),
+    ):  # fmt: skip
+        server.feature(method, options)(handler)
+    server.command(RUN_FITS)(run_fits)
+    return server
+
+
+# --- entry point ---------------------------------------------------------------------------------
+def main(argv: list[str] | None = None) -> int:
+    import argparse
+
+    parser = argparse.ArgumentParser(prog="regvet serve", description="Run the regvet language server.")
+    parser.add_argument("--tcp", action="store_true", help="listen on TCP (127.0.0.1) instead of stdio")
+    parser.add_argument("--port", type=int, default=2087, help="TCP port (default 2087)")
+    parser.add_argument("--log-file", help="write the server log here (stdout carries the protocol)")
+    args = parser.parse_args(argv)
+    logging.basicConfig(
+        filename=args.log_file,
+        level=logging.INFO if args.log_file else logging.WARNING,
+        format="%(asctime)s %(name)s %(levelname)s %(message)s",
+    )
+    server = create_server()
+    if args.tcp:
+        server.start_tcp("127.0.0.1", args.port)
+    else:
+        server.start_io()
+    return 0

@@ -1,0 +1,216 @@
+"""Row labels, time order and groups of a fit's rows: the pandas side of the runtime probe's statistics.
+
+Imported by ``regvet_stats`` inside the user's interpreter (this folder is on the child process's
+``PYTHONPATH``): standard library and numpy at import time, pandas only inside the functions that
+meet pandas objects the fit already holds (an index, a data frame); never regvet.
+
+* :func:`fingerprint`: a digest identifying the rows a fit used.
+* :func:`time_order` and :func:`lags_for`: whether the data is time-ordered, its frequency, and the
+  Breusch-Godfrey lags for that frequency.
+* :func:`model_frame`, :func:`aligned`, :func:`candidate_groups`: the model's data frame, a frame
+  column in the fit's row order, and the groups a break candidate splits the rows into.
+
+A problem with the data (rows that cannot be aligned, a candidate that is no column and no
+condition) raises :class:`RowDataError`, whose message says why.
+"""
+
+from __future__ import annotations
+
+import hashlib
+from typing import Any
+
+import numpy as np
+
+__all__ = ["RowDataError", "aligned", "candidate_groups", "fingerprint", "lags_for", "model_frame", "time_order"]
+
+
+class RowDataError(Exception):
+    """The fit's row data cannot serve a statistic (alignment, a break candidate); the message says why."""
+
+
+def _describe(exc: BaseException) -> str:
+    text = str(exc)
+    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
+
+
+def is_pandas(obj: Any) -> bool:
+    return type(obj).__module__.split(".")[0] == "pandas"
+
+
+def fingerprint(labels: Any, n: int) -> str:
+    """SHA-1 hex digest identifying a fit's rows.
+
+    Integer labels (and ``range(n)`` when the fit has none) hash as ``b"int64:"`` + their
+    little-endian int64 bytes; datetime labels as ``b"datetime64[ns]:"`` + int64 nanoseconds;
+    period labels as ``b"period[FREQ]:"`` + int64 ordinals; any other labels as ``b"str:"`` + the
+    UTF-8 of their ``str()`` joined by U+001F. Two fits on the same observations get the same digest.
+    """
+    h = hashlib.sha1()
+    if labels is None:
+        h.update(b"int64:")
+        h.update(np.arange(n, dtype="<i8").tobytes())
+        return h.hexdigest()
+    if is_pandas(labels):
+        import pandas as pd
+
+        if isinstance(labels, pd.PeriodIndex):
+            h.update(f"period[{labels.freqstr}]:".encode())
+            h.update(np.asarray(labels.asi8, dtype="<i8").tobytes())
+            return h.hexdigest()
+        if isinstance(labels, pd.DatetimeIndex):
+            values = np.asarray(labels.tz_localize(None) if labels.tz is not None else labels)
+            h.update(b"datetime64[ns]:")
+            h.update(values.astype("datetime64[ns]").view("<i8").tobytes())
+            return h.hexdigest()
+    arr = np.asarray(labels)
+    if arr.dtype.kind in "iu" and arr.ndim == 1:
+        h.update(b"int64:")
+        h.update(arr.astype("<i8").tobytes())
+        return h.hexdigest()
+    h.update(b"str:")
+    h.update("\x1f".join(str(x) for x in arr.tolist()).encode("utf-8", "surrogatepass"))
+    return h.hexdigest()
+
+
+def model_frame(model: Any) -> Any:
+    """The model's data frame (formula fits), as a pandas DataFrame, or None."""
+    frame = getattr(model.data, "frame", None)
+    if frame is None:
+        return None
+    if hasattr(frame, "columns"):
+        return frame
+    import pandas as pd
+
+    return pd.DataFrame(frame)
+
+
+def aligned(values: Any, frame: Any, labels: Any, n: int) -> np.ndarray:
+    """The entries of a frame-aligned Series for the fit's rows, in the fit's row order.
+
+    ``labels``: the row labels of the fit (``model.data.row_labels``, None without any); ``n``: its rows.
+    """
+    if len(frame) == n and (labels is None or frame.index.equals(labels)):
+        return np.asarray(values)
+    if labels is not None and frame.index.is_unique:
+        try:
+            return np.asarray(values.loc[labels])
+        except KeyError:
+            pass
+    raise RowDataError("cannot align the data frame's rows with the rows the fit used")
+
+
+def _periods_per_year(offset: Any) -> float | None:
+    code = str(getattr(offset, "rule_code", "") or "").split("-")[0]
+    mult = int(getattr(offset, "n", 1) or 1)
+    code = code[2:] if code.startswith("CB") else code[1:] if code.startswith("B") else code
+    if code in ("Q", "QE", "QS"):
+        return 4.0 / mult
+    if code in ("M", "ME", "MS"):
+        return 12.0 / mult
+    return None
+
+
+def lags_for(offset: Any) -> int:
+    """Breusch-Godfrey lags by data frequency: 4 quarterly, 12 monthly, 1 otherwise (common practice)."""
+    per_year = _periods_per_year(offset) if offset is not None else None
+    if per_year == 4.0:
+        return 4
+    if per_year == 12.0:
+        return 12
+    return 1
+
+
+def time_order(model: Any, column: str | None) -> tuple[str | None, Any]:
+    """(reason the data is time-ordered or None, the data frequency as a pandas offset or None).
+
+    The data is time-ordered when the fit's rows have a DatetimeIndex or PeriodIndex, or when
+    ``column`` (the ``time_column`` option) is a column of the model's data frame.
+    """
+    labels = model.data.row_labels
+    if labels is not None and is_pandas(labels):
+        import pandas as pd
+
+        if isinstance(labels, (pd.DatetimeIndex, pd.PeriodIndex)):
+            kind = "DatetimeIndex" if isinstance(labels, pd.DatetimeIndex) else "PeriodIndex"
+            freq = labels.freq
+            if freq is None and len(labels) >= 3:
+                try:
+                    inferred = pd.infer_freq(labels)
+                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
+                except (TypeError, ValueError):
+                    freq = None
+            reason = f"the fit's rows have a {kind}"
+            if not labels.is_monotonic_increasing:
+                reason += " (rows are not in time order; the statistics use the row order)"
+            return reason, freq
+    frame = model_frame(model) if column is not None else None
+    if frame is not None and column in frame.columns:
+        import pandas as pd
+
+        series = frame[column]
+        freq = None
+        if isinstance(series.dtype, pd.PeriodDtype):
+            freq = series.dtype.freq
+        elif pd.api.types.is_datetime64_any_dtype(series.dtype):
+            values = pd.DatetimeIndex(series.dropna().unique()).sort_values()
+            if len(values) >= 3:
+                try:
+                    inferred = pd.infer_freq(values)
+                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
+                except (TypeError, ValueError):
+                    freq = None
+        reason = f"time_column {column!r} is in the model's data frame"
+        try:
+            if not series.is_monotonic_increasing:
+                reason += " (rows are not in time order; the statistics use the row order)"
+        except TypeError:
+            pass
+        return reason, freq
+    return None, None
+
+
+def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tuple[np.ndarray, list[str]]:
+    """(group code of every row used by the fit, group labels) for one break candidate.
+
+    ``candidate`` is a column of the model's data frame, else a column of the design (``names``:
+    the parameter names), else a pandas query expression on the frame (two groups: where it holds
+    and where it does not). ``n``: the fit's rows.
+    """
+    labels = model.data.row_labels
+    frame = model_frame(model)
+    if frame is not None and candidate in frame.columns:
+        import pandas as pd
+
+        values = aligned(frame[candidate], frame, labels, n)
+        try:
+            codes, uniques = pd.factorize(values, sort=True, use_na_sentinel=False)
+        except TypeError:
+            codes, uniques = pd.factorize(values, sort=False, use_na_sentinel=False)
+        return np.asarray(codes), [str(x) for x in list(uniques)]
+    if candidate in names:
+        column = np.asarray(model.exog[:, names.index(candidate)])
+        uniques, codes = np.unique(column, return_inverse=True)
+        return codes.reshape(-1), [str(x) for x in uniques.tolist()]
+    if frame is None:
+        raise RowDataError(
+            f"{candidate!r} is not a column of the design and the fit has no data frame "
+            "(not a formula fit), so a query expression cannot be evaluated"
+        )
+    try:
+        result = frame.eval(candidate)
+    except Exception as exc:  # noqa: BLE001 - any pandas parse/eval error
+        raise RowDataError(
+            f"{candidate!r} is neither a column of the data frame nor a query expression it can evaluate "
+            f"({_describe(exc)})"
+        ) from exc
+    if not hasattr(result, "__len__") or len(result) != len(frame):
+        raise RowDataError(f"the query expression {candidate!r} does not give one value per row")
+    import pandas as pd
+
+    result = pd.Series(np.asarray(result), index=frame.index)
+    if result.dtype != bool:
+        if not pd.api.types.is_bool_dtype(result.dtype) and result.dtype != object:
+            raise RowDataError(f"the query expression {candidate!r} is not a true/false condition")
+        result = result.fillna(False).astype(bool)
+    holds = aligned(result, frame, labels, n).astype(bool)
+    return np.where(holds, 0, 1), ["holds", "does not hold"]
