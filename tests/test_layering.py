@@ -127,8 +127,15 @@ def _is_module(name: str) -> bool:
 
 
 def _regvet_imports(path: Path) -> set[str]:
-    """The regvet modules ``path`` imports anywhere in its text (lazy imports inside functions included)."""
+    """The regvet modules ``path`` imports anywhere in its text (lazy imports inside functions included).
+
+    Imports under ``if TYPE_CHECKING:`` are left out: they name types for the checker and never run,
+    so they cannot make an import cycle.
+    """
     tree = ast.parse(path.read_text(), filename=str(path))
+    for node in ast.walk(tree):
+        if isinstance(node, ast.If) and "TYPE_CHECKING" in ast.unparse(node.test):
+            node.body = []
     package = _module_name(path) if path.name == "__init__.py" else _module_name(path).rpartition(".")[0]
     out: set[str] = set()
     for node in ast.walk(tree):

@@ -16,7 +16,8 @@ from contextlib import contextmanager
 from typing import Iterator
 from dataclasses import replace
 
-from regvet.analysis.collect import ModuleProvider, NoModules, collect
+from regvet.analysis.collect import collect
+from regvet.analysis.modules import ModuleProvider, NoModules
 from regvet.model.cells import CellMap
 from regvet.model.facts import FileFacts
 from regvet.model.finding import Finding, Severity

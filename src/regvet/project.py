@@ -10,12 +10,12 @@ import os
 from pathlib import Path
 from typing import Callable, Mapping
 
-from regvet.analysis.collect import ModuleSource
+from regvet.analysis.modules import ModuleSource
 from regvet.sources.python import SourceError, decode
 
 
 class FileModules:
-    """A :class:`~regvet.analysis.collect.ModuleProvider` reading ``.py`` files under ``root``.
+    """A :class:`~regvet.analysis.modules.ModuleProvider` reading ``.py`` files under ``root``.
 
     One instance serves one analysed file (``main``); ``texts`` may be shared between
     instances to read each helper module once per scan.

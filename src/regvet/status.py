@@ -90,7 +90,7 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
     """One line per check family for ``fit``: done (with which function and where), missing, waived."""
     facts = report.facts
     assert facts is not None
-    members = facts.family_of(fit.id)
+    members = facts.same_residuals(fit.id)
     families: list[FamilyStatus] = []
     for label, family in FAMILY_LABELS.items():
         checks = [c for m in sorted(members) for c in facts.events_of("checks", m) if c.family == family]

@@ -9,6 +9,7 @@ fit made in the analysed file may be used inside a helper module.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Mapping, Protocol
 
 from regvet.model.span import Span
 
@@ -109,6 +110,26 @@ class GroupTest:
     loc: Loc
 
 
+class _Derived(Protocol):
+    @property
+    def parent(self) -> int | None: ...
+
+
+def root_fit(fid: int, fits: Mapping[int, _Derived]) -> int:
+    """The fit a robust-covariance copy was derived from: follow ``parent`` links through ``fits``
+    (a :class:`Fit` or the collector's record of one, by id) to the first fit whose parent is
+    None or unknown. A cycle, which the collector never makes, stops at the first fit seen twice."""
+    seen: set[int] = set()
+    while fid not in seen:
+        seen.add(fid)
+        record = fits.get(fid)
+        parent = None if record is None else record.parent
+        if parent is None or parent not in fits:
+            return fid
+        fid = parent
+    return fid
+
+
 @dataclass(frozen=True)
 class FileFacts:
     fits: tuple[Fit, ...] = ()
@@ -127,21 +148,15 @@ class FileFacts:
     def _build(self) -> dict:
         if not self._index:
             by_id = {f.id: f for f in self.fits}
-            roots: dict[int, int] = {}
-            for f in self.fits:
-                fid, seen = f.id, set()
-                while fid not in seen and by_id[fid].parent is not None and by_id[fid].parent in by_id:
-                    seen.add(fid)
-                    fid = by_id[fid].parent  # type: ignore[assignment]
-                roots[f.id] = fid
-            families: dict[int, set[int]] = {}
+            roots = {f.id: root_fit(f.id, by_id) for f in self.fits}
+            siblings: dict[int, set[int]] = {}
             for fid, root in roots.items():
-                families.setdefault(root, set()).add(fid)
+                siblings.setdefault(root, set()).add(fid)
             by_fit: dict[str, dict[int, list]] = {"uses": {}, "checks": {}, "escapes": {}}
             for name in by_fit:
                 for event in getattr(self, name):
                     by_fit[name].setdefault(event.fit, []).append(event)
-            self._index.update(by_id=by_id, roots=roots, families=families, **by_fit)
+            self._index.update(by_id=by_id, roots=roots, siblings=siblings, **by_fit)
         return self._index
 
     def fit(self, fid: int) -> Fit:
@@ -151,10 +166,10 @@ class FileFacts:
         """The fit a robust-covariance copy was derived from (itself otherwise)."""
         return self._build()["roots"].get(fid, fid)
 
-    def family_of(self, fid: int) -> set[int]:
+    def same_residuals(self, fid: int) -> set[int]:
         """All fits sharing ``fid``'s residuals: itself, its root and every copy derived from the root."""
         index = self._build()
-        return set(index["families"].get(self.root(fid), {fid}))
+        return set(index["siblings"].get(self.root(fid), {fid}))
 
     def events_of(self, kind: str, fid: int) -> list:
         """``uses``, ``checks`` or ``escapes`` recorded for one fit."""

@@ -67,7 +67,7 @@ class RuleInput:
     def checks(self, fid: int, family: str) -> list[Check]:
         """Checks of ``family`` applied to the fit or to any copy sharing its residuals."""
         return [
-            c for m in sorted(self.facts.family_of(fid)) for c in self.facts.events_of("checks", m) if c.family == family
+            c for m in sorted(self.facts.same_residuals(fid)) for c in self.facts.events_of("checks", m) if c.family == family
         ]
 
     def escapes(self, fid: int) -> list[Escape]:

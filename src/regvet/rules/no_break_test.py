@@ -32,7 +32,7 @@ def _group_tested(inp: RuleInput, fit: Fit, groups: set[str]) -> bool:
             continue
         for other in gt.fits:
             o = inp.facts.fit(other)
-            if other in inp.facts.family_of(fit.id):
+            if other in inp.facts.same_residuals(fit.id):
                 return True
             if fit.outcome is not None and o.outcome is not None and o.outcome.key == fit.outcome.key:
                 return True
@@ -44,7 +44,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
 
 
 def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
-    members = inp.facts.family_of(fit.id)
+    members = inp.facts.same_residuals(fit.id)
     uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
     if not uses:
         return None

@@ -14,7 +14,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
 
 
 def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
-    members = inp.facts.family_of(fit.id)
+    members = inp.facts.same_residuals(fit.id)
     uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
     escapes = [e for m in sorted(members) for e in inp.escapes(m)]
     if not uses and not escapes:
