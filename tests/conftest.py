@@ -61,6 +61,7 @@ SLOW_GROUPS: dict[str, str] = {
     "test_published_examples.py": "runtime",  # runs the published examples' scripts for real
     "test_stats_schema.py::test_the_fit_records_of_a_real_run_match_the_schema": "runtime",
     "test_stats_schema.py::test_a_robust_copy_records_the_fit_it_came_from": "runtime",
+    "test_stats_schema.py::test_plot_points_are_downsampled_and_in_time_order": "runtime",
     "test_lsp.py": "server",  # the real language server over stdio and TCP
     "test_editors.py": "editors",  # Neovim and Emacs, headless
     "test_robustness.py": "scan",  # the whole installed statsmodels and standard library
