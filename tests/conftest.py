@@ -63,6 +63,7 @@ SLOW_GROUPS: dict[str, str] = {
     "test_stats_schema.py::test_a_robust_copy_records_the_fit_it_came_from": "runtime",
     "test_stats_schema.py::test_plot_points_are_downsampled_and_in_time_order": "runtime",
     "test_lsp.py": "server",  # the real language server over stdio and TCP
+    "test_baseline.py::test_the_language_server_hides_baselined_findings": "server",
     "test_editors.py": "editors",  # Neovim and Emacs, headless
     "test_robustness.py": "scan",  # the whole installed statsmodels and standard library
     "test_precommit.py": "precommit",  # the real pre-commit tool builds a hook environment

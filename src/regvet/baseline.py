@@ -97,7 +97,7 @@ def fingerprint(report: FileReport, finding: Finding) -> str:
     Made of the rule, the code at the finding (normalised by :func:`normalized_code`) and, for
     each fit it is about, that fit's estimator, formula, covariance type and the code of its
     site, fit call and model constructor in the analysed file (a helper's path for code
-    elsewhere). Neither line numbers, cell indices nor the message take part.
+    elsewhere, by its file name). Neither line numbers, cell indices nor the message take part.
     """
     lines = (report.python or "").split("\n")
     parts = [finding.rule, normalized_code(lines, _joined(report, finding.span))]
@@ -111,7 +111,8 @@ def fingerprint(report: FileReport, finding: Finding) -> str:
             continue
         parts += [fit.estimator, re.sub(r"\s+", "", fit.formula or ""), fit.cov_type or "?"]
         for loc in (fit.site, fit.fit_call):
-            parts.append(loc.path or normalized_code(lines, loc.span))
+            # code in a helper module: its file name (fronts show its path differently)
+            parts.append(loc.path.replace("\\", "/").rsplit("/", 1)[-1] if loc.path else normalized_code(lines, loc.span))
         if fit.model_span is not None:
             parts.append(normalized_code(lines, fit.model_span))
     if finding.rule == "parse-error" or (not finding.fits and not parts[1]):
