@@ -158,7 +158,8 @@ def load(url: str, expressions: dict[str, str], width: int = 1200, height: int =
                     text = " ".join(str(a.get("value", a.get("description", ""))) for a in params.get("args", []))
                     page.console.append((params.get("type", ""), text))
                 elif method == "Runtime.exceptionThrown":
-                    page.exceptions.append(json.dumps(params.get("exceptionDetails", {}))[:500])
+                    details = params.get("exceptionDetails", {})
+                    page.exceptions.append(str((details.get("exception") or {}).get("description") or details.get("text")))
                 elif method == "Log.entryAdded":
                     entry = params.get("entry", {})
                     page.console.append((entry.get("level", ""), f"{entry.get('source')}: {entry.get('text')} {entry.get('url', '')}"))

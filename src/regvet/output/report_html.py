@@ -201,7 +201,8 @@ def _fit(audit: Audit, fit: FitAudit, plots: Sequence[object], same: tuple[str, 
         crow = []
         for c in fit.coefficients:
             change = f'<span class="change">changes: {html.escape(c.note)}</span>' if c.changes else "same"
-            crow.append([f"<code>{html.escape(c.name)}</code>", c.estimate, c.se, c.p, c.se_robust, c.p_robust, change])
+            crow.append([f"<code>{html.escape(c.name)}</code>", *(html.escape(v) for v in (c.estimate, c.se, c.p,
+                         c.se_robust, c.p_robust)), change])  # fmt: skip
         out.append(_table(f"Coefficients of <code>{html.escape(fit.name)}</code> with the usual and {kind} standard errors",
                           ["term", "estimate", "usual SE", "usual p", f"{kind} SE", f"{kind} p", "5 % significance"],
                           crow, (1, 2, 3, 4, 5)))  # fmt: skip
