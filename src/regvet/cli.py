@@ -589,10 +589,10 @@ def run_mend(args: argparse.Namespace) -> int:
             continue
         out = sys.stderr if args.preview else sys.stdout
         for c in outcome.changes:
-            where = f"cell {c.cell + 1}, line {c.line}" if c.cell is not None else f"line {c.line}"
+            where = Span(c.line, 0, c.line, 0, c.cell).describe()
             out.write(f"{shown}, {where}: {c.rule}: {c.title[0].lower() + c.title[1:]}\n")
         for n in outcome.not_fixed:
-            where = f"cell {n.cell + 1}, line {n.line}" if n.cell is not None else f"line {n.line}"
+            where = Span(n.line, 0, n.line, 0, n.cell).describe()
             out.write(f"{shown}, {where}: {n.rule}: not fixed: {n.why}\n")
         if outcome.changes:
             edits += len(outcome.changes)

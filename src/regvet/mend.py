@@ -381,7 +381,7 @@ def unified_diff(shown: str, outcome: Outcome) -> str:
     pairs: list[tuple[str, str, str]] = []
     if outcome.cells:
         for index, (old, new) in sorted(outcome.cells.items()):
-            pairs.append((f"{shown} (cell {index + 1})", old, new))
+            pairs.append((f"{shown} (cell {index})", old, new))
     elif outcome.new != outcome.old:
         pairs.append((shown, outcome.old, outcome.new))
     out = []
