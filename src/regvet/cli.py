@@ -318,10 +318,16 @@ class Progress:
         fits = [f for f in (report.facts.fits if report.facts else ()) if f.site.path is None]
         count = [0]
 
+        cells = report.cell_map
+
         def on_fit(record: dict) -> None:
             count[0] += 1
             frames = record.get("frames") or []
-            line = frames[-1][1] if frames and len(frames[-1]) > 1 else None
+            line = frames[-1][1] if frames and len(frames[-1]) > 1 and isinstance(frames[-1][1], int) else None
+            where = str(frames[-1][0]) if frames else ""
+            if line is not None and cells is not None and where.startswith("<regvet-cell-"):
+                index = int(where[len("<regvet-cell-") : -1])  # a notebook cell: its line in the joined module
+                line = cells.starts[cells.cells.index(index)] + line - 1 if index in cells.cells else None
             name = next((f.result_name or f.formula for f in fits
                          if line is not None and f.site.span.line <= line <= f.site.span.end_line), None)  # fmt: skip
             what = f"fit {count[0]}" + (f" (`{name}`)" if name else "")
@@ -569,7 +575,12 @@ def run_mend(args: argparse.Namespace) -> int:
                     module_cache=module_cache), rules)  # fmt: skip
                 data = outcome.new.encode("utf-8")
             else:
-                source = read_source(original)
+                try:
+                    source = read_source(original)
+                except MendError:
+                    if b"statsmodels" not in original:
+                        continue  # nothing to mend in it, and nothing regvet checks there either
+                    raise
                 outcome = mend_python(source.text, lambda t: analyze(
                     t, shown, settings, notebook=False, provider=provider, module_key=file.stem,
                     module_cache=module_cache), rules)  # fmt: skip
