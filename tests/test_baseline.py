@@ -66,7 +66,7 @@ def test_identical_fits_are_counted_so_a_third_copy_is_new():
 @pytest.fixture
 def demo(tmp_path, monkeypatch) -> Path:
     folder = tmp_path / "analysis"
-    shutil.copytree(DEMO, folder)
+    shutil.copytree(DEMO, folder, ignore=shutil.ignore_patterns("__pycache__"))
     (folder / ".git").mkdir()  # the project root, where the baseline goes
     monkeypatch.chdir(folder)
     return folder

@@ -67,7 +67,7 @@ def findings(path: Path, rules=FIX_RULES):
 @pytest.fixture
 def demo(tmp_path, monkeypatch) -> Path:
     folder = tmp_path / "demo"
-    shutil.copytree(DEMO, folder)
+    shutil.copytree(DEMO, folder, ignore=shutil.ignore_patterns("__pycache__"))
     monkeypatch.chdir(folder)
     return folder
 
@@ -211,14 +211,11 @@ def test_encodings_byte_order_marks_line_endings_and_permissions_are_kept(run_cl
 
 
 # --- atomicity: a real process killed while it writes -------------------------------------------
-BIG_HEAD = "import statsmodels.formula.api as smf\n\n"
-BIG_FIT = 'res = smf.ols("riders ~ fare", data=crossings).fit()\nprint(res.summary())\n'
-
-
 def big_script(path: Path) -> bytes:
-    """A large analysis file: one unchecked fit, then about 4 MB of embedded data in a string."""
+    """A large file: a copy of one of statsmodels' own files with fits, then about 4 MB of embedded data."""
+    head = (STATSMODELS / STATSMODELS_FILES[0]).read_text(encoding="utf-8")
     rows = "".join(f"{i},{(i * 7919) % 1000},{(i * 104729) % 997}," + "x" * 200 + "\n" for i in range(18000))
-    data = (BIG_HEAD + BIG_FIT + 'ROUTE_WEEKS = """\\\n' + rows + '"""\n').encode()
+    data = (head + '\nROUTE_WEEKS = """\\\n' + rows + '"""\n').encode()
     path.write_bytes(data)
     return data
 

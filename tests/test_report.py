@@ -244,7 +244,7 @@ def ran(tmp_path_factory):
     """The demo and the invented FLIP script, reported with --run (HTML and Markdown; the second
     report reuses the cached runs)."""
     folder = tmp_path_factory.mktemp("report")
-    shutil.copytree(DEMO, folder / "demo")
+    shutil.copytree(DEMO, folder / "demo", ignore=shutil.ignore_patterns("__pycache__"))
     (folder / "demo" / "05_gusty_weeks.py").write_text(FLIP, encoding="utf-8")
     env = {**os.environ, "REGVET_CACHE_DIR": str(folder / "cache")}
     for name in ("audit.html", "audit.md"):

@@ -135,7 +135,7 @@ def _summary(audit: Audit, title: str) -> str:
         rows.append(["Run", "static reading only: the statistics, coefficients and plots need <code>--run</code>"])
     out = [f'<section aria-labelledby="summary">\n<h2 id="summary">Summary</h2>']
     out.append(f'<p class="caution"><strong>Caution.</strong> {html.escape(audit.caution)}</p>')
-    out.append(_table("What was scanned", ["", "count"], rows))
+    out.append(_table("What was scanned", ["what", "count"], rows))
     out.append('<h3 id="ranking">Fits ranked by how much their conclusions are at risk</h3>')
     out.append('<p class="muted">First the fits with coefficients whose 5 % significance changes under robust '
                "standard errors while the fit reports the usual ones, then those with rejected tests or invalid "

@@ -40,7 +40,7 @@ def _finding(f: Finding) -> str:
 def _fit(audit: Audit, fit: FitAudit, images: Sequence[tuple[str, str]], same: tuple[str, str] | None = None) -> list[str]:
     out = [f'### <a id="{fit.anchor}"></a>`{fit.name}`: {fit.path}, {fit.where}', ""]
     nobs = str(fit.nobs) if fit.nobs is not None else ("not recorded by the run" if audit.ran else "with `--run`")
-    out += _table(["", ""], [
+    out += _table(["fact", "value"], [
         ["location", f"`{fit.path}`, {fit.where}"],
         ["specification", f"`{fit.specification}` ({fit.estimator})"],
         ["dependent variable", f"`{fit.outcome}`" if fit.outcome else "not known"],
@@ -114,7 +114,7 @@ def render(audit: Audit, plots: Mapping[str, Sequence[object]] | None = None, im
         rows.append(["files whose run failed", ", ".join(f"`{p}`" for p, _ in audit.failed) or "none"])
     else:
         rows.append(["run", "static reading only: the statistics, coefficients and plots need `--run`"])
-    out += _table(["", "count"], rows)
+    out += _table(["what", "count"], rows)
     out += ["### Fits ranked by how much their conclusions are at risk", ""]
     out += _table(["rank", "fit", "where", "at risk", "rejected or missing checks"], [
         [i, f"[`{fit.name}`](#{fit.anchor})", f"`{fit.path}`, {fit.where}", fit.risk.describe(),
