@@ -236,6 +236,19 @@ def test_bad_output_paths_are_clear_errors(run_cli, in_demo, tmp_path):
     assert code == 2 and "no such folder" in err
     code, out, err = run_cli("report", ".")
     assert code == 2  # -o is required
+    locked = tmp_path / "locked"
+    locked.mkdir()
+    locked.chmod(0o500)
+    try:
+        if os.access(locked, os.W_OK):  # root ignores permissions: make the target a file's child instead
+            (tmp_path / "plain").write_text("x")
+            target = str(tmp_path / "plain" / "audit.html")
+        else:
+            target = str(locked / "audit.html")
+        code, out, err = run_cli("report", ".", "-o", target)
+        assert code == 2 and "Traceback" not in err and target.rsplit("/", 2)[-2] in err
+    finally:
+        locked.chmod(0o700)
 
 
 # --- with --run: statistics, coefficients, plots ---------------------------------------------------

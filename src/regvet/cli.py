@@ -482,20 +482,23 @@ def run_report(args: argparse.Namespace) -> int:
         except PlotsUnavailable as exc:
             sys.stderr.write(f"regvet: the report has no plots: {exc}\n")
             plots = {}
-    if markdown:
-        from regvet.output.report_md import render as render_md
+    try:
+        if markdown:
+            from regvet.output.report_md import render as render_md
 
-        folder = f"{output.stem}_plots"
-        text, images = render_md(audit, plots, image_dir=folder, same=same_as)
-        if images:
-            (output.parent / folder).mkdir(exist_ok=True)
-        for name, svg in images.items():
-            _write_new(output.parent / name, svg.encode("utf-8"))
-    else:
-        from regvet.output.report_html import render as render_html
+            folder = f"{output.stem}_plots"
+            text, images = render_md(audit, plots, image_dir=folder, same=same_as)
+            if images:
+                (output.parent / folder).mkdir(exist_ok=True)
+            for name, svg in images.items():
+                _write_new(output.parent / name, svg.encode("utf-8"))
+        else:
+            from regvet.output.report_html import render as render_html
 
-        text = render_html(audit, plots, same=same_as)
-    _write_new(output, text.encode("utf-8"))
+            text = render_html(audit, plots, same=same_as)
+        _write_new(output, text.encode("utf-8"))
+    except OSError as exc:
+        raise UsageError(f"-o: cannot write {exc.filename or args.output}: {exc.strerror or exc}") from None
     n_files = sum(1 for f in audit.files if f.fits)
     sys.stdout.write(f"regvet: report written to {display_path(output)}: {audit.fit_count} fit"
                      f"{'s' if audit.fit_count != 1 else ''} in {n_files} file{'s' if n_files != 1 else ''}"
@@ -644,8 +647,11 @@ def run_baseline(args: argparse.Namespace) -> int:
         key = holder.key_of(file)
         current = entries_for(report, key)
         files[key] = refreshed(files.get(key, []), current) if args.update else current
-    target.parent.mkdir(parents=True, exist_ok=True)
-    write(target, files)
+    try:
+        target.parent.mkdir(parents=True, exist_ok=True)
+        write(target, files)
+    except OSError as exc:
+        raise UsageError(f"cannot write the baseline {display_path(target)}: {exc.strerror or exc}") from None
     total = sum(len(v) for v in files.values())
     before = existing.count() if existing is not None else 0
     what = f"{total} finding{'s' if total != 1 else ''} in {sum(1 for v in files.values() if v)} files"
