@@ -59,8 +59,6 @@ def assert_only_fixes(old: str, new: str) -> None:
 
 
 def findings(path: Path, rules=FIX_RULES):
-    from regvet.cli import main
-
     return [f for f in analyze(path.read_text(encoding="utf-8"), path.name).findings if f.rule in rules and not f.waived]
 
 

@@ -27,7 +27,7 @@ from dataclasses import dataclass, field, replace
 from typing import Any
 
 from regvet.analysis.catalog import HAC_COV, ROBUST_COV
-from regvet.model.facts import Comparison, Fit
+from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
 from regvet.model.report import FileReport
 from regvet.model.span import Span

@@ -133,7 +133,7 @@ def _summary(audit: Audit, title: str) -> str:
             f"<code>{html.escape(p)}</code>" for p, _ in audit.failed) if audit.failed else "")])  # fmt: skip
     else:
         rows.append(["Run", "static reading only: the statistics, coefficients and plots need <code>--run</code>"])
-    out = [f'<section aria-labelledby="summary">\n<h2 id="summary">Summary</h2>']
+    out = ['<section aria-labelledby="summary">\n<h2 id="summary">Summary</h2>']
     out.append(f'<p class="caution"><strong>Caution.</strong> {html.escape(audit.caution)}</p>')
     out.append(_table("What was scanned", ["what", "count"], rows))
     out.append('<h3 id="ranking">Fits ranked by how much their conclusions are at risk</h3>')
