@@ -563,9 +563,7 @@ def run_mend(args: argparse.Namespace) -> int:
     for file in files:
         shown = display_path(file)
         settings = finder.for_path(file)
-        resolved = file.resolve()
-        root = next((r for r in sorted(roots, key=lambda r: len(r.parts), reverse=True) if r in resolved.parents), None)
-        provider = FileModules(root or resolved.parent, file, texts)
+        provider = FileModules(project_root(file.resolve(), roots, Path.cwd().resolve()), file, texts)
         try:
             original = file.read_bytes()
             if file.suffix == ".ipynb":
