@@ -21,7 +21,7 @@ test: $(STAMP)
 
 # Everything but the slow groups (see SLOW_GROUPS in tests/conftest.py): under 30 s on two cores.
 test-fast: $(STAMP)
-	$(BIN)/python -m pytest -q -m "not (runtime or server or editors or scan or precommit)"
+	$(BIN)/python -m pytest -q -m "not (runtime or server or editors or scan or precommit or browser)"
 
 bench: $(STAMP)
 	$(BIN)/python bench/run.py

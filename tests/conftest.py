@@ -61,7 +61,17 @@ SLOW_GROUPS: dict[str, str] = {
     "test_published_examples.py": "runtime",  # runs the published examples' scripts for real
     "test_stats_schema.py::test_the_fit_records_of_a_real_run_match_the_schema": "runtime",
     "test_stats_schema.py::test_a_robust_copy_records_the_fit_it_came_from": "runtime",
+    "test_stats_schema.py::test_plot_points_are_downsampled_and_in_time_order": "runtime",
     "test_lsp.py": "server",  # the real language server over stdio and TCP
+    "test_baseline.py::test_the_language_server_hides_baselined_findings": "server",
+    "test_report.py::test_run_report_has_statistics_coefficients_and_plots": "runtime",
+    "test_report.py::test_the_fit_whose_significance_changes_ranks_first": "runtime",
+    "test_report.py::test_run_markdown_has_svg_files_beside_it": "runtime",
+    "test_report.py::test_progress_line_on_a_terminal_only": "runtime",
+    "test_report.py::test_the_report_in_a_real_browser": "browser",  # headless Chromium (and a real run)
+    "test_report.py::test_the_browser_check_fails_on_a_broken_page": "browser",
+    "test_mend.py::test_killed": "runtime",  # real mend processes killed mid-write
+    "test_mend.py::test_a_file_changed_while_mend_works_is_left_alone": "runtime",
     "test_editors.py": "editors",  # Neovim and Emacs, headless
     "test_robustness.py": "scan",  # the whole installed statsmodels and standard library
     "test_precommit.py": "precommit",  # the real pre-commit tool builds a hook environment
@@ -72,6 +82,8 @@ def pytest_collection_modifyitems(config, items):
     for item in items:
         name = item.nodeid.split("/")[-1]
         for prefix, marker in SLOW_GROUPS.items():
-            if name == prefix or name.startswith(prefix + "::") or name.startswith(prefix + "["):
+            if name == prefix or name.startswith(prefix + "::") or name.startswith(prefix + "[") or (
+                "::" in prefix and name.startswith(prefix)
+            ):
                 item.add_marker(getattr(pytest.mark, marker))
                 break

@@ -21,3 +21,12 @@ def test_rules_the_engine_owns_offer_no_quick_fix():
             assert not rule.quick_fixes, rule.id
         if rule.blocks_run:
             assert not rule.needs_run, rule.id  # a run never happens for such a file
+
+
+def test_rules_that_report_a_rejected_test_name_a_check_family_and_need_a_run():
+    rejecting = {r.rejects for r in ALL_RULES if r.rejects is not None}
+    assert rejecting <= set(FAMILIES)
+    assert rejecting == set(FAMILIES)  # the audit report can show every family as rejected
+    for rule in ALL_RULES:
+        if rule.rejects is not None:
+            assert rule.needs_run and rule.family is None, rule.id

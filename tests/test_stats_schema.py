@@ -166,14 +166,35 @@ robust = res.get_robustcov_results("HC1")
 """
 
 
+#: For the report's plot points: a weekly date index (residuals in time order) and a perfect fit
+#: (no points: ``points_error``).
+POINTS_SCRIPT = """\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+
+rng = np.random.default_rng(11)
+weeks = pd.date_range("2022-01-03", periods=60, freq="W-MON")
+crossings = pd.DataFrame({"fare": rng.uniform(2, 9, 60)}, index=weeks)
+crossings["riders"] = 400 - 10 * crossings["fare"] + rng.normal(0, 5, 60)
+weekly = smf.ols("riders ~ fare", data=crossings).fit()
+crossings["exact"] = 3 * crossings["fare"]
+perfect = smf.ols("exact ~ fare", data=crossings).fit()
+"""
+
+
 @pytest.fixture(scope="module")
 def records(tmp_path_factory) -> list[FitRecord]:
-    """The probe's fit records of two real runs of SCRIPT in a child process."""
-    script = tmp_path_factory.mktemp("run") / "ridership.py"
+    """The probe's fit records of three real runs in a child process."""
+    folder = tmp_path_factory.mktemp("run")
+    script = folder / "ridership.py"
     script.write_text(SCRIPT, encoding="utf-8")
     out = run(script, timeout=120, options={"max_fits_per_site": 1}).fits  # the loop's second fit: a note
     out += run(script, timeout=120, options={"cv_folds": 1}).fits  # an invalid option: the statistics fail
-    assert len(out) == 6, out
+    weekly = folder / "weekly.py"
+    weekly.write_text(POINTS_SCRIPT, encoding="utf-8")
+    out += run(weekly, timeout=120, options={"plot_points": 25}).fits
+    assert len(out) == 8, out
     return out
 
 
@@ -186,6 +207,19 @@ def test_the_fit_records_of_a_real_run_match_the_schema(records):
     produced.add(("FitRecord", "derived_from"))
     never = sorted(k for k in _declared(FitRecord) if k[0] == "FitRecord" and k not in produced)
     assert not never, f"declared in FitRecord but never written by the probe: {never}"
+
+
+def test_plot_points_are_downsampled_and_in_time_order(records):
+    with_points = [r for r in records if r.get("points")]
+    assert len(with_points) == 1
+    points = with_points[0]["points"]
+    assert points["nobs"] == 60 and points["drawn"] == 25 and len(points["fitted"]) == 25
+    assert len(points["qq_sample"]) == len(points["qq_theoretical"]) == 25
+    assert points["qq_sample"] == sorted(points["qq_sample"])
+    assert points["time"]["order_by"] == "the row index" and points["time"]["position"][0] == 1
+    assert points["time"]["first"].startswith("2022-01-03")
+    [failed] = [r for r in records if "points_error" in r]
+    assert failed["points"] is None and "zero" in failed["points_error"]
 
 
 @pytest.mark.xfail(

@@ -35,6 +35,7 @@ from pygls.lsp.server import LanguageServer
 from pygls.uris import from_fs_path, to_fs_path
 
 from regvet import __version__
+from regvet.baseline import hide_known
 from regvet.config import ConfigError, find_config
 from regvet.engine import analyze, analyze_cells, with_runtime
 from regvet.lsp.convert import CONFIG_ERROR, Positions, to_diagnostic
@@ -291,6 +292,7 @@ def run_analysis(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str]) -> 
 
 def build_result(ls: RegvetServer, snap: Snapshot, report: FileReport) -> Result:
     encoding = ls.workspace.position_encoding
+    report = hide_known(report, to_fs_path(snap.key))  # what the project's regvet-baseline.json lists
     file_uri: str | None = None
     if isinstance(snap, NotebookSnapshot):
         texts = {c.uri: c.text for c in snap.cells if c.is_code}

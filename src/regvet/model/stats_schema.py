@@ -172,6 +172,30 @@ class FitStatistics(_FitStatisticsAlways, total=False):
     cv: CrossValidation | None
 
 
+class TimePoints(TypedDict):
+    """Residuals in time order, at evenly spaced ranks of that order."""
+
+    order_by: str  # "the row index" or the time column
+    position: list[int]  # 1-based rank in time order
+    resid: list[float]
+    first: str  # the first and last time values, as text
+    last: str
+
+
+class PlotPoints(TypedDict):
+    """The points of the report's residual plots of one fit (``regvet_points.residual_points``)."""
+
+    nobs: int
+    drawn: int  # points in the scatter plots (all rows, or a seeded random subset)
+    seed: int
+    fitted: list[float]
+    resid: list[float]
+    sqrt_abs_studentized: list[float]  # scale-location
+    qq_theoretical: list[float]  # normal quantiles at the plotting positions
+    qq_sample: list[float]  # sorted internally studentized residuals at the same ranks
+    time: TimePoints | None
+
+
 class FitRecord(TypedDict, total=False):
     """One fit as the probe recorded it during a run (a line of its output)."""
 
@@ -190,6 +214,9 @@ class FitRecord(TypedDict, total=False):
     note: str
     stats_error: str
     stats_seconds: float
+    #: Only when the run was asked for plot points (``regvet report --run``).
+    points: PlotPoints | None
+    points_error: str
 
 
 # --- what the engine attaches to a finding (``Finding.stats``) -----------------------------------

@@ -100,6 +100,9 @@ class Rule:
     #: The check family (a key of ``model.settings.FAMILIES``) whose missing check this rule
     #: reports; the hover status shows that family as missing, or waived, from its finding.
     family: str | None = None
+    #: The check family (a key of ``model.settings.FAMILIES``) whose test, computed by a run, this
+    #: rule reports as rejected for the fit; the audit report shows that family as rejected from it.
+    rejects: str | None = None
     #: Judges a comparison between fits: after a run its findings carry the compared fits' table,
     #: and the hover status shows the comparison as failed.
     compares_fits: bool = False

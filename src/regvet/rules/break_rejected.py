@@ -76,4 +76,5 @@ print(res.params)
     check=check,
     references=("Chow, G. C. (1960). Econometrica 28(3), 591-605.",),
     needs_run=True,
+    rejects="breaks",
 )

@@ -84,4 +84,5 @@ print(res.params)
         "(2007), Quality & Quantity 41, 673-690, for a critique.",
     ),
     needs_run=True,
+    rejects="collinearity",
 )

@@ -71,4 +71,5 @@ print(res.params)
     check=check,
     references=("Ramsey, J. B. (1969). JRSS B 31(2), 350-371.",),
     needs_run=True,
+    rejects="form",
 )

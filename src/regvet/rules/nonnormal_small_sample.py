@@ -74,4 +74,5 @@ print(res.summary())
         "The 30 degrees of freedom threshold is common practice.",
     ),
     needs_run=True,
+    rejects="normality",
 )

@@ -84,4 +84,5 @@ print(res.summary())
         "Newey, W. K. and West, K. D. (1987). Econometrica 55(3), 703-708.",
     ),
     needs_run=True,
+    rejects="serial",
 )

@@ -138,10 +138,12 @@ def run(
     cache: RunCache | None = None,
     content: bytes | None = None,
     started: Callable[[subprocess.Popen], None] | None = None,
+    on_fit: Callable[[FitRecord], None] | None = None,
 ) -> RunResult:
     """Run one script (or a notebook's code cells) under the probe; never raises for the user's faults.
 
-    ``started`` receives the child process (the language server uses it to cancel a run).
+    ``started`` receives the child process (the language server uses it to cancel a run);
+    ``on_fit`` receives each fit record as the child writes it (for a progress line).
     """
     options = options or {}
     interpreter = python or sys.executable
@@ -190,7 +192,10 @@ def run(
             if started is not None:
                 started(proc)
             try:
-                proc.wait(timeout=timeout)
+                if on_fit is None:
+                    proc.wait(timeout=timeout)
+                else:
+                    _wait_watching(proc, timeout, out, on_fit)
             except subprocess.TimeoutExpired:
                 result.timed_out = True
                 _kill(proc)
@@ -207,6 +212,37 @@ def run(
     if cache is not None:
         cache.put(key, result)
     return result
+
+
+def _wait_watching(proc: subprocess.Popen, timeout: float, out: Path, on_fit: Callable[[FitRecord], None]) -> None:
+    """``proc.wait(timeout)``, calling ``on_fit`` for each complete fit line the child adds to ``out``."""
+    deadline = time.monotonic() + timeout
+    done = 0  # bytes of ``out`` already passed on
+    while True:
+        try:
+            proc.wait(timeout=max(min(0.2, deadline - time.monotonic()), 0.001))
+            return
+        except subprocess.TimeoutExpired:
+            if time.monotonic() >= deadline:
+                raise
+        try:
+            with open(out, "rb") as fh:
+                fh.seek(done)
+                chunk = fh.read()
+        except OSError:
+            continue
+        complete = chunk[: chunk.rfind(b"\n") + 1]
+        done += len(complete)
+        for line in complete.decode("utf-8", errors="replace").splitlines():
+            try:
+                record = json.loads(line)
+            except ValueError:
+                continue
+            if isinstance(record, dict) and record.get("type") == "fit":
+                try:
+                    on_fit(cast(FitRecord, record))
+                except Exception:  # a progress display never stops a run
+                    pass
 
 
 def _kill(proc: subprocess.Popen) -> None:

@@ -187,12 +187,16 @@ def run_and_judge(
     *,
     cache: RunCache | None,
     started: Callable[[Any], None] | None = None,
+    plot_points: int = 0,
+    on_fit: Callable[[FitRecord], None] | None = None,
 ) -> tuple[FileReport, RunResult | None]:
     """Run ``path`` under the probe and return its report re-judged with the statistics.
 
     What runs is exactly the Python the static analysis read (``report.python``: an editor's
     unsaved text, a notebook's code cells), and it keys the cache. Files with nothing to run (no
-    statsmodels, or a parse error) are returned unchanged.
+    statsmodels, or a parse error) are returned unchanged. ``plot_points`` > 0 asks the probe for
+    up to that many residual points per fit (``FitRecord.points``, for the report's plots);
+    ``on_fit`` sees each fit record as the run writes it.
     """
     if report.skipped or report.facts is None or report.python is None:
         return report, None
@@ -205,6 +209,8 @@ def run_and_judge(
         return report, None
     options = options_for(settings)
     options["cv_sites"] = _cv_sites(src, report)
+    if plot_points > 0:
+        options["plot_points"] = plot_points
     memory = settings.run_memory_mb or None
     result = run(
         path,
@@ -217,6 +223,7 @@ def run_and_judge(
         cache=cache,
         content=report.python.encode("utf-8"),
         started=started,
+        on_fit=on_fit,
     )
     facts = RuntimeFacts(
         fit_stats=match(src, report, result),

@@ -24,7 +24,7 @@ import traceback
 from typing import Any
 
 _state = threading.local()
-_PROBE_OPTIONS = frozenset({"cv_sites", "max_fits_per_site"})  # the probe's own, not statistics options
+_PROBE_OPTIONS = frozenset({"cv_sites", "max_fits_per_site", "plot_points"})  # the probe's own, not statistics options
 _LIBRARY_DIRS: tuple[str, ...] = ()
 _PROBE_DIR = os.path.dirname(os.path.abspath(__file__))
 
@@ -119,6 +119,20 @@ class Recorder:
         finally:
             _state.busy = False
         record["stats_seconds"] = round(time.perf_counter() - start, 6)
+        limit = int(self.options.get("plot_points") or 0)
+        if limit > 0:  # the report's residual plots (regvet report --run)
+            _state.busy = True
+            try:
+                from regvet_points import residual_points
+
+                stats = record.get("stats") or {}
+                record["points"] = residual_points(res, limit, bool(stats.get("time_ordered")),
+                                                   self.options.get("time_column"))  # fmt: skip
+            except Exception as exc:  # the plots failing must never fail the user's program
+                record["points"] = None
+                record["points_error"] = f"{type(exc).__name__}: {exc}"
+            finally:
+                _state.busy = False
         self.write(record)
 
     def finish(self, status: str, **extra: Any) -> None:
