@@ -87,3 +87,13 @@ def pytest_collection_modifyitems(config, items):
             ):
                 item.add_marker(getattr(pytest.mark, marker))
                 break
+
+
+def pytest_configure(config):
+    """Every regvet the tests start (in process or as a subprocess) caches into a folder of this session,
+    never into the user's cache; tests of the cache itself set their own."""
+    import os
+    import tempfile
+
+    if "REGVET_CACHE_DIR" not in os.environ:
+        os.environ["REGVET_CACHE_DIR"] = tempfile.mkdtemp(prefix="regvet-test-cache-")

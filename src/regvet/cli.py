@@ -21,11 +21,14 @@ from typing import Sequence
 from regvet import __version__
 from regvet.baseline import BASELINE_NAME, BaselineError
 from regvet.config import ConfigError, load_settings
+from regvet.analysis.providers import ModuleProvider
 from regvet.engine import analyze, error_report
+from regvet.factcache import FactCache, RecordingModules
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
+from regvet.parallel import default_jobs, map_ordered
 from regvet.project import FileModules, display_path
 from regvet.rules import ALL_RULES, RULES_BY_ID
 from regvet.rules.texts import CAUTION, explain, render_rules
@@ -146,7 +149,21 @@ def _run_options(p: argparse.ArgumentParser) -> None:
         help="runtime mode: EXECUTE each analysed file in a child process (its own folder, stdin closed, "
         "time and memory limits) and attach the statistics of its fits; never used by the pre-commit hook",
     )
-    p.add_argument("--no-cache", action="store_true", help="with --run: run again even if nothing changed")
+    p.add_argument("--no-cache", action="store_true",
+                   help="neither read nor write regvet's caches: analyse every file again (and with --run, run again)")
+    p.add_argument("--jobs", "-j", type=_jobs, default=None, metavar="N",
+                   help="analyse (and with --run, run) N files at a time in worker processes "
+                   "(default: the number of cores)")  # fmt: skip
+
+
+def _jobs(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number of jobs, not {text!r}") from None
+    if value < 1:
+        raise argparse.ArgumentTypeError(f"expected 1 or more jobs, not {value}")
+    return value
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -351,19 +368,19 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     files = collect_files(args.paths, exclude)
     roots = {Path(p).resolve() for p in args.paths if Path(p).is_dir()}
     default_root = Path.cwd().resolve()
-    texts: dict[Path, str | None] = {}
-    module_cache: dict = {}
+    no_cache = getattr(args, "no_cache", False)
+    jobs = getattr(args, "jobs", None) or default_jobs()
+    facts = None if no_cache else FactCache()
+    tasks = [(file, finder.for_path(file), project_root(file.resolve(), roots, default_root)) for file in files]
+    reports = _analyze_all(tasks, facts, jobs)
     cache = None
     running = getattr(args, "run", False)
     if running:
         from regvet.runtime.runner import RunCache
 
-        cache = None if args.no_cache else RunCache()
+        cache = None if no_cache else RunCache()
     out = Scan()
-    for k, file in enumerate(files, start=1):
-        settings = finder.for_path(file)
-        root = project_root(file.resolve(), roots, default_root)
-        report = analyze_file(file, settings, root, texts, module_cache)
+    for k, ((file, settings, _), report) in enumerate(zip(tasks, reports), start=1):
         if running:
             if progress is not None:
                 progress.file(k, len(files), file)
@@ -661,15 +678,76 @@ def run_baseline(args: argparse.Namespace) -> int:
     return EXIT_OK
 
 
+Task = tuple[Path, Settings, Path]  # a file, its settings and its project root
+
+
+class FileAnalyzer:
+    """Analyses files one task at a time, in this process or in a worker, keeping what serves the next file
+    (project modules read and parsed) and writing each analysis to the fact cache."""
+
+    def __init__(self, cache_folder: str | None) -> None:
+        self.texts: dict[Path, str | None] = {}
+        self.module_cache: dict = {}
+        self.cache = FactCache(Path(cache_folder)) if cache_folder is not None else None
+
+    def __call__(self, task: Task) -> FileReport:
+        file, settings, root = task
+        return analyze_file(file, settings, root, self.texts, self.module_cache, cache=self.cache)
+
+
+def _worker_lost(task: Task, why: str) -> FileReport:
+    """The report for a file whose worker process died: regvet failed on it, the scan goes on."""
+    from regvet.model.report import Crash
+
+    return FileReport(display_path(task[0]), crashes=(Crash("analysis", why),))
+
+
+def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[FileReport]:
+    """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes."""
+    reports: list[FileReport | None] = [None] * len(tasks)
+    texts: dict[Path, str | None] = {}
+    if cache is not None:
+        for i, (file, settings, root) in enumerate(tasks):
+            reports[i] = _cached(file, settings, root, texts, cache)
+    todo = [i for i, r in enumerate(reports) if r is None]
+    folder = str(cache.folder) if cache is not None else None
+    done = map_ordered(FileAnalyzer, (folder,), [tasks[i] for i in todo], jobs, _worker_lost)
+    for i, report in zip(todo, done):
+        reports[i] = report
+    return [r for r in reports if r is not None]
+
+
+def _cached(file: Path, settings: Settings, root: Path, texts: dict[Path, str | None],
+            cache: FactCache) -> FileReport | None:  # fmt: skip
+    try:
+        data = file.read_bytes()
+    except OSError:
+        return None
+    key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
+    return cache.get(key, FileModules(root, file, texts))
+
+
 def analyze_file(
-    file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], module_cache: dict
-) -> FileReport:
-    """Read one file and analyse it; unreadable files become ``parse-error`` findings."""
+    file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], module_cache: dict,
+    cache: FactCache | None = None,
+) -> FileReport:  # fmt: skip
+    """Read one file and analyse it; unreadable files become ``parse-error`` findings. With ``cache``,
+    the analysis is stored there with the project-module lookups it made."""
     shown = display_path(file)
     try:
         data = file.read_bytes()
     except OSError as exc:
         return _unreadable(shown, settings, f"cannot read the file: {exc.strerror or exc}")
+    if cache is None:
+        return _analyze_bytes(file, shown, data, settings, FileModules(root, file, texts), module_cache)
+    provider = RecordingModules(FileModules(root, file, texts))
+    report = _analyze_bytes(file, shown, data, settings, provider, module_cache)
+    cache.put(cache.key(data, shown, root, settings, file.suffix == ".ipynb"), provider.lookups, report)
+    return report
+
+
+def _analyze_bytes(file: Path, shown: str, data: bytes, settings: Settings, provider: ModuleProvider,
+                   module_cache: dict) -> FileReport:  # fmt: skip
     if file.suffix == ".ipynb":
         try:
             text = data.decode("utf-8-sig")
@@ -680,7 +758,6 @@ def analyze_file(
         if isinstance(decoded, SourceError):
             return error_report(shown, decoded, settings)
         text = decoded
-    provider = FileModules(root, file, texts)
     return analyze(text, shown, settings, provider=provider, module_cache=module_cache, module_key=file.stem)
 
 

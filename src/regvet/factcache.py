@@ -1,0 +1,152 @@
+"""The cache of per-file analyses (``regvet check``): one entry per file content, settings and regvet build.
+
+An entry holds the file's report (its facts, findings and the rule input) and every project-module
+lookup the analysis made, with what it found (the module's path and a hash of its text, or
+nothing). The entry's key covers regvet's version and the source of regvet itself (so an edited
+checkout never reads stale entries), the settings, the path the findings name, the project root
+and the file's bytes; a lookup is valid only while every recorded module lookup still finds the
+same module with the same text, so a changed helper module re-analyses the files that import it
+(and a new module that shadows an import does too).
+
+Entries live under ``$REGVET_CACHE_DIR/facts``, else ``$XDG_CACHE_HOME/regvet/facts``, else
+``~/.cache/regvet/facts``. Each is written to a temporary file in the same folder and renamed into
+place, so concurrent runs never read a half-written entry and a killed run leaves none; an
+unreadable or foreign entry is a miss. Reports whose analysis crashed are never stored.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import pickle
+import tempfile
+from pathlib import Path
+from typing import Any
+
+from regvet import __version__
+from regvet.analysis.providers import ModuleProvider, ModuleSource
+from regvet.model.report import FileReport
+from regvet.model.settings import Settings
+
+#: Bumped when the layout of an entry changes.
+FORMAT = 1
+#: One recorded lookup: ``(name, level, importer)`` -> ``(key, path, text hash)`` or None (not found).
+Lookup = tuple[tuple[str, int, str | None], tuple[str, str, str] | None]
+
+_BUILD: str | None = None
+
+
+def default_folder() -> Path:
+    base = os.environ.get("REGVET_CACHE_DIR")
+    if base:
+        return Path(base) / "facts"
+    xdg = os.environ.get("XDG_CACHE_HOME")
+    return (Path(xdg) if xdg else Path.home() / ".cache") / "regvet" / "facts"
+
+
+def build_fingerprint() -> str:
+    """regvet's version and the size and modification time of every module of the installed package."""
+    global _BUILD
+    if _BUILD is None:
+        h = hashlib.sha256(f"{FORMAT}\0{__version__}\0".encode())
+        package = Path(__file__).resolve().parent
+        for folder, dirs, names in os.walk(package):
+            dirs[:] = sorted(d for d in dirs if d != "__pycache__")
+            for name in sorted(names):
+                if name.endswith(".py"):
+                    st = os.stat(os.path.join(folder, name))
+                    h.update(f"{os.path.relpath(os.path.join(folder, name), package)}\0{st.st_size}\0"
+                             f"{st.st_mtime_ns}\0".encode())  # fmt: skip
+        _BUILD = h.hexdigest()
+    return _BUILD
+
+
+def settings_fingerprint(settings: Settings) -> str:
+    """Every field of the settings in a stable spelling (sets sorted: string hashes vary per process)."""
+    parts = []
+    for name in sorted(settings.__dataclass_fields__):
+        if name == "source":
+            continue
+        value = getattr(settings, name)
+        if isinstance(value, frozenset):
+            value = sorted(value)
+        parts.append(f"{name}={value!r}")
+    return "\n".join(parts)
+
+
+def _text_hash(text: str) -> str:
+    return hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()
+
+
+class RecordingModules:
+    """A :class:`ModuleProvider` that passes lookups on and records each one with what it found."""
+
+    def __init__(self, inner: ModuleProvider) -> None:
+        self.inner = inner
+        self.lookups: dict[tuple[str, int, str | None], tuple[str, str, str] | None] = {}
+
+    def find(self, name: str, level: int, importer: str | None) -> ModuleSource | None:
+        found = self.inner.find(name, level, importer)
+        self.lookups[(name, level, importer)] = (
+            None if found is None else (found.key, found.path, _text_hash(found.text))
+        )
+        return found
+
+
+class FactCache:
+    """Reports by content key, valid while the project modules their analysis looked up are unchanged."""
+
+    def __init__(self, folder: Path | None = None) -> None:
+        self.folder = folder if folder is not None else default_folder()
+
+    def key(self, data: bytes, shown: str, root: Path, settings: Settings, notebook: bool) -> str:
+        h = hashlib.sha256()
+        for part in (build_fingerprint(), settings_fingerprint(settings), shown, str(root), str(notebook)):
+            h.update(part.encode("utf-8", "surrogateescape"))
+            h.update(b"\0")
+        h.update(data)
+        return h.hexdigest()
+
+    def _entry(self, key: str) -> Path:
+        return self.folder / key[:2] / f"{key[2:]}.pickle"
+
+    def get(self, key: str, provider: ModuleProvider) -> FileReport | None:
+        """The stored report, if there is one and its module lookups still find the same modules."""
+        try:
+            with open(self._entry(key), "rb") as fh:
+                stored: Any = pickle.load(fh)
+        except Exception:  # missing, unreadable, truncated by hand or from another layout: a miss
+            return None
+        if not (isinstance(stored, tuple) and len(stored) == 3 and stored[0] == FORMAT):
+            return None
+        _, lookups, report = stored
+        if not isinstance(report, FileReport):
+            return None
+        for (name, level, importer), was in lookups:
+            try:
+                found = provider.find(name, level, importer)
+            except Exception:
+                return None
+            now = None if found is None else (found.key, found.path, _text_hash(found.text))
+            if now != was:
+                return None
+        return report
+
+    def put(self, key: str, lookups: dict, report: FileReport) -> None:
+        """Store ``report`` (atomically: a temporary file renamed into place); crashed analyses are not stored."""
+        if report.crashes:
+            return
+        entry = self._entry(key)
+        try:
+            data = pickle.dumps((FORMAT, tuple(lookups.items()), report), protocol=pickle.HIGHEST_PROTOCOL)
+            entry.parent.mkdir(parents=True, exist_ok=True)
+            fd, tmp = tempfile.mkstemp(dir=entry.parent, prefix=".", suffix=".tmp")
+            try:
+                with os.fdopen(fd, "wb") as fh:
+                    fh.write(data)
+                os.replace(tmp, entry)
+            except BaseException:
+                Path(tmp).unlink(missing_ok=True)
+                raise
+        except (OSError, pickle.PicklingError, TypeError, AttributeError, RecursionError):
+            pass  # a cache that cannot be written only costs a new analysis next time
