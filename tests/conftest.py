@@ -73,7 +73,11 @@ SLOW_GROUPS: dict[str, str] = {
     "test_mend.py::test_killed": "runtime",  # real mend processes killed mid-write
     "test_mend.py::test_a_file_changed_while_mend_works_is_left_alone": "runtime",
     "test_editors.py": "editors",  # Neovim and Emacs, headless
-    "test_robustness.py": "scan",  # the whole installed statsmodels and standard library
+    "test_robustness.py": "scan",
+    "test_scan_speed.py::test_two": "scan",  # real regvet processes over copies of statsmodels modules
+    "test_scan_speed.py::test_warm": "scan",
+    "test_scan_speed.py::test_concurrent": "scan",
+    "test_scan_speed.py::test_a_killed": "scan",  # the whole installed statsmodels and standard library
     "test_precommit.py": "precommit",  # the real pre-commit tool builds a hook environment
 }
 
