@@ -74,6 +74,7 @@ SLOW_GROUPS: dict[str, str] = {
     "test_mend.py::test_a_file_changed_while_mend_works_is_left_alone": "runtime",
     "test_editors.py": "editors",  # Neovim and Emacs, headless
     "test_robustness.py": "scan",
+    "test_collector_golden.py": "scan",  # the whole installed statsmodels
     "test_scan_speed.py::test_two": "scan",  # real regvet processes over copies of statsmodels modules
     "test_scan_speed.py::test_warm": "scan",
     "test_scan_speed.py::test_concurrent": "scan",
