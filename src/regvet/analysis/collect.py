@@ -32,7 +32,7 @@ from regvet.analysis.libraries import (
 from regvet.analysis.modules import ModuleLoading, ModuleProvider, NoModules
 from regvet.analysis.regressions import RESULT_KINDS, RegressionSemantics
 from regvet.analysis.state import (
-    FunctionRecord, Frame, ModuleCache, ModuleRecord, Node, Parser, dotted_name, short_text,
+    FunctionRecord, Frame, ModuleCache, ModuleRecord, Node, Parser, dotted_name,
 )  # fmt: skip
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import (
@@ -187,28 +187,13 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
 
         Branches and loops save and join only these, instead of copying the whole environment
         (module-level scripts have thousands of names). Callees that change globals are joined
-        with a little less precision, never lost.
+        with a little less precision, never lost. The compound statements nested inside get their
+        own sets on the way (each node is read once, however deep the nesting).
         """
         cached = self.touched_memo.get(id(stmt))
         if cached is not None:
             return cached
-        names: set[str] = set()
-        for node in ast.walk(stmt):
-            if isinstance(node, ast.Name):
-                names.add(node.id)
-            elif isinstance(node, ast.Attribute):
-                key = dotted_name(node)
-                if key is not None:
-                    names.add(key)
-            elif isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
-                names.add(node.name)
-            elif isinstance(node, (ast.Import, ast.ImportFrom)):
-                names.update((a.asname or a.name).split(".")[0] for a in node.names)
-            elif isinstance(node, ast.ExceptHandler) and node.name:
-                names.add(node.name)
-        result = frozenset(names)
-        self.touched_memo[id(stmt)] = result
-        return result
+        return _touched(stmt, self.touched_memo)
 
     def run_branches(self, stmt: ast.stmt, bodies: list[list[ast.stmt]], frame: Frame, exhaustive: bool = True) -> None:
         """Run each body from the same starting values and join what they leave behind."""
@@ -398,10 +383,15 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
 
     def eval_Constant(self, node: ast.Constant, frame: Frame) -> Value:
         value = node.value
+        kind = type(value)
+        if kind is str or kind is int or kind is float:
+            known = _LITERALS.get((kind, value))
+            if known is not None:
+                return known
         if isinstance(value, str) and len(value) <= 4000:
-            return tagged(tags.literal(value))
+            return _literal_value(kind, value)
         if isinstance(value, (int, float)) and not isinstance(value, bool):
-            return tagged(tags.literal(value))
+            return _literal_value(kind, value)
         return EMPTY
 
     def eval_JoinedStr(self, node: ast.JoinedStr, frame: Frame) -> Value:
@@ -661,7 +651,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
                 handled = True
                 out = join(out, result)
         if not handled:
-            self.escape_args(args, kwargs, short_text(node.func), node, frame)
+            self.escape_args(args, kwargs, node.func, node, frame)
             out = tagged(tags.opaque_call(node), *time_order_of(args, kwargs, receiver))
         return out
 
@@ -757,6 +747,57 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
         if self.fit_making(func):
             return True
         return False
+
+
+#: The value of each literal met (values are immutable, the same literal recurs constantly); bounded.
+_LITERALS: dict[tuple[type, object], Value] = {}
+_MAX_LITERALS = 50_000
+
+
+def _literal_value(kind: type, value: object) -> Value:
+    out = tagged(tags.literal(value))
+    if kind is str or kind is int or kind is float:
+        if len(_LITERALS) >= _MAX_LITERALS:
+            _LITERALS.clear()
+        _LITERALS[(kind, value)] = out
+    return out
+
+
+def _touched(stmt: ast.stmt, memo: dict[int, frozenset[str]]) -> frozenset[str]:
+    """``Collector.touched`` of ``stmt``, filling ``memo`` for it and every compound statement inside."""
+    names: set[str] = set()
+    stack: list[ast.AST] = [stmt]
+    while stack:
+        node = stack.pop()
+        kind = type(node)
+        if kind is ast.Name:
+            names.add(node.id)  # type: ignore[attr-defined]
+            continue
+        if kind is ast.Attribute:
+            key = dotted_name(node)  # type: ignore[arg-type]
+            if key is not None:
+                names.add(key)
+        elif node is not stmt and isinstance(node, _COMPOUND):
+            inner = memo.get(id(node))
+            names.update(inner if inner is not None else _touched(node, memo))  # type: ignore[arg-type]
+            if kind is ast.ClassDef or kind is ast.FunctionDef or kind is ast.AsyncFunctionDef:
+                names.add(node.name)  # type: ignore[attr-defined]
+            continue
+        elif kind is ast.FunctionDef or kind is ast.AsyncFunctionDef or kind is ast.ClassDef:
+            names.add(node.name)  # type: ignore[attr-defined]
+        elif kind is ast.Import or kind is ast.ImportFrom:
+            names.update((a.asname or a.name).split(".")[0] for a in node.names)  # type: ignore[attr-defined]
+        elif kind is ast.ExceptHandler and node.name:  # type: ignore[attr-defined]
+            names.add(node.name)  # type: ignore[attr-defined]
+        for field in node._fields:
+            child = getattr(node, field, None)
+            if type(child) is list:
+                stack.extend(c for c in child if isinstance(c, ast.AST))
+            elif isinstance(child, ast.AST):
+                stack.append(child)
+    result = frozenset(names)
+    memo[id(stmt)] = result
+    return result
 
 
 # --- dispatch tables -------------------------------------------------------------------------------

@@ -202,7 +202,7 @@ class LibrarySemantics(CollectorState):
         """A method of opaque data: ``df.assign(e=res.resid)`` records the column, ``set_index`` may add dates."""
         name = tags.method_name(tag)
         # A results object handed to a method of some object regvet knows nothing of is out of sight.
-        self.escape_args(args, kwargs, short_text(node.func), node, frame)
+        self.escape_args(args, kwargs, node.func, node, frame)
         out: set[Tag] = {tags.opaque_call(node)}
         if receiver is not None:
             for kept in receiver.tags:

@@ -456,16 +456,18 @@ class RegressionSemantics(CollectorState):
         """The fit a robust-covariance copy was derived from (itself otherwise)."""
         return root_fit(fid, self.fits)
 
-    def escape_args(self, args: list[Value], kwargs: dict[str, Value], name: str, node: ast.expr,
+    def escape_args(self, args: list[Value], kwargs: dict[str, Value], name: str | ast.expr, node: ast.expr,
                     frame: Frame) -> None:  # fmt: skip
-        """Results handed to code regvet cannot read (``name``): an escape for each fit."""
+        """Results handed to code regvet cannot read (``name``, or the callee's node, spelt only when
+        a fit escapes): an escape for each fit."""
         fits: set[int] = set()
         for value in (*args, *kwargs.values()):
             fits |= self.fits_in(value)
         if fits:
             loc = self.loc(node, frame)
+            label = name if isinstance(name, str) else short_text(name)
             for fid in fits:
-                self.escapes[Escape(fid, name, loc)] = None
+                self.escapes[Escape(fid, label, loc)] = None
 
     # --- arithmetic and comparisons of results ---------------------------------------------------
     def binary_operation(self, op: ast.operator, left: Value, right: Value, node: Node, frame: Frame) -> Value:
