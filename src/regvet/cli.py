@@ -402,9 +402,9 @@ def run_check(args: argparse.Namespace) -> int:
     if not args.no_baseline:
         reports, note = _apply_baselines(result, Path(args.baseline) if args.baseline else None)
     colour = args.color == "always" or (args.color == "auto" and sys.stdout.isatty() and not os.environ.get("NO_COLOR"))
-    from regvet.output import FORMATS
+    from regvet.output import renderer
 
-    sys.stdout.write(FORMATS[args.format](reports, colour=colour))
+    sys.stdout.write(renderer(args.format)(reports, colour=colour))
     if note:
         (sys.stdout if args.format == "text" else sys.stderr).write(note)
     if result.failed:

@@ -13,12 +13,12 @@ goes on in a fresh pool. Only a bounded number of items is in flight at a time.
 
 from __future__ import annotations
 
-import multiprocessing
 import os
 import signal
-from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
-from concurrent.futures.process import BrokenProcessPool
-from typing import Any, Callable, Sequence, TypeVar
+from typing import TYPE_CHECKING, Any, Callable, Sequence, TypeVar
+
+if TYPE_CHECKING:  # imported when a pool is used: a one-job run does not pay for multiprocessing
+    from concurrent.futures import Future
 
 T = TypeVar("T")
 R = TypeVar("R")
@@ -35,6 +35,8 @@ def default_jobs() -> int:
 
 
 def _context() -> Any:
+    import multiprocessing
+
     methods = multiprocessing.get_all_start_methods()
     # fork starts a worker in milliseconds with regvet already imported; the CLI has no threads then.
     return multiprocessing.get_context("fork" if "fork" in methods else None)
@@ -96,6 +98,8 @@ def run_alone(factory: Callable[..., Callable[[T], R]], args: tuple, item: T,
 def _harvest(future: Future, running: dict[Future, int], results: dict[int, Any], items: Sequence[Any],
              lost: Callable[[Any, str], Any]) -> None:  # fmt: skip
     """Move a finished future's result into ``results`` (BrokenProcessPool propagates, the future kept)."""
+    from concurrent.futures.process import BrokenProcessPool
+
     index = running[future]
     try:
         results[index] = future.result()
@@ -117,6 +121,9 @@ def map_ordered(
     if jobs <= 1 or len(items) <= 1:
         worker = factory(*factory_args)
         return [worker(item) for item in items]
+    from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+    from concurrent.futures.process import BrokenProcessPool
+
     results: dict[int, R] = {}
     pending = list(range(len(items)))[::-1]  # popped from the end: input order
     window = 4 * jobs

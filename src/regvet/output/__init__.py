@@ -1,7 +1,19 @@
-"""Renderers: a list of file reports in, text out. No I/O beyond building strings."""
+"""Renderers: a list of file reports in, text out. No I/O beyond building strings.
+
+Each format's module is imported only when it is asked for (``renderer``): a plain ``regvet check``
+needs the text renderer alone.
+"""
 
 from __future__ import annotations
 
-from regvet.output import github, json_out, sarif, text
+import importlib
+from typing import Callable
 
-FORMATS = {"text": text.render, "json": json_out.render, "sarif": sarif.render, "github": github.render}
+#: Format name -> the module (in this package) whose ``render`` writes it.
+FORMAT_MODULES = {"text": "text", "json": "json_out", "sarif": "sarif", "github": "github"}
+
+
+def renderer(name: str) -> Callable[..., str]:
+    """The ``render`` function of one format."""
+    render: Callable[..., str] = importlib.import_module(f"regvet.output.{FORMAT_MODULES[name]}").render
+    return render
