@@ -78,7 +78,9 @@ SLOW_GROUPS: dict[str, str] = {
     "test_scan_speed.py::test_two": "scan",  # real regvet processes over copies of statsmodels modules
     "test_scan_speed.py::test_warm": "scan",
     "test_scan_speed.py::test_concurrent": "scan",
-    "test_scan_speed.py::test_a_killed": "scan",  # the whole installed statsmodels and standard library
+    "test_scan_speed.py::test_a_killed_run": "scan",
+    "test_scan_speed.py::test_parallel_runs": "runtime",
+    "test_scan_speed.py::test_a_killed_parallel": "runtime",  # the whole installed statsmodels and standard library
     "test_precommit.py": "precommit",  # the real pre-commit tool builds a hook environment
 }
 

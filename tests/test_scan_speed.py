@@ -195,3 +195,58 @@ def test_a_dead_worker_costs_only_its_own_item():
 def test_one_job_runs_in_this_process():
     pid = os.getpid()
     assert map_ordered(lambda: (lambda item: (item, os.getpid())), (), ["a", "b"], 1, _lost) == [("a", pid), ("b", pid)]
+
+
+# --- regvet run --jobs ------------------------------------------------------------------------------
+CRANE = '''import time
+
+import numpy as np
+import statsmodels.api as sm
+
+time.sleep({pause})
+rng = np.random.default_rng({n})
+wind = rng.normal(8, 2, {n})
+lifts = 30 - 1.2 * wind + rng.normal(0, 1, {n})
+res = sm.OLS(lifts, sm.add_constant(wind)).fit()
+print(res.params)
+'''
+
+
+def _crane_scripts(folder: Path, sizes: list[int], pause: float = 0) -> None:
+    folder.mkdir(exist_ok=True)
+    for n in sizes:
+        (folder / f"crane_{n}.py").write_text(CRANE.format(n=n, pause=pause if n % 20 else 0))
+
+
+def test_parallel_runs_keep_each_file_with_its_own_statistics(tmp_path):
+    import json
+
+    project = tmp_path / "cranes"
+    _crane_scripts(project, [40, 55, 60, 75], pause=0.5)  # two of them finish later than the others
+    one = regvet("run", ".", "--format", "json", "--no-cache", "-j", "1", cache=tmp_path / "c1", cwd=project)
+    two = regvet("run", ".", "--format", "json", "--no-cache", "-j", "2", cache=tmp_path / "c2", cwd=project)
+    assert two.stdout == one.stdout and two.returncode == one.returncode == 1
+    findings = json.loads(two.stdout)["findings"]
+    assert [f["path"] for f in findings] == ["crane_40.py", "crane_55.py", "crane_60.py", "crane_75.py"]
+    for f in findings:  # each file's findings carry the statistics of its own run (n rows)
+        n = int(f["path"][len("crane_") : -3])
+        assert f["stats"]["fits"][0]["statistics"]["nobs"] == n
+
+
+def test_a_killed_parallel_run_leaves_no_partial_run_entry(tmp_path):
+    import json
+
+    project, cache = tmp_path / "cranes", tmp_path / "cache"
+    _crane_scripts(project, [40, 45, 50, 55, 60, 65], pause=2)
+    env = {**os.environ, "REGVET_CACHE_DIR": str(cache)}
+    proc = subprocess.Popen([sys.executable, "-m", "regvet", "run", ".", "-j", "2"], cwd=project, env=env,
+                            stdout=subprocess.DEVNULL, start_new_session=True)  # fmt: skip
+    deadline = time.monotonic() + 120
+    while time.monotonic() < deadline and not list(cache.glob("*.json")):
+        time.sleep(0.02)
+    os.killpg(proc.pid, signal.SIGKILL)
+    proc.wait()
+    entries = list(cache.glob("*.json"))
+    assert 1 <= len(entries) < 6
+    for entry in entries:  # whole entries only, under their final names
+        assert "result" in json.loads(entry.read_text())

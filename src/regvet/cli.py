@@ -328,6 +328,9 @@ class Progress:
         self.head = f"regvet: running file {k} of {n}, {path.name}"
         self._show(f"{self.head} ({time.monotonic() - self.start:.0f} s)")
 
+    def finished(self, k: int, n: int, path: Path) -> None:
+        self._show(f"regvet: ran {k} of {n} files, last {path.name} ({time.monotonic() - self.start:.0f} s)")
+
     def fit_for(self, report: FileReport):  # type: ignore[no-untyped-def]
         """A callback for the runner: one call per fit the run records."""
         if not self.enabled:
@@ -379,6 +382,9 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
         from regvet.runtime.runner import RunCache
 
         cache = None if no_cache else RunCache()
+    if running and jobs > 1 and len(tasks) > 1:
+        reports = _run_all(tasks, reports, cache, jobs, progress, plot_points)
+        running = False
     out = Scan()
     for k, ((file, settings, _), report) in enumerate(zip(tasks, reports), start=1):
         if running:
@@ -450,6 +456,24 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
             text += f", {gone} no longer found (refresh it with `regvet baseline --update`)"
         lines.append(text + "\n")
     return reports, "".join(lines)
+
+
+def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,  # type: ignore[no-untyped-def]
+             progress: Progress | None, plot_points: int) -> list[FileReport]:  # fmt: skip
+    """Runtime mode for many files, ``jobs`` child processes at a time; each report gets its own run's
+    statistics, and the reports stay in the files' order (the progress line counts finished files)."""
+    from concurrent.futures import ThreadPoolExecutor, as_completed
+
+    out = list(reports)
+    with ThreadPoolExecutor(max_workers=jobs) as pool:  # each thread waits on one child process
+        futures = {pool.submit(_run_file, file, report, settings, cache, None, plot_points): i
+                   for i, ((file, settings, _), report) in enumerate(zip(tasks, reports))}  # fmt: skip
+        for done, future in enumerate(as_completed(futures), start=1):
+            i = futures[future]
+            out[i] = future.result()
+            if progress is not None:
+                progress.finished(done, len(tasks), tasks[i][0])
+    return out
 
 
 def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,  # type: ignore[no-untyped-def]
