@@ -44,7 +44,7 @@ NUMPY_TRANSFORMS = {"log": "log", "log1p": "log1p", "log10": "log10", "log2": "l
 
 _CONTAINER_CALLS = frozenset({"list", "tuple", "set", "frozenset", "iter", "reversed", "sorted"})
 _POSITIONAL_CALLS = frozenset({"list", "tuple", "iter"})  # keep known positions
-_GROWING_METHODS = frozenset({"append", "extend", "insert", "add", "update", "setdefault", "appendleft"})
+GROWING_METHODS = frozenset({"append", "extend", "insert", "add", "update", "setdefault", "appendleft"})
 _GROWING_DATA_METHODS = frozenset({"append", "add"})  # the only growing methods followed on opaque data
 _ONE_ITEM_METHODS = frozenset({"append", "add", "appendleft"})
 _CONTAINER_VIEW_METHODS = frozenset({"items", "values", "keys", "get", "pop", "copy", "setdefault"})
@@ -338,7 +338,7 @@ class LibrarySemantics(CollectorState):
         """``xs.append(v)``, ``d.update(...)``, ...: add to what the receiver's name holds (None: not such a call)."""
         name = func_node.attr
         target = func_node.value
-        if name not in _GROWING_METHODS:
+        if name not in GROWING_METHODS:
             return None
         if receiver.has(tags.DATA) and name not in _GROWING_DATA_METHODS:
             return None

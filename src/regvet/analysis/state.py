@@ -160,6 +160,7 @@ class CollectorState:
         self.inline_memo: dict[tuple[object, ...], Value] = {}
         self.fit_making_memo: dict[int, bool] = {}
         self.touched_memo: dict[int, frozenset[str]] = {}
+        self.quiet_memo: dict[int, tuple[frozenset[str], ...] | bool] = {}
         self.stmt: ast.stmt | None = None  # the simple statement being run
         self.stmt_module: ModuleRecord | None = None
         self._ids = 0
