@@ -14,9 +14,9 @@ import fnmatch
 import os
 import sys
 import time
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Sequence
 
 from regvet import __version__
 from regvet.baseline import BASELINE_NAME, BaselineError
@@ -294,7 +294,7 @@ class Progress:
     """One line on standard error while fits run (file k of n, the fit just computed, time so far);
     nothing at all when standard error is not a terminal."""
 
-    def __init__(self, stream=None) -> None:  # type: ignore[no-untyped-def]
+    def __init__(self, stream=None) -> None:
         self.stream = stream if stream is not None else sys.stderr
         self.enabled = bool(getattr(self.stream, "isatty", lambda: False)())
         self.start = time.monotonic()
@@ -311,7 +311,7 @@ class Progress:
         self.head = f"regvet: running file {k} of {n}, {path.name}"
         self._show(f"{self.head} ({time.monotonic() - self.start:.0f} s)")
 
-    def fit_for(self, report: FileReport):  # type: ignore[no-untyped-def]
+    def fit_for(self, report: FileReport):
         """A callback for the runner: one call per fit the run records."""
         if not self.enabled:
             return None
@@ -435,7 +435,7 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
     return reports, "".join(lines)
 
 
-def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,  # type: ignore[no-untyped-def]
+def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,
               plot_points: int = 0) -> FileReport:  # fmt: skip
     """Runtime mode for one file (imports the runtime part only now)."""
     from regvet.runtime.session import run_and_judge
@@ -506,7 +506,7 @@ def run_report(args: argparse.Namespace) -> int:
     return EXIT_FAILED if result.failed else EXIT_OK
 
 
-def _same_residuals(audit) -> dict[str, str]:  # type: ignore[no-untyped-def]
+def _same_residuals(audit) -> dict[str, str]:
     """Fit anchor -> the anchor of an earlier fit with the very same residual points (a robust-covariance
     copy shares its fit's residuals): those plots are drawn once."""
     import json
@@ -543,8 +543,16 @@ def _write_new(path: Path, data: bytes) -> None:
 def run_mend(args: argparse.Namespace) -> int:
     """``regvet mend``: apply the quick fixes of the selected rules to every file; ``--preview`` shows a diff."""
     from regvet.engine import analyze_cells
-    from regvet.mend import MendError, Outcome, fixable_rules, mend_notebook, mend_python, read_source
-    from regvet.mend import replace_file, unified_diff
+    from regvet.mend import (
+        MendError,
+        Outcome,
+        fixable_rules,
+        mend_notebook,
+        mend_python,
+        read_source,
+        replace_file,
+        unified_diff,
+    )
 
     fixable = fixable_rules()
     rules = _rule_list(args.only, "--only") or frozenset(fixable)
@@ -571,9 +579,12 @@ def run_mend(args: argparse.Namespace) -> int:
                     text = original.decode("utf-8")
                 except UnicodeDecodeError as exc:
                     raise MendError(f"the notebook is not UTF-8: {exc.reason}") from None
-                outcome: Outcome = mend_notebook(text, lambda cells, count: analyze_cells(
-                    cells, count, shown, settings, provider=provider, module_key=file.stem,
-                    module_cache=module_cache), rules)  # fmt: skip
+                def analyze_notebook(cells: list[tuple[int, str]], count: int, shown: str = shown, settings: Settings = settings,
+                                     provider: FileModules = provider, key: str = file.stem) -> FileReport:
+                    return analyze_cells(cells, count, shown, settings, provider=provider, module_key=key,
+                                         module_cache=module_cache)
+
+                outcome: Outcome = mend_notebook(text, analyze_notebook, rules)
                 data = outcome.new.encode("utf-8")
             else:
                 try:
@@ -582,9 +593,12 @@ def run_mend(args: argparse.Namespace) -> int:
                     if b"statsmodels" not in original:
                         continue  # nothing to mend in it, and nothing regvet checks there either
                     raise
-                outcome = mend_python(source.text, lambda t: analyze(
-                    t, shown, settings, notebook=False, provider=provider, module_key=file.stem,
-                    module_cache=module_cache), rules)  # fmt: skip
+                def analyze_script(text: str, shown: str = shown, settings: Settings = settings,
+                                   provider: FileModules = provider, key: str = file.stem) -> FileReport:
+                    return analyze(text, shown, settings, notebook=False, provider=provider, module_key=key,
+                                   module_cache=module_cache)
+
+                outcome = mend_python(source.text, analyze_script, rules)
                 data = _encode(source, outcome.new)
             if outcome.new != outcome.old:
                 if args.preview:
@@ -617,7 +631,7 @@ def run_mend(args: argparse.Namespace) -> int:
     return EXIT_FAILED if failed else EXIT_OK
 
 
-def _encode(source, text: str) -> bytes:  # type: ignore[no-untyped-def]
+def _encode(source, text: str) -> bytes:
     from regvet.mend import encode_source
 
     return encode_source(source, text)

@@ -23,20 +23,44 @@ from __future__ import annotations
 
 import ast
 import builtins
-from typing import Any, Callable, cast
+from collections.abc import Callable
+from typing import Any, cast
 
 from regvet.analysis import catalog, tags
 from regvet.analysis.libraries import (
-    ARITHMETIC_KEEPS, LibrarySemantics, assigned_column_tags, subscript_tags, time_order_of,
+    ARITHMETIC_KEEPS,
+    LibrarySemantics,
+    assigned_column_tags,
+    subscript_tags,
+    time_order_of,
 )  # fmt: skip
 from regvet.analysis.modules import ModuleLoading, ModuleProvider, NoModules
 from regvet.analysis.regressions import RESULT_KINDS, RegressionSemantics
 from regvet.analysis.state import (
-    FunctionRecord, Frame, ModuleCache, ModuleRecord, Node, Parser, dotted_name, short_text,
+    Frame,
+    FunctionRecord,
+    ModuleCache,
+    ModuleRecord,
+    Node,
+    Parser,
+    dotted_name,
+    short_text,
 )  # fmt: skip
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import (
-    EMPTY, Value, container, dict_value, elements, flat, iterate, join, join_all, mapping, positions, sequence, tagged,
+    EMPTY,
+    Value,
+    container,
+    dict_value,
+    elements,
+    flat,
+    iterate,
+    join,
+    join_all,
+    mapping,
+    positions,
+    sequence,
+    tagged,
 )  # fmt: skip
 from regvet.model.facts import FileFacts
 
@@ -305,7 +329,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
             elts = target.elts
             starred = [i for i, e in enumerate(elts) if isinstance(e, ast.Starred)]
             if value.items is not None and not starred and len(value.items) == len(elts):
-                for e, item in zip(elts, value.items):
+                for e, item in zip(elts, value.items, strict=False):
                     self.bind(e, item, frame)
             else:
                 each = iterate(value) if (value.elem is not None or value.keys is not None) else EMPTY
@@ -505,7 +529,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
     def eval_Dict(self, node: ast.Dict, frame: Frame) -> Value:
         pairs: list[tuple[Value, Value]] = []
         splat = EMPTY
-        for k, v in zip(node.keys, node.values):
+        for k, v in zip(node.keys, node.values, strict=False):
             value = self.evaluate(v, frame)
             if k is None:  # **splat: its pairs are not known one by one
                 splat = join(splat, value)
@@ -700,7 +724,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
         if memo_key in self.inline_memo:
             return self.inline_memo[memo_key]
         func.analyzed = True
-        callee = Frame(func.module, {}, func.scope, frame.ctx + (site,), func, cls_attrs=func.cls_attrs)
+        callee = Frame(func.module, {}, func.scope, (*frame.ctx, site), func, cls_attrs=func.cls_attrs)
         self.bind_params(func, callee, args, kwargs, frame)
         self.call_stack.append(func.key)
         saved = self.stmt, self.stmt_module
@@ -736,7 +760,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
             else:
                 value = kwargs.get("**", EMPTY)
             callee.locals[param.arg] = value
-        for param, kw_default in zip(params.kwonlyargs, params.kw_defaults):
+        for param, kw_default in zip(params.kwonlyargs, params.kw_defaults, strict=False):
             if param.arg in kwargs:
                 callee.locals[param.arg] = kwargs[param.arg]
             elif kw_default is not None:
@@ -754,9 +778,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
         for value in (*args, *kwargs.values()):
             if tags.has_any_kind(flat(value).tags, _INTERESTING):
                 return True
-        if self.fit_making(func):
-            return True
-        return False
+        return bool(self.fit_making(func))
 
 
 # --- dispatch tables -------------------------------------------------------------------------------

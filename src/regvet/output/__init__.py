@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 from regvet.output import github, json_out, sarif, text
 
-FORMATS = {"text": text.render, "json": json_out.render, "sarif": sarif.render, "github": github.render}
+FORMATS: dict[str, Callable[..., str]] = {"text": text.render, "json": json_out.render, "sarif": sarif.render, "github": github.render}
