@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test test-fast bench clean
+.PHONY: demo test test-fast check bench clean
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
@@ -22,6 +22,11 @@ test: $(STAMP)
 # Everything but the slow groups (see SLOW_GROUPS in tests/conftest.py): under 30 s on two cores.
 test-fast: $(STAMP)
 	$(BIN)/python -m pytest -q -m "not (runtime or server or editors or scan or precommit or browser)"
+
+# The linter and the type checker, configured in pyproject.toml ([tool.ruff], [tool.mypy]).
+check: $(STAMP)
+	$(BIN)/ruff check .
+	$(BIN)/mypy
 
 bench: $(STAMP)
 	$(BIN)/python bench/run.py

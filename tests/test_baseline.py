@@ -8,8 +8,8 @@ import shutil
 from pathlib import Path
 
 import pytest
-from conftest import FIXTURES
 
+from conftest import FIXTURES
 from regvet.baseline import BASELINE_NAME, entries_for, fingerprint, split
 from regvet.engine import analyze
 
@@ -145,7 +145,6 @@ def test_the_pre_commit_hook_honours_the_baseline(run_cli, demo, capsys):
 
 async def test_the_language_server_hides_baselined_findings(demo):
     from lsp_client import session
-
     from regvet.cli import main
 
     assert main(["baseline", "."]) == 0

@@ -54,7 +54,7 @@ def test_namespace_alias_is_the_same_object(alias, target):
 def test_same_function_under_every_path():
     # statsmodels exports one function object under several modules; regvet maps them all to one family.
     by_name: dict[str, set] = {}
-    for q, (family, name) in cat.DIAGNOSTICS.items():
+    for q, (_family, name) in cat.DIAGNOSTICS.items():
         if q.startswith("statsmodels"):
             by_name.setdefault(name, set()).add(id(_resolve(q)))
     for name, ids in by_name.items():

@@ -40,8 +40,8 @@ def test_statsmodels_findings_are_unchanged():
     assert proc.returncode in (0, 1), proc.stderr
     rows = [_row(f, str(root)) for f in json.loads(proc.stdout)["findings"]]
     if os.environ.get("REGVET_UPDATE_GOLDEN") == "1":
-        RECORD.write_text('{"statsmodels": "%s", "findings": [\n' % statsmodels.__version__
-                          + ",\n".join(json.dumps(r) for r in rows) + "\n]}\n")  # fmt: skip
+        head = json.dumps(statsmodels.__version__)
+        RECORD.write_text(f'{{"statsmodels": {head}, "findings": [\n' + ",\n".join(json.dumps(r) for r in rows) + "\n]}\n")
     record = json.loads(RECORD.read_text())
     if record["statsmodels"] != statsmodels.__version__:
         pytest.skip(f"recorded on statsmodels {record['statsmodels']}, installed {statsmodels.__version__}")

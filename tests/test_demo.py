@@ -12,6 +12,7 @@ import subprocess
 import sys
 
 import pytest
+
 from conftest import FIXTURES
 
 DEMO = FIXTURES / "demo"

@@ -5,7 +5,6 @@ from __future__ import annotations
 import re
 
 from conftest import ROOT
-
 from regvet.model.settings import OPTIONS
 from regvet.rules import ALL_RULES
 

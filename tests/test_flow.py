@@ -11,8 +11,8 @@ import textwrap
 from pathlib import Path
 
 import pytest
-from conftest import expected_markers, found
 
+from conftest import expected_markers, found
 from regvet.engine import analyze
 from regvet.model.settings import Settings
 from regvet.project import FileModules

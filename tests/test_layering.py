@@ -10,6 +10,7 @@ layers nor between modules.
 from __future__ import annotations
 
 import ast
+import itertools
 import sys
 from pathlib import Path
 
@@ -115,7 +116,7 @@ def test_the_probe_needs_only_the_standard_library_numpy_scipy_and_statsmodels(p
 def test_importing_the_cli_loads_no_heavy_package():
     import subprocess
 
-    code = "import sys, regvet.cli; print(sorted(m for m in sys.modules if m.split('.')[0] in %r))" % sorted(HEAVY)
+    code = f"import sys, regvet.cli; print(sorted(m for m in sys.modules if m.split('.')[0] in {sorted(HEAVY)!r}))"
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert proc.stdout.strip() == "[]"
 
@@ -212,7 +213,7 @@ def test_the_import_graph_has_no_cycle_between_layers():
                 why.setdefault((a, b), f"{module} imports {target}")
     cycle = find_cycle(layers)
     assert cycle is None, "layers import each other: " + " -> ".join(cycle) + " (" + "; ".join(
-        why[(a, b)] for a, b in zip(cycle, cycle[1:])
+        why[(a, b)] for a, b in itertools.pairwise(cycle)
     ) + ")"
 
 

@@ -10,10 +10,10 @@ import textwrap
 import time
 
 import pytest
-from lsp_client import SERVER, capabilities, session
 from lsprotocol import types as t
 from pygls.uris import from_fs_path
 
+from lsp_client import SERVER, capabilities, session
 from regvet.engine import analyze
 
 SCRIPT = textwrap.dedent(
@@ -282,9 +282,9 @@ async def test_tcp_transport_binds_loopback(project):
         port = s.getsockname()[1]
     proc = subprocess.Popen([*SERVER, "--tcp", "--port", str(port)], stderr=subprocess.PIPE)
     try:
+        from pygls.protocol import default_converter
         from pytest_lsp import LanguageClient
         from pytest_lsp.client import register_lsp_features
-        from pygls.protocol import default_converter
 
         deadline = time.monotonic() + 20
         while True:

@@ -63,8 +63,9 @@ def test_rule_documents_are_written_when_first_linked(tmp_path, monkeypatch):
 
 
 async def test_a_config_error_is_marked_from_where_the_config_error_says_in_client_units(tmp_path):
-    from lsp_client import session
     from pygls.uris import from_fs_path
+
+    from lsp_client import session
 
     (tmp_path / ".git").mkdir()
     cfg = tmp_path / "pyproject.toml"

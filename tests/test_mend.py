@@ -23,8 +23,8 @@ from pathlib import Path
 
 import nbformat
 import pytest
-from conftest import FIXTURES
 
+from conftest import FIXTURES
 from regvet.engine import analyze
 
 DEMO = FIXTURES / "demo"
@@ -119,7 +119,7 @@ def test_mended_notebook_is_valid_and_keeps_outputs_metadata_and_layout(run_cli,
         nbformat.validate(nbformat.reads(new, as_version=4))
         mended = json.loads(new)
         old = json.loads(text)
-        for i, (a, b) in enumerate(zip(old["cells"], mended["cells"])):
+        for i, (a, b) in enumerate(zip(old["cells"], mended["cells"], strict=False)):
             if i != target:
                 assert a == b
             else:

@@ -84,6 +84,15 @@ def test_hook_manifest_is_valid():
     assert proc.returncode == 0, proc.stdout + proc.stderr
 
 
+def test_projects_own_hook_config_is_valid_and_runs_the_checks():
+    """The project's .pre-commit-config.yaml (its own linter and type checker) is one pre-commit accepts."""
+    config = ROOT / ".pre-commit-config.yaml"
+    proc = subprocess.run([str(PRE_COMMIT), "validate-config", str(config)], capture_output=True, text=True)
+    assert proc.returncode == 0, proc.stdout + proc.stderr
+    text = config.read_text(encoding="utf-8")
+    assert ".venv/bin/ruff check" in text and ".venv/bin/mypy" in text
+
+
 def test_hook_refuses_the_runtime_mode(capsys):
     assert hook_main(["--run", "model.py"]) == 2
     assert "never runs it" in capsys.readouterr().err

@@ -8,6 +8,7 @@ tests skip, unless ``REGVET_REQUIRE_BROWSER=1`` (set by ``.ci/run``) turns the s
 from __future__ import annotations
 
 import io
+import itertools
 import os
 import re
 import shutil
@@ -18,8 +19,8 @@ from pathlib import Path
 
 import html5lib
 import pytest
-from conftest import FIXTURES
 
+from conftest import FIXTURES
 from regvet import audit as A
 from regvet.output import report_html
 
@@ -71,7 +72,7 @@ def states(fit: A.FitAudit) -> dict[str, str]:
 def test_every_fit_of_the_demo_is_in_the_audit_in_source_order(in_demo):
     result = scan_demo()
     audit = A.build(result.reports)
-    for report, fa in zip(result.reports, audit.files):
+    for report, fa in zip(result.reports, audit.files, strict=False):
         assert fa.path == report.path
         if report.facts is None:
             continue
@@ -161,7 +162,7 @@ def test_static_ranking_puts_invalid_comparisons_then_missing_checks_first(in_de
     assert keys == sorted(keys)
     order = [(fit.path, fit.where) for fit in audit.ranked]
     assert order[:2] == [("01_fare_elasticity.py", "line 17"), ("01_fare_elasticity.py", "line 29")]
-    missing_first = [p for p, fit in zip(order, audit.ranked) if fit.risk.rejected == 0 and fit.risk.missing]
+    missing_first = [p for p, fit in zip(order, audit.ranked, strict=False) if fit.risk.rejected == 0 and fit.risk.missing]
     assert missing_first[0] == ("02_weather_effects.py", "line 28")  # two missing checks
     assert audit.ranked[-1].risk.describe() == "no missing or failed check found"
 
@@ -192,7 +193,7 @@ def check_html(text: str) -> None:
     parser.parse(text)  # raises on a parse error
     headings = [int(el.tag[-1]) for el in doc.iter() if re.fullmatch(r"\{[^}]+\}h[1-6]", el.tag)]
     assert headings.count(1) == 1 and headings[0] == 1
-    assert all(b <= a + 1 for a, b in zip(headings, headings[1:])), "a heading level is skipped"
+    assert all(b <= a + 1 for a, b in itertools.pairwise(headings)), "a heading level is skipped"
     tables = doc.findall(".//h:table", NS)
     assert tables
     for table in tables:

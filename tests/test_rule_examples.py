@@ -6,12 +6,11 @@ Rules that judge a run's statistics run their examples for real in ``test_runtim
 from __future__ import annotations
 
 import pytest
-from conftest import expected_markers, found
 
+from conftest import expected_markers, found
 from regvet.cli import explain
 from regvet.engine import analyze
 from regvet.rules import ALL_RULES, RULES_BY_ID
-
 
 STATIC = [r for r in ALL_RULES if not r.needs_run]
 

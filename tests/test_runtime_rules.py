@@ -12,8 +12,8 @@ from dataclasses import replace
 from pathlib import Path
 
 import pytest
-from conftest import expected_markers, found
 
+from conftest import expected_markers, found
 from regvet.engine import analyze
 from regvet.model.settings import Settings
 from regvet.rules import ALL_RULES

@@ -551,7 +551,7 @@ def _assert_same(a: Any, b: Any, where: str = "") -> None:
             _assert_same(a[key], b[key], f"{where}.{key}")
     elif isinstance(a, list):
         assert len(a) == len(b), where
-        for i, (x, y) in enumerate(zip(a, b)):
+        for i, (x, y) in enumerate(zip(a, b, strict=False)):
             _assert_same(x, y, f"{where}[{i}]")
     elif isinstance(a, float):
         assert b == pytest.approx(a, rel=1e-9, abs=1e-300), where
@@ -626,7 +626,7 @@ def test_wooldridge_ex_8_1_robust_standard_errors_are_hc0() -> None:
     b = [".321", ".213", "-.198", "-.110", ".0789", ".0268", "-.00054", ".0291", "-.00053"]
     usual = [".100", ".055", ".058", ".056", ".0067", None, ".00011", ".0068", ".00023"]
     robust = [".109", ".057", ".058", ".057", ".0074", ".0051", ".00011", ".0069", ".00024"]
-    for name, b_, se_, rob in zip(names, b, usual, robust):
+    for name, b_, se_, rob in zip(names, b, usual, robust, strict=False):
         c = coef(out, name)
         assert c["robust_type"] == "HC0"
         printed(c["estimate"], b_)
@@ -644,7 +644,7 @@ def test_wooldridge_ex_8_3_robust_standard_errors_are_hc0() -> None:
     out = run(res, robust_se="HC0")
     usual = [".036", ".040", ".0097", ".00030", ".0087", ".0144", ".00034", ".045", ".040"]
     robust = [".040", ".034", ".0101", ".00021", ".0062", ".0142", ".00023", ".058", ".040"]
-    for c, se_, rob in zip(out["coefficients"], usual, robust):
+    for c, se_, rob in zip(out["coefficients"], usual, robust, strict=False):
         printed(c["se"], se_)
         printed(c["se_robust"], rob)
     printed(out["rsquared"], ".0728")
@@ -735,7 +735,7 @@ def test_longley_jarque_bera_and_durbin_watson_formula_values() -> None:
     out = run(res, time_column="YEAR")
     jb = out["jarque_bera"]
     for value, text in zip([jb["statistic"], jb["pvalue"], jb["skew"], jb["kurtosis"]],
-                           [".68413559", ".71030005", ".41998380", "2.43373345"]):
+                           [".68413559", ".71030005", ".41998380", "2.43373345"], strict=False):
         printed(value, text)
     assert "YEAR" in out["time_ordered"]
     printed(out["durbin_watson"], "2.5594877")
@@ -752,7 +752,7 @@ def test_hprice_hc_standard_errors_formula_values(hprice: pd.DataFrame) -> None:
         "HC3": ["41.032694333", ".0071484636", ".0407325425", "11.561790095"],
     }
     for hc, values in table.items():
-        for c, value in zip(run(res, robust_se=hc)["coefficients"], values):
+        for c, value in zip(run(res, robust_se=hc)["coefficients"], values, strict=False):
             printed(c["se_robust"], value)
     white = run(res)["white"]
     printed(white["lm"], "33.731657711")

@@ -228,7 +228,7 @@ def _statistic(family: str, stats: FitStatistics | None) -> tuple[str | None, st
         tests = [c for c in stats.get("chow") or [] if c.get("f") is not None]
         if not tests:
             return None, None, None
-        worst = min(tests, key=lambda c: c.get("pvalue") if c.get("pvalue") is not None else 1.0)
+        worst = min(tests, key=lambda c: _or_one(c.get("pvalue")))
         text = f"F({worst.get('df_num')}, {worst.get('df_denom')}) = {num(worst.get('f'))} at {worst.get('candidate')}"
         more = f" (smallest p of {len(tests)} candidates)" if len(tests) > 1 else ""
         return text, "Chow test" + more, p(worst.get("pvalue"))
@@ -244,15 +244,22 @@ def _statistic(family: str, stats: FitStatistics | None) -> tuple[str | None, st
     return None, None, None
 
 
+def _or_one(pvalue: float | None) -> float:
+    """A p-value for ordering, 1 when there is none."""
+    return 1.0 if pvalue is None else pvalue
+
+
 def _rejects(family: str, stats: FitStatistics | None, alpha: float) -> bool:
     """Does the run's own test of ``family`` reject at ``alpha`` (only to say so in words)?"""
     if stats is None:
         return False
+    reset, bp = stats.get("reset"), stats.get("breusch_pagan")
+    jb, bg = stats.get("jarque_bera"), stats.get("breusch_godfrey")
     value = {
-        "form": (stats.get("reset") or {}).get("pvalue"),
-        "variance": (stats.get("breusch_pagan") or {}).get("lm_pvalue"),
-        "normality": (stats.get("jarque_bera") or {}).get("pvalue"),
-        "serial": (stats.get("breusch_godfrey") or {}).get("lm_pvalue"),
+        "form": reset.get("pvalue") if reset else None,
+        "variance": bp.get("lm_pvalue") if bp else None,
+        "normality": jb.get("pvalue") if jb else None,
+        "serial": bg.get("lm_pvalue") if bg else None,
     }.get(family)
     return value is not None and value < alpha
 
@@ -310,7 +317,7 @@ def _family_row(inp: RuleInput, report: FileReport, fit: Fit, family: str, label
     if rejecting is not None:
         return CheckRow(family, label, MISSING, f"not checked in the code, and the run shows a problem (`{rejecting.rule}`)",
                         statistic, form, pvalue)  # fmt: skip
-    rules = [r for r in rules_for_family(family)]
+    rules = list(rules_for_family(family))
     off = [r.id for r in rules if not inp.settings.enabled(r.id)]
     if off:
         why = f"not judged: `{off[0]}` is turned off in the configuration"
@@ -338,10 +345,10 @@ def _comparisons(inp: RuleInput, report: FileReport, fit: Fit) -> tuple[list[Com
         names = tuple(f"`{fit_name(facts.fit(fid))}` ({measure})" for fid, measure in comp.measures)
         table: tuple[ComparisonRow, ...] = ()
         nested: tuple[NestedFTest, ...] = ()
-        with_stats = next((f for f in problems if f.stats and f.stats.get("comparison")), None)
-        if with_stats is not None:
-            table = tuple(with_stats.stats["comparison"]["fits"])  # type: ignore[index]
-            nested = tuple(with_stats.stats["comparison"].get("nested_f_tests", ()))  # type: ignore[union-attr]
+        measured = next((c for f in problems if f.stats and (c := f.stats.get("comparison"))), None)
+        if measured is not None:
+            table = tuple(measured["fits"])
+            nested = tuple(measured.get("nested_f_tests", ()))
         elif inp.runtime is not None:
             rows = []
             for fid, _ in comp.measures:

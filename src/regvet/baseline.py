@@ -36,9 +36,9 @@ import os
 import re
 import tempfile
 from collections import Counter
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Iterable, Mapping
 
 from regvet.config import ROOT_MARKERS
 from regvet.model.finding import Finding

@@ -14,14 +14,14 @@ import fnmatch
 import os
 import sys
 import time
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Sequence
 
 from regvet import __version__
+from regvet.analysis.providers import ModuleProvider
 from regvet.baseline import BASELINE_NAME, BaselineError
 from regvet.config import ConfigError, load_settings
-from regvet.analysis.providers import ModuleProvider
 from regvet.engine import analyze, error_report
 from regvet.factcache import FactCache, RecordingModules
 from regvet.model.finding import Severity
@@ -311,7 +311,7 @@ class Progress:
     """One line on standard error while fits run (file k of n, the fit just computed, time so far);
     nothing at all when standard error is not a terminal."""
 
-    def __init__(self, stream=None) -> None:  # type: ignore[no-untyped-def]
+    def __init__(self, stream=None) -> None:
         self.stream = stream if stream is not None else sys.stderr
         self.enabled = bool(getattr(self.stream, "isatty", lambda: False)())
         self.start = time.monotonic()
@@ -331,7 +331,7 @@ class Progress:
     def finished(self, k: int, n: int, path: Path) -> None:
         self._show(f"regvet: ran {k} of {n} files, last {path.name} ({time.monotonic() - self.start:.0f} s)")
 
-    def fit_for(self, report: FileReport):  # type: ignore[no-untyped-def]
+    def fit_for(self, report: FileReport):
         """A callback for the runner: one call per fit the run records."""
         if not self.enabled:
             return None
@@ -386,7 +386,7 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
         reports = _run_all(tasks, reports, cache, jobs, progress, plot_points)
         running = False
     out = Scan()
-    for k, ((file, settings, _), report) in enumerate(zip(tasks, reports), start=1):
+    for k, ((file, settings, _), report) in enumerate(zip(tasks, reports, strict=True), start=1):
         if running:
             if progress is not None:
                 progress.file(k, len(files), file)
@@ -458,7 +458,7 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
     return reports, "".join(lines)
 
 
-def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,  # type: ignore[no-untyped-def]
+def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,
              progress: Progress | None, plot_points: int) -> list[FileReport]:  # fmt: skip
     """Runtime mode for many files, ``jobs`` child processes at a time; each report gets its own run's
     statistics, and the reports stay in the files' order (the progress line counts finished files)."""
@@ -467,7 +467,7 @@ def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,  # 
     out = list(reports)
     with ThreadPoolExecutor(max_workers=jobs) as pool:  # each thread waits on one child process
         futures = {pool.submit(_run_file, file, report, settings, cache, None, plot_points): i
-                   for i, ((file, settings, _), report) in enumerate(zip(tasks, reports))}  # fmt: skip
+                   for i, ((file, settings, _), report) in enumerate(zip(tasks, reports, strict=True))}  # fmt: skip
         for done, future in enumerate(as_completed(futures), start=1):
             i = futures[future]
             out[i] = future.result()
@@ -476,7 +476,7 @@ def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,  # 
     return out
 
 
-def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,  # type: ignore[no-untyped-def]
+def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,
               plot_points: int = 0) -> FileReport:  # fmt: skip
     """Runtime mode for one file (imports the runtime part only now)."""
     from regvet.runtime.session import run_and_judge
@@ -547,7 +547,7 @@ def run_report(args: argparse.Namespace) -> int:
     return EXIT_FAILED if result.failed else EXIT_OK
 
 
-def _same_residuals(audit) -> dict[str, str]:  # type: ignore[no-untyped-def]
+def _same_residuals(audit) -> dict[str, str]:
     """Fit anchor -> the anchor of an earlier fit with the very same residual points (a robust-covariance
     copy shares its fit's residuals): those plots are drawn once."""
     import json
@@ -584,8 +584,16 @@ def _write_new(path: Path, data: bytes) -> None:
 def run_mend(args: argparse.Namespace) -> int:
     """``regvet mend``: apply the quick fixes of the selected rules to every file; ``--preview`` shows a diff."""
     from regvet.engine import analyze_cells
-    from regvet.mend import MendError, Outcome, fixable_rules, mend_notebook, mend_python, read_source
-    from regvet.mend import replace_file, unified_diff
+    from regvet.mend import (
+        MendError,
+        Outcome,
+        fixable_rules,
+        mend_notebook,
+        mend_python,
+        read_source,
+        replace_file,
+        unified_diff,
+    )
 
     fixable = fixable_rules()
     rules = _rule_list(args.only, "--only") or frozenset(fixable)
@@ -612,9 +620,12 @@ def run_mend(args: argparse.Namespace) -> int:
                     text = original.decode("utf-8")
                 except UnicodeDecodeError as exc:
                     raise MendError(f"the notebook is not UTF-8: {exc.reason}") from None
-                outcome: Outcome = mend_notebook(text, lambda cells, count: analyze_cells(
-                    cells, count, shown, settings, provider=provider, module_key=file.stem,
-                    module_cache=module_cache), rules)  # fmt: skip
+                def analyze_notebook(cells: list[tuple[int, str]], count: int, shown: str = shown, settings: Settings = settings,
+                                     provider: FileModules = provider, key: str = file.stem) -> FileReport:
+                    return analyze_cells(cells, count, shown, settings, provider=provider, module_key=key,
+                                         module_cache=module_cache)
+
+                outcome: Outcome = mend_notebook(text, analyze_notebook, rules)
                 data = outcome.new.encode("utf-8")
             else:
                 try:
@@ -623,9 +634,12 @@ def run_mend(args: argparse.Namespace) -> int:
                     if b"statsmodels" not in original:
                         continue  # nothing to mend in it, and nothing regvet checks there either
                     raise
-                outcome = mend_python(source.text, lambda t: analyze(
-                    t, shown, settings, notebook=False, provider=provider, module_key=file.stem,
-                    module_cache=module_cache), rules)  # fmt: skip
+                def analyze_script(text: str, shown: str = shown, settings: Settings = settings,
+                                   provider: FileModules = provider, key: str = file.stem) -> FileReport:
+                    return analyze(text, shown, settings, notebook=False, provider=provider, module_key=key,
+                                   module_cache=module_cache)
+
+                outcome = mend_python(source.text, analyze_script, rules)
                 data = _encode(source, outcome.new)
             if outcome.new != outcome.old:
                 if args.preview:
@@ -658,7 +672,7 @@ def run_mend(args: argparse.Namespace) -> int:
     return EXIT_FAILED if failed else EXIT_OK
 
 
-def _encode(source, text: str) -> bytes:  # type: ignore[no-untyped-def]
+def _encode(source, text: str) -> bytes:
     from regvet.mend import encode_source
 
     return encode_source(source, text)
@@ -736,7 +750,7 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
     todo = [i for i, r in enumerate(reports) if r is None]
     folder = str(cache.folder) if cache is not None else None
     done = map_ordered(FileAnalyzer, (folder,), [tasks[i] for i in todo], jobs, _worker_lost)
-    for i, report in zip(todo, done):
+    for i, report in zip(todo, done, strict=False):
         reports[i] = report
     return [r for r in reports if r is not None]
 

@@ -16,7 +16,7 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from regvet.model.settings import FAMILIES, OPTIONS, Settings
+from regvet.model.settings import FAMILIES, OPTIONS, Option, Settings
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -102,6 +102,11 @@ def _regvet_table(path: Path, data: dict[str, Any]) -> dict[str, Any]:
     return data
 
 
+def _mismatch(source: str, option: Option, key: str, value: Any) -> ConfigError:
+    """The error for a value of the wrong type or range (raised only when the check fails)."""
+    return ConfigError(source, f"expected {option.expected}, got {_tomltype(value)}", key)
+
+
 def settings_from_table(table: dict[str, Any], source: str, base: Settings | None = None) -> Settings:
     """Validate a config table and turn it into :class:`Settings` (on top of ``base``)."""
     from regvet.rules import RULES_BY_ID  # rules import settings; keep this import local
@@ -114,17 +119,15 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
             close = difflib.get_close_matches(key, list(known), n=1)
             hint = f"; did you mean `{close[0]}`?" if close else f"; known keys: {', '.join(known)}"
             raise ConfigError(source, f"unknown key{hint}", key)
-
-        def bad(expected: str | None = None) -> ConfigError:
-            return ConfigError(source, f"expected {expected or option.expected}, got {_tomltype(value)}", key)
+        bad = _mismatch(source, option, key, value)
 
         if option.kind == "float":
             if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value < 1:
-                raise bad()
+                raise bad
             values[key] = float(value)
         elif option.kind in ("rules", "globs", "strings"):
             if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
-                raise bad()
+                raise bad
             if option.kind == "rules":
                 for rid in value:
                     if rid not in RULES_BY_ID:
@@ -134,35 +137,35 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 values[key] = tuple(value)
         elif option.kind == "severity-map":
             if not isinstance(value, dict):
-                raise bad()
-            pairs = []
+                raise bad
+            severities: list[tuple[str, str]] = []
             for rid, sev in value.items():
                 if rid not in RULES_BY_ID:
                     raise ConfigError(source, f"`{rid}` is not a rule id (see `regvet rules`)", f"{key}.{rid}")
                 if not isinstance(sev, str) or sev.lower() not in _SEVERITIES:
                     raise ConfigError(source, f"expected one of {', '.join(_SEVERITIES)}, got {sev!r}", f"{key}.{rid}")
-                pairs.append((rid, sev.lower()))
-            values[key] = tuple(sorted(pairs))
+                severities.append((rid, sev.lower()))
+            values[key] = tuple(sorted(severities))
         elif option.kind == "string":
             if not isinstance(value, str):
-                raise bad()
+                raise bad
             values[key] = value
         elif option.kind in ("int", "optional-int"):
             if isinstance(value, bool) or not isinstance(value, int) or value < (0 if option.kind == "optional-int" else 1):
-                raise bad()
+                raise bad
             values[key] = value
         elif option.kind == "seconds":
             if isinstance(value, bool) or not isinstance(value, (int, float)) or value <= 0:
-                raise bad()
+                raise bad
             values[key] = float(value)
         elif option.kind == "hc":
             if not isinstance(value, str) or value.upper() not in ("HC0", "HC1", "HC2", "HC3"):
-                raise bad()
+                raise bad
             values[key] = value.upper()
         elif option.kind == "helpers":
             if not isinstance(value, dict):
-                raise bad()
-            pairs = []
+                raise bad
+            pairs: list[tuple[str, tuple[str, ...]]] = []
             for name, families in value.items():
                 if not isinstance(families, list) or not all(isinstance(f, str) for f in families):
                     raise ConfigError(

@@ -12,8 +12,8 @@ import ast
 import gc
 import re
 import traceback
+from collections.abc import Iterator
 from contextlib import contextmanager
-from typing import Iterator
 from dataclasses import replace
 
 from regvet.analysis.collect import collect

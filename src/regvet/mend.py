@@ -24,9 +24,10 @@ import tempfile
 import time
 import tokenize
 from collections import Counter
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from regvet.baseline import fingerprint
 from regvet.edits.plan import plan
@@ -111,7 +112,7 @@ def _loop(
         whole, whole_line = whole_of(report, f)
         rule = RULES_BY_ID[f.rule]
         kinds = [k.value for k in rule.quick_fixes]
-        planned = [p for p in plan(text, f.rule, kinds, f.fix, whole=whole, whole_line=whole_line)]
+        planned = list(plan(text, f.rule, kinds, f.fix, whole=whole, whole_line=whole_line))
         lines = original_lines.get(key) or [f.span.line]
         line = lines[0]
         if not planned:

@@ -15,7 +15,8 @@ from __future__ import annotations
 
 import os
 import signal
-from typing import TYPE_CHECKING, Any, Callable, Sequence, TypeVar
+from collections.abc import Callable, Sequence
+from typing import TYPE_CHECKING, Any, TypeVar
 
 if TYPE_CHECKING:  # imported when a pool is used: a one-job run does not pay for multiprocessing
     from concurrent.futures import Future
@@ -56,7 +57,7 @@ def _call(item: Any) -> Any:
 def _alone(factory: Callable[..., Callable[[T], R]], args: tuple, item: T, conn: Any) -> None:
     try:
         conn.send(("ok", factory(*args)(item)))
-    except BaseException as exc:  # noqa: BLE001 - reported to the parent, which decides
+    except BaseException as exc:
         conn.send(("error", f"{type(exc).__name__}: {exc}"))
     finally:
         conn.close()
@@ -92,7 +93,7 @@ def run_alone(factory: Callable[..., Callable[[T], R]], args: tuple, item: T,
     proc.join()
     if status == "error":
         return lost(item, f"the worker process failed: {value}")
-    return value  # type: ignore[no-any-return]
+    return value
 
 
 def _harvest(future: Future, running: dict[Future, int], results: dict[int, Any], items: Sequence[Any],

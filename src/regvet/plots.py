@@ -46,7 +46,7 @@ def _unique_ids(svg: str, prefix: str) -> str:
     return re.sub(r"(url\(|href=\")#([^\")]+)", ref, svg)
 
 
-def _svg(fig, prefix: str, label: str) -> str:  # type: ignore[no-untyped-def]
+def _svg(fig, prefix: str, label: str) -> str:
     buf = io.StringIO()
     fig.savefig(buf, format="svg", metadata={"Date": None, "Creator": "regvet"})
     text = buf.getvalue()
@@ -105,14 +105,14 @@ def residual_plots(points: PlotPoints, name: str, prefix: str) -> list[Plot]:
     ranked = f"all {n} observations" if ranks >= n else f"{ranks} evenly spaced ranks of {n}"
     out: list[Plot] = []
 
-    def figure():  # type: ignore[no-untyped-def]
+    def figure():
         fig = Figure(figsize=(4.6, 3.3))
         FigureCanvasSVG(fig)
         ax = fig.add_subplot(1, 1, 1)
         ax.tick_params(labelsize=8)
         return fig, ax
 
-    def finish(kind: str, title: str, alt: str, fig) -> None:  # type: ignore[no-untyped-def]
+    def finish(kind: str, title: str, alt: str, fig) -> None:
         fig.tight_layout()
         out.append(Plot(kind, title, alt, _svg(fig, f"{prefix}{len(out)}", alt)))
 

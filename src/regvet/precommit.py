@@ -8,9 +8,10 @@ in a helper is judged where it is used.
 from __future__ import annotations
 
 import sys
-from typing import Sequence
+from collections.abc import Sequence
 
-from regvet.cli import EXIT_USAGE, main as cli_main
+from regvet.cli import EXIT_USAGE
+from regvet.cli import main as cli_main
 
 _RUNTIME_FLAGS = ("--run", "--no-cache")
 

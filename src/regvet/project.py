@@ -7,8 +7,8 @@ scanned root, as a module file (``name.py``) or a package (``name/__init__.py``)
 from __future__ import annotations
 
 import os
+from collections.abc import Callable, Mapping
 from pathlib import Path
-from typing import Callable, Mapping
 
 from regvet.analysis.modules import ModuleSource
 from regvet.sources.python import SourceError, decode

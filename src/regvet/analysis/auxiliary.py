@@ -15,7 +15,7 @@ found in the model's arrays or in the columns a formula reads.
 from __future__ import annotations
 
 import re
-from typing import Collection, Iterable, Mapping
+from collections.abc import Collection, Iterable, Mapping
 
 from regvet.analysis import tags
 from regvet.analysis.formula import Formula

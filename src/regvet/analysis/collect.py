@@ -23,20 +23,44 @@ from __future__ import annotations
 
 import ast
 import builtins
-from typing import Any, Callable, cast
+from collections.abc import Callable
+from typing import Any, cast
 
 from regvet.analysis import catalog, tags
 from regvet.analysis.libraries import (
-    ARITHMETIC_KEEPS, GROWING_METHODS, LibrarySemantics, assigned_column_tags, subscript_tags, time_order_of,
+    ARITHMETIC_KEEPS,
+    GROWING_METHODS,
+    LibrarySemantics,
+    assigned_column_tags,
+    subscript_tags,
+    time_order_of,
 )  # fmt: skip
 from regvet.analysis.modules import WELL_KNOWN_LIBRARIES, ModuleLoading, ModuleProvider, NoModules
 from regvet.analysis.regressions import RESULT_KINDS, RegressionSemantics
 from regvet.analysis.state import (
-    FunctionRecord, Frame, ModuleCache, ModuleRecord, Node, Parser, dotted_name,
+    Frame,
+    FunctionRecord,
+    ModuleCache,
+    ModuleRecord,
+    Node,
+    Parser,
+    dotted_name,
 )  # fmt: skip
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import (
-    EMPTY, Value, container, dict_value, elements, flat, iterate, join, join_all, mapping, positions, sequence, tagged,
+    EMPTY,
+    Value,
+    container,
+    dict_value,
+    elements,
+    flat,
+    iterate,
+    join,
+    join_all,
+    mapping,
+    positions,
+    sequence,
+    tagged,
 )  # fmt: skip
 from regvet.model.facts import FileFacts
 
@@ -103,10 +127,10 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
         seen.add(func.key)
         if self.helpers and self.helper_families(self._qualified_name(func)) is not None:
             return False
-        shape = self.quiet_memo.get(id(func.node))
+        if id(func.node) not in self.quiet_memo:
+            self.quiet_memo[id(func.node)] = _quiet_shape(func.node)
+        shape = self.quiet_memo[id(func.node)]
         if shape is None:
-            shape = self.quiet_memo[id(func.node)] = _quiet_shape(func.node)
-        if shape is False:
             return False
         names, dotted, stored, imported = shape
         for qualname in imported:
@@ -356,7 +380,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
             elts = target.elts
             starred = [i for i, e in enumerate(elts) if isinstance(e, ast.Starred)]
             if value.items is not None and not starred and len(value.items) == len(elts):
-                for e, item in zip(elts, value.items):
+                for e, item in zip(elts, value.items, strict=False):
                     self.bind(e, item, frame)
             else:
                 each = iterate(value) if (value.elem is not None or value.keys is not None) else EMPTY
@@ -561,7 +585,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
     def eval_Dict(self, node: ast.Dict, frame: Frame) -> Value:
         pairs: list[tuple[Value, Value]] = []
         splat = EMPTY
-        for k, v in zip(node.keys, node.values):
+        for k, v in zip(node.keys, node.values, strict=False):
             value = self.evaluate(v, frame)
             if k is None:  # **splat: its pairs are not known one by one
                 splat = join(splat, value)
@@ -756,7 +780,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
         if memo_key in self.inline_memo:
             return self.inline_memo[memo_key]
         func.analyzed = True
-        callee = Frame(func.module, {}, func.scope, frame.ctx + (site,), func, cls_attrs=func.cls_attrs)
+        callee = Frame(func.module, {}, func.scope, (*frame.ctx, site), func, cls_attrs=func.cls_attrs)
         self.bind_params(func, callee, args, kwargs, frame)
         self.call_stack.append(func.key)
         saved = self.stmt, self.stmt_module
@@ -792,7 +816,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
             else:
                 value = kwargs.get("**", EMPTY)
             callee.locals[param.arg] = value
-        for param, kw_default in zip(params.kwonlyargs, params.kw_defaults):
+        for param, kw_default in zip(params.kwonlyargs, params.kw_defaults, strict=False):
             if param.arg in kwargs:
                 callee.locals[param.arg] = kwargs[param.arg]
             elif kw_default is not None:
@@ -810,9 +834,7 @@ class Collector(RegressionSemantics, LibrarySemantics, ModuleLoading):
         for value in (*args, *kwargs.values()):
             if tags.has_any_kind(flat(value).tags, _INTERESTING):
                 return True
-        if self.fit_making(func):
-            return True
-        return False
+        return bool(self.fit_making(func))
 
 
 #: Tag kinds that cannot lead to a fact by themselves (see ``Collector.quiet``).
@@ -844,8 +866,8 @@ def _reaches_facts(qualname: str, helpers: dict[str, tuple[str, ...]], tsa_known
     return False
 
 
-def _quiet_shape(node: ast.AST) -> tuple[frozenset[str], frozenset[str], frozenset[str], frozenset[str]] | bool:
-    """What ``Collector.quiet`` reads of a function's syntax: False when the body declares
+def _quiet_shape(node: ast.AST) -> tuple[frozenset[str], frozenset[str], frozenset[str], frozenset[str]] | None:
+    """What ``Collector.quiet`` reads of a function's syntax: None when the body declares
     ``global``/``nonlocal``, stores into ``self`` or imports anything but statsmodels and well-known
     libraries; else (every name mentioned, every dotted name, the names it stores into or grows,
     the library names its imports bind)."""
@@ -867,7 +889,7 @@ def _quiet_shape(node: ast.AST) -> tuple[frozenset[str], frozenset[str], frozens
                 if root is None:
                     continue
                 if root == "self" and kind is ast.Attribute:
-                    return False
+                    return None
                 stored.add(root)
                 if kind is ast.Attribute:
                     stored.add(dotted_name(sub) or root)  # type: ignore[arg-type]
@@ -881,10 +903,10 @@ def _quiet_shape(node: ast.AST) -> tuple[frozenset[str], frozenset[str], frozens
         elif kind is ast.Import or kind is ast.ImportFrom:
             bound = _library_import(sub)  # type: ignore[arg-type]
             if bound is None:
-                return False
+                return None
             imported.update(bound)
         elif kind is ast.Global or kind is ast.Nonlocal:
-            return False
+            return None
     if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):  # its own parameters are bound first
         a = node.args
         own = {p.arg for p in (*a.posonlyargs, *a.args, *a.kwonlyargs)}
@@ -951,9 +973,9 @@ def _touched(stmt: ast.stmt, memo: dict[int, frozenset[str]]) -> frozenset[str]:
                 names.add(key)
         elif node is not stmt and isinstance(node, _COMPOUND):
             inner = memo.get(id(node))
-            names.update(inner if inner is not None else _touched(node, memo))  # type: ignore[arg-type]
-            if kind is ast.ClassDef or kind is ast.FunctionDef or kind is ast.AsyncFunctionDef:
-                names.add(node.name)  # type: ignore[attr-defined]
+            names.update(inner if inner is not None else _touched(node, memo))
+            if isinstance(node, (ast.ClassDef, ast.FunctionDef, ast.AsyncFunctionDef)):
+                names.add(node.name)
             continue
         elif kind is ast.FunctionDef or kind is ast.AsyncFunctionDef or kind is ast.ClassDef:
             names.add(node.name)  # type: ignore[attr-defined]

@@ -16,13 +16,24 @@ callee's tag (``call_*``), and calls of library functions by qualified name
 from __future__ import annotations
 
 import ast
-from typing import Iterable
+from collections.abc import Iterable
 
 from regvet.analysis import catalog, tags
 from regvet.analysis.state import CollectorState, Frame, Node, dotted_name, short_text
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import (
-    EMPTY, Value, container, dict_value, elements, flat, iterate, join, join_all, mapping, positions, sequence,
+    EMPTY,
+    Value,
+    container,
+    dict_value,
+    elements,
+    flat,
+    iterate,
+    join,
+    join_all,
+    mapping,
+    positions,
+    sequence,
     tagged,
 )  # fmt: skip
 from regvet.model.facts import Outcome
@@ -233,7 +244,7 @@ class LibrarySemantics(CollectorState):
             if any(k in kwargs for k in catalog.TIME_READ_KEYWORDS):
                 extra.append(tags.time_order("the data is read with `parse_dates`"))
             return tagged(tags.opaque_call(node), *extra)
-        if qualname.startswith("numpy.") or qualname.startswith("scipy.special."):
+        if qualname.startswith(("numpy.", "scipy.special.")):
             return self.call_numpy(qualname.rsplit(".", 1)[1], args, kwargs, node)
         if qualname.startswith("builtins."):
             return self.call_builtin(qualname[len("builtins.") :], args, kwargs, node, frame)
@@ -303,7 +314,7 @@ class LibrarySemantics(CollectorState):
             known = [steps for steps in steps_each if steps is not None]
             items = None
             if args and len(known) == len(args) and len({len(steps) for steps in known}) == 1:
-                items = tuple(sequence(group) for group in zip(*known))
+                items = tuple(sequence(group) for group in zip(*known, strict=False))
             return container(sequence(tuple(iterate(a) for a in args)), None, items)
         if name == "enumerate":
             steps = positions(first)

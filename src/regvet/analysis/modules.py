@@ -19,7 +19,7 @@ from regvet.analysis.state import CollectorState, Frame, ModuleRecord, Node
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import EMPTY, Value, join, tagged
 
-__all__ = ["ModuleLoading", "ModuleProvider", "ModuleSource", "NoModules", "WELL_KNOWN_LIBRARIES"]
+__all__ = ["WELL_KNOWN_LIBRARIES", "ModuleLoading", "ModuleProvider", "ModuleSource", "NoModules"]
 
 
 #: Never looked up as project modules (a project rarely shadows them, and lookups cost).

@@ -29,7 +29,17 @@ from regvet.analysis.state import CollectorState, FitRecord, Frame, FunctionReco
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import EMPTY, Value, flat, join_all, tagged
 from regvet.model.facts import (
-    Check, Comparison, Escape, FileFacts, Fit, GroupTest, Loc, Mismatch, Outcome, Use, root_fit,
+    Check,
+    Comparison,
+    Escape,
+    FileFacts,
+    Fit,
+    GroupTest,
+    Loc,
+    Mismatch,
+    Outcome,
+    Use,
+    root_fit,
 )  # fmt: skip
 
 MAX_VARIANTS = 24  # distinct formula literals one constructor call may stand for

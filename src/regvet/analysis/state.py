@@ -13,8 +13,9 @@ part calls on another are declared at the end of :class:`CollectorState` for the
 from __future__ import annotations
 
 import ast
+from collections.abc import Callable
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Callable
+from typing import TYPE_CHECKING
 
 from regvet.analysis import tags
 from regvet.analysis.formula import Formula
@@ -51,7 +52,7 @@ class FunctionRecord:
     key: int
     node: ast.FunctionDef | ast.AsyncFunctionDef | ast.Lambda
     module: ModuleRecord
-    scope: "Frame | None"  # the enclosing function's frame (None: module level)
+    scope: Frame | None  # the enclosing function's frame (None: module level)
     qualname: str
     cls_attrs: dict[str, Value] | None = None
     analyzed: bool = False
@@ -63,7 +64,7 @@ class Frame:
 
     module: ModuleRecord
     locals: dict[str, Value]
-    parent: "Frame | None"
+    parent: Frame | None
     ctx: tuple[Loc, ...]  # the call sites that led here, outermost first
     func: FunctionRecord | None = None
     returns: Value = EMPTY
@@ -160,7 +161,7 @@ class CollectorState:
         self.inline_memo: dict[tuple[object, ...], Value] = {}
         self.fit_making_memo: dict[int, bool] = {}
         self.touched_memo: dict[int, frozenset[str]] = {}
-        self.quiet_memo: dict[int, tuple[frozenset[str], ...] | bool] = {}
+        self.quiet_memo: dict[int, tuple[frozenset[str], frozenset[str], frozenset[str], frozenset[str]] | None] = {}
         self.stmt: ast.stmt | None = None  # the simple statement being run
         self.stmt_module: ModuleRecord | None = None
         self._ids = 0

@@ -22,8 +22,9 @@ DEVELOPERS.md has the same table.
 from __future__ import annotations
 
 import ast
+from collections.abc import Callable, Collection, Iterable
 from operator import itemgetter
-from typing import TYPE_CHECKING, Any, Callable, Collection, Iterable
+from typing import TYPE_CHECKING, Any
 
 from regvet.model.facts import Outcome
 
@@ -354,7 +355,7 @@ def data_method(receiver: Tag, name: str) -> Tag:
 CONTAINER_METHOD = "cmethod"
 
 
-def container_method(name: str, base: "Value") -> Tag:
+def container_method(name: str, base: Value) -> Tag:
     """A method of a container value (``d.items``, ``d.get``, ...) with the container's value.
 
     Made by: ``libraries.container_attribute``. Read by: ``libraries.call_container_method``.
@@ -365,7 +366,7 @@ def container_method(name: str, base: "Value") -> Tag:
 #: The method name of a CONTAINER_METHOD tag.
 container_method_name: Callable[[Tag], str] = itemgetter(1)
 #: The container value of a CONTAINER_METHOD tag.
-container_method_base: Callable[[Tag], "Value"] = itemgetter(2)
+container_method_base: Callable[[Tag], Value] = itemgetter(2)
 
 GETTER = "getter"
 
@@ -479,17 +480,11 @@ def select(tags: Iterable[Tag], of_kind: str) -> list[Tag]:
 
 
 def has_kind(tags: Iterable[Tag], of_kind: str) -> bool:
-    for t in tags:
-        if t[0] == of_kind:
-            return True
-    return False
+    return any(t[0] == of_kind for t in tags)
 
 
 def has_any_kind(tags: Iterable[Tag], kinds: Collection[str]) -> bool:
-    for t in tags:
-        if t[0] in kinds:
-            return True
-    return False
+    return any(t[0] in kinds for t in tags)
 
 
 def only_kinds(tags: Iterable[Tag], kinds: Collection[str]) -> frozenset[Tag]:

@@ -10,7 +10,8 @@ immutable; :func:`join` is their least upper bound.
 
 from __future__ import annotations
 
-from typing import Iterable, Iterator, NamedTuple
+from collections.abc import Iterable, Iterator
+from typing import NamedTuple
 
 from regvet.analysis import tags
 from regvet.analysis.tags import Tag
@@ -27,9 +28,9 @@ class Value(NamedTuple):
     """What an expression may hold: atomic tags, and for a container the values inside it."""
 
     tags: frozenset[Tag] = frozenset()
-    elem: "Value | None" = None  # any element (for a dict: any value)
-    keys: "Value | None" = None  # any key (dicts only)
-    items: "tuple[Value, ...] | None" = None  # one value per known position (a dict's: (key, value) pairs)
+    elem: Value | None = None  # any element (for a dict: any value)
+    keys: Value | None = None  # any key (dicts only)
+    items: tuple[Value, ...] | None = None  # one value per known position (a dict's: (key, value) pairs)
     level: int = 0  # nesting depth of containers (0: no elements)
 
     def __bool__(self) -> bool:
@@ -53,7 +54,7 @@ class Value(NamedTuple):
                 yield from child.deep_tags()
         # items are already folded into elem
 
-    def with_tags(self, extra: Iterable[Tag]) -> "Value":
+    def with_tags(self, extra: Iterable[Tag]) -> Value:
         return Value(_cap(self.tags | frozenset(extra)), self.elem, self.keys, self.items, self.level)
 
 
@@ -74,7 +75,7 @@ def tagged(*atoms: Tag) -> Value:
     return Value(frozenset(atoms))
 
 
-def join(a: "Value | None", b: "Value | None") -> Value:
+def join(a: Value | None, b: Value | None) -> Value:
     if a is None or not a:
         return b if b is not None else EMPTY
     if b is None or not b or a is b:
@@ -83,7 +84,7 @@ def join(a: "Value | None", b: "Value | None") -> Value:
         return a
     items = None
     if a.items is not None and b.items is not None and len(a.items) == len(b.items):
-        items = tuple(join(x, y) for x, y in zip(a.items, b.items))
+        items = tuple(join(x, y) for x, y in zip(a.items, b.items, strict=False))
     elem = _join_opt(a.elem, b.elem)
     keys = _join_opt(a.keys, b.keys)
     return _limit(Value(_cap(a.tags | b.tags), elem, keys, items, _level(elem, keys)))
@@ -96,7 +97,7 @@ def join_all(values: Iterable[Value]) -> Value:
     return out
 
 
-def _join_opt(a: "Value | None", b: "Value | None") -> "Value | None":
+def _join_opt(a: Value | None, b: Value | None) -> Value | None:
     if a is None:
         return b
     if b is None:
@@ -104,11 +105,11 @@ def _join_opt(a: "Value | None", b: "Value | None") -> "Value | None":
     return join(a, b)
 
 
-def _level(elem: "Value | None", keys: "Value | None") -> int:
+def _level(elem: Value | None, keys: Value | None) -> int:
     return max(-1 if elem is None else elem.level, -1 if keys is None else keys.level) + 1
 
 
-def container(elem: Value, keys: "Value | None" = None, items: "tuple[Value, ...] | None" = None) -> Value:
+def container(elem: Value, keys: Value | None = None, items: tuple[Value, ...] | None = None) -> Value:
     return _limit(Value(frozenset(), elem, keys, items, _level(elem, keys)))
 
 
@@ -139,7 +140,7 @@ def iterate(value: Value) -> Value:
     return elements(value)
 
 
-def positions(value: Value) -> "tuple[Value, ...] | None":
+def positions(value: Value) -> tuple[Value, ...] | None:
     """What iterating over ``value`` yields, one value per step, when the structure is known."""
     if value.items is None:
         return None
@@ -148,7 +149,7 @@ def positions(value: Value) -> "tuple[Value, ...] | None":
     return value.items
 
 
-def dict_value(value: Value, key: object) -> "Value | None":
+def dict_value(value: Value, key: object) -> Value | None:
     """The value stored under literal ``key`` in a dict with known pairs, or None."""
     if value.keys is None or value.items is None:
         return None
@@ -158,7 +159,7 @@ def dict_value(value: Value, key: object) -> "Value | None":
     return None
 
 
-def mapping(pairs: "list[tuple[Value, Value]]") -> Value:
+def mapping(pairs: list[tuple[Value, Value]]) -> Value:
     """A dict literal with known (key, value) pairs."""
     keys = join_all(k for k, _ in pairs)
     vals = join_all(v for _, v in pairs)

@@ -74,7 +74,7 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
     return source[:at] + "  " + comment + source[at:]
 
 
-def _backslash(lines: list[str], layout: "_Layout", line: int) -> bool:
+def _backslash(lines: list[str], layout: _Layout, line: int) -> bool:
     """Does ``line`` end with a backslash continuation?"""
     end = layout.code_end.get(line)
     return end is not None and lines[line - 1][end:].strip().startswith("\\")
@@ -125,7 +125,8 @@ def _waiver_near(waivers: list[Waiver], line: int) -> Waiver | None:
     """The line waiver that applies to a finding on ``line``: on that line, else alone on the line above."""
     same = [w for w in waivers if not w.file_wide and w.span.line == line]
     above = [w for w in waivers if not w.file_wide and w.alone and w.span.line == line - 1]
-    return (same or above or [None])[0]
+    found = same or above
+    return found[0] if found else None
 
 
 def _merge(source: str, waiver: Waiver, rule: str, reason: str) -> str:

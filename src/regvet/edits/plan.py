@@ -12,8 +12,10 @@ imported reaches the function is an import added.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import Any, Callable, Mapping, Sequence
+from functools import partial
+from typing import Any
 
 from regvet.edits.comments import add_waiver
 from regvet.edits.rewrite import insert_after_statement, set_cov_type
@@ -44,7 +46,7 @@ class PlannedEdit:
 
 def _span(values: object) -> Span | None:
     if isinstance(values, (list, tuple)) and len(values) == 4 and all(type(v) is int for v in values):
-        return Span(*values)  # type: ignore[arg-type]
+        return Span(*values)
     return None
 
 
@@ -87,17 +89,17 @@ def plan(
     for kind in kinds:
         if kind == ROBUST_COVARIANCE and fit_call is not None:
             makers.append((kind, f'Use robust standard errors (cov_type="{cov_type}")', True,
-                           lambda: set_cov_type(text, fit_call, cov_type)))  # fmt: skip
+                           partial(set_cov_type, text, fit_call, cov_type)))  # fmt: skip
         elif kind == INSERT_RESET and statement is not None and result:
             call, imports = check_call(whole, "linear_reset", whole_line)
             code = f'print("RESET:", {call}({result}, power=3, use_f=True))'
             makers.append((kind, f"Insert a RESET test of `{result}` after the fit", True,
-                           lambda c=code, i=imports: insert_after_statement(text, statement, c, i)))  # fmt: skip
+                           partial(insert_after_statement, text, statement, code, imports)))  # fmt: skip
         elif kind == INSERT_BREUSCH_PAGAN and statement is not None and result:
             call, imports = check_call(whole, "het_breuschpagan", whole_line)
             code = f'print("Breusch-Pagan:", {call}({result}.resid, {result}.model.exog))'
             makers.append((kind, f"Insert a Breusch-Pagan test of `{result}` after the fit", False,
-                           lambda c=code, i=imports: insert_after_statement(text, statement, c, i)))  # fmt: skip
+                           partial(insert_after_statement, text, statement, code, imports)))  # fmt: skip
     if waiver_line is not None:
         makers.append((WAIVER, f"Waive {rule} here (write the reason)", False,
                        lambda: add_waiver(text, waiver_line, rule, "REASON")))  # fmt: skip

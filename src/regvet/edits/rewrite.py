@@ -8,7 +8,8 @@ end, surrounding parentheses not included (``tests/test_edits.py`` pins this).
 from __future__ import annotations
 
 import textwrap
-from typing import Mapping, Sequence, TypeVar
+from collections.abc import Mapping, Sequence
+from typing import TypeVar, cast
 
 import libcst as cst
 from libcst.helpers import get_full_name_for_node
@@ -39,7 +40,7 @@ def set_cov_type(source: str, fit_call: Span, cov_type: str = "HC3") -> str:
         at = 1  # OLS.fit(method, cov_type, ...)
     if at is not None:
         args[at] = args[at].with_changes(value=_string(cov_type, args[at].value))
-        return module.deep_replace(call, call.with_changes(args=args)).code
+        return _replaced(module, call, call.with_changes(args=args)).code
     equal = next((a.equal for a in args if a.keyword is not None), None)
     if not isinstance(equal, cst.AssignEqual):  # no keyword to copy the style of: PEP 8's `key=value`
         equal = cst.AssignEqual(whitespace_before=cst.SimpleWhitespace(""), whitespace_after=cst.SimpleWhitespace(""))
@@ -50,7 +51,7 @@ def set_cov_type(source: str, fit_call: Span, cov_type: str = "HC3") -> str:
         args = _append(args, new, first)
     else:
         args = [new]
-    return module.deep_replace(call, call.with_changes(args=args)).code
+    return _replaced(module, call, call.with_changes(args=args)).code
 
 
 def insert_after_statement(
@@ -87,7 +88,7 @@ def insert_after_statement(
     if block is module:
         module = module.with_changes(body=body)
     else:
-        module = module.deep_replace(block, block.with_changes(body=body))  # type: ignore[assignment]
+        module = _replaced(module, block, block.with_changes(body=body))
     for from_module, name in imports:
         module, top_index = _add_import(module, from_module, name, top_index)
     return module.code
@@ -130,13 +131,25 @@ def _separator(first: cst.BaseParenthesizableWhitespace) -> cst.BaseParenthesiza
     return cst.SimpleWhitespace(" ")
 
 
+def _replaced(module: cst.Module, old: cst.CSTNode, new: cst.CSTNode) -> cst.Module:
+    """``module`` with the node ``old`` replaced by ``new`` (libcst types the result loosely)."""
+    result = module.deep_replace(old, new)
+    assert isinstance(result, cst.Module)
+    return result
+
+
+def _smalls(statement: cst.BaseStatement) -> Sequence[cst.BaseSmallStatement]:
+    """The small statements of a simple statement line; none for a compound statement."""
+    return statement.body if isinstance(statement, cst.SimpleStatementLine) else ()
+
+
 def _append(items: list[_Item], new: _Item, first: cst.BaseParenthesizableWhitespace) -> list[_Item]:
     """``items`` + ``new``: the old last item gets a comma, ``new`` takes over its trailing comma and spacing.
 
     ``first`` is the whitespace before the first item, or after the comma before the last one. In
     a list of one item per line, a comment after the old last item stays on its line.
     """
-    last = items[-1]
+    last: cst.Arg | cst.ImportAlias = items[-1]
     had_comma = isinstance(last.comma, cst.Comma)
     if isinstance(last.comma, cst.Comma):
         tail: cst.BaseParenthesizableWhitespace | None = last.comma.whitespace_after
@@ -148,11 +161,16 @@ def _append(items: list[_Item], new: _Item, first: cst.BaseParenthesizableWhites
         tail = _separator(tail).with_changes(indent=tail.indent, last_line=tail.last_line)
     before = last.comma.whitespace_before if isinstance(last.comma, cst.Comma) else cst.SimpleWhitespace("")
     old_changes: dict = {"comma": cst.Comma(whitespace_before=before, whitespace_after=sep)}
-    new_changes: dict = {"comma": last.comma.with_changes(whitespace_after=tail) if had_comma else last.comma}
+    new_changes: dict = {
+        "comma": last.comma.with_changes(whitespace_after=tail) if isinstance(last.comma, cst.Comma) else last.comma
+    }
     if isinstance(last, cst.Arg) and not had_comma:  # the space before `)` moves to the new last argument
         old_changes["whitespace_after_arg"] = cst.SimpleWhitespace("")
         new_changes["whitespace_after_arg"] = tail
-    return [*items[:-1], last.with_changes(**old_changes), new.with_changes(**new_changes)]
+    out = items[:-1]
+    out.append(cast(_Item, last.with_changes(**old_changes)))
+    out.append(new.with_changes(**new_changes))
+    return out
 
 
 def _statements(code: str) -> list[cst.BaseStatement]:
@@ -165,7 +183,7 @@ def _statements(code: str) -> list[cst.BaseStatement]:
         raise EditError("there is no statement to insert")
     if parsed.header:  # comments above the first statement
         body[0] = body[0].with_changes(leading_lines=(*parsed.header, *body[0].leading_lines))
-    return body
+    return list[cst.BaseStatement](body)
 
 
 def _import_lines(body: Sequence[cst.BaseStatement]) -> list[int]:
@@ -197,7 +215,7 @@ def _add_import(module: cst.Module, from_module: str, name: str, before: int) ->
     and that statement's index afterwards."""
     body = list(module.body)
     lines = [i for i in _import_lines(body) if i < before]
-    smalls = [(i, j, s) for i in lines for j, s in enumerate(body[i].body)]  # type: ignore[attr-defined]
+    smalls = [(i, j, s) for i in lines for j, s in enumerate(_smalls(body[i]))]
     if any(_binds(s, from_module, name) for _, _, s in smalls):
         return module, before
     for i, j, s in smalls:
@@ -209,7 +227,7 @@ def _add_import(module: cst.Module, from_module: str, name: str, before: int) ->
             else:
                 first = s.lpar.whitespace_after if s.lpar else cst.SimpleWhitespace(" ")
             names = _append(names, cst.ImportAlias(name=cst.Name(name)), first)
-            small = list(body[i].body)  # type: ignore[attr-defined]
+            small = list(_smalls(body[i]))
             small[j] = s.with_changes(names=names)
             body[i] = body[i].with_changes(body=small)
             return module.with_changes(body=body), before

@@ -18,9 +18,9 @@ from typing import Any
 from lsprotocol import types as t
 from pygls.uris import to_fs_path
 
-from regvet.model.report import FileReport
 from regvet.lsp.convert import json_safe
 from regvet.lsp.server import RegvetServer, Snapshot, build_result, publish, run_analysis
+from regvet.model.report import FileReport
 
 
 def _run_target(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str], procs: list,
@@ -55,7 +55,7 @@ async def run_fits(ls: RegvetServer, uri: str) -> dict:
     """
     key = ls.target_of(uri)
     snap = ls.snapshot(key) if key else None
-    if snap is None:
+    if key is None or snap is None:
         return {"ran": False, "reason": "the document is not open"}
     token = None
     win = ls.client_capabilities.window

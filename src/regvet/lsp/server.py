@@ -162,7 +162,7 @@ class RegvetServer(LanguageServer):
             (self.rule_docs / f"{rid}.md").write_text(explain(rid), encoding="utf-8")
 
     # --- reporting -------------------------------------------------------------------------
-    def report_server_error(self, error: Exception, source: Any) -> None:  # type: ignore[override]
+    def report_server_error(self, error: Exception, source: Any) -> None:
         log.error("regvet internal error: %r", error)
         try:
             self.window_log_message(
@@ -243,10 +243,11 @@ class RegvetServer(LanguageServer):
     def client_overrides(self) -> Overrides:
         """The editor's `alpha`, `skip` and `only` (laid over the project's settings as the CLI's flags are)."""
         alpha = self.client_settings.get("alpha")
-        good_alpha = isinstance(alpha, (int, float)) and not isinstance(alpha, bool) and 0 < alpha < 1
+        if isinstance(alpha, bool) or not isinstance(alpha, (int, float)) or not 0 < alpha < 1:
+            alpha = None
         skip = self._rule_ids("skip")
         only = self._rule_ids("only")
-        return Overrides(only=only, skip=skip, alpha=float(alpha) if good_alpha else None)
+        return Overrides(only=only, skip=skip, alpha=None if alpha is None else float(alpha))
 
     def _rule_ids(self, key: str) -> frozenset[str]:
         value = self.client_settings.get(key)
@@ -629,7 +630,7 @@ async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
     if result is None:
         return None
     cell = next((i for i, u in result.cells.items() if unquote(u) == unquote(uri)), None)
-    text = result.texts.get(uri) or next((v for k, v in result.texts.items() if unquote(k) == unquote(uri)), "")
+    text = result.texts.get(uri) or next((v for k, v in result.texts.items() if unquote(k) == unquote(uri)), None) or ""
     positions = Positions(text, ls.workspace.position_encoding)
     line, col = positions.from_client(params.position)
     parts: list[str] = []

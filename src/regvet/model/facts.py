@@ -8,8 +8,9 @@ fit made in the analysed file may be used inside a helper module.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Mapping, Protocol
+from typing import Protocol
 
 from regvet.model.span import Span
 
@@ -26,7 +27,7 @@ class Outcome:
     def key(self) -> str:
         return self.text
 
-    def same_variable(self, other: "Outcome") -> bool:
+    def same_variable(self, other: Outcome) -> bool:
         return self.base == other.base
 
 

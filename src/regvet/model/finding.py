@@ -18,7 +18,7 @@ class Severity(enum.IntEnum):
     ERROR = 3
 
     @classmethod
-    def parse(cls, text: str) -> "Severity":
+    def parse(cls, text: str) -> Severity:
         try:
             return cls[text.upper()]
         except KeyError:
@@ -64,5 +64,5 @@ class Finding:
     def sort_key(self) -> tuple:
         return (*self.span.sort_key(), self.rule, self.message)
 
-    def with_(self, **changes: Any) -> "Finding":
+    def with_(self, **changes: Any) -> Finding:
         return replace(self, **changes)

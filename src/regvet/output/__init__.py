@@ -7,7 +7,7 @@ needs the text renderer alone.
 from __future__ import annotations
 
 import importlib
-from typing import Callable
+from collections.abc import Callable
 
 #: Format name -> the module (in this package) whose ``render`` writes it.
 FORMAT_MODULES = {"text": "text", "json": "json_out", "sarif": "sarif", "github": "github"}

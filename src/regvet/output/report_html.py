@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import html
 import re
-from typing import Mapping, Sequence
+from collections.abc import Mapping, Sequence
 
 from regvet import __version__
 from regvet.audit import (
@@ -118,7 +118,7 @@ def _finding_item(f: Finding) -> str:
 
 
 def _summary(audit: Audit, title: str) -> str:
-    files = [f for f in audit.files]
+    files = list(audit.files)
     analysed = [f for f in files if not f.skipped]
     counts = ", ".join(f"{n} {label}" for label, n in audit.counts.items())
     rows = [

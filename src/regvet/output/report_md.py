@@ -7,7 +7,7 @@ command writes them.
 
 from __future__ import annotations
 
-from typing import Mapping, Sequence
+from collections.abc import Mapping, Sequence
 
 from regvet import __version__
 from regvet.audit import MISSING, REJECTED, STATES, Audit, FitAudit
@@ -23,7 +23,7 @@ def _cell(text: object) -> str:
 def _table(head: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str]:
     out = ["| " + " | ".join(head) + " |", "|" + "|".join(" --- " for _ in head) + "|"]
     out += ["| " + " | ".join(_cell(c) for c in row) + " |" for row in rows]
-    return out + [""]
+    return [*out, ""]
 
 
 def _n(value: object) -> str:
@@ -55,7 +55,7 @@ def _fit(audit: Audit, fit: FitAudit, images: Sequence[tuple[str, str]], same: t
         if audit.ran:
             row += [r.statistic or "—", r.form or "—", r.pvalue or "—"]
         rows.append(row)
-    out += ["#### Checks", ""] + _table(head, rows)
+    out += ["#### Checks", "", *_table(head, rows)]
     if fit.coefficients:
         kind = fit.robust_type or "robust"
         out += ["#### Coefficients", ""]

@@ -17,8 +17,8 @@ the line where the finding starts; ``tests/test_rule_examples.py`` runs them all
 from __future__ import annotations
 
 import enum
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
-from typing import Callable, Iterable, Iterator, Sequence
 
 from regvet.model.cells import CellMap
 from regvet.model.facts import Check, Escape, FileFacts, Fit, Loc, Use

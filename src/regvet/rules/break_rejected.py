@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Iterator
+from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
@@ -19,7 +19,7 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     if not inp.uses(fit.id, ("estimate", "inference", "robust")):
         return None
     for s in runs(inp, fit.id):
-        rejected = [c for c in s.get("chow") or [] if c.get("pvalue") is not None and c["pvalue"] < alpha]
+        rejected = [c for c in s.get("chow") or [] if (pv := c.get("pvalue")) is not None and pv < alpha]
         if not rejected:
             continue
         c = rejected[0]

@@ -8,7 +8,7 @@ Statistics are the JSON-safe dicts the probe computed in the child process, type
 from __future__ import annotations
 
 import math
-from typing import Collection, Iterable
+from collections.abc import Collection, Iterable
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding

@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-from typing import Iterator
+from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit
 from regvet.model.stats_schema import FitStatistics
+from regvet.rules.base import Rule, RuleInput, describe_fit
 from regvet.rules.evidence import coefficient_clause, in_runs, num, p, runs
 
 

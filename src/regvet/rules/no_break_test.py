@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import re
+from collections.abc import Iterator
 from functools import lru_cache
-from typing import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import Iterator
+from collections.abc import Iterator
 
 from regvet.analysis.catalog import HAC_COV
 from regvet.model.finding import Finding, Severity

@@ -20,9 +20,10 @@ import subprocess
 import sys
 import tempfile
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Callable, cast
+from typing import Any, cast
 
 from regvet.model.stats_schema import FitRecord
 
@@ -57,9 +58,17 @@ class RunResult:
         }  # fmt: skip
 
     @classmethod
-    def from_json(cls, data: dict[str, Any]) -> "RunResult":
-        return cls(**{k: data.get(k) for k in ("fits", "end", "timed_out", "returncode", "signal",
-                                               "output_tail", "elapsed_s", "command_error")})  # fmt: skip
+    def from_json(cls, data: dict[str, Any]) -> RunResult:
+        return cls(
+            fits=list(data.get("fits") or []),
+            end=data.get("end"),
+            timed_out=bool(data.get("timed_out")),
+            returncode=data.get("returncode"),
+            signal=data.get("signal"),
+            output_tail=list(data.get("output_tail") or []),
+            elapsed_s=float(data.get("elapsed_s") or 0.0),
+            command_error=data.get("command_error"),
+        )
 
 
 def probe_version() -> str:
@@ -179,7 +188,7 @@ def run(
             try:
                 proc = subprocess.Popen(
                     [interpreter, str(BOOT), str(req)],
-                    cwd=request["folder"],
+                    cwd=str(request["folder"]),
                     stdin=subprocess.DEVNULL,
                     stdout=output,
                     stderr=subprocess.STDOUT,
@@ -263,7 +272,7 @@ def _tail(path: Path) -> list[str]:
 
 
 def _records(path: Path) -> list[dict[str, Any]]:
-    out = []
+    out: list[dict[str, Any]] = []
     try:
         text = path.read_text(encoding="utf-8", errors="replace")
     except OSError:

@@ -7,9 +7,10 @@ parsed twice.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any
 
 from regvet.engine import with_runtime
 from regvet.model.facts import Fit
@@ -38,11 +39,11 @@ def _source(path: Path, report: FileReport) -> _Source | None:
     lines = report.python.split("\n")
     if report.cell_map is None:
         return _Source(path, lines, None, {})
-    starts = list(report.cell_map.starts) + [len(lines) + 1]
+    starts = [*list(report.cell_map.starts), len(lines) + 1]
     cells = []
     for i, index in enumerate(report.cell_map.cells):
         cells.append({"index": index, "source": "\n".join(lines[starts[i] - 1 : starts[i + 1] - 1])})
-    return _Source(path, lines, cells, dict(zip(report.cell_map.cells, report.cell_map.starts)))
+    return _Source(path, lines, cells, dict(zip(report.cell_map.cells, report.cell_map.starts, strict=False)))
 
 
 def options_for(settings: Settings) -> dict[str, Any]:

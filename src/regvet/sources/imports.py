@@ -9,7 +9,7 @@ Pure: source text (or a parsed module) in, a spelling out. Suggested code (the q
 from __future__ import annotations
 
 import ast
-from typing import Iterator, Sequence
+from collections.abc import Iterator, Sequence
 
 
 def _module_imports(tree: ast.Module, before_line: int | None) -> Iterator[ast.Import | ast.ImportFrom]:

@@ -198,7 +198,7 @@ def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tu
         )
     try:
         result = frame.eval(candidate)
-    except Exception as exc:  # noqa: BLE001 - any pandas parse/eval error
+    except Exception as exc:
         raise RowDataError(
             f"{candidate!r} is neither a column of the data frame nor a query expression it can evaluate "
             f"({_describe(exc)})"

@@ -75,7 +75,7 @@ class GInverse:
 
 def _qr_r(block: np.ndarray) -> np.ndarray:
     """The R factor of a block (rows x p), always returned with p columns."""
-    return np.linalg.qr(block, mode="r")
+    return np.asarray(np.linalg.qr(block, mode="r"))  # mode="r" returns the array itself
 
 
 class TallQR:
@@ -232,7 +232,7 @@ def sweep(basis: Basis, consumers: dict[str, Consumer], failed: dict[str, BaseEx
         for name, fn in list(active.items()):
             try:
                 fn(s, e, v)
-            except Exception as exc:  # noqa: BLE001 - isolate one statistic's failure
+            except Exception as exc:
                 failed[name] = exc
                 del active[name]
         if not active:

@@ -21,6 +21,7 @@ import sys
 import threading
 import time
 import traceback
+import types
 from typing import Any
 
 _state = threading.local()
@@ -33,7 +34,7 @@ class Recorder:
     """Writes one JSON object per line to the output file, flushed after each."""
 
     def __init__(self, out_path: str, options: dict[str, Any], user_files: set[str]) -> None:
-        self.out = open(out_path, "w", encoding="utf-8")
+        self.out = open(out_path, "w", encoding="utf-8")  # noqa: SIM115 - open for the whole run, closed by close()
         self.options = options
         self.user_files = user_files  # absolute paths and "<regvet-cell-N>" names
         self.seq = 0
@@ -52,7 +53,7 @@ class Recorder:
     def frames(self) -> list[list[Any]]:
         """(file, line, col, end_line, end_col) of each frame in the user's code, innermost first."""
         out: list[list[Any]] = []
-        frame = sys._getframe(2)
+        frame: types.FrameType | None = sys._getframe(2)
         while frame is not None:
             filename = frame.f_code.co_filename
             if self._is_user(filename):
@@ -201,14 +202,14 @@ def _patch_statsmodels() -> None:
     original_fit = lm.RegressionModel.fit
     original_robust = lm.RegressionResults.get_robustcov_results
 
-    def fit(self, *args, **kwargs):  # type: ignore[no-untyped-def]
+    def fit(self, *args, **kwargs):
         res = original_fit(self, *args, **kwargs)
         if type(self).__name__ in ("OLS", "WLS") and not getattr(_state, "busy", False):
             if _recorder is not None and not _recorder.called_from_library():
                 _recorder.record(res)
         return res
 
-    def get_robustcov_results(self, *args, **kwargs):  # type: ignore[no-untyped-def]
+    def get_robustcov_results(self, *args, **kwargs):
         res = original_robust(self, *args, **kwargs)
         if type(self.model).__name__ in ("OLS", "WLS") and not getattr(_state, "busy", False):
             if _recorder is not None and not _recorder.called_from_library():
@@ -217,14 +218,14 @@ def _patch_statsmodels() -> None:
 
     fit.__wrapped__ = original_fit  # type: ignore[attr-defined]
     get_robustcov_results.__wrapped__ = original_robust  # type: ignore[attr-defined]
-    lm.RegressionModel.fit = fit  # type: ignore[method-assign]
-    lm.RegressionResults.get_robustcov_results = get_robustcov_results  # type: ignore[method-assign]
+    lm.RegressionModel.fit = fit
+    lm.RegressionResults.get_robustcov_results = get_robustcov_results
 
 
 class _ShowPatcher:
     """Makes ``matplotlib.pyplot.show`` a no-op as soon as pyplot is imported."""
 
-    def find_spec(self, name, path=None, target=None):  # type: ignore[no-untyped-def]
+    def find_spec(self, name, path=None, target=None):
         if name != "matplotlib.pyplot":
             return None
         sys.meta_path.remove(self)
@@ -239,7 +240,7 @@ class _ShowPatcher:
         loader = spec.loader
         exec_module = loader.exec_module
 
-        def patched(module):  # type: ignore[no-untyped-def]
+        def patched(module):
             exec_module(module)
             module.show = lambda *a, **k: None
 

@@ -52,21 +52,21 @@ def main(argv: list[str]) -> int:
             namespace: dict = {"__name__": "__main__", "__builtins__": __builtins__}
             for cell in request["cells"]:
                 code = compile(cell["source"], f"<regvet-cell-{cell['index']}>", "exec")
-                exec(code, namespace)  # noqa: S102 - running the user's notebook is the point
+                exec(code, namespace)
         elif request.get("source") is not None:
             # Exactly the text regvet analysed (an editor may hold unsaved changes), under the script's
             # own file name so call sites point into it.
             script = request["script"]
             namespace = {"__name__": "__main__", "__file__": script, "__builtins__": __builtins__}
-            exec(compile(request["source"], script, "exec"), namespace)  # noqa: S102
+            exec(compile(request["source"], script, "exec"), namespace)
         else:
             import runpy
 
             runpy.run_path(request["script"], run_name="__main__")
     except SystemExit as exc:
-        code = exc.code if isinstance(exc.code, int) or exc.code is None else str(exc.code)
+        exit_code = exc.code if isinstance(exc.code, int) or exc.code is None else str(exc.code)
         tail, where = probe.traceback_tail(exc, user_files)
-        recorder.finish("exit", exit_code=code, where=where)
+        recorder.finish("exit", exit_code=exit_code, where=where)
         return 0
     except MemoryError as exc:
         tail, where = probe.traceback_tail(exc, user_files)

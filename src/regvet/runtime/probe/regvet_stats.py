@@ -40,11 +40,10 @@ import math
 import re
 import warnings
 from collections.abc import Callable, Mapping
+from functools import partial
 from typing import Any
 
 import numpy as np
-from scipy import stats
-from statsmodels.regression.linear_model import OLS, WLS
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
 from regvet_align import RowDataError, candidate_groups, fingerprint, lags_for, time_order
@@ -60,6 +59,8 @@ from regvet_linalg import (
     ssr_on_columns,
     sweep,
 )
+from scipy import stats
+from statsmodels.regression.linear_model import OLS, WLS
 
 __all__ = ["DEFAULT_OPTIONS", "fit_statistics"]
 
@@ -113,6 +114,11 @@ class StatisticError(Exception):
 
 # --------------------------------------------------------------------------------------------
 # JSON-safe conversion
+
+
+def _num_attribute(obj: Any, name: str) -> float | None:
+    """``obj.name`` as a finite number, or None."""
+    return _num(getattr(obj, name))
 
 
 def _num(value: Any) -> float | None:
@@ -313,7 +319,7 @@ class _Stats:
         """Store compute() under ``key``; on failure store None and record why under errors[key]."""
         try:
             self.out[key] = compute()
-        except Exception as exc:  # noqa: BLE001 - one statistic never fails the others
+        except Exception as exc:
             self.out[key] = None
             self.errors[key] = _message(exc)
 
@@ -329,7 +335,7 @@ class _Stats:
         """Run a shared step; if it fails, every statistic that depends on a row pass reports why."""
         try:
             step()
-        except Exception as exc:  # noqa: BLE001
+        except Exception as exc:
             for name in ("design", "gram", "reset_cross", "reset", "lags", "bg", "meat", "cv", "cv_predict",
                          "white_full"):
                 self.failed.setdefault(name, exc)
@@ -370,7 +376,7 @@ class _Stats:
         self.out["n_regressors"] = fit.k - (1 if fit.const_idx is not None else 0)
         self.put("df_resid", lambda: _count(res.df_resid))
         for key in ("rsquared", "rsquared_adj", "aic", "bic", "llf", "ssr"):
-            self.put(key, lambda key=key: _num(getattr(res, key)))
+            self.put(key, partial(_num_attribute, res, key))
         self.put("resid_sd", lambda: _num(math.sqrt(float(res.scale))) if float(res.scale) >= 0 else None)
         self.put("cov_type", lambda: str(res.cov_type))
         self.put("use_t", lambda: bool(res.use_t))
@@ -421,7 +427,7 @@ class _Stats:
         # Time order and BG lags.
         try:
             reason, freq = time_order(fit.model, self.opts["time_column"])
-        except Exception as exc:  # noqa: BLE001
+        except Exception as exc:
             self.errors["time_ordered"] = _message(exc)
             reason, freq = None, None
         if reason is not None:
@@ -445,10 +451,12 @@ class _Stats:
 
     def lag_block(self, s: int, e: int) -> np.ndarray:
         """Rows s..e of the zero-padded lagged residuals û_{t-1}..û_{t-p}."""
-        p = self.lags
-        return np.column_stack([self.u_padded[s + p - j : e + p - j] for j in range(1, p + 1)])
+        p, u = self.lags, self.u_padded
+        assert u is not None, "only for time-ordered data"
+        return np.column_stack([u[s + p - j : e + p - j] for j in range(1, p + 1)])
 
     def reset_block(self, s: int, e: int) -> np.ndarray:
+        assert self.reset_z is not None, "only when RESET can be computed"
         z = self.reset_z[s:e]
         z2 = z * z
         return np.column_stack([z2, z2 * z])
@@ -458,7 +466,7 @@ class _Stats:
         fit = self.fit
         try:
             self.basis = Basis(fit.X, fit.const_idx, fit.chunk, fit.one_in_span and fit.estimator == "OLS")
-        except Exception as exc:  # noqa: BLE001
+        except Exception as exc:
             self.failed["design"] = exc
             for name in ("gram", "reset_cross", "lags", "meat", "cv"):
                 self.failed.setdefault(name, exc)
@@ -535,7 +543,7 @@ class _Stats:
                 self.Gpinv = self.Ginv
             else:
                 self.Gpinv = GInverse(gram_with_constant(self.G, self.sums, fit.n), rank=fit.rank + 1)
-        except Exception as exc:  # noqa: BLE001
+        except Exception as exc:
             self.failed["gram"] = exc
 
     def plus_cross(self, cross_v: np.ndarray, sums: np.ndarray) -> np.ndarray:
@@ -692,7 +700,7 @@ class _Stats:
                 raise StatisticError("no observations")
             p = qr.r.shape[1] - 1
             ssr, rank = ssr_on_columns(qr.r, qr.rows, p)
-            out = {"form": FORM_WHITE_FULL}
+            out: dict[str, Any] = {"form": FORM_WHITE_FULL}
             out.update(self._aux_result(tss - ssr, tss, rank - 1, fit.n - rank))
             out["columns"] = int(p)
             return out
@@ -878,7 +886,7 @@ class _Stats:
             }
             try:
                 entry.update(self._chow_one(candidate))
-            except Exception as exc:  # noqa: BLE001
+            except Exception as exc:
                 self.errors[f"chow:{candidate}"] = _message(exc)
             out.append(entry)
         return out
@@ -945,7 +953,7 @@ class _Stats:
             if self.hc == "HC1":
                 cov_v = cov_v * (fit.n / df)
             se_r = np.sqrt(np.clip(np.diag(self.basis.to_params(cov_v)), 0.0, None))
-        except Exception as exc:  # noqa: BLE001
+        except Exception as exc:
             self.errors["coefficients"] = f"robust standard errors: {_message(exc)}"
 
         def test(b: float, s: float | None) -> tuple[float | None, float | None]:
