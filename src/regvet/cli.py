@@ -725,12 +725,13 @@ class FileAnalyzer:
 
     def __init__(self, cache_folder: str | None) -> None:
         self.texts: dict[Path, str | None] = {}
+        self.found: dict = {}
         self.module_cache: dict = {}
         self.cache = FactCache(Path(cache_folder)) if cache_folder is not None else None
 
     def __call__(self, task: Task) -> FileReport:
         file, settings, root = task
-        return analyze_file(file, settings, root, self.texts, self.module_cache, cache=self.cache)
+        return analyze_file(file, settings, root, self.texts, self.module_cache, cache=self.cache, found=self.found)
 
 
 def _worker_lost(task: Task, why: str) -> FileReport:
@@ -744,9 +745,10 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
     """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes."""
     reports: list[FileReport | None] = [None] * len(tasks)
     texts: dict[Path, str | None] = {}
+    found: dict = {}
     if cache is not None:
         for i, (file, settings, root) in enumerate(tasks):
-            reports[i] = _cached(file, settings, root, texts, cache)
+            reports[i] = _cached(file, settings, root, texts, cache, found)
     todo = [i for i, r in enumerate(reports) if r is None]
     folder = str(cache.folder) if cache is not None else None
     done = map_ordered(FileAnalyzer, (folder,), [tasks[i] for i in todo], jobs, _worker_lost)
@@ -756,18 +758,18 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
 
 
 def _cached(file: Path, settings: Settings, root: Path, texts: dict[Path, str | None],
-            cache: FactCache) -> FileReport | None:  # fmt: skip
+            cache: FactCache, found: dict) -> FileReport | None:  # fmt: skip
     try:
         data = file.read_bytes()
     except OSError:
         return None
     key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
-    return cache.get(key, FileModules(root, file, texts))
+    return cache.get(key, FileModules(root, file, texts, found=found))
 
 
 def analyze_file(
     file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], module_cache: dict,
-    cache: FactCache | None = None,
+    cache: FactCache | None = None, found: dict | None = None,
 ) -> FileReport:  # fmt: skip
     """Read one file and analyse it; unreadable files become ``parse-error`` findings. With ``cache``,
     the analysis is stored there with the project-module lookups it made."""
@@ -776,9 +778,10 @@ def analyze_file(
         data = file.read_bytes()
     except OSError as exc:
         return _unreadable(shown, settings, f"cannot read the file: {exc.strerror or exc}")
+    modules = FileModules(root, file, texts, found=found)
     if cache is None:
-        return _analyze_bytes(file, shown, data, settings, FileModules(root, file, texts), module_cache)
-    provider = RecordingModules(FileModules(root, file, texts))
+        return _analyze_bytes(file, shown, data, settings, modules, module_cache)
+    provider = RecordingModules(modules)
     report = _analyze_bytes(file, shown, data, settings, provider, module_cache)
     cache.put(cache.key(data, shown, root, settings, file.suffix == ".ipynb"), provider.lookups, report)
     return report

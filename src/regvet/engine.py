@@ -15,6 +15,7 @@ import traceback
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import replace
+from functools import lru_cache
 
 from regvet.analysis.collect import collect
 from regvet.analysis.modules import ModuleProvider, NoModules
@@ -56,10 +57,18 @@ def mentions_fits(text: str, provider: ModuleProvider) -> bool:
         if found is None or found.key in seen:
             continue
         seen.add(found.key)
-        if "statsmodels" in found.text:
+        mentions, imports = _summary(found.text)
+        if mentions:
             return True
-        todo.extend(_imported(found.text, found.path))
+        todo.extend((name, found.path, level) for name, level in imports)
     return False
+
+
+@lru_cache(maxsize=4096)
+def _summary(text: str) -> tuple[bool, tuple[tuple[str, int], ...]]:
+    """Whether a module's text mentions statsmodels, and what it imports: read once per text in a
+    process (every file of a scan that imports the module asks again)."""
+    return "statsmodels" in text, tuple((name, level) for name, _, level in _imported(text, None))
 
 
 @contextmanager

@@ -74,8 +74,19 @@ def settings_fingerprint(settings: Settings) -> str:
     return "\n".join(parts)
 
 
+_HASHES: dict[int, tuple[str, str]] = {}
+
+
 def _text_hash(text: str) -> str:
-    return hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()
+    """A module text's hash, computed once per text object (a scan shares one text per module)."""
+    known = _HASHES.get(id(text))
+    if known is not None and known[0] is text:
+        return known[1]
+    digest = hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()
+    if len(_HASHES) > 20_000:
+        _HASHES.clear()
+    _HASHES[id(text)] = (text, digest)
+    return digest
 
 
 class RecordingModules:

@@ -29,10 +29,15 @@ class FileModules:
         *,
         overlay: Mapping[Path, str] | None = None,
         show: Callable[[Path], str] | None = None,
+        found: dict | None = None,
     ) -> None:
         self.root = root.resolve()
         self.main = main.resolve()
         self.texts = texts if texts is not None else {}
+        #: (name, level, importer, root) -> the existing candidate files, in order; may be shared like ``texts``
+        self.found: dict[tuple[str, int, str | None, Path], tuple[Path, ...]] = found if found is not None else {}
+        #: A found file -> its module key and the path findings show (the same for every importer)
+        self.names: dict[Path, tuple[str, str]] = self.found.setdefault(("names", 0, None, self.root), {})  # type: ignore[arg-type,assignment]
         self.overlay = overlay or {}  # unsaved editor buffers win over the files on disk
         self.show = show or display_path
 
@@ -48,6 +53,24 @@ class FileModules:
         return self.texts[path]
 
     def find(self, name: str, level: int, importer: str | None) -> ModuleSource | None:
+        for candidate in self._candidates(name, level, importer):
+            if candidate == self.main:
+                continue
+            text = self._read(candidate)
+            if text is None:
+                return None
+            named = self.names.get(candidate)
+            if named is None:
+                named = self.names[candidate] = (_key(candidate, self.root), self.show(candidate))
+            return ModuleSource(named[0], named[1], text)
+        return None
+
+    def _candidates(self, name: str, level: int, importer: str | None) -> tuple[Path, ...]:
+        """The files that exist for the import, in the order they are tried (remembered: many files ask)."""
+        key = (name, level, importer if importer else str(self.main.parent), self.root)
+        known = self.found.get(key)
+        if known is not None:
+            return known
         start = Path(importer).resolve().parent if importer else self.main.parent
         if level:
             base = start
@@ -57,17 +80,14 @@ class FileModules:
         else:
             bases = [start] if start == self.root else [start, self.root]
         parts = [p for p in name.split(".") if p]
-        if not parts:
-            return None
-        for base in bases:
-            for candidate in (base.joinpath(*parts).with_suffix(".py"), base.joinpath(*parts, "__init__.py")):
-                if candidate == self.main or not candidate.is_file():
-                    continue
-                text = self._read(candidate)
-                if text is None:
-                    return None
-                return ModuleSource(_key(candidate, self.root), self.show(candidate), text)
-        return None
+        out: list[Path] = []
+        if parts:
+            for base in bases:
+                for candidate in (base.joinpath(*parts).with_suffix(".py"), base.joinpath(*parts, "__init__.py")):
+                    if candidate.is_file():
+                        out.append(candidate)
+        self.found[key] = tuple(out)
+        return self.found[key]
 
 
 def _key(path: Path, root: Path) -> str:
