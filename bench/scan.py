@@ -182,9 +182,14 @@ if __name__ == "__main__":
     import platform
 
     repeats = int(sys.argv[1]) if len(sys.argv) > 1 else 3
-    res = {"python": platform.python_version(), "machine": f"{platform.machine()}, {platform.system()}",
-           "date": time.strftime("%Y-%m-%d"), "scan": run(repeats)}  # fmt: skip
-    print("\n".join(summary(res["scan"])))
-    out = HERE / "results" / "scan.json"
-    out.write_text(json.dumps(res, indent=2) + "\n")
+    result = run(repeats)
+    print("\n".join(summary(result)))
+    out = HERE / "results" / "latest.json"  # this section refreshed, the others kept
+    data = json.loads(out.read_text()) if out.exists() else {}
+    data.update(python=platform.python_version(), machine=f"{platform.machine()}, {platform.system()}",
+                date=time.strftime("%Y-%m-%d"), scan=result)  # fmt: skip
+    data.pop("scan_statsmodels", None)  # the one-tree figure this section replaced
+    tmp = out.with_suffix(".json.tmp")
+    tmp.write_text(json.dumps(data, indent=2) + "\n")
+    tmp.replace(out)
     print(f"written to {out.relative_to(HERE.parent)}")
