@@ -4,10 +4,11 @@ regvet's runtime mode puts this directory on ``PYTHONPATH`` of the child process
 user's script, so this module is imported by the *user's* Python. At import time it uses only the
 standard library, numpy, scipy (a statsmodels dependency) and statsmodels; it never imports regvet,
 and pandas only lazily, when the results object already holds pandas objects (an index, a data
-frame). The one public function is :func:`fit_statistics`. Its two helpers sit beside it and follow
-the same import rules: ``regvet_linalg`` (the design's basis, row passes, QR, generalised inverses)
-and ``regvet_align`` (row fingerprint, time order and frequency, frame columns aligned with the
-fit's rows, break-candidate groups).
+frame). The one public function is :func:`fit_statistics`. Its helpers sit beside it and follow
+the same import rules: ``regvet_fit`` (the fit's design, residuals and options), ``regvet_passes``
+(the shared row passes every statistic builds on), ``regvet_linalg`` (the design's basis, row
+passes, QR, generalised inverses) and ``regvet_align`` (row fingerprint, time order and frequency,
+frame columns aligned with the fit's rows, break-candidate groups).
 
 How the numbers are computed (and why), in short:
 
@@ -37,7 +38,6 @@ Each statistic that cannot be computed is None in the output and its reason is r
 from __future__ import annotations
 
 import math
-import re
 import warnings
 from collections.abc import Callable, Mapping
 from functools import partial
@@ -46,49 +46,29 @@ from typing import Any
 import numpy as np
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
-from regvet_align import RowDataError, candidate_groups, fingerprint, lags_for, time_order
+from regvet_align import candidate_groups, fingerprint
+from regvet_fit import (
+    DEFAULT_OPTIONS,
+    FitInputs,
+    StatisticError,
+    as_count,
+    as_float,
+    error_message,
+    float_attribute,
+    log_base,
+    read_options,
+)
 from regvet_linalg import (
     EPS,
-    Basis,
-    Consumer,
     GInverse,
     TallQR,
-    constant_columns,
-    gram_with_constant,
-    leverages,
     ssr_on_columns,
-    sweep,
 )
+from regvet_passes import RowPasses
 from scipy import stats
-from statsmodels.regression.linear_model import OLS, WLS
 
 __all__ = ["DEFAULT_OPTIONS", "fit_statistics"]
 
-#: Options of :func:`fit_statistics` and their defaults.
-DEFAULT_OPTIONS: dict[str, Any] = {
-    # Full White test while its auxiliary regression has at most this many columns (incl. the
-    # constant), else the special form on the fitted values and their squares.
-    "white_max_columns": 40,
-    # Breusch-Godfrey lags; None: 4 for quarterly, 12 for monthly data, 1 otherwise (common practice).
-    "serial_lags": None,
-    # A column of the model's data frame that makes the data time-ordered.
-    "time_column": None,
-    # Column names (split the sample by its values) or pandas query expressions (split into the rows
-    # where it holds and where it does not).
-    "break_candidates": [],
-    # Heteroskedasticity-robust standard errors: this type, or robust_se_large when nobs >= robust_se_large_n.
-    "robust_se": "HC3",
-    "robust_se_large": "HC1",
-    "robust_se_large_n": 100_000,
-    # Deterministic k-fold cross-validation (off by default).
-    "cv": False,
-    "cv_folds": 5,
-    "cv_seed": 0,
-    # Rows per block in the row-wise passes.
-    "chunk_rows": 65_536,
-}
-
-_HC_TYPES = ("HC0", "HC1", "HC2", "HC3")
 _SIGNIFICANCE = 0.05
 
 FORM_BREUSCH_PAGAN = "Koenker studentized LM = n·R² of û² on the regressors; F from the same auxiliary regression"
@@ -108,226 +88,8 @@ WEIGHTS_NOTE = (
 )
 
 
-class StatisticError(Exception):
-    """A statistic is undefined or cannot be computed for this fit; the message says why."""
-
-
-# --------------------------------------------------------------------------------------------
-# JSON-safe conversion
-
-
-def _num_attribute(obj: Any, name: str) -> float | None:
-    """``obj.name`` as a finite number, or None."""
-    return _num(getattr(obj, name))
-
-
-def _num(value: Any) -> float | None:
-    """A finite Python float, or None for NaN, infinities, None and anything not numeric."""
-    if value is None:
-        return None
-    try:
-        out = float(np.asarray(value, dtype=float).reshape(()))
-    except (TypeError, ValueError):
-        return None
-    return out if math.isfinite(out) else None
-
-
-def _count(value: Any) -> int | float | None:
-    """An int when ``value`` is integral (statsmodels keeps df as floats), else a finite float or None."""
-    out = _num(value)
-    if out is None:
-        return None
-    return int(out) if out.is_integer() else out
-
-
-def _message(exc: BaseException) -> str:
-    if isinstance(exc, (StatisticError, RowDataError)):
-        return str(exc)
-    text = str(exc)
-    return f"{type(exc).__name__}: {text}" if text else type(exc).__name__
-
-
-# --------------------------------------------------------------------------------------------
-# Options
-
-
-def _options(options: Mapping[str, Any] | None) -> dict[str, Any]:
-    """Merge ``options`` over the defaults; raise ValueError on unknown keys or bad values."""
-    opts = dict(DEFAULT_OPTIONS)
-    opts["break_candidates"] = []
-    if options:
-        unknown = sorted(set(options) - set(DEFAULT_OPTIONS))
-        if unknown:
-            raise ValueError(f"unknown fit_statistics option(s): {', '.join(unknown)}")
-        opts.update(options)
-    for key in ("white_max_columns", "robust_se_large_n", "cv_folds", "cv_seed", "chunk_rows"):
-        if isinstance(opts[key], bool) or not isinstance(opts[key], (int, np.integer)):
-            raise ValueError(f"option {key} must be an integer, not {opts[key]!r}")
-        opts[key] = int(opts[key])
-    if opts["chunk_rows"] < 1:
-        raise ValueError("option chunk_rows must be at least 1")
-    if opts["cv_folds"] < 2:
-        raise ValueError("option cv_folds must be at least 2")
-    lags = opts["serial_lags"]
-    if lags is not None and (isinstance(lags, bool) or not isinstance(lags, (int, np.integer)) or lags < 1):
-        raise ValueError(f"option serial_lags must be None or a positive integer, not {lags!r}")
-    for key in ("robust_se", "robust_se_large"):
-        if not isinstance(opts[key], str) or opts[key].upper() not in _HC_TYPES:
-            raise ValueError(f"option {key} must be one of {', '.join(_HC_TYPES)}, not {opts[key]!r}")
-        opts[key] = opts[key].upper()
-    cands = opts["break_candidates"]
-    if isinstance(cands, str) or not all(isinstance(c, str) for c in cands):
-        raise ValueError("option break_candidates must be a list of strings")
-    opts["break_candidates"] = list(cands)
-    if opts["time_column"] is not None and not isinstance(opts["time_column"], str):
-        raise ValueError("option time_column must be None or a column name")
-    opts["cv"] = bool(opts["cv"])
-    return opts
-
-
-# --------------------------------------------------------------------------------------------
-# The fit
-
-
-class _Fit:
-    """The quantities of one fitted model that every statistic reads (nothing here copies n x k data)."""
-
-    def __init__(self, res: Any, opts: dict[str, Any]) -> None:
-        model = getattr(res, "model", None)
-        if isinstance(model, OLS):
-            self.estimator = "OLS"
-        elif isinstance(model, WLS):
-            self.estimator = "WLS"
-        else:
-            what = f"{type(model).__name__} results" if model is not None else type(res).__name__
-            raise TypeError(f"fit_statistics needs statsmodels OLS or WLS results, not {what}")
-        self.res = res
-        self.model = model
-        self.opts = opts
-        self.X = np.asarray(model.wexog)
-        if self.X.ndim != 2:
-            raise TypeError("the model's design must be two-dimensional")
-        self.n, self.k = self.X.shape
-        self.y = np.asarray(model.wendog, dtype=float).reshape(-1)
-        self.u = np.asarray(res.wresid, dtype=float).reshape(-1)
-        self.yhat = self.y - self.u  # whitened fitted values, wexog @ params
-        self.chunk = opts["chunk_rows"]
-        data = model.data
-        self.const_idx: int | None = getattr(data, "const_idx", None)
-        self.k_constant = int(getattr(model, "k_constant", 0) or 0)
-        self.weights: np.ndarray | None = None
-        if self.estimator == "WLS":
-            self.weights = np.broadcast_to(np.asarray(model.weights, dtype=float), (self.n,))
-        weights_constant = self.weights is None or bool(np.ptp(self.weights) == 0)
-        # Does the whitened design contain the constant 1 in its column space?
-        self.one_in_span = bool(self.k_constant) and weights_constant
-        rank = getattr(model, "rank", None)
-        self.rank = int(rank) if rank is not None else int(np.linalg.matrix_rank(self.X))
-        self.names = _param_names(model, self.X)
-        self.ssr = float(self.u @ self.u)
-        yy = float(self.y @ self.y)
-        self.finite = math.isfinite(self.ssr) and math.isfinite(yy)
-        self.perfect = self.finite and (self.ssr <= 1e-20 * yy or yy == 0.0)
-
-    def require_residuals(self) -> None:
-        """Raise when the residuals carry no information (non-finite values, or a perfect fit)."""
-        if not self.finite:
-            raise StatisticError(
-                "the endog or the residuals contain NaN or infinite values (missing values not dropped?)"
-            )
-        if self.perfect:
-            raise StatisticError(
-                "the residuals are numerically zero (a perfect fit): the statistic is undefined"
-            )
-
-
-def _param_names(model: Any, X: np.ndarray) -> list[str]:
-    """The model's ``exog_names``, without statsmodels' n x k temporary for plain-array designs.
-
-    For an ndarray design statsmodels recomputes the names on every access from ``exog.var(0)``
-    (``statsmodels.base.data._make_exog_names``); the same rule is applied here with ``ptp``, which
-    needs no temporary: the first column without variation is "const", the others x1, x2, ...
-    """
-    data = model.data
-    if type(getattr(data, "orig_exog", None)) is not np.ndarray or getattr(data, "_param_names", None):
-        return [str(x) for x in model.exog_names]
-    k = X.shape[1]
-    flat = constant_columns(X)
-    if flat.size:
-        names = [f"x{i:d}" for i in range(1, k)]
-        names.insert(int(flat[0]), "const")
-        return names
-    return [f"x{i:d}" for i in range(1, k + 1)]
-
-
-# --------------------------------------------------------------------------------------------
-# The computation
-
-
-_LOG_CALL = re.compile(r"^(?:[A-Za-z_][A-Za-z_0-9]*\.)*(log|log10|log2|log1p|ln)\((.*)\)$")
-_LOG_NAME = re.compile(r"^(?:log|ln)_[A-Za-z_0-9]")
-_BASES = {"log": math.e, "ln": math.e, "log1p": math.e, "log10": 10.0, "log2": 2.0}
-
-
-def _log_base(name: str) -> float | None:
-    """The base of the log transform that an endog name shows (np.log(x), log10(x), log_x), or None."""
-    text = name.strip()
-    while text.startswith("I(") and text.endswith(")") and _balanced(text[2:-1]):
-        text = text[2:-1].strip()
-    match = _LOG_CALL.match(text)
-    if match and _balanced(match.group(2)):
-        return _BASES[match.group(1)]
-    if _LOG_NAME.match(text):
-        return math.e
-    return None
-
-
-def _balanced(text: str) -> bool:
-    depth = 0
-    for ch in text:
-        depth += ch == "("
-        depth -= ch == ")"
-        if depth < 0:
-            return False
-    return depth == 0
-
-
-class _Stats:
+class _Stats(RowPasses):
     """Runs every statistic for one fit; see :func:`fit_statistics` for the output contract."""
-
-    def __init__(self, fit: _Fit) -> None:
-        self.fit = fit
-        self.opts = fit.opts
-        self.out: dict[str, Any] = {}
-        self.errors: dict[str, str] = {}
-        #: Row passes (and shared steps) that failed, by name; the statistics that need them say so.
-        self.failed: dict[str, BaseException] = {}
-        # Defaults for everything prepare() sets, so that a failure there leaves a consistent state.
-        self.reset_z: np.ndarray | None = None
-        self.yhat_varies = False
-        # Robust SE type (the large-sample type from robust_se_large_n rows on).
-        large = fit.n >= self.opts["robust_se_large_n"]
-        self.hc: str = self.opts["robust_se_large"] if large else self.opts["robust_se"]
-        self.time_reason: str | None = None
-        self.lags = 0
-        self.white_columns = 0
-        self.white_full = False
-
-    # -- helpers ------------------------------------------------------------------------------
-
-    def put(self, key: str, compute: Callable[[], Any]) -> None:
-        """Store compute() under ``key``; on failure store None and record why under errors[key]."""
-        try:
-            self.out[key] = compute()
-        except Exception as exc:
-            self.out[key] = None
-            self.errors[key] = _message(exc)
-
-    def need(self, *names: str) -> None:
-        """Raise the failure of a row pass that a statistic depends on."""
-        for name in names:
-            if name in self.failed:
-                raise StatisticError(f"{name} pass failed: {_message(self.failed[name])}")
 
     # -- the whole run -------------------------------------------------------------------------
 
@@ -374,10 +136,10 @@ class _Stats:
         self.out["nobs"] = fit.n
         self.out["k"] = fit.k
         self.out["n_regressors"] = fit.k - (1 if fit.const_idx is not None else 0)
-        self.put("df_resid", lambda: _count(res.df_resid))
+        self.put("df_resid", lambda: as_count(res.df_resid))
         for key in ("rsquared", "rsquared_adj", "aic", "bic", "llf", "ssr"):
-            self.put(key, partial(_num_attribute, res, key))
-        self.put("resid_sd", lambda: _num(math.sqrt(float(res.scale))) if float(res.scale) >= 0 else None)
+            self.put(key, partial(float_attribute, res, key))
+        self.put("resid_sd", lambda: as_float(math.sqrt(float(res.scale))) if float(res.scale) >= 0 else None)
         self.put("cov_type", lambda: str(res.cov_type))
         self.put("use_t", lambda: bool(res.use_t))
         self.out["has_constant"] = bool(fit.k_constant)
@@ -387,7 +149,7 @@ class _Stats:
     def log_level_r2(self) -> float | None:
         """corr(exp(endog), exp(fitted))² when the endog's name shows a log transform, else None."""
         fit = self.fit
-        base = _log_base(str(fit.model.endog_names))
+        base = log_base(str(fit.model.endog_names))
         if base is None:
             return None
         endog = np.asarray(fit.model.endog, dtype=float).reshape(-1)
@@ -400,260 +162,7 @@ class _Stats:
         den = float(a @ a) * float(b @ b)
         if not den > 0:
             raise StatisticError("exp(endog) or exp(fitted values) is constant")
-        return _num(float(a @ b) ** 2 / den)
-
-    # -- shared computations -------------------------------------------------------------------
-
-    def prepare(self) -> None:
-        """n-vectors and choices shared by several statistics (cheap: no n x k work)."""
-        fit = self.fit
-        u = fit.u
-        self.g = u * u
-        self.g_mean = float(self.g.mean()) if fit.n else 0.0
-        self.g_c = self.g - self.g_mean
-        self.u_mean = float(u.mean()) if fit.n else 0.0
-        # RESET columns: powers of the (whitened) fitted values, centred and scaled when the constant is
-        # in the design's column space (the span of [X, ŷ², ŷ³] is then unchanged).
-        if fit.n:
-            a = float(fit.yhat.mean()) if fit.one_in_span else 0.0
-            z = fit.yhat - a
-            b = math.sqrt(float(z @ z) / fit.n)
-            rms = math.sqrt(float(fit.yhat @ fit.yhat) / fit.n)
-            spread = float(np.ptp(fit.yhat))
-            # Fitted values equal up to rounding (a model with only a constant) carry no information.
-            self.yhat_varies = spread > 1e-10 * rms
-            if b > 0 and self.yhat_varies:
-                self.reset_z = z / b
-        # Time order and BG lags.
-        try:
-            reason, freq = time_order(fit.model, self.opts["time_column"])
-        except Exception as exc:
-            self.errors["time_ordered"] = _message(exc)
-            reason, freq = None, None
-        if reason is not None:
-            self.time_reason = reason
-            self.lags = int(self.opts["serial_lags"] or lags_for(freq))
-            self.u_padded = np.concatenate([np.zeros(self.lags), u])
-        # White: which form.
-        p_plus = fit.k + (0 if fit.one_in_span else 1)
-        self.white_columns = p_plus * (p_plus + 1) // 2
-        self.white_full = self.white_columns <= self.opts["white_max_columns"]
-        # Cross-validation folds.
-        if self.opts["cv"]:
-            folds = self.opts["cv_folds"]
-            if folds > fit.n:
-                self.failed["cv"] = StatisticError(f"cv_folds ({folds}) is larger than nobs ({fit.n})")
-            else:
-                perm = np.random.default_rng(self.opts["cv_seed"]).permutation(fit.n)
-                self.fold_of = np.empty(fit.n, dtype=np.intp)
-                for j, part in enumerate(np.array_split(perm, folds)):
-                    self.fold_of[part] = j
-
-    def lag_block(self, s: int, e: int) -> np.ndarray:
-        """Rows s..e of the zero-padded lagged residuals û_{t-1}..û_{t-p}."""
-        p, u = self.lags, self.u_padded
-        assert u is not None, "only for time-ordered data"
-        return np.column_stack([u[s + p - j : e + p - j] for j in range(1, p + 1)])
-
-    def reset_block(self, s: int, e: int) -> np.ndarray:
-        assert self.reset_z is not None, "only when RESET can be computed"
-        z = self.reset_z[s:e]
-        z2 = z * z
-        return np.column_stack([z2, z2 * z])
-
-    def pass_one(self) -> None:
-        """Row pass 1: V'V, V'1, V'[û, û² − mean, RESET columns, lags], HC0 meat, CV fold sums."""
-        fit = self.fit
-        try:
-            self.basis = Basis(fit.X, fit.const_idx, fit.chunk, fit.one_in_span and fit.estimator == "OLS")
-        except Exception as exc:
-            self.failed["design"] = exc
-            for name in ("gram", "reset_cross", "lags", "meat", "cv"):
-                self.failed.setdefault(name, exc)
-            return
-        k = fit.k
-        self.G = np.zeros((k, k))
-        self.sums = np.zeros(k)
-        self.cross = np.zeros((k, 2))  # columns: û, û² − mean
-        self.cross_reset = np.zeros((k, 2))
-        u, gc = fit.u, self.g_c
-
-        def gram(s: int, e: int, v: np.ndarray) -> None:
-            self.G += v.T @ v
-            self.sums += v.sum(axis=0)
-            self.cross += v.T @ np.column_stack([u[s:e], gc[s:e]])
-
-        consumers: dict[str, Consumer] = {"gram": gram}
-        if self.reset_z is not None:
-            def reset(s: int, e: int, v: np.ndarray) -> None:
-                self.cross_reset += v.T @ self.reset_block(s, e)
-
-            consumers["reset_cross"] = reset
-        else:
-            self.failed["reset_cross"] = StatisticError("the fitted values are constant")
-        if self.lags:
-            self.cross_lags = np.zeros((k, self.lags))
-            self.sum_lags = np.zeros(self.lags)
-
-            def lags(s: int, e: int, v: np.ndarray) -> None:
-                block = self.lag_block(s, e)
-                self.cross_lags += v.T @ block
-                self.sum_lags += block.sum(axis=0)
-
-            consumers["lags"] = lags
-        if self.hc in ("HC0", "HC1"):
-            self.meat = np.zeros((k, k))
-
-            absu = np.abs(u)
-
-            def meat(s: int, e: int, v: np.ndarray) -> None:
-                w = v * absu[s:e, None]
-                self.meat += w.T @ w
-
-            consumers["meat"] = meat
-        if self.opts["cv"] and "cv" not in self.failed:
-            folds = self.opts["cv_folds"]
-            self.fold_gram = np.zeros((folds, k, k))
-            self.fold_cross = np.zeros((folds, k))
-
-            def cv(s: int, e: int, v: np.ndarray) -> None:
-                which = self.fold_of[s:e]
-                us = u[s:e]
-                for j in range(folds):
-                    sel = which == j
-                    if sel.any():
-                        vj = v[sel]
-                        self.fold_gram[j] += vj.T @ vj
-                        self.fold_cross[j] += vj.T @ us[sel]
-
-            consumers["cv"] = cv
-        sweep(self.basis, consumers, self.failed)
-
-    def solve(self) -> None:
-        """Generalised inverses of V'V and of [1, V]'[1, V] (the auxiliary regressions' design)."""
-        if "gram" in self.failed:
-            return
-        fit = self.fit
-        if not (np.isfinite(self.G).all() and np.isfinite(self.sums).all()):
-            self.failed["gram"] = StatisticError("the design contains NaN or infinite values")
-            return
-        try:
-            self.Ginv = GInverse(self.G, rank=fit.rank)
-            if fit.one_in_span:
-                self.Gpinv = self.Ginv
-            else:
-                self.Gpinv = GInverse(gram_with_constant(self.G, self.sums, fit.n), rank=fit.rank + 1)
-        except Exception as exc:
-            self.failed["gram"] = exc
-
-    def plus_cross(self, cross_v: np.ndarray, sums: np.ndarray) -> np.ndarray:
-        """[1, V]'R (or V'R when 1 is already in the design's span) from V'R and 1'R."""
-        if self.fit.one_in_span:
-            return cross_v
-        return np.vstack([sums[None, :], cross_v])
-
-    def pass_two(self) -> None:
-        """Row pass 2 (needs the inverses): leverages and HC2/HC3 meat, residualised RESET columns and
-        lags, CV predictions, and the full White auxiliary regression."""
-        if "gram" in self.failed:
-            for name in ("meat", "reset", "bg", "cv", "white_full"):
-                self.failed.setdefault(name, self.failed["gram"])
-            return
-        fit = self.fit
-        k = fit.k
-        u = fit.u
-        consumers: dict[str, Consumer] = {}
-        Ginv = self.Ginv.inv
-
-        if self.hc in ("HC2", "HC3"):
-            self.meat = np.zeros((k, k))
-            self.max_leverage = 0.0
-            power = 1 if self.hc == "HC2" else 2
-
-            def meat(s: int, e: int, v: np.ndarray) -> None:
-                h = leverages(v, Ginv)
-                self.max_leverage = max(self.max_leverage, float(h.max(initial=0.0)))
-                w = self.g[s:e] / (1.0 - h) ** power
-                self.meat += (v * w[:, None]).T @ v
-
-            consumers["meat"] = meat
-
-        if "reset_cross" not in self.failed:
-            b_reset = Ginv @ self.cross_reset
-            self.reset_rr = np.zeros((2, 2))
-            self.reset_ru = np.zeros(2)
-
-            def reset(s: int, e: int, v: np.ndarray) -> None:
-                r = self.reset_block(s, e) - v @ b_reset
-                self.reset_rr += r.T @ r
-                self.reset_ru += r.T @ u[s:e]
-
-            consumers["reset"] = reset
-        else:
-            self.failed["reset"] = self.failed["reset_cross"]
-
-        if self.lags and "lags" not in self.failed:
-            b_lags = self.Gpinv.inv @ self.plus_cross(self.cross_lags, self.sum_lags)
-            p = self.lags
-            self.bg_rr = np.zeros((p, p))
-            self.bg_ru = np.zeros(p)
-            one = not fit.one_in_span
-
-            def bg(s: int, e: int, v: np.ndarray) -> None:
-                fitted = v @ b_lags[1:] + b_lags[0] if one else v @ b_lags
-                r = self.lag_block(s, e) - fitted
-                self.bg_rr += r.T @ r
-                self.bg_ru += r.T @ u[s:e]
-
-            consumers["bg"] = bg
-        elif self.lags:
-            self.failed["bg"] = self.failed["lags"]
-
-        if self.opts["cv"] and "cv" not in self.failed:
-            folds = self.opts["cv_folds"]
-            total_cross = self.cross[:, 0]
-            deltas = []
-            for j in range(folds):
-                train = GInverse(self.G - self.fold_gram[j], rank=fit.rank)
-                deltas.append(train.inv @ (total_cross - self.fold_cross[j]))
-            self.cv_sse = 0.0
-            self.cv_sae = 0.0
-
-            def cv(s: int, e: int, v: np.ndarray) -> None:
-                which = self.fold_of[s:e]
-                err = u[s:e].copy()
-                for j in range(folds):
-                    sel = which == j
-                    if sel.any():
-                        err[sel] -= v[sel] @ deltas[j]
-                self.cv_sse += float(err @ err)
-                self.cv_sae += float(np.abs(err).sum())
-
-            consumers["cv_predict"] = cv
-
-        if self.white_full:
-            # Products of the (RMS-scaled) columns of [1, V]: the same span as het_white's products.
-            scale = np.sqrt(np.diag(self.G) / max(fit.n, 1))
-            scale[~(scale > 0)] = 1.0
-            one = not fit.one_in_span
-            p_plus = k + (1 if one else 0)
-            i0, i1 = np.triu_indices(p_plus)
-            self.white_qr = TallQR()
-            g = self.g
-
-            # Sub-blocks of rows keep the product block no larger than a block of the design.
-            sub = max(1, (self.basis.chunk * k) // (i0.size + 1))
-
-            def white(s: int, e: int, v: np.ndarray) -> None:
-                for t in range(0, e - s, sub):
-                    w = v[t : t + sub] / scale
-                    if one:
-                        w = np.column_stack([np.ones(w.shape[0]), w])
-                    self.white_qr.add(np.column_stack([w[:, i0] * w[:, i1], g[s + t : s + t + w.shape[0]]]))
-
-            consumers["white_full"] = white
-
-        sweep(self.basis, consumers, self.failed)
+        return as_float(float(a @ b) ** 2 / den)
 
     # -- statistics ----------------------------------------------------------------------------
 
@@ -668,10 +177,10 @@ class _Stats:
         ssr = tss - ess
         f = (ess / df_model) / (ssr / df_resid) if ssr > 0 else math.inf
         return {
-            "lm": _num(lm),
-            "lm_pvalue": _num(stats.chi2.sf(lm, df_model)),
-            "f": _num(f),
-            "f_pvalue": _num(stats.f.sf(f, df_model, df_resid)) if math.isfinite(f) else _num(0.0),
+            "lm": as_float(lm),
+            "lm_pvalue": as_float(stats.chi2.sf(lm, df_model)),
+            "f": as_float(f),
+            "f_pvalue": as_float(stats.f.sf(f, df_model, df_resid)) if math.isfinite(f) else as_float(0.0),
             "df": int(df_model),
         }
 
@@ -739,10 +248,10 @@ class _Stats:
         f = (ess / q) / (ssr_u / df_denom) if ssr_u > 0 else math.inf
         return {
             "form": FORM_RESET,
-            "f": _num(f),
-            "pvalue": _num(stats.f.sf(f, q, df_denom)) if math.isfinite(f) else _num(0.0),
+            "f": as_float(f),
+            "pvalue": as_float(stats.f.sf(f, q, df_denom)) if math.isfinite(f) else as_float(0.0),
             "df_num": int(q),
-            "df_denom": _count(df_denom),
+            "df_denom": as_count(df_denom),
         }
 
     def jarque_bera(self) -> dict[str, Any]:
@@ -762,10 +271,10 @@ class _Stats:
         kurt = m4 / m2**2
         jb = fit.n / 6.0 * (skew**2 + (kurt - 3.0) ** 2 / 4.0)
         return {
-            "statistic": _num(jb),
-            "pvalue": _num(stats.chi2.sf(jb, 2)),
-            "skew": _num(skew),
-            "kurtosis": _num(kurt),
+            "statistic": as_float(jb),
+            "pvalue": as_float(stats.chi2.sf(jb, 2)),
+            "skew": as_float(skew),
+            "kurtosis": as_float(kurt),
             "form": FORM_JARQUE_BERA,
         }
 
@@ -788,7 +297,7 @@ class _Stats:
         lam = np.linalg.eigvalsh(xtx / np.outer(d, d))
         if not lam[0] > 0:
             raise StatisticError("the scaled design is numerically singular: the condition index is infinite")
-        return {"value": _num(math.sqrt(lam[-1] / lam[0])), "form": FORM_CONDITION_INDEX}
+        return {"value": as_float(math.sqrt(lam[-1] / lam[0])), "form": FORM_CONDITION_INDEX}
 
     def vif(self) -> dict[str, Any]:
         """Centred VIFs of the non-constant regressors: diag of the inverse correlation matrix."""
@@ -818,9 +327,9 @@ class _Stats:
         names = [fit.names[j] for j in idx]
         top = int(np.argmax(values))
         return {
-            "max": _num(values[top]),
+            "max": as_float(values[top]),
             "variable": names[top],
-            "values": {name: _num(v) for name, v in zip(names, values)},
+            "values": {name: as_float(v) for name, v in zip(names, values)},
         }
 
     def time_series(self) -> None:
@@ -837,7 +346,7 @@ class _Stats:
         fit = self.fit
         fit.require_residuals()
         diff = np.diff(fit.u)
-        return _num(float(diff @ diff) / fit.ssr)
+        return as_float(float(diff @ diff) / fit.ssr)
 
     def breusch_godfrey(self) -> dict[str, Any]:
         """BG LM = n·R² of û on [design, intercept if none, lags 1..p zero-padded] (= acorr_breusch_godfrey)."""
@@ -863,10 +372,10 @@ class _Stats:
         ssr = tss - ess
         f = (ess_lags / p) / (ssr / df_resid) if ssr > 0 else math.inf
         return {
-            "lm": _num(lm),
-            "lm_pvalue": _num(stats.chi2.sf(lm, p)),
-            "f": _num(f),
-            "f_pvalue": _num(stats.f.sf(f, p, df_resid)) if math.isfinite(f) else _num(0.0),
+            "lm": as_float(lm),
+            "lm_pvalue": as_float(stats.chi2.sf(lm, p)),
+            "f": as_float(f),
+            "f_pvalue": as_float(stats.f.sf(f, p, df_resid)) if math.isfinite(f) else as_float(0.0),
             "lags": int(p),
             "form": FORM_BREUSCH_GODFREY,
         }
@@ -887,7 +396,7 @@ class _Stats:
             try:
                 entry.update(self._chow_one(candidate))
             except Exception as exc:
-                self.errors[f"chow:{candidate}"] = _message(exc)
+                self.errors[f"chow:{candidate}"] = error_message(exc)
             out.append(entry)
         return out
 
@@ -929,8 +438,8 @@ class _Stats:
         if not ssr_groups > 0:
             raise StatisticError("the group-wise regressions fit perfectly: F is infinite")
         f = ((fit.ssr - ssr_groups) / df_num) / (ssr_groups / df_denom)
-        result["f"] = _num(f)
-        result["pvalue"] = _num(stats.f.sf(f, df_num, df_denom))
+        result["f"] = as_float(f)
+        result["pvalue"] = as_float(stats.f.sf(f, df_num, df_denom))
         return result
 
     def coefficients(self) -> list[dict[str, Any]]:
@@ -954,13 +463,13 @@ class _Stats:
                 cov_v = cov_v * (fit.n / df)
             se_r = np.sqrt(np.clip(np.diag(self.basis.to_params(cov_v)), 0.0, None))
         except Exception as exc:
-            self.errors["coefficients"] = f"robust standard errors: {_message(exc)}"
+            self.errors["coefficients"] = f"robust standard errors: {error_message(exc)}"
 
         def test(b: float, s: float | None) -> tuple[float | None, float | None]:
             if fit.perfect or s is None or not s > 0 or not math.isfinite(s) or df <= 0:
                 return None, None
             t = b / s
-            return _num(t), _num(2.0 * stats.t.sf(abs(t), df))
+            return as_float(t), as_float(2.0 * stats.t.sf(abs(t), df))
 
         out = []
         for j, name in enumerate(fit.names):
@@ -971,11 +480,11 @@ class _Stats:
             out.append(
                 {
                     "name": name,
-                    "estimate": _num(est[j]),
-                    "se": _num(se[j]),
+                    "estimate": as_float(est[j]),
+                    "se": as_float(se[j]),
                     "t": t,
                     "p": p,
-                    "se_robust": _num(s_r),
+                    "se_robust": as_float(s_r),
                     "t_robust": t_r,
                     "p_robust": p_r,
                     "robust_type": self.hc,
@@ -993,8 +502,8 @@ class _Stats:
         return {
             "folds": int(self.opts["cv_folds"]),
             "seed": int(self.opts["cv_seed"]),
-            "rmse": _num(math.sqrt(self.cv_sse / n)),
-            "mae": _num(self.cv_sae / n),
+            "rmse": as_float(math.sqrt(self.cv_sse / n)),
+            "mae": as_float(self.cv_sae / n),
         }
 
 
@@ -1051,8 +560,8 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
     * ``weights``: None for OLS; for WLS a note that every statistic uses the whitened model.
     * ``errors``: ``{name: message}`` for every statistic that could not be computed.
     """
-    opts = _options(options)
+    opts = read_options(options)
     with warnings.catch_warnings(), np.errstate(all="ignore"):
         warnings.simplefilter("ignore")
-        fit = _Fit(res, opts)
+        fit = FitInputs(res, opts)
         return _Stats(fit).run()
