@@ -80,7 +80,7 @@ def _parser() -> argparse.ArgumentParser:
             r._add_action(action)
     _subcommands(sub)
     sub.add_parser("rules", help="list the rules")
-    sub.add_parser("serve", help="run the language server (stdio; --tcp --port N for 127.0.0.1)")
+    sub.add_parser("serve", help="run the language server (stdio; --tcp [--port N] for 127.0.0.1)")
     e = sub.add_parser("explain", help="explain one rule: rationale, examples, references")
     e.add_argument("rule", metavar="RULE")
     return p
