@@ -49,7 +49,10 @@ def _parser() -> argparse.ArgumentParser:
         epilog=CAUTION,
     )
     c.add_argument("paths", nargs="*", default=["."], metavar="PATH", help="files or folders (default: .)")
-    c.add_argument("--format", choices=["text", "json", "sarif", "github"], default="text")
+    c.add_argument("--format", choices=["text", "lines", "json", "sarif", "github"], default="text",
+                   help="text: each fit's findings under one header line, wrapped to the terminal (default); "
+                   "lines: one `path:line:col:` line per finding, for tools; json; sarif (2.1.0); "
+                   "github: workflow annotations")  # fmt: skip
     c.add_argument(
         "--fail-on",
         choices=["error", "warning", "info"],

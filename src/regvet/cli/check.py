@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import os
+import shutil
 import sys
 from pathlib import Path
 
@@ -23,14 +24,27 @@ def run_check(args: argparse.Namespace) -> int:
     colour = args.color == "always" or (args.color == "auto" and sys.stdout.isatty() and not os.environ.get("NO_COLOR"))
     from regvet.output import renderer
 
-    sys.stdout.write(renderer(args.format)(reports, colour=colour))
+    sys.stdout.write(renderer(args.format)(reports, colour=colour, width=text_width()))
     if note:
-        (sys.stdout if args.format == "text" else sys.stderr).write(note)
+        (sys.stdout if args.format in ("text", "lines") else sys.stderr).write(note)
     if result.failed:
         return EXIT_FAILED
     threshold = Severity.parse(args.fail_on)
     hit = any(f.severity >= threshold and not f.waived for r in reports for f in r.findings)
     return EXIT_FINDINGS if hit else EXIT_OK
+
+
+def text_width() -> int:
+    """The width text output is wrapped to: the terminal's when standard output is one (or ``COLUMNS``
+    when set), else ``DEFAULT_WIDTH``."""
+    from regvet.output.text import DEFAULT_WIDTH, MIN_WIDTH
+
+    columns = os.environ.get("COLUMNS", "")
+    if columns.isdigit() and int(columns) > 0:
+        return max(int(columns), MIN_WIDTH)
+    if sys.stdout.isatty():
+        return max(shutil.get_terminal_size((DEFAULT_WIDTH, 24)).columns, MIN_WIDTH)
+    return DEFAULT_WIDTH
 
 
 def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport], str]:
