@@ -10,7 +10,6 @@ printed with the file's path, and the scan still covers every other file).
 from __future__ import annotations
 
 import argparse
-import fnmatch
 import os
 import sys
 import time
@@ -22,12 +21,14 @@ from regvet import __version__
 from regvet.analysis.providers import ModuleProvider
 from regvet.baseline import BASELINE_NAME, BaselineError
 from regvet.config import ConfigError, load_settings
+from regvet.discovery import MissingPath, discover, read_regular
 from regvet.engine import analyze, error_report
 from regvet.factcache import FactCache, RecordingModules
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
+from regvet.output.safe import printable, valid_utf8
 from regvet.parallel import default_jobs, map_ordered
 from regvet.project import FileModules, display_path
 from regvet.rules import ALL_RULES, RULES_BY_ID
@@ -232,42 +233,18 @@ def _rule_list(text: str | None, flag: str) -> frozenset[str]:
     return known
 
 
-def _excluded(rel: Path, patterns: Sequence[str]) -> bool:
-    posix = rel.as_posix()
-    for pat in patterns:
-        pat = pat.rstrip("/")
-        if "/" in pat:
-            if fnmatch.fnmatch(posix, pat) or fnmatch.fnmatch(posix, pat + "/*"):
-                return True
-        elif any(fnmatch.fnmatch(part, pat) for part in rel.parts):
-            return True
-    return False
-
-
 def collect_files(paths: Sequence[str], exclude: Sequence[str]) -> list[Path]:
-    """Files to scan: named files as given, folders walked for ``.py`` and ``.ipynb`` files."""
-    files: list[Path] = []
-    for raw in paths:
-        path = Path(raw)
-        if path.is_file():
-            files.append(path)
-        elif path.is_dir():
-            for folder, dirs, names in os.walk(path):
-                rel_folder = Path(folder).relative_to(path)
-                dirs[:] = sorted(d for d in dirs if not _excluded(rel_folder / d, exclude))
-                for name in sorted(names):
-                    if name.endswith((".py", ".ipynb")) and not _excluded(rel_folder / name, exclude):
-                        files.append(Path(folder) / name)
-        else:
-            raise UsageError(f"no such file or folder: {raw}")
-    seen: set[Path] = set()
-    unique = []
-    for f in files:
-        key = f.resolve()
-        if key not in seen:
-            seen.add(key)
-            unique.append(f)
-    return unique
+    """Files to scan: named files as given, folders walked for ``.py`` and ``.ipynb`` files.
+
+    Names that are not regular files (symbolic link loops, FIFOs, devices) and folders that cannot be
+    listed are left out with a note on standard error (see :mod:`regvet.discovery`)."""
+    try:
+        found = discover(paths, exclude)
+    except MissingPath as exc:
+        raise UsageError(f"no such file or folder: {exc}") from None
+    for skipped in found.skipped:
+        sys.stderr.write(f"regvet: skipped {printable(display_path(skipped.path))}: {skipped.why}\n")
+    return found.files
 
 
 class _SettingsFinder:
@@ -394,7 +371,7 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
         for crash in report.crashes:
             out.failed = True
             where = "the analysis" if crash.where == "analysis" else f"rule {crash.where}"
-            sys.stderr.write(f"{report.path}: regvet failed in {where}: {crash.message}\n")
+            sys.stderr.write(printable(f"{report.path}: regvet failed in {where}: {crash.message}\n"))
         out.files.append((file, report))
     if progress is not None:
         progress.done()
@@ -532,12 +509,12 @@ def run_report(args: argparse.Namespace) -> int:
             if images:
                 (output.parent / folder).mkdir(exist_ok=True)
             for name, svg in images.items():
-                _write_new(output.parent / name, svg.encode("utf-8"))
+                _write_new(output.parent / name, valid_utf8(svg).encode("utf-8"))
         else:
             from regvet.output.report_html import render as render_html
 
             text = render_html(audit, plots, same=same_as)
-        _write_new(output, text.encode("utf-8"))
+        _write_new(output, valid_utf8(text).encode("utf-8"))
     except OSError as exc:
         raise UsageError(f"-o: cannot write {exc.filename or args.output}: {exc.strerror or exc}") from None
     n_files = sum(1 for f in audit.files if f.fits)
@@ -614,7 +591,7 @@ def run_mend(args: argparse.Namespace) -> int:
         settings = finder.for_path(file)
         provider = FileModules(project_root(file.resolve(), roots, Path.cwd().resolve()), file, texts)
         try:
-            original = file.read_bytes()
+            original = read_regular(file)
             if file.suffix == ".ipynb":
                 try:
                     text = original.decode("utf-8")
@@ -760,7 +737,7 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
 def _cached(file: Path, settings: Settings, root: Path, texts: dict[Path, str | None],
             cache: FactCache, found: dict) -> FileReport | None:  # fmt: skip
     try:
-        data = file.read_bytes()
+        data = read_regular(file)
     except OSError:
         return None
     key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
@@ -775,7 +752,7 @@ def analyze_file(
     the analysis is stored there with the project-module lookups it made."""
     shown = display_path(file)
     try:
-        data = file.read_bytes()
+        data = read_regular(file)
     except OSError as exc:
         return _unreadable(shown, settings, f"cannot read the file: {exc.strerror or exc}")
     modules = FileModules(root, file, texts, found=found)

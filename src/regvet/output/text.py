@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from regvet.model.finding import Finding, Severity
 from regvet.model.report import FileReport
+from regvet.output.safe import printable
 
 _COLOURS = {Severity.ERROR: "\033[31m", Severity.WARNING: "\033[33m", Severity.INFO: "\033[36m"}
 _BOLD, _DIM, _RESET = "\033[1m", "\033[2m", "\033[0m"
@@ -49,4 +50,4 @@ def render(reports: list[FileReport], *, colour: bool = False, **_: object) -> s
     if waived:
         summary += f"; {waived} waived"
     lines.append(summary)
-    return "\n".join(lines) + "\n"
+    return printable("\n".join(lines) + "\n")
