@@ -922,11 +922,11 @@ TIME = [
         res = smf.ols("riders ~ fare + lag_riders", data=crossings).fit()  # expect: no-serial-test
         print(res.summary())
     """, SERIAL),
-    case("tsa-import", """
+    case("tsa-import-elsewhere-is-not-evidence", """
         import statsmodels.tsa.api as tsa
 
         print(tsa.adfuller(crossings["riders"]))
-        res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-serial-test
+        res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.summary())
     """, SERIAL),
     case("time-data-array-api", """
@@ -941,16 +941,16 @@ TIME = [
         res = smf.ols("riders ~ fare + wind_speed", data=daily).fit()  # expect: no-serial-test
         print(res.summary())
     """, SERIAL),
-    case("sm.tsa-attribute", """
+    case("sm.tsa-attribute-elsewhere-is-not-evidence", """
         print(sm.tsa.acf(crossings["riders"], nlags=4))
-        res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-serial-test
+        res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.summary())
     """, SERIAL),
-    case("from-tsa-import", """
+    case("from-tsa-import-elsewhere-is-not-evidence", """
         from statsmodels.tsa.stattools import adfuller
 
         print(adfuller(crossings["riders"]))
-        res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-serial-test
+        res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.summary())
     """, SERIAL),
     case("time-data-estimates-only", """

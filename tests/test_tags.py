@@ -10,12 +10,15 @@ import pytest
 
 from regvet.analysis import tags
 from regvet.analysis.values import EMPTY, tagged
-from regvet.model.facts import Outcome
+from regvet.model.facts import Loc, Outcome
+from regvet.model.span import Span
 
 ANALYSIS = Path(__file__).resolve().parents[1] / "src" / "regvet" / "analysis"
 _NODE = ast.parse("x").body[0]
 _RIDERS = Outcome("riders", "log", "log(riders)")
 _RECEIVER = tags.result_part(3, tags.RESID)
+
+_WHERE = Loc(Span(3, 0, 3, 20))
 
 # (constructor call, its kind, [(accessor, expected value), ...])
 ROUNDTRIPS = [
@@ -46,7 +49,12 @@ ROUNDTRIPS = [
     (tags.columns(("fare", "wind")), tags.COLUMNS, [(tags.column_names, ("fare", "wind"))]),
     (tags.holds_column("e"), tags.COLUMN_NAME, [(tags.column, "e")]),
     (tags.column_value("e", _RECEIVER), tags.COLUMN_VALUE, [(tags.column, "e"), (tags.column_source, _RECEIVER)]),
-    (tags.time_order("dates"), tags.TIMED, [(tags.time_reason, "dates")]),
+    (tags.time_order("dates"), tags.TIMED, [(tags.time_reason, "dates"), (tags.time_where, None)]),
+    (tags.time_order("dates", _WHERE), tags.TIMED, [(tags.time_reason, "dates"), (tags.time_where, _WHERE)]),
+    (tags.dates("`pd.to_datetime`", _WHERE), tags.DATES,
+     [(tags.dates_what, "`pd.to_datetime`"), (tags.dates_where, _WHERE)]),
+    (tags.date_column("week", "`parse_dates`", _WHERE), tags.DATE_COLUMN,
+     [(tags.date_column_name, "week"), (tags.date_column_what, "`parse_dates`"), (tags.date_column_where, _WHERE)]),
 ]
 
 

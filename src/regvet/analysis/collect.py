@@ -26,7 +26,7 @@ import builtins
 from collections.abc import Callable
 from typing import Any, cast
 
-from regvet.analysis import catalog, tags
+from regvet.analysis import catalog, tags, timeorder
 from regvet.analysis.libraries import (
     ARITHMETIC_KEEPS,
     LibrarySemantics,
@@ -45,6 +45,7 @@ from regvet.analysis.state import (
     Node,
     Parser,
     dotted_name,
+    short_text,
 )  # fmt: skip
 from regvet.analysis.tags import Tag
 from regvet.analysis.uncalled import UncalledFunctions
@@ -74,6 +75,8 @@ _TRY_STATEMENTS: tuple[type[ast.stmt], ...] = (ast.Try,) + ((ast.TryStar,) if ha
 _MATCH_STATEMENTS: tuple[type[ast.stmt], ...] = (ast.Match,) if hasattr(ast, "Match") else ()
 #: Kinds that make a value worth following into a function it is passed to.
 _INTERESTING = RESULT_KINDS | {tags.FUNCTION}  # a callback may make or check fits
+#: Kinds that make a value worth following for the time order a function's result keeps.
+_TIME_KINDS = frozenset({tags.TIMED, tags.DATE_COLUMN, tags.DATES})
 
 
 class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, ModuleLoading):
@@ -311,8 +314,11 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
                 else:
                     self.assign(frame, key, value)
             base = target.value
-            if isinstance(base, ast.Name) and value.has(tags.TIMED):
-                self.join_into(frame, base.id, Value(frozenset(value.tags_of(tags.TIMED))))
+            timed = value.tags_of(tags.TIMED)
+            if target.attr == "index" and isinstance(base, ast.Name):  # ``df.index = pd.to_datetime(...)``
+                timed = timeorder.index_order(value, None, short_text(target, 40) + " = ...", self.loc(target, frame))
+            if isinstance(base, ast.Name) and timed:
+                self.join_into(frame, base.id, Value(frozenset(timed)))
             elif not isinstance(base, ast.Name):
                 self.evaluate(base, frame)
         elif isinstance(target, ast.Subscript):
@@ -666,7 +672,7 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
         if result is None:
             result = self.call_library_name(qualname, args, kwargs, node, frame)
         if result is None:
-            result = self.call_other_statsmodels_name(qualname, args, kwargs, node)
+            result = self.call_other_statsmodels_name(qualname, args, kwargs, node, frame)
         return result
 
     # --- user functions ------------------------------------------------------------------------
@@ -746,7 +752,16 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
         for value in (*args, *kwargs.values()):
             if tags.has_any_kind(flat(value).tags, _INTERESTING):
                 return True
-        return bool(self.fit_making(func))
+        if self.fit_making(func):
+            return True
+        # A helper that gives data a time order, or is handed time-ordered data, returns it.
+        for value in (*args, *kwargs.values()):
+            if tags.has_any_kind(flat(value).tags, _TIME_KINDS):
+                return True
+        memo = self.time_making_memo.get(func.key)
+        if memo is None:
+            memo = self.time_making_memo[func.key] = timeorder.mentions_time_order(func.node)
+        return memo
 
 
 #: The value of each literal met (values are immutable, the same literal recurs constantly); bounded.
@@ -777,6 +792,7 @@ ATTRIBUTE_HANDLERS: dict[str, AttributeHandler] = {
     tags.OUTCOME: Collector.attribute_of_columns,
     tags.COLUMNS: Collector.attribute_of_columns,
     tags.TIMED: Collector.attribute_of_timed,
+    tags.DATE_COLUMN: Collector.attribute_of_date_column,
 }
 #: ``call`` handlers by tag kind: ``(collector, tag, args, kwargs, node, frame, receiver) -> Value | None``.
 CallHandler = Callable[[Collector, Tag, list[Value], dict[str, Value], ast.Call, Frame, Value | None],

@@ -18,7 +18,7 @@ from __future__ import annotations
 import ast
 from collections.abc import Iterable
 
-from regvet.analysis import catalog, tags
+from regvet.analysis import catalog, tags, timeorder
 from regvet.analysis.state import CollectorState, Frame, Node, dotted_name, short_text
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import (
@@ -62,7 +62,7 @@ _CONTAINER_VIEW_METHODS = frozenset({"items", "values", "keys", "get", "pop", "c
 _NOT_GROWN = frozenset({tags.FIT, tags.QUALIFIED})  # ``res.append(...)``, ``np.append(...)``: not containers
 _KEPT_BY_NUMPY = frozenset({tags.TIMED, tags.MODEL_PART, tags.COLUMNS, tags.MEASURE})
 _KEPT_FROM_OTHER_ARGUMENTS = frozenset({tags.PART, tags.MODEL_PART, tags.TIMED, tags.MEASURE})
-_KEPT_BY_DATA_METHODS = frozenset({tags.TIMED, tags.COLUMN_VALUE, tags.COLUMN_NAME})
+_KEPT_BY_DATA_METHODS = frozenset({tags.TIMED, tags.COLUMN_VALUE, tags.COLUMN_NAME, tags.DATE_COLUMN})
 _ASSIGNED_SOURCES = frozenset({tags.PART, tags.FIT})  # what a column is recorded to hold
 _SUBSCRIPT_KEEPS = frozenset({tags.PART, tags.MODEL_PART, tags.COLUMNS, tags.OUTCOME, tags.MEASURE})
 _OPAQUE_SUBSCRIPTED = frozenset({tags.DATA, tags.TIMED})
@@ -72,6 +72,8 @@ def time_order_of(args: Iterable[Value], kwargs: dict[str, Value], receiver: Val
     """The TIMED tags of a call's inputs (at most two): a call on time-ordered data stays time-ordered."""
     out: list[Tag] = []
     for value in (*args, *kwargs.values(), *(() if receiver is None else (receiver,))):
+        if value.elem is not None or value.items is not None:  # ``pd.concat([north, south])``
+            value = flat(value)
         out.extend(value.tags_of(tags.TIMED))
     return out[:2]
 
@@ -97,6 +99,8 @@ def subscript_tags(base: Value, index: Value, node: ast.Subscript) -> set[Tag]:
                 extra.add(tags.columns(cols))
         if kind in _SUBSCRIPT_KEEPS:
             extra.add(tag)
+        elif kind == tags.DATE_COLUMN and not (len(index.tags) == 1 and tags.literal_strings(index.tags)):
+            extra.add(tag)  # a selection of rows or columns of a frame keeps its date columns
     if sum(1 for t in extra if tags.kind(t) == tags.OUTCOME) > 1:
         # A column picked out of a frame is that column, whatever the frame was called.
         picked = {tags.outcome(Outcome(n, None, n)) for n in tags.literal_strings(index.tags)}
@@ -112,6 +116,7 @@ def assigned_column_tags(value: Value, index: Value) -> set[Tag]:
         col = tags.literal_value(lit)
         if isinstance(col, str):
             extra.add(tags.holds_column(col))
+            extra.update(timeorder.assigned_dates(col, value))
             for held in flat(value).tags:
                 if tags.kind(held) in _ASSIGNED_SOURCES:
                     extra.add(tags.column_value(col, held))
@@ -168,6 +173,12 @@ class LibrarySemantics(CollectorState):
         out.add(tag)
         return None
 
+    def attribute_of_date_column(self, tag: Tag, name: str, node: Node, frame: Frame, out: set[Tag]) -> Value | None:
+        """``df.loc``, ``df.values``: the same frame, with its date columns."""
+        if name in PASSING_ATTRIBUTES:
+            out.add(tag)
+        return None
+
     def container_attribute(self, base: Value, name: str, out: set[Tag]) -> None:
         """``d.items``, ``d.get``, ...: a bound method of a container value."""
         if name in _CONTAINER_VIEW_METHODS:
@@ -180,8 +191,9 @@ class LibrarySemantics(CollectorState):
 
     def call_time_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
                          frame: Frame, receiver: Value | None) -> Value | None:  # fmt: skip
-        reason = f"`.{_method_name(node)}()` makes lags or differences"
-        return tagged(tags.opaque_call(node), tags.time_order(reason))
+        method = _method_name(node)
+        what = "sets a time frequency" if method in timeorder.FREQUENCY_METHODS else "makes lags or differences"
+        return tagged(tags.opaque_call(node), tags.time_order(f"`.{method}()` {what}", self.loc(node, frame)))
 
     def call_container_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
                               frame: Frame, receiver: Value | None) -> Value | None:  # fmt: skip
@@ -216,14 +228,20 @@ class LibrarySemantics(CollectorState):
         self.escape_args(args, kwargs, node.func, node, frame)
         out: set[Tag] = {tags.opaque_call(node)}
         if receiver is not None:
+            keep_dates = timeorder.keeps_date_columns(name)
             for kept in receiver.tags:
-                if tags.kind(kept) in _KEPT_BY_DATA_METHODS:
+                kept_kind = tags.kind(kept)
+                if kept_kind in _KEPT_BY_DATA_METHODS and (keep_dates or kept_kind != tags.DATE_COLUMN):
                     out.add(kept)
-        if name == "set_index" and any(a.has(tags.TIMED) for a in (*args, *kwargs.values())):
-            out.add(tags.time_order("the data gets a date index"))
+        if name in ("set_index", "sort_values"):
+            key = args[0] if args else kwargs.get("keys" if name == "set_index" else "by")
+            if key is not None:
+                how = timeorder.index_order if name == "set_index" else timeorder.sort_order
+                out.update(how(key, receiver or EMPTY, short_text(node, 50), self.loc(node, frame)))
         if name == "assign":
             for col, value in kwargs.items():
                 out.add(tags.holds_column(col))
+                out.update(timeorder.assigned_dates(col, value))
                 for held in flat(value).tags:
                     held_kind = tags.kind(held)
                     if held_kind in _ASSIGNED_SOURCES:
@@ -237,13 +255,13 @@ class LibrarySemantics(CollectorState):
                           frame: Frame) -> Value | None:  # fmt: skip
         """pandas date functions and readers, numpy, builtins, ``operator.attrgetter``, IPython's display."""
         if qualname in catalog.TIME_FUNCTIONS:
-            reason = f"`{qualname.replace('pandas.', 'pd.')}` makes a date index"
-            return tagged(tags.opaque_call(node), tags.time_order(reason))
+            what = f"`{qualname.replace('pandas.', 'pd.')}`"
+            return tagged(tags.opaque_call(node), tags.dates(what, self.loc(node, frame)))
         if qualname.startswith("pandas.read_"):
-            extra: list[Tag] = []
-            if any(k in kwargs for k in catalog.TIME_READ_KEYWORDS):
-                extra.append(tags.time_order("the data is read with `parse_dates`"))
-            return tagged(tags.opaque_call(node), *extra)
+            found = timeorder.read_order(kwargs, short_text(node, 50), self.loc(node, frame))
+            return tagged(tags.opaque_call(node), *found)
+        if qualname in ("pandas.DataFrame", "pandas.Series"):
+            return self.call_frame_constructor(args, kwargs, node, frame)
         if qualname.startswith(("numpy.", "scipy.special.")):
             return self.call_numpy(qualname.rsplit(".", 1)[1], args, kwargs, node)
         if qualname.startswith("builtins."):
@@ -254,6 +272,26 @@ class LibrarySemantics(CollectorState):
         if qualname.startswith("IPython.display.display"):
             return EMPTY
         return None
+
+    def call_frame_constructor(self, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
+                               frame: Frame) -> Value | None:  # fmt: skip
+        """``pd.DataFrame({...}, index=...)``: time order from an index of dates or from time-ordered
+        columns, and the columns that hold dates; None (an ordinary opaque call) when there is none."""
+        found: list[Tag] = []
+        index = kwargs.get("index")
+        if index is not None:
+            found.extend(timeorder.index_order(index, None, short_text(node, 50), self.loc(node, frame)))
+        data = args[0] if args else kwargs.get("data")
+        if data is not None:
+            found.extend(flat(data).tags_of(tags.TIMED)[:2])
+            for pair in (data.items or ()) if data.keys is not None else ():
+                if pair.items and len(pair.items) == 2:
+                    for col in tags.literal_strings(pair.items[0].tags):
+                        found.extend(timeorder.assigned_dates(col, pair.items[1]))
+        if not found:
+            return None
+        self.escape_args(args, kwargs, node.func, node, frame)
+        return tagged(tags.opaque_call(node), *found, *time_order_of(args, kwargs, None))
 
     def call_numpy(self, fname: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call) -> Value:
         first = args[0] if args else EMPTY

@@ -21,7 +21,7 @@ from __future__ import annotations
 import ast
 from typing import NamedTuple
 
-from regvet.analysis import catalog, tags
+from regvet.analysis import catalog, tags, timeorder
 from regvet.analysis.auxiliary import CHECK_LABELS, Auxiliary, classify_arrays, classify_formula
 from regvet.analysis.formula import Formula, outcome_of_expr, parse_formula
 from regvet.analysis.libraries import ARITHMETIC_KEEPS, PASSING_ATTRIBUTES, PASSING_METHODS, time_order_of
@@ -130,10 +130,15 @@ class RegressionSemantics(CollectorState):
         return None
 
     def call_other_statsmodels_name(self, qualname: str, args: list[Value], kwargs: dict[str, Value],
-                                    node: ast.Call) -> Value | None:  # fmt: skip
-        """Any other statsmodels callable: opaque data (time order kept); its arguments do not escape."""
+                                    node: ast.Call, frame: Frame) -> Value | None:  # fmt: skip
+        """Any other statsmodels callable: opaque data (time order kept; ``statsmodels.tsa``'s lag and
+        trend helpers make it); its arguments do not escape."""
         if catalog.is_statsmodels(qualname):
-            return tagged(tags.opaque_call(node), *time_order_of(args, kwargs, None))
+            found = time_order_of(args, kwargs, None)
+            name = qualname.rsplit(".", 1)[-1]
+            if qualname.startswith("statsmodels.tsa") and name in timeorder.TSA_ARRAY_HELPERS:
+                found.append(tags.time_order(f"`{name}` makes lags or trends of the data", self.loc(node, frame)))
+            return tagged(tags.opaque_call(node), *found)
         return None
 
     def helper_families(self, qualname: str) -> tuple[str, ...] | None:
@@ -263,7 +268,11 @@ class RegressionSemantics(CollectorState):
                 column_sources.setdefault(tags.column(tag), set()).add(tags.column_source(tag))
             elif kind == tags.COLUMN_NAME:
                 column_names.add(tags.column(tag))
-        time_reason = next((tags.time_reason(t) for t in sorted(all_data.tags_of(tags.TIMED), key=str)), None)
+            elif kind == tags.DATE_COLUMN:
+                column_names.add(tags.date_column_name(tag))
+        timed = min(all_data.tags_of(tags.TIMED), key=_evidence_order, default=None)
+        time_reason = tags.time_reason(timed) if timed is not None else None
+        time_where = tags.time_where(timed) if timed is not None else None
         if source.how == FORMULA_LITERAL:
             text = source.text
             formula = parse_formula(text or "")
@@ -281,7 +290,7 @@ class RegressionSemantics(CollectorState):
             regressors = tuple(":".join(t) for t in formula.terms)
             columns |= formula.variables
             if formula.lagged and time_reason is None:
-                time_reason = "the formula uses lags or differences"
+                time_reason = f"the formula uses lags or differences (`{text}`)"
             aux = classify_formula(formula, text or "", column_sources)
         elif ctor.api == "array":
             endog, exog = flat(data_values[0]), flat(data_values[1])
@@ -299,7 +308,7 @@ class RegressionSemantics(CollectorState):
         data_tags = frozenset(t for value in data_values for t in value.tags_of(tags.DATA))
         model = ModelRecord(
             mid, qualname, ctor.estimator, ctor.api, formula, text, outcome, n_regressors, regressors, data_name,
-            time_reason, frozenset(columns), aux, data_tags, loc,
+            time_reason, time_where, frozenset(columns), aux, data_tags, loc,
         )  # fmt: skip
         self.models[mid] = model
         for data in data_tags:
@@ -556,6 +565,7 @@ class RegressionSemantics(CollectorState):
                     cov_type=record.cov_type,
                     data_name=model.data_name,
                     time_reason=model.time_reason,
+                    time_where=model.time_where,
                     shift_groups=model.formula.shift_groups if model.formula else frozenset(),
                     interacted_groups=model.formula.interacted_groups if model.formula else frozenset(),
                     columns=model.columns,
@@ -577,3 +587,11 @@ class RegressionSemantics(CollectorState):
             tsa_in_use=self.tsa_in_use,
             dependencies=tuple(sorted({src.path for src in self.sources.values()})),
         )
+
+
+def _evidence_order(tag: Tag) -> tuple:
+    """The first evidence of time order in the code (known places first, then by position)."""
+    where = tags.time_where(tag)
+    if where is None:
+        return (1, "", (), tags.time_reason(tag))
+    return (0, where.path or "", where.span.sort_key(), tags.time_reason(tag))

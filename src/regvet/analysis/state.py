@@ -91,6 +91,7 @@ class ModelRecord:
     regressors: tuple[str, ...] | None
     data_name: str | None
     time_reason: str | None
+    time_where: Loc | None
     columns: frozenset[str]
     aux_for: dict[str, set[int]]  # family ("form", "variance", "serial", "other") -> fits it is auxiliary to
     data_tags: frozenset[tags.Tag]
@@ -160,6 +161,7 @@ class CollectorState:
         self.repeating = 0  # inside a loop or comprehension that is not unrolled
         self.inline_memo: dict[tuple[object, ...], Value] = {}
         self.fit_making_memo: dict[int, bool] = {}
+        self.time_making_memo: dict[int, bool] = {}
         self.touched_memo: dict[int, frozenset[str]] = {}
         self.quiet_memo: dict[int, tuple[frozenset[str], frozenset[str], frozenset[str], frozenset[str]] | None] = {}
         self.stmt: ast.stmt | None = None  # the simple statement being run

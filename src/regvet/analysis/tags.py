@@ -26,7 +26,7 @@ from collections.abc import Callable, Collection, Iterable
 from operator import itemgetter
 from typing import TYPE_CHECKING, Any
 
-from regvet.model.facts import Outcome
+from regvet.model.facts import Loc, Outcome
 
 if TYPE_CHECKING:
     from regvet.analysis.values import Value
@@ -450,24 +450,67 @@ column_source: Callable[[Tag], Tag] = itemgetter(2)
 TIMED = "timed"
 
 
-def time_order(reason: str) -> Tag:
-    """The data is time-ordered; ``reason`` says why, for messages ("the data is read with `parse_dates`").
+def time_order(reason: str, where: Loc | None = None) -> Tag:
+    """The data is time-ordered; ``reason`` says why, for messages ("the data gets a date index from
+    `set_index("week")`"), and ``where`` is the code that made it so (None when not known).
 
-    Made by: ``libraries`` (date functions, ``parse_dates``, ``set_index`` with dates, lag
-    methods). Passed on by most operations on data (``libraries.time_order_of``, attributes,
-    subscripts, assignments, arithmetic). Read by: ``regressions.new_model`` (``Fit.time_reason``).
+    Made by: ``libraries`` (a date index: ``set_index`` of dates or of a date column, ``index=`` of
+    dates, ``df.index = dates``, ``read_*`` with a date ``index_col``; lag and difference methods;
+    ``asfreq``/``resample``; sorting by a date column) and ``regressions`` (``statsmodels.tsa``'s
+    ``lagmat``/``add_trend``). Passed on by most operations on data (``libraries.time_order_of``,
+    attributes, subscripts, assignments, arithmetic). Read by: ``regressions.new_model``
+    (``Fit.time_reason``, ``Fit.time_where``).
     """
-    return (TIMED, reason)
+    return (TIMED, reason, where)
 
 
 #: The reason of a TIMED tag.
 time_reason: Callable[[Tag], str] = itemgetter(1)
+#: Where a TIMED tag's evidence is (a Loc, or None).
+time_where: Callable[[Tag], Loc | None] = itemgetter(2)
+
+DATES = "dates"
+
+
+def dates(what: str, where: Loc) -> Tag:
+    """Dates, not yet an order: the result of ``pd.to_datetime``, ``pd.date_range``, ``PeriodIndex``, ...
+    (``what`` names the call for messages). Dates used in arithmetic or kept as an ordinary column
+    order nothing; they become time order only as a frame's index.
+
+    Made by: ``libraries.call_library_name``. Read by: ``libraries`` (``set_index``, ``index=``,
+    ``assign``, column assignment: a date column), ``collect.bind`` (``df.index = dates``).
+    """
+    return (DATES, what, where)
+
+
+#: The call that made a DATES tag, and where.
+dates_what: Callable[[Tag], str] = itemgetter(1)
+dates_where: Callable[[Tag], Loc] = itemgetter(2)
+
+DATE_COLUMN = "datecol"
+
+
+def date_column(name: str, what: str, where: Loc) -> Tag:
+    """A frame's column ``name`` holds dates (``read_csv(parse_dates=[name])``, ``df[name] =
+    pd.to_datetime(...)``); ``what`` and ``where`` say how it got them.
+
+    Made by: ``libraries`` (``read_*``, ``assign``, column assignment, ``pd.DataFrame({...})``).
+    Read by: ``libraries`` (``set_index(name)`` and ``sort_values(name)`` give time order),
+    ``regressions.new_model`` (the column is one of the fit's data columns).
+    """
+    return (DATE_COLUMN, name, what, where)
+
+
+#: The column, the call and the place of a DATE_COLUMN tag.
+date_column_name: Callable[[Tag], str] = itemgetter(1)
+date_column_what: Callable[[Tag], str] = itemgetter(2)
+date_column_where: Callable[[Tag], Loc] = itemgetter(3)
 
 #: Every kind above.
 KINDS: frozenset[str] = frozenset(
     {QUALIFIED, PROJECT_MODULE, LAZY_IMPORT, FUNCTION, DATA, LITERAL, PREFIX, MODEL, MODEL_FIT, MODEL_PART, FIT,
      PART, FIT_METHOD, MEASURE, SSR_SUM, PASSING_METHOD, TIME_METHOD, DATA_METHOD, CONTAINER_METHOD, GETTER,
-     OUTCOME, COLUMNS, COLUMN_NAME, COLUMN_VALUE, TIMED}
+     OUTCOME, COLUMNS, COLUMN_NAME, COLUMN_VALUE, TIMED, DATES, DATE_COLUMN}
 )  # fmt: skip
 
 

@@ -63,6 +63,7 @@ class Fit:
     result_name: str | None  # the variable the result was assigned to, when simple
     statement: Span | None  # the statement holding the fit call, in the analysed file
     model_span: Span | None = None  # the model constructor call, in the analysed file
+    time_where: Loc | None = None  # where the evidence of time order is, when known
 
 
 @dataclass(frozen=True)

@@ -5,14 +5,26 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.analysis.catalog import HAC_COV
+from regvet.model.facts import Fit, Loc
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check
+from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check, related
+
+
+def time_evidence(inp: RuleInput, fit: Fit) -> tuple[str, Loc | None] | None:
+    """Why ``fit`` is on time-ordered data and where that shows, from its own data's flow or the
+    configured ``time_column`` (None: no evidence)."""
+    if fit.time_reason is not None:
+        return fit.time_reason, fit.time_where
+    column = inp.settings.time_column
+    if column and column in fit.columns:
+        return f"the configured `time_column` {column!r} is a column of its data", None
+    return None
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
     for fit in inp.judged_fits():
-        reason = fit.time_reason or ("`statsmodels.tsa` is in use in this file" if inp.facts.tsa_in_use else None)
-        if reason is None or fit.cov_type is None or fit.cov_type in HAC_COV:
+        evidence = time_evidence(inp, fit)
+        if evidence is None or fit.cov_type is None or fit.cov_type in HAC_COV:
             continue
         uses = inp.uses(fit.id, ("inference", "robust"))
         escapes = inp.escapes(fit.id)
@@ -20,16 +32,21 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             continue
         if inp.checks(fit.id, "serial"):
             continue
-        yield missing_check(
+        reason, where = evidence
+        place = f", {inp.where(where)}" if where is not None else ""
+        found = missing_check(
             RULE,
             fit,
-            f"{describe_fit(fit)} is fitted on time-ordered data ({reason}) and its inference is used, but "
+            f"{describe_fit(fit)} is fitted on time-ordered data ({reason}{place}) and its inference is used, but "
             "neither a serial-correlation test nor HAC covariance was applied. Its standard errors assume "
             "uncorrelated errors; run `acorr_breusch_godfrey(res, nlags=...)` or fit with "
             '`cov_type="HAC", cov_kwds={"maxlags": ...}`.',
             uses,
             escapes,
         )
+        if where is not None:
+            found = found.with_(related=(*found.related, related(where, "the data's time order comes from here")))
+        yield found
 
 
 RULE = Rule(
@@ -40,9 +57,14 @@ RULE = Rule(
         "With observations ordered in time, errors are often correlated with their own past. OLS standard "
         "errors (robust HC ones included) assume they are not, and are then usually too small; with a lagged "
         "dependent variable the estimates themselves become inconsistent.\n\n"
-        "Data counts as time-ordered when it was read with `parse_dates` or given a date index, when lags or "
-        "differences (`shift`, `diff`, `lag...` columns) appear in its data or formula, or when "
-        "`statsmodels.tsa` is in use in the file.\n\n"
+        "The data counts as time-ordered when the fit's own data carries time order, followed through "
+        "assignments, copies, selections and helper functions: a date or period index (`set_index` of "
+        "dates or of a date column, `index_col` parsed as dates or named like a date, `index=` of "
+        "`pd.date_range`, `df.index = ...`), lags, leads or differences of its data (`shift`, `diff`, "
+        "`pct_change`, `lag...` columns in the formula, `statsmodels.tsa`'s `lagmat`/`add_trend`), "
+        "`asfreq`/`resample`, rows sorted by a date column, or a configured `time_column` that is one of "
+        "its columns. Dates used in arithmetic or kept as an ordinary column, and `statsmodels.tsa` used "
+        "elsewhere in the file, are not evidence.\n\n"
         "Satisfied by: `acorr_breusch_godfrey`, `durbin_watson`, `acorr_ljungbox` or `acorr_lm` on the fit, "
         'or inference under HAC (Newey-West) covariance (`cov_type="HAC"`).'
     ),

@@ -17,11 +17,11 @@ condition) raises :class:`RowDataError`, whose message says why.
 from __future__ import annotations
 
 import hashlib
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 
-__all__ = ["RowDataError", "aligned", "candidate_groups", "fingerprint", "lags_for", "model_frame", "time_order"]
+__all__ = ["RowDataError", "TimeOrder", "aligned", "candidate_groups", "fingerprint", "lags_for", "model_frame", "time_order"]
 
 
 class RowDataError(Exception):
@@ -120,11 +120,48 @@ def lags_for(offset: Any) -> int:
     return 1
 
 
-def time_order(model: Any, column: str | None) -> tuple[str | None, Any]:
-    """(reason the data is time-ordered or None, the data frequency as a pandas offset or None).
+class TimeOrder(NamedTuple):
+    """Whether and how a fit's rows are ordered in time (see :func:`time_order`)."""
+
+    reason: str | None  # why the data is time-ordered, or None when it is not
+    freq: Any  # the data frequency as a pandas offset, inferred from the sorted times, or None
+    order: np.ndarray | None  # the rows' positions in time order when the rows are not in it, else None
+    repeats: bool  # some time value is on several rows: a stacked panel, not one series
+
+
+_NOT_TIMED = TimeOrder(None, None, None, False)
+
+
+def _infer_freq(values: Any) -> Any:
+    """The frequency of sorted, distinct times (a pandas index), or None."""
+    import pandas as pd
+
+    if len(values) < 3:
+        return None
+    try:
+        inferred = pd.infer_freq(values)
+        return pd.tseries.frequencies.to_offset(inferred) if inferred else None
+    except (TypeError, ValueError):
+        return None
+
+
+def _sorting(keys: Any, monotonic: bool) -> tuple[np.ndarray | None, str]:
+    """(positions in time order or None, what the reason adds) for the time values ``keys``."""
+    if monotonic:
+        return None, ""
+    try:
+        order = np.argsort(np.asarray(keys), kind="stable")
+    except TypeError:
+        return None, " (rows are not in time order and could not be sorted; the serial tests use the row order)"
+    return order, " (rows are not in time order; the serial tests sort them by time)"
+
+
+def time_order(model: Any, column: str | None) -> TimeOrder:
+    """Whether the fit's rows are ordered in time, their frequency, and how to put them in time order.
 
     The data is time-ordered when the fit's rows have a DatetimeIndex or PeriodIndex, or when
-    ``column`` (the ``time_column`` option) is a column of the model's data frame.
+    ``column`` (the ``time_column`` option) is a column of the model's data frame. The frequency is
+    inferred from the distinct times in sorted order, so rows out of order do not hide it.
     """
     labels = model.data.row_labels
     if labels is not None and is_pandas(labels):
@@ -132,41 +169,31 @@ def time_order(model: Any, column: str | None) -> tuple[str | None, Any]:
 
         if isinstance(labels, (pd.DatetimeIndex, pd.PeriodIndex)):
             kind = "DatetimeIndex" if isinstance(labels, pd.DatetimeIndex) else "PeriodIndex"
-            freq = labels.freq
-            if freq is None and len(labels) >= 3:
-                try:
-                    inferred = pd.infer_freq(labels)
-                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
-                except (TypeError, ValueError):
-                    freq = None
-            reason = f"the fit's rows have a {kind}"
-            if not labels.is_monotonic_increasing:
-                reason += " (rows are not in time order; the statistics use the row order)"
-            return reason, freq
+            distinct = labels.unique().sort_values()
+            freq = labels.freq if labels.freq is not None else _infer_freq(distinct)
+            order, note = _sorting(labels.asi8, labels.is_monotonic_increasing)
+            return TimeOrder(f"the fit's rows have a {kind}{note}", freq, order, bool(labels.has_duplicates))
     frame = model_frame(model) if column is not None else None
     if frame is not None and column in frame.columns:
         import pandas as pd
 
         series = frame[column]
         freq = None
+        keys: Any = series.to_numpy()
         if isinstance(series.dtype, pd.PeriodDtype):
             freq = series.dtype.freq
+            keys = pd.PeriodIndex(series).asi8
         elif pd.api.types.is_datetime64_any_dtype(series.dtype):
-            values = pd.DatetimeIndex(series.dropna().unique()).sort_values()
-            if len(values) >= 3:
-                try:
-                    inferred = pd.infer_freq(values)
-                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
-                except (TypeError, ValueError):
-                    freq = None
-        reason = f"time_column {column!r} is in the model's data frame"
+            freq = _infer_freq(pd.DatetimeIndex(series.dropna().unique()).sort_values())
+            keys = pd.DatetimeIndex(series).asi8
         try:
-            if not series.is_monotonic_increasing:
-                reason += " (rows are not in time order; the statistics use the row order)"
+            monotonic = bool(series.is_monotonic_increasing)
         except TypeError:
-            pass
-        return reason, freq
-    return None, None
+            monotonic = False
+        order, note = _sorting(keys, monotonic)
+        return TimeOrder(f"time_column {column!r} is in the model's data frame{note}", freq, order,
+                         bool(series.duplicated().any()))  # fmt: skip
+    return _NOT_TIMED
 
 
 def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tuple[np.ndarray, list[str]]:

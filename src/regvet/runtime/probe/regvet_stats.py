@@ -341,17 +341,27 @@ class _Stats(RowPasses):
         self.put("durbin_watson", self.durbin_watson)
         self.put("breusch_godfrey", self.breusch_godfrey)
 
+    def _one_series(self) -> None:
+        if self.stacked_panel:
+            raise StatisticError(
+                "not run: the time values repeat (several rows per period, a stacked panel), so a serial "
+                "test over the stacked rows would mix units; test within each unit instead"
+            )
+
     def durbin_watson(self) -> float | None:
-        """Σ(Δû)² / Σû² in row order (= statsmodels' durbin_watson)."""
+        """Σ(Δû)² / Σû² with the residuals in time order (= statsmodels' durbin_watson on sorted rows)."""
         fit = self.fit
         fit.require_residuals()
-        diff = np.diff(fit.u)
+        self._one_series()
+        u = fit.u if self.u_time is None else self.u_time
+        diff = np.diff(u)
         return as_float(float(diff @ diff) / fit.ssr)
 
     def breusch_godfrey(self) -> dict[str, Any]:
         """BG LM = n·R² of û on [design, intercept if none, lags 1..p zero-padded] (= acorr_breusch_godfrey)."""
         fit = self.fit
         fit.require_residuals()
+        self._one_series()
         self.need("gram", "lags", "bg")
         n, p = fit.n, self.lags
         d = fit.u - self.u_mean
