@@ -147,6 +147,22 @@ def test_an_unreadable_file_is_a_clear_finding_and_the_scan_goes_on(tmp_path):
     assert any(f["path"] == "ferries.py" for f in findings)
 
 
+@pytest.mark.skipif(hasattr(os, "geteuid") and os.geteuid() == 0, reason="root lists a folder of mode 000")
+def test_a_folder_that_cannot_be_listed_is_a_note(tmp_path):
+    (tmp_path / ".git").mkdir()
+    (tmp_path / "ferries.py").write_text(FIT)
+    closed = tmp_path / "closed"
+    closed.mkdir()
+    (closed / "inner.py").write_text(FIT)
+    closed.chmod(0)
+    try:
+        proc = _regvet("check", ".", "--no-cache", cwd=tmp_path)
+    finally:
+        closed.chmod(0o755)
+    assert proc.returncode == 1
+    assert "regvet: skipped closed: the folder cannot be listed: Permission denied" in proc.stderr.decode()
+
+
 def test_a_project_module_that_is_a_fifo_is_not_opened(tmp_path):
     (tmp_path / ".git").mkdir()
     (tmp_path / "ferries.py").write_text("import helpers\n" + FIT)
