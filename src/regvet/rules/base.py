@@ -42,6 +42,16 @@ class RuleInput:
     runtime: RuntimeFacts | None = None  # only in runtime mode
     #: Ids of every rule in the catalogue (the engine fills it in), so waivers can name unknown ones.
     known_rules: frozenset[str] = frozenset()
+    #: How the file already calls the diagnostics findings suggest (``sources.imports.suggested_spellings``).
+    spellings: tuple[tuple[str, str], ...] = ()
+
+    def call(self, name: str) -> str:
+        """How suggested code calls ``name`` in this file: its import alias (``lr``, ``sms.linear_reset``)
+        when the file has imported it, else the plain name."""
+        for known, spelt in self.spellings:
+            if known == name:
+                return spelt
+        return name
 
     def where(self, loc: Loc) -> str:
         """A location as a message names it: ``line 12``, ``cell 3, line 2`` or ``helpers.py, line 8``."""
@@ -149,6 +159,11 @@ def once_per_root(inp: RuleInput, judge: Callable[[RuleInput, Fit], Finding | No
 
 def related(loc: Loc, message: str) -> Related:
     return Related(loc.span, message, loc.path)
+
+
+def code_name(fit: Fit) -> str:
+    """The fit's variable in suggested code (``res`` when the result has no simple name)."""
+    return fit.result_name if fit.result_name and fit.result_name.isidentifier() else "res"
 
 
 def describe_fit(fit: Fit) -> str:
