@@ -87,3 +87,15 @@ def test_demo_run_text_matches_the_golden_file(tmp_path):
     fits_with_runs = sum(any(line.startswith("  run: ") for line in b) for b in blocks)
     lines = _regvet("run", ".", "-j", "1", "--format", "lines", cache=tmp_path / "cache").stdout  # cached now
     assert fits_with_runs >= 5 and lines.count("[run: ") > fits_with_runs  # the lines form repeats them
+
+
+def test_the_readme_example_is_the_demo_output():
+    """Each line of the README's text example is a line (or the start of one, before `...`) of the golden file."""
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text()
+    block = readme.split("Example from the demo (`regvet check .` in `fixtures/demo`):\n\n```text\n", 1)[1].split("```", 1)[0]
+    golden = (GOLDEN / "demo_check.txt").read_text().splitlines()
+    shown = [line for line in block.splitlines() if line.strip()]
+    assert len(shown) >= 7
+    for line in shown:
+        head = line.removesuffix(" ...").removesuffix("...")
+        assert any(g == line or (line.endswith("...") and g.startswith(head)) for g in golden), line
