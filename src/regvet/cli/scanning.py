@@ -10,11 +10,13 @@ from pathlib import Path
 
 from regvet.analysis.providers import ModuleProvider
 from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
+from regvet.discovery import read_regular
 from regvet.engine import analyze, error_report
 from regvet.factcache import FactCache, RecordingModules
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
+from regvet.output.safe import printable
 from regvet.parallel import default_jobs, map_ordered
 from regvet.project import FileModules, display_path
 from regvet.sources.python import SourceError, decode
@@ -135,7 +137,7 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
         for crash in report.crashes:
             out.failed = True
             where = "the analysis" if crash.where == "analysis" else f"rule {crash.where}"
-            sys.stderr.write(f"{report.path}: regvet failed in {where}: {crash.message}\n")
+            sys.stderr.write(printable(f"{report.path}: regvet failed in {where}: {crash.message}\n"))
         out.files.append((file, report))
     if progress is not None:
         progress.done()
@@ -229,7 +231,7 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
 def _cached(file: Path, settings: Settings, root: Path, texts: dict[Path, str | None],
             cache: FactCache, found: dict) -> FileReport | None:  # fmt: skip
     try:
-        data = file.read_bytes()
+        data = read_regular(file)
     except OSError:
         return None
     key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
@@ -244,7 +246,7 @@ def analyze_file(
     the analysis is stored there with the project-module lookups it made."""
     shown = display_path(file)
     try:
-        data = file.read_bytes()
+        data = read_regular(file)
     except OSError as exc:
         return _unreadable(shown, settings, f"cannot read the file: {exc.strerror or exc}")
     modules = FileModules(root, file, texts, found=found)

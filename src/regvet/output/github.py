@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
+from regvet.output.safe import printable
 
 _LEVEL = {Severity.ERROR: "error", Severity.WARNING: "warning", Severity.INFO: "notice"}
 
@@ -33,4 +34,4 @@ def render(reports: list[FileReport], **_: object) -> str:
                 message = f"{s.describe()}: {message}"
             props.append(f"title={_escape_prop('regvet ' + f.rule)}")
             out.append(f"::{_LEVEL[f.severity]} {','.join(props)}::{_escape_data(message)}")
-    return "\n".join(out) + ("\n" if out else "")
+    return printable("\n".join(out) + ("\n" if out else ""))

@@ -4,6 +4,7 @@
 from __future__ import annotations
 
 from regvet.model.report import FileReport
+from regvet.output.safe import printable
 from regvet.output.text import _BOLD, _COLOURS, _DIM, _RESET, location, stats_summary, tail
 
 
@@ -25,4 +26,4 @@ def render(reports: list[FileReport], *, colour: bool = False, quiet: bool = Fal
                 lines.append(f"{_BOLD}{loc}:{_RESET} {_COLOURS[f.severity]}{sev}{_RESET} {_DIM}{f.rule}{_RESET} {message}")
             else:
                 lines.append(f"{loc}: {sev} {f.rule} {message}")
-    return "\n".join([*lines, *tail(reports, counts)]) + "\n"
+    return printable("\n".join([*lines, *tail(reports, counts)]) + "\n")

@@ -24,6 +24,7 @@ from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
 from regvet.model.report import FileReport
 from regvet.model.span import Span
+from regvet.output.safe import printable
 
 _COLOURS = {Severity.ERROR: "\033[31m", Severity.WARNING: "\033[33m", Severity.INFO: "\033[36m"}
 _BOLD, _DIM, _RESET = "\033[1m", "\033[2m", "\033[0m"
@@ -218,4 +219,4 @@ def render(reports: list[FileReport], *, colour: bool = False, width: int = DEFA
                 lines += render_block(report.path, block, width, paint)
     if lines:
         lines.append("")
-    return "\n".join([*lines, *tail(reports, counts, width)]) + "\n"
+    return printable("\n".join([*lines, *tail(reports, counts, width)]) + "\n")
