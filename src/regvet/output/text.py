@@ -157,7 +157,7 @@ def render_block(path: str, block: _Block, width: int, paint: _Paint) -> list[st
     if summary:
         lines += [paint(line, _DIM) for line in _wrap(f"{_INDENT}run: ", summary, _INDENT * 3, width)]
     for f in block.findings:
-        lead = _INDENT if f.span == block.span or _same_start(f.span, block.span) else f"{_INDENT}{place(f.span)}: "
+        lead = _INDENT if _same_start(f.span, block.span) else f"{_INDENT}{place(f.span)}: "
         lines += _finding_lines(f, lead, _INDENT * 3, width, paint)
     return lines
 
