@@ -68,8 +68,8 @@ def _parser() -> argparse.ArgumentParser:
 def _check_options(c: argparse.ArgumentParser, run_verb: bool) -> None:
     """The options of ``check``, and of ``run`` (``run_verb``: the same without ``--run``, which it implies)."""
     c.add_argument("paths", nargs="*", default=["."], metavar="PATH",
-                   help="files or folders (default: .); `-` reads one script from standard input"
-                   + (" (not with --run)" if not run_verb else " (check only)"))  # fmt: skip
+                   help="files or folders (default: .)" + ("" if run_verb else
+                   "; `-` reads one script from standard input (not with --run)"))  # fmt: skip
     c.add_argument("--format", choices=["text", "lines", "json", "sarif", "github"], default="text",
                    help="text: each fit's findings under one header line, wrapped to the terminal (default); "
                    "lines: one `path:line:col:` line per finding, for tools; json; sarif (2.1.0); "
