@@ -221,6 +221,24 @@ def test_github_and_report_outputs_do_not_break_on_the_name(raw_named):
         assert "harb\ufffdour.py" in text
 
 
+def test_the_baseline_keeps_a_non_utf8_name_and_matches_it_again(raw_named):
+    proc = _regvet("baseline", ".", cwd=raw_named)
+    assert proc.returncode == 0, proc.stderr
+    text = (raw_named / "regvet-baseline.json").read_bytes().decode("utf-8")  # valid UTF-8
+    assert '"harb\\udce9our.py"' in text  # the name's byte as a JSON escape: it reads back exactly
+    proc = _regvet("check", ".", "--no-cache", cwd=raw_named)
+    assert proc.returncode == 0, (proc.stdout, proc.stderr)
+    assert b"1 known finding not shown" in proc.stdout
+
+
+@pytest.mark.runtime
+def test_a_run_of_a_file_with_a_non_utf8_name(raw_named):
+    proc = _regvet("run", ".", "--format", "json", "--no-baseline", cwd=raw_named, timeout=180)
+    assert proc.returncode == 1, proc.stderr
+    [f] = json.loads(proc.stdout.decode("utf-8"))["findings"]
+    assert f["path_uri"] == "harb%E9our.py" and f["stats"]["fits"][0]["statistics"]["nobs"] == 6
+
+
 def test_the_safe_text_helpers():
     name = os.fsdecode(RAW_NAME)
     assert printable(name) == "harb\\xe9our.py"

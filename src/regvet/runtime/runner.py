@@ -113,7 +113,7 @@ class RunCache:
     def key(path: Path, content: bytes, python: str, options: dict[str, Any]) -> str:
         h = hashlib.sha256()
         for part in (str(path.resolve()), python, probe_version(), json.dumps(options, sort_keys=True)):
-            h.update(part.encode())
+            h.update(part.encode("utf-8", "surrogatepass"))  # a file name need not be UTF-8
             h.update(b"\0")
         h.update(content)
         return h.hexdigest()
