@@ -300,3 +300,19 @@ def test_the_pre_commit_hook_skips_a_fifo_it_is_handed(hostile, monkeypatch, cap
     assert code == 1  # the staged script's finding
     assert "regvet: skipped src/pipe.py: a named pipe (FIFO)" in err
     assert "regvet: skipped src/loop_a.py: a symbolic link loop" in err
+
+
+@pytest.mark.parametrize("fmt", ["text", "github", "json", "sarif"])
+def test_an_ascii_locale_does_not_break_any_format(tmp_path, fmt):
+    (tmp_path / ".git").mkdir()
+    (tmp_path / "Ålesund.py").write_text(FIT)
+    proc = subprocess.run(
+        [sys.executable, "-m", "regvet", "check", ".", "--format", fmt, "--no-cache"], cwd=tmp_path,
+        capture_output=True, timeout=60, env={**os.environ, "PYTHONIOENCODING": "ascii"},
+    )  # fmt: skip
+    assert proc.returncode == 1, proc.stderr
+    if fmt in ("json", "sarif"):  # UTF-8 by definition, whatever the locale
+        json.loads(proc.stdout.decode("utf-8"))
+        assert ("Ålesund.py" if fmt == "json" else "%C3%85lesund.py") in proc.stdout.decode("utf-8")
+    else:  # the terminal's encoding, with what it lacks escaped
+        assert proc.stdout.isascii() and b"\\xc5lesund.py" in proc.stdout

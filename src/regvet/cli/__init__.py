@@ -17,7 +17,16 @@ from regvet import __version__
 from regvet.baseline import BASELINE_NAME, BaselineError
 from regvet.cli.baseline import run_baseline
 from regvet.cli.check import run_check
-from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, EXIT_USAGE, EXTRA_EXCLUDE, UsageError, collect_files
+from regvet.cli.common import (
+    EXIT_FAILED,
+    EXIT_FINDINGS,
+    EXIT_OK,
+    EXIT_USAGE,
+    EXTRA_EXCLUDE,
+    UsageError,
+    collect_files,
+    tolerant_streams,
+)
 from regvet.cli.info import _serve
 from regvet.cli.mend import run_mend
 from regvet.cli.report import run_report
@@ -170,6 +179,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         args = parser.parse_args(args_list)
     except SystemExit as exc:  # argparse already printed the problem
         return EXIT_USAGE if exc.code not in (0, None) else EXIT_OK
+    tolerant_streams()
     if args.command == "run":
         args.run = True
     if args.command == "rules":

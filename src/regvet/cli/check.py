@@ -8,7 +8,7 @@ import shutil
 import sys
 from pathlib import Path
 
-from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, UsageError
+from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, UsageError, emit
 from regvet.cli.scanning import Scan, scan
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
@@ -24,7 +24,7 @@ def run_check(args: argparse.Namespace) -> int:
     colour = args.color == "always" or (args.color == "auto" and sys.stdout.isatty() and not os.environ.get("NO_COLOR"))
     from regvet.output import renderer
 
-    sys.stdout.write(renderer(args.format)(reports, colour=colour, width=text_width()))
+    emit(renderer(args.format)(reports, colour=colour, width=text_width()), utf8=args.format in ("json", "sarif"))
     if note:
         (sys.stdout if args.format in ("text", "lines") else sys.stderr).write(note)
     if result.failed:
