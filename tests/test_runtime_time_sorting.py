@@ -87,3 +87,47 @@ def test_a_stacked_panel_gets_no_serial_number_but_a_reason() -> None:
     assert out["durbin_watson"] is None and out["breusch_godfrey"] is None
     assert "stacked panel" in out["errors"]["durbin_watson"]
     assert "stacked panel" in out["errors"]["breusch_godfrey"]
+
+
+def _berths(n_weeks: int = 50, rho: float = 0.6, seed: int = 21) -> pd.DataFrame:
+    """Weekly tonnage at four berths, AR(1) errors within each berth, rows shuffled."""
+    rng = np.random.default_rng(seed)
+    weeks = pd.date_range("2022-01-03", periods=n_weeks, freq="W-MON")
+    parts = []
+    for berth in ("north", "south", "east", "west"):
+        e = np.zeros(n_weeks)
+        for t in range(1, n_weeks):
+            e[t] = rho * e[t - 1] + rng.standard_normal()
+        cranes = rng.normal(4, 1, n_weeks)
+        parts.append(pd.DataFrame({"week": weeks, "berth": berth, "cranes": cranes, "tons": 20 + 2 * cranes + e}))
+    return _shuffled(pd.concat(parts, ignore_index=True))
+
+
+@pytest.mark.parametrize("rho", [0.6, 0.0])
+def test_serial_test_within_units_matches_statsmodels_cluster_regression(rho: float) -> None:
+    frame = _berths(rho=rho)
+    fit = smf.ols("tons ~ cranes", data=frame).fit()
+    out = fit_statistics(fit, {"time_column": "week", "unit_column": "berth"})
+    assert out["breusch_godfrey"] is None and "see serial_within_units" in out["errors"]["breusch_godfrey"]
+    within = out["serial_within_units"]
+    # Reference: statsmodels' OLS of each residual on its berth's previous one (rows sorted by berth
+    # and week), cluster-robust by berth with t(G - 1) inference.
+    resid = frame.assign(u=fit.resid).sort_values(["berth", "week"])
+    resid["u_prev"] = resid.groupby("berth")["u"].shift(1)
+    pairs = resid.dropna(subset=["u_prev"])
+    ref = sm.OLS(pairs["u"], sm.add_constant(pairs["u_prev"])).fit(
+        cov_type="cluster", cov_kwds={"groups": pd.factorize(pairs["berth"])[0]}, use_t=True)
+    np.testing.assert_allclose([within["rho"], within["se"], within["t"], within["pvalue"]],
+                               [ref.params["u_prev"], ref.bse["u_prev"], ref.tvalues["u_prev"],
+                                ref.pvalues["u_prev"]], rtol=1e-9)  # fmt: skip
+    assert (within["units"], within["pairs"], within["df"]) == (4, 4 * 49, 3)
+    if rho:
+        assert within["pvalue"] < 0.01
+
+
+def test_a_unit_time_index_gives_the_units_itself() -> None:
+    frame = _berths().set_index(["berth", "week"])
+    fit = smf.ols("tons ~ cranes", data=frame).fit()
+    out = fit_statistics(fit, {})
+    assert "(unit, time) index" in out["time_ordered"]
+    assert out["serial_within_units"]["units"] == 4 and "berth" in out["serial_within_units"]["units_from"]

@@ -9,7 +9,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from regvet.analysis.providers import ModuleProvider
-from regvet.cli.common import EXTRA_EXCLUDE, _SettingsFinder, collect_files
+from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
 from regvet.discovery import read_regular
 from regvet.engine import analyze, error_report
 from regvet.factcache import FactCache, RecordingModules
@@ -21,6 +21,9 @@ from regvet.parallel import default_jobs, map_ordered
 from regvet.project import FileModules, display_path
 from regvet.sources.python import SourceError, decode
 from regvet.workspace import project_root
+
+#: The path that names standard input, and the name its findings are shown under.
+STDIN, STDIN_NAME = "-", "<stdin>"
 
 
 @dataclass
@@ -94,9 +97,16 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
 
     ``plot_points`` asks the run for that many residual points per fit (the report's plots)."""
     finder = _SettingsFinder(args)
-    base_settings = finder.for_path(Path(args.paths[0]) if args.paths else Path("."))
+    running = getattr(args, "run", False)
+    _refuse_runtime_only(finder.overrides.only, running)
+    stdin = STDIN in args.paths
+    if stdin and (running or getattr(args, "command", "check") not in ("check", None)):
+        raise UsageError("`-` (a script on standard input) is read by `regvet check` without --run only; "
+                         "save the script to a file for this")  # fmt: skip
+    paths = [p for p in args.paths if p != STDIN]
+    base_settings = finder.for_path(Path(paths[0]) if paths else Path("."))
     exclude = (*DEFAULT_EXCLUDE, *EXTRA_EXCLUDE, *base_settings.exclude)
-    files = collect_files(args.paths, exclude)
+    files = collect_files(paths, exclude)
     roots = {Path(p).resolve() for p in args.paths if Path(p).is_dir()}
     default_root = Path.cwd().resolve()
     no_cache = getattr(args, "no_cache", False)
@@ -104,8 +114,13 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     facts = None if no_cache else FactCache()
     tasks = [(file, finder.for_path(file), project_root(file.resolve(), roots, default_root)) for file in files]
     reports = _analyze_all(tasks, facts, jobs)
+    if stdin:
+        file = Path(STDIN)
+        settings = finder.for_path(Path.cwd() / STDIN_NAME)
+        tasks.append((file, settings, default_root))
+        reports.append(_analyze_bytes(Path.cwd() / STDIN_NAME, STDIN_NAME, sys.stdin.buffer.read(), settings,
+                                      FileModules(default_root, Path.cwd() / STDIN_NAME, {}), {}))  # fmt: skip
     cache = None
-    running = getattr(args, "run", False)
     if running:
         from regvet.runtime.runner import RunCache
 
@@ -127,6 +142,16 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     if progress is not None:
         progress.done()
     return out
+
+
+def _refuse_runtime_only(only: frozenset[str], running: bool) -> None:
+    """``--only`` naming nothing but rules that judge a run's statistics, without ``--run``: nothing to check."""
+    from regvet.rules import RULES_BY_ID
+
+    if only and not running and all(RULES_BY_ID[r].needs_run for r in only):
+        raise UsageError(f"--only {','.join(sorted(only))}: {'these rules judge' if len(only) > 1 else 'this rule judges'}"
+                         " the statistics of a run, so without --run nothing will be checked; add --run (or use "
+                         "`regvet run`; either EXECUTES the code), or name rules that read the code")  # fmt: skip
 
 
 def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,

@@ -79,6 +79,7 @@ OPTIONS: tuple[Option, ...] = (
     Option("run_memory_mb", "megabytes", 8192, "Address-space limit for one script's run, in MB."),
     Option("serial_lags", "optional-int", 0, "Lags for Breusch-Godfrey (default by the index frequency: 4, 12 or 1)."),
     Option("time_column", "string", "", "A column that orders the data in time (besides a date index)."),
+    Option("unit_column", "string", "", "The column naming the unit of a panel: serial tests run within units."),
     Option("white_max_columns", "int", 40, "Largest auxiliary regression for the full White test (else the special form)."),
     Option("robust_se", "hc", "HC3", "Robust standard errors reported beside the usual ones."),
     Option("robust_se_large", "hc", "HC1", "Robust standard errors used instead when n is large."),
@@ -104,6 +105,7 @@ class Settings:
     run_memory_mb: int = 8192
     serial_lags: int = 0  # 0: by the index frequency
     time_column: str = ""
+    unit_column: str = ""
     white_max_columns: int = 40
     robust_se: str = "HC3"
     robust_se_large: str = "HC1"

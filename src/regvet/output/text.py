@@ -130,8 +130,10 @@ class _Paint:
 
 def _finding_lines(f: Finding, lead: str, indent: str, width: int, paint: _Paint) -> list[str]:
     first = f"{lead}{f.severity.label} {f.rule}: "
-    lines = _wrap(first, f.message + (f" (waived: {f.reason})" if f.waived else ""), indent, width)
+    lines = _wrap(first, f.message, indent, width)
     lines[0] = paint.head(lines[0], lead, f.severity, f.rule)
+    if f.waived:  # shown with --show-waived
+        lines += [paint(line, _DIM) for line in _wrap(f"{indent}waived: ", f.reason or "", indent + _INDENT, width)]
     return lines
 
 

@@ -52,6 +52,7 @@ def options_for(settings: Settings) -> dict[str, Any]:
         "white_max_columns": settings.white_max_columns,
         "serial_lags": settings.serial_lags or None,
         "time_column": settings.time_column or None,
+        "unit_column": settings.unit_column or None,
         "break_candidates": list(settings.break_candidates),
         "robust_se": settings.robust_se,
         "robust_se_large": settings.robust_se_large,

@@ -127,6 +127,9 @@ class TimeOrder(NamedTuple):
     freq: Any  # the data frequency as a pandas offset, inferred from the sorted times, or None
     order: np.ndarray | None  # the rows' positions in time order when the rows are not in it, else None
     repeats: bool  # some time value is on several rows: a stacked panel, not one series
+    keys: np.ndarray | None = None  # a sortable time key per fit row (int64), when known
+    units: np.ndarray | None = None  # the unit code per fit row, for a panel whose unit is known
+    unit_name: str | None = None  # where the units come from (the column, or the index level)
 
 
 _NOT_TIMED = TimeOrder(None, None, None, False)
@@ -156,44 +159,81 @@ def _sorting(keys: Any, monotonic: bool) -> tuple[np.ndarray | None, str]:
     return order, " (rows are not in time order; the serial tests sort them by time)"
 
 
-def time_order(model: Any, column: str | None) -> TimeOrder:
-    """Whether the fit's rows are ordered in time, their frequency, and how to put them in time order.
+def _time_keys(values: Any) -> tuple[np.ndarray | None, Any]:
+    """(int64 keys, frequency) of date or period values (an index or a series), or (None, None)."""
+    import pandas as pd
 
-    The data is time-ordered when the fit's rows have a DatetimeIndex or PeriodIndex, or when
-    ``column`` (the ``time_column`` option) is a column of the model's data frame. The frequency is
-    inferred from the distinct times in sorted order, so rows out of order do not hide it.
+    if isinstance(values, pd.PeriodIndex) or isinstance(getattr(values, "dtype", None), pd.PeriodDtype):
+        index = pd.PeriodIndex(values)
+        return np.asarray(index.asi8), index.freq
+    if isinstance(values, pd.DatetimeIndex) or pd.api.types.is_datetime64_any_dtype(getattr(values, "dtype", None)):
+        index = pd.DatetimeIndex(values)
+        return np.asarray(index.asi8), index.freq or _infer_freq(index.dropna().unique().sort_values())
+    return None, None
+
+
+def _codes(values: Any) -> np.ndarray:
+    import pandas as pd
+
+    try:
+        codes, _ = pd.factorize(values, sort=True, use_na_sentinel=False)
+    except TypeError:
+        codes, _ = pd.factorize(values, sort=False, use_na_sentinel=False)
+    return np.asarray(codes)
+
+
+def time_order(model: Any, column: str | None, unit_column: str | None = None) -> TimeOrder:
+    """Whether the fit's rows are ordered in time, their frequency, how to put them in time order,
+    and, for a stacked panel, each row's unit.
+
+    The data is time-ordered when the fit's rows have a DatetimeIndex or PeriodIndex, a two-level
+    index whose second level holds dates or periods (unit, time), or when ``column`` (the
+    ``time_column`` option) is a column of the model's data frame. The frequency is inferred from the
+    distinct times in sorted order, so rows out of order do not hide it. The units of a panel come
+    from ``unit_column`` (a column of the data frame) or the first level of a two-level index.
     """
-    labels = model.data.row_labels
-    if labels is not None and is_pandas(labels):
-        import pandas as pd
+    import pandas as pd
 
+    labels = model.data.row_labels
+    n = int(model.endog.shape[0])
+    frame = model_frame(model) if (column is not None or unit_column is not None) else None
+    reason: str | None = None
+    keys: Any = None
+    freq: Any = None
+    monotonic = True
+    units: np.ndarray | None = None
+    unit_name: str | None = None
+    if labels is not None and is_pandas(labels):
         if isinstance(labels, (pd.DatetimeIndex, pd.PeriodIndex)):
             kind = "DatetimeIndex" if isinstance(labels, pd.DatetimeIndex) else "PeriodIndex"
-            distinct = labels.unique().sort_values()
-            freq = labels.freq if labels.freq is not None else _infer_freq(distinct)
-            order, note = _sorting(labels.asi8, labels.is_monotonic_increasing)
-            return TimeOrder(f"the fit's rows have a {kind}{note}", freq, order, bool(labels.has_duplicates))
-    frame = model_frame(model) if column is not None else None
-    if frame is not None and column in frame.columns:
-        import pandas as pd
-
-        series = frame[column]
-        freq = None
-        keys: Any = series.to_numpy()
-        if isinstance(series.dtype, pd.PeriodDtype):
-            freq = series.dtype.freq
-            keys = pd.PeriodIndex(series).asi8
-        elif pd.api.types.is_datetime64_any_dtype(series.dtype):
-            freq = _infer_freq(pd.DatetimeIndex(series.dropna().unique()).sort_values())
-            keys = pd.DatetimeIndex(series).asi8
+            keys, freq = _time_keys(labels)
+            reason, monotonic = f"the fit's rows have a {kind}", bool(labels.is_monotonic_increasing)
+        elif isinstance(labels, pd.MultiIndex) and labels.nlevels == 2:
+            level_keys, level_freq = _time_keys(labels.get_level_values(1))
+            if level_keys is not None:
+                keys, freq = level_keys, level_freq
+                reason, monotonic = "the fit's rows have a (unit, time) index", False
+                units, unit_name = _codes(labels.get_level_values(0)), f"index level {labels.names[0] or 0!r}"
+    if reason is None and frame is not None and column in frame.columns:
+        series = pd.Series(aligned(frame[column], frame, labels, n))
+        keys, freq = _time_keys(series)
+        if keys is None:
+            keys = series.to_numpy()
         try:
             monotonic = bool(series.is_monotonic_increasing)
         except TypeError:
             monotonic = False
-        order, note = _sorting(keys, monotonic)
-        return TimeOrder(f"time_column {column!r} is in the model's data frame{note}", freq, order,
-                         bool(series.duplicated().any()))  # fmt: skip
-    return _NOT_TIMED
+        reason = f"time_column {column!r} is in the model's data frame"
+    if reason is None:
+        return _NOT_TIMED
+    order, note = _sorting(keys, monotonic)
+    repeats = bool(pd.Series(keys).duplicated().any()) if keys is not None else False
+    if frame is not None and unit_column is not None and unit_column in frame.columns:
+        units, unit_name = _codes(aligned(frame[unit_column], frame, labels, n)), f"unit_column {unit_column!r}"
+    if units is not None:
+        note = ""  # within units the rows are sorted by unit and time
+    return TimeOrder(reason + note, freq, order, repeats, np.asarray(keys) if keys is not None else None,
+                     units, unit_name)  # fmt: skip
 
 
 def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tuple[np.ndarray, list[str]]:

@@ -41,6 +41,7 @@ class RowPasses:
         self.time_rank: np.ndarray | None = None  # each row's place in time order (None: rows are in it)
         self.u_time: np.ndarray | None = None  # the residuals in time order
         self.stacked_panel = False  # time values repeat: several units per period
+        self.panel: tuple[np.ndarray, np.ndarray, str] | None = None  # (unit codes, time keys, where from)
         self.lags = 0
         self.white_columns = 0
         self.white_full = False
@@ -85,7 +86,7 @@ class RowPasses:
                 self.reset_z = z / b
         # Time order and BG lags.
         try:
-            timed = time_order(fit.model, self.opts["time_column"])
+            timed = time_order(fit.model, self.opts["time_column"], self.opts["unit_column"])
         except Exception as exc:
             self.errors["time_ordered"] = error_message(exc)
             timed = None
@@ -93,6 +94,8 @@ class RowPasses:
             self.time_reason = timed.reason
             if timed.repeats:
                 self.stacked_panel = True
+                if timed.units is not None and timed.keys is not None:
+                    self.panel = (timed.units, timed.keys, timed.unit_name or "the units")
             self.lags = int(self.opts["serial_lags"] or lags_for(timed.freq))
             # Residuals in time order, zero-padded in front; lag_block maps each row to its place.
             u_time = u if timed.order is None else u[timed.order]
