@@ -89,6 +89,23 @@ def test_a_scan_of_the_hostile_folder_finishes_with_notes_and_the_good_files_fin
         json.loads(proc.stdout.decode("utf-8"))
 
 
+def test_report_skips_the_same_names(hostile):
+    proc = _regvet("report", "src", "-o", "audit.html", "--no-cache", cwd=hostile)
+    assert proc.returncode == 0, proc.stderr
+    assert "regvet: skipped src/pipe.py: a named pipe (FIFO)" in proc.stderr.decode()
+    assert "ferries.py" in (hostile / "audit.html").read_text()
+
+
+@pytest.mark.runtime
+def test_run_skips_the_same_names_and_runs_the_good_file(hostile):
+    proc = _regvet("run", "src", "--format", "json", "--no-cache", "--no-baseline", cwd=hostile, timeout=180)
+    assert proc.returncode == 1, proc.stderr
+    assert "regvet: skipped src/loop_a.py: a symbolic link loop" in proc.stderr.decode()
+    findings = json.loads(proc.stdout)["findings"]
+    assert {f["path"] for f in findings} == {"src/ferries.py"}
+    assert any(f["stats"] for f in findings)
+
+
 def test_a_fifo_named_on_the_command_line_is_skipped_not_opened(hostile):
     proc = _regvet("check", "src/pipe.py", "--no-cache", cwd=hostile, timeout=30)
     assert proc.returncode == 0, proc.stderr
