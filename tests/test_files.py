@@ -147,6 +147,20 @@ def test_a_file_gone_after_the_walk_is_a_finding_for_that_file(hostile, monkeypa
     assert finding.rule == "parse-error" and "cannot read the file" in finding.message
 
 
+@pytest.mark.skipif(not Path("/proc/self/mem").exists(), reason="Linux's /proc")
+def test_a_regular_file_whose_read_fails_is_a_finding_even_for_root(tmp_path):
+    """/proc/self/mem is a regular file that any process, root too, fails to read at offset 0 (EIO)."""
+    (tmp_path / ".git").mkdir()
+    (tmp_path / "ferries.py").write_text(FIT)
+    os.symlink("/proc/self/mem", tmp_path / "memory.py")
+    proc = _regvet("check", ".", "--format", "json", "--no-cache", cwd=tmp_path)
+    assert proc.returncode == 1, proc.stderr
+    findings = json.loads(proc.stdout)["findings"]
+    [err] = [f for f in findings if f["path"] == "memory.py"]
+    assert err["rule"] == "parse-error" and "cannot read the file: Input/output error" in err["message"]
+    assert any(f["path"] == "ferries.py" and f["rule"] != "parse-error" for f in findings)
+
+
 @pytest.mark.skipif(hasattr(os, "geteuid") and os.geteuid() == 0, reason="root reads a file of mode 000")
 def test_an_unreadable_file_is_a_clear_finding_and_the_scan_goes_on(tmp_path):
     (tmp_path / ".git").mkdir()
