@@ -281,11 +281,12 @@ def _exited(proc: subprocess.Popen, timeout: float) -> bool:
         except OSError:
             fd = -1
         if fd >= 0:
-            try:
-                ready, _, _ = select.select([fd], [], [], max(timeout, 0.0))
+            try:  # poll, not select: a server with many open files may hand out a descriptor above 1023
+                poller = select.poll()
+                poller.register(fd, select.POLLIN)
+                return bool(poller.poll(max(timeout, 0.0) * 1000))
             finally:
                 os.close(fd)
-            return bool(ready)
     waitid = getattr(os, "waitid", None)
     if waitid is None:  # pragma: no cover - Windows: no process groups to end either
         try:
