@@ -22,6 +22,7 @@ import atexit
 import logging
 import shutil
 import tempfile
+import threading
 import uuid
 from collections import OrderedDict
 from concurrent.futures import ThreadPoolExecutor
@@ -39,6 +40,7 @@ from regvet.baseline import hide_known
 from regvet.config import ConfigError, find_config
 from regvet.engine import analyze, analyze_cells, with_runtime
 from regvet.lsp.convert import CONFIG_ERROR, Positions, to_diagnostic
+from regvet.lsp.transport import CHUNK, RegvetProtocol, serve
 from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 from regvet.project import FileModules
@@ -129,6 +131,7 @@ class RegvetServer(LanguageServer):
                 ],
                 save=True,
             ),
+            protocol_cls=RegvetProtocol,
         )
         self.pool = ThreadPoolExecutor(max_workers=2, thread_name_prefix="regvet-analysis")
         self.client_settings: dict[str, Any] = {}
@@ -160,6 +163,53 @@ class RegvetServer(LanguageServer):
 
         for rid in RULES_BY_ID:
             (self.rule_docs / f"{rid}.md").write_text(explain(rid), encoding="utf-8")
+
+    # --- transport (pygls' reading loop replaced: see transport.py) ----------------------------
+    def start_io(self, stdin: Any = None, stdout: Any = None) -> None:
+        """Serve over stdio until the client says ``exit`` or closes the stream."""
+        import os
+        import sys
+
+        from pygls.io_ import StdoutWriter
+
+        self._stop_event = stop = threading.Event()
+        fd = (stdin or sys.stdin.buffer).fileno()
+        self.protocol.set_writer(StdoutWriter(stdout or sys.stdout.buffer))
+        reader = ThreadPoolExecutor(max_workers=1, thread_name_prefix="regvet-stdin")
+
+        async def read() -> bytes:
+            return await asyncio.get_running_loop().run_in_executor(reader, os.read, fd, CHUNK)
+
+        try:
+            asyncio.run(serve(stop, read, self.protocol))  # type: ignore[arg-type]
+        except BrokenPipeError:
+            log.error("the client's end of the pipe is closed; stopping")
+        except (KeyboardInterrupt, SystemExit):
+            pass
+        finally:
+            reader.shutdown(wait=False)
+            self.shutdown()
+
+    def start_tcp(self, host: str, port: int) -> None:
+        """Serve one client over TCP until it says ``exit`` or disconnects."""
+        self._stop_event = stop = threading.Event()
+
+        async def connection(reader: asyncio.StreamReader, writer: asyncio.StreamWriter) -> None:
+            self.protocol.set_writer(writer)
+            try:
+                await serve(stop, lambda: reader.read(CHUNK), self.protocol)  # type: ignore[arg-type]
+            finally:
+                self.shutdown()
+
+        async def listen() -> None:
+            self._server = await asyncio.start_server(connection, host, port)
+            async with self._server:
+                await self._server.serve_forever()
+
+        try:
+            asyncio.run(listen())
+        except (asyncio.CancelledError, KeyboardInterrupt, SystemExit):
+            pass
 
     # --- reporting -------------------------------------------------------------------------
     def report_server_error(self, error: Exception, source: Any) -> None:
