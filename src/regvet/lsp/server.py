@@ -726,7 +726,7 @@ def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None
 
 # --- hover and code actions ----------------------------------------------------------------------
 async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
-    from regvet.status import fit_status, fits_at
+    from regvet.status import fits_at, hover_markdown
 
     uri = params.text_document.uri
     key = ls.target_of(uri)
@@ -743,8 +743,7 @@ async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
     line, col = positions.from_client(params.position)
     parts: list[str] = []
     fits = fits_at(result.report, line, col, cell)
-    for fit in fits[:2]:
-        parts.append(fit_status(result.report, fit).markdown())
+    parts.extend(hover_markdown(result.report, fits))
     for d in result.diagnostics.get(uri, []):
         r = d.range
         if (r.start.line, r.start.character) <= (params.position.line, params.position.character) <= (
