@@ -30,7 +30,7 @@ from regvet.rules import ALL_RULES, RuleInput
 from regvet.rules.base import one_per_site
 from regvet.sources.imports import suggested_spellings
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
-from regvet.sources.python import SourceError, parse
+from regvet.sources.python import SourceError, parse, without_broken_cells
 from regvet.sources.waivers import Waiver, find_waivers
 
 _IMPORT = re.compile(
@@ -189,6 +189,11 @@ def _analyze_python(
     if skip_unrelated and not mentions_fits(python, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
     tree = parse(python, path)
+    broken: tuple[SourceError, ...] = ()
+    if isinstance(tree, SourceError) and cell_map is not None:
+        python, broken = without_broken_cells(python, cell_map.starts)
+        if broken:
+            tree = parse(python, path)
     waivers = tuple(find_waivers(python))
     if isinstance(tree, SourceError):
         inp = RuleInput(FileFacts(), settings, waivers, tree, cell_map)
@@ -215,7 +220,7 @@ def _analyze_python(
         facts = FileFacts()
         crashes.append(Crash("analysis", _describe(exc)))
     spellings = suggested_spellings(tree) if facts.fits else ()
-    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, spellings=spellings)
+    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, spellings=spellings, broken_cells=broken)
     return replace(_finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count), python=python)
 
 

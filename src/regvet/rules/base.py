@@ -44,6 +44,8 @@ class RuleInput:
     known_rules: frozenset[str] = frozenset()
     #: How the file already calls the diagnostics findings suggest (``sources.imports.suggested_spellings``).
     spellings: tuple[tuple[str, str], ...] = ()
+    #: Notebook cells that do not parse on their own (their code was left out of the analysis).
+    broken_cells: tuple[SourceError, ...] = ()
 
     def call(self, name: str) -> str:
         """How suggested code calls ``name`` in this file: its import alias (``lr``, ``sms.linear_reset``)
