@@ -10,8 +10,9 @@ under CORPUS (``CORPUS/owner+name/path``, as bench/realcode/extract.py writes th
 findings to labelled fit sites:
 
 * a finding matches a site when it has the same file, the same notebook cell (0-based, ``null``
-  outside notebooks) and its line (the start of its span) is the site's ``line`` (where the model
-  call starts), its ``fit_line`` (the ``.fit()`` call when that is a separate statement) or one of
+  outside notebooks) and its line (the start of its span) is the site's ``fit_line`` (the line of
+  the ``.fit()`` call when that is a separate statement from the model call; one model fitted
+  twice gives two sites) or, without one, its ``line`` (where the model call starts), or one of
   its ``call_lines`` (where a fit made inside a helper function surfaces at the helper's call);
 * a site "fires" for a rule when at least one non-waived finding of that rule (any severity,
   info included) matches it;
@@ -74,7 +75,7 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
         if path not in present:
             continue
         for site in entry["sites"]:
-            lines = {site["line"], site.get("fit_line", site["line"]), *site.get("call_lines", [])}
+            lines = {site.get("fit_line", site["line"]), *site.get("call_lines", [])}
             place = f"{path}" + (f", cell {site['cell']}" if site["cell"] is not None else "") + f", line {site['line']}"
             for rule in rules:
                 hits = [f for ln in lines for f in by_place.get((rule, path, site["cell"], ln), [])]
