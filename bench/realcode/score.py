@@ -70,6 +70,7 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
         r: {"tp": 0, "fp": 0, "fn": 0, "tn": 0, "false_positives": [], "false_negatives": []} for r in rules
     }
     static_pos = {"tp": 0, "fn": 0}
+    serial_fp_untimed = 0
     for entry in labels["files"]:
         path = f"{entry['mirror']}/{entry['path']}"
         if path not in present:
@@ -87,6 +88,8 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
                 s = stats[rule]
                 key = ("tp" if truth else "fp") if fired else ("fn" if truth else "tn")
                 s[key] += 1
+                if key == "fp" and rule == "no-serial-test" and not site.get("time_ordered"):
+                    serial_fp_untimed += 1
                 if key == "fp":
                     s["false_positives"].append({"site": place, "why_not": site["labels"][rule]["why"],
                                                  "message": hits[0]["message"][:300]})
@@ -105,6 +108,7 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
         s["recall"] = _ratio(s["tp"], s["tp"] + s["fn"])
     stats["no-serial-test"]["recall_static_evidence"] = _ratio(static_pos["tp"], static_pos["tp"] + static_pos["fn"])
     stats["no-serial-test"]["static_evidence_positives"] = static_pos["tp"] + static_pos["fn"]
+    stats["no-serial-test"]["false_positives_on_untimed_data"] = serial_fp_untimed
     return {"rules": stats, "unmatched": unmatched}
 
 
@@ -132,12 +136,14 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     findings = run_regvet(args.regvet.split(), args.corpus, sorted(present))
     result = score(labels, findings, present)
-    sites = sum(len(e["sites"]) for e in labels["files"] if f"{e['mirror']}/{e['path']}" in present)
+    scored = [s for e in labels["files"] if f"{e['mirror']}/{e['path']}" in present for s in e["sites"]]
+    sites = len(scored)
+    timed = sum(1 for s in scored if s.get("time_ordered"))
     commit = subprocess.run(["git", "-C", str(ROOT), "rev-parse", "--short", "HEAD"], capture_output=True,
                             text=True, check=False).stdout.strip()
     report = {"date": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%MZ"), "regvet_commit": commit,
-              "files": len(present), "sites": sites, "missing_files": missing, **result}
-    print(f"{len(present)} files, {sites} labelled fit sites, regvet at {commit}")
+              "files": len(present), "sites": sites, "time_ordered_sites": timed, "missing_files": missing, **result}
+    print(f"{len(present)} files, {sites} labelled fit sites ({timed} on time-ordered data), regvet at {commit}")
     print(f"{'rule':18} {'TP':>4} {'FP':>4} {'FN':>4} {'TN':>4} {'prec':>6} {'recall':>6}")
     for rule, s in result["rules"].items():
         prec = "-" if s["precision"] is None else f"{s['precision']:.3f}"
@@ -145,7 +151,8 @@ def main(argv: list[str] | None = None) -> int:
         print(f"{rule:18} {s['tp']:4} {s['fp']:4} {s['fn']:4} {s['tn']:4} {prec:>6} {rec:>6}")
     serial = result["rules"]["no-serial-test"]
     print(f"no-serial-test recall over the {serial['static_evidence_positives']} positives with static evidence: "
-          f"{serial['recall_static_evidence']}")
+          f"{serial['recall_static_evidence']}; false positives on data without time order: "
+          f"{serial['false_positives_on_untimed_data']}")
     args.out.parent.mkdir(parents=True, exist_ok=True)
     args.out.write_text(json.dumps(report, indent=1) + "\n", encoding="utf-8")
     print(f"written {args.out}")
