@@ -15,7 +15,8 @@ findings to labelled fit sites:
   twice gives two sites) or, without one, its ``line`` (where the model call starts), or one of
   its ``call_lines`` (where a fit made inside a helper function surfaces at the helper's call);
 * a site "fires" for a rule when at least one non-waived finding of that rule (any severity,
-  info included) matches it;
+  info included) matches it; further findings of the same rule at the same site (a loop making
+  several fits at one call) are counted as ``extra_findings_at_one_site``, not as false positives;
 * a finding of a scored rule that matches no labelled site of its file is counted as a false
   positive (every fit site of a labelled file is labelled) and listed under ``unmatched``;
   sites whose label for a rule is ``null`` are left out of that rule's counts.
@@ -71,6 +72,7 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
     }
     static_pos = {"tp": 0, "fn": 0}
     serial_fp_untimed = 0
+    extra: dict[str, int] = {r: 0 for r in rules}
     for entry in labels["files"]:
         path = f"{entry['mirror']}/{entry['path']}"
         if path not in present:
@@ -81,6 +83,7 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
             for rule in rules:
                 hits = [f for ln in lines for f in by_place.get((rule, path, site["cell"], ln), [])]
                 used.update(id(f) for f in hits)
+                extra[rule] += max(0, len(hits) - 1)
                 truth = site["labels"][rule]["fire"]
                 if truth is None:
                     continue
@@ -103,7 +106,8 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
             stats[f["rule"]]["fp"] += 1
             unmatched.append({"rule": f["rule"], "path": f["path"], "cell": f.get("cell"), "line": f["line"],
                               "message": f["message"][:300]})
-    for s in stats.values():
+    for rule, s in stats.items():
+        s["extra_findings_at_one_site"] = extra[rule]
         s["precision"] = _ratio(s["tp"], s["tp"] + s["fp"])
         s["recall"] = _ratio(s["tp"], s["tp"] + s["fn"])
     stats["no-serial-test"]["recall_static_evidence"] = _ratio(static_pos["tp"], static_pos["tp"] + static_pos["fn"])
@@ -124,7 +128,15 @@ def main(argv: list[str] | None = None) -> int:
     except (OSError, ValueError) as exc:
         print(f"score: {args.labels}: cannot read the labels ({exc})", file=sys.stderr)
         return 2
-    wanted = [f"{e['mirror']}/{e['path']}" for e in labels["files"]]
+    try:
+        wanted = [f"{e['mirror']}/{e['path']}" for e in labels["files"]]
+        for e in labels["files"]:
+            for site in e["sites"]:
+                for rule in labels["rules"]:
+                    site["labels"][rule]["fire"]  # every site labels every rule
+    except (KeyError, TypeError) as exc:
+        print(f"score: {args.labels}: not a labels file (missing {exc})", file=sys.stderr)
+        return 2
     present = {p for p in wanted if (args.corpus / p).is_file()}
     missing = sorted(set(wanted) - present)
     if missing:
