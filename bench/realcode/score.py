@@ -30,6 +30,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import subprocess
 import sys
 from collections import defaultdict
@@ -146,7 +147,10 @@ def main(argv: list[str] | None = None) -> int:
             print(f"  {p}", file=sys.stderr)
     if not present:
         return 2
-    findings = run_regvet(args.regvet.split(), args.corpus, sorted(present))
+    command = args.regvet.split()
+    if "/" in command[0]:  # a path to the program: resolve it here, as regvet runs from the corpus folder
+        command[0] = os.path.abspath(command[0])
+    findings = run_regvet(command, args.corpus, sorted(present))
     result = score(labels, findings, present)
     scored = [s for e in labels["files"] if f"{e['mirror']}/{e['path']}" in present for s in e["sites"]]
     sites = len(scored)
