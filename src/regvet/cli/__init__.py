@@ -17,7 +17,16 @@ from regvet import __version__
 from regvet.baseline import BASELINE_NAME, BaselineError
 from regvet.cli.baseline import run_baseline
 from regvet.cli.check import run_check
-from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, EXIT_USAGE, EXTRA_EXCLUDE, UsageError, collect_files
+from regvet.cli.common import (
+    EXIT_FAILED,
+    EXIT_FINDINGS,
+    EXIT_OK,
+    EXIT_USAGE,
+    EXTRA_EXCLUDE,
+    UsageError,
+    collect_files,
+    tolerant_streams,
+)
 from regvet.cli.info import _serve
 from regvet.cli.mend import run_mend
 from regvet.cli.report import run_report
@@ -211,6 +220,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             sys.stderr.write("regvet: the command comes first, then its options and paths, as in `regvet check "
                              f"--format json fixtures/demo`; this was read as `regvet {' '.join(args_list)}`\n")
         return EXIT_USAGE
+    tolerant_streams()
     if args.command == "rules":
         sys.stdout.write(render_rules())
         return EXIT_OK
