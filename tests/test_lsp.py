@@ -191,9 +191,9 @@ async def test_notebook_findings_are_published_on_their_cells(project):
 
 
 async def test_hover_shows_the_status_of_each_check_family(project):
-    text = SCRIPT + "print(linear_reset(res, power=3, use_f=True))  # regvet: waive no-variance-test -- x\n"
+    text = SCRIPT + "print(linear_reset(res, power=3, use_f=True))  # regvet: waive no-variance-test because x\n"
     text = text.replace("import pandas as pd\n", "import pandas as pd\nfrom statsmodels.stats.diagnostic import linear_reset\n")
-    text = text.replace(".fit()\n", ".fit()  # regvet: waive no-variance-test -- volumes are pooled over equal-size routes\n", 1)
+    text = text.replace(".fit()\n", ".fit()  # regvet: waive no-variance-test because volumes are pooled over equal-size routes\n", 1)
     async with session(project) as c:
         uri = c.open(project / "model.py", text)
         await c.diagnostics_for(uri, 1)
@@ -388,7 +388,7 @@ async def test_each_quick_fix_clears_the_finding_it_targets(project, rule, title
         others = {"no-form-test", "no-variance-test"} - {rule}
         assert set(codes(after)) == others  # only the targeted finding went away
         if title_start.startswith("Waive"):
-            assert f"# regvet: waive {rule} -- REASON" in new
+            assert f"# regvet: waive {rule} because REASON" in new
 
 
 async def test_quick_fixes_in_a_notebook_cell_edit_that_cell(project):

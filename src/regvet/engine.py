@@ -26,7 +26,7 @@ from regvet.model.report import Crash, FileReport
 from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
-from regvet.rules import ALL_RULES, RuleInput
+from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput
 from regvet.sources.imports import suggested_spellings
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
 from regvet.sources.python import SourceError, parse
@@ -188,7 +188,7 @@ def _analyze_python(
     if skip_unrelated and not mentions_fits(python, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
     tree = parse(python, path)
-    waivers = tuple(find_waivers(python))
+    waivers = tuple(find_waivers(python, RULES_BY_ID))
     if isinstance(tree, SourceError):
         inp = RuleInput(FileFacts(), settings, waivers, tree, cell_map)
         return replace(_finish(path, settings, inp, cell_map, (), strict, cell_count), python=python)
