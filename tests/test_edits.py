@@ -423,6 +423,41 @@ def test_an_existing_waiver_gets_the_rule(old, expected):
     assert lines(new)[0] == expected and new.count("regvet") == 1
 
 
+@pytest.mark.parametrize(
+    "old, expected",
+    [
+        # an existing waiver in the old ` -- reason` form is rewritten with `because` as the rule is added
+        ("# regvet: waive no-form-test -- fixed fares\nres = m.fit()\n",
+         "# regvet: waive no-form-test, no-variance-test because fixed fares\n"),
+        ("res = m.fit()  # regvet: waive no-form-test: fixed fares  # expect: x\n",
+         "res = m.fit()  # regvet: waive no-form-test, no-variance-test because fixed fares  # expect: x\n"),
+        ("# regvet: waive no-variance-test -- fixed fares\nres = m.fit()\n",
+         "# regvet: waive no-variance-test because fixed fares\n"),
+    ],
+)
+def test_an_existing_waiver_in_another_form_is_rewritten_when_the_rule_is_added(old, expected):
+    line = 1 if old.startswith("res") else 2
+    new = checked(old, add_waiver(old, line, "no-variance-test"))
+    assert lines(new)[0] == expected
+    from regvet.sources.waivers import find_waivers
+
+    (w,) = find_waivers(new)
+    assert w.malformed is None and w.reason == "fixed fares" and "no-variance-test" in w.rules
+
+
+def test_rewrite_waiver_replaces_the_directive_and_keeps_what_follows():
+    from regvet.edits.comments import rewrite_waiver
+
+    old = "res = m.fit()  # regvet: waive no-frm-test because fixed  # noqa: E501\nprint(1)\n"
+    w = Span(1, 15, 1, len(old.split("\n")[0]))
+    new = rewrite_waiver(old, w, "# regvet: waive no-form-test because fixed")
+    assert new == "res = m.fit()  # regvet: waive no-form-test because fixed  # noqa: E501\nprint(1)\n"
+    with pytest.raises(EditError):  # the comment moved away: nothing is guessed
+        rewrite_waiver("res = m.fit()\n", Span(1, 0, 1, 5), "# regvet: waive no-form-test because fixed")
+    with pytest.raises(EditError):
+        rewrite_waiver(old, w, "print(2)")
+
+
 def test_a_rule_already_waived_with_a_reason_changes_nothing():
     old = "# regvet: waive no-variance-test because ok\nres = m.fit()\n"
     assert add_waiver(old, 2, "no-variance-test") == old

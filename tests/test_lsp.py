@@ -391,6 +391,38 @@ async def test_each_quick_fix_clears_the_finding_it_targets(project, rule, title
             assert f"# regvet: waive {rule} because REASON" in new
 
 
+@pytest.mark.parametrize(
+    "comment,title,written,waived",
+    [
+        ("# regvet: waive no-form-test -- fares are fixed by contract",
+         "Rewrite the waiver as `# regvet: waive no-form-test because fares are fixed by contract`",
+         "# regvet: waive no-form-test because fares are fixed by contract", "no-form-test"),
+        ("# regvet: waive no-frm-test because fares are fixed by contract",
+         "Correct the waiver: `no-frm-test` to `no-form-test`",
+         "# regvet: waive no-form-test because fares are fixed by contract", "no-form-test"),
+    ],
+)
+async def test_a_waiver_in_another_form_or_misspelt_is_rewritten_by_its_quick_fix(project, comment, title, written,
+                                                                                waived):
+    text = SCRIPT.replace(".fit()\n", f".fit()  {comment}\n", 1)
+    async with session(project) as c:
+        uri = c.open(project / "model.py", text)
+        diags = await c.diagnostics_for(uri, 1)
+        target = next(d for d in diags if d.code in ("waiver-without-reason", "waiver-unknown-rule"))
+        assert waived in codes(diags)  # the waiver does not take effect yet
+        actions = await c.lsp.text_document_code_action_async(t.CodeActionParams(
+            text_document=t.TextDocumentIdentifier(uri=uri), range=target.range,
+            context=t.CodeActionContext(diagnostics=[target])))  # fmt: skip
+        assert [a.title for a in actions] == [title]  # no waiver of a waiver finding is offered
+        [change] = actions[0].edit.document_changes
+        [edit] = change.edits
+        new = apply_text_edit(text, edit)
+        assert new == text.replace(comment, written)
+        version = c.replace(uri, new)
+        after = await c.diagnostics_for(uri, version)
+        assert waived not in codes(after) and target.code not in codes(after)
+
+
 async def test_quick_fixes_in_a_notebook_cell_edit_that_cell(project):
     nb_path = project / "study.ipynb"
     nb_uri = from_fs_path(str(nb_path))

@@ -324,7 +324,7 @@ def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
     fix = f.fix
     if fix is not None:
         fix = dict(fix, cell=cell_map.locate(f.span.line)[0])
-        for key in ("fit_call", "statement"):
+        for key in ("fit_call", "statement", "waiver"):
             if key in fix:
                 s = cell_map.span(Span(*fix[key]))
                 fix[key] = [s.line, s.col, s.end_line, s.end_col]

@@ -8,6 +8,7 @@ import tokenize
 from dataclasses import dataclass, field
 
 from regvet.edits.text import EditError, offset
+from regvet.model.span import Span
 from regvet.sources.waivers import BECAUSE, Waiver, directive, find_waivers, split_reason
 
 _RULE_ID = re.compile(r"^[a-z0-9][a-z0-9-]*$")
@@ -72,6 +73,26 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
         return source[:at] + comment + "  " + source[at:]
     at = offset(source, line, layout.code_end[line])
     return source[:at] + "  " + comment + source[at:]
+
+
+def rewrite_waiver(source: str, span: Span, new: str) -> str:
+    """``source`` with the waiver comment at ``span`` replaced by the directive ``new``
+    (``# regvet: waive RULE because REASON``); a further comment after it on the line is kept.
+
+    Raises :class:`EditError` when no waiver comment is at ``span`` or ``new`` is not one line."""
+    if "\n" in new or "\r" in new or not _HEAD.match(new):
+        raise EditError("the new waiver must be one line starting `# regvet: waive`")
+    lines = source.split("\n")
+    if not 1 <= span.line <= len(lines) or span.line != span.end_line:
+        raise EditError(f"line {span.line} is outside the file")
+    start = offset(source, span.line, span.col)
+    end = offset(source, span.end_line, span.end_col)
+    comment = source[start:end]
+    head = _HEAD.match(comment)
+    if head is None or "\n" in comment:
+        raise EditError("no waiver comment is there any more")
+    _, hash_, tail = comment[head.end() :].partition("#")
+    return source[:start] + new + ("  #" + tail if hash_ else "") + source[end:]
 
 
 def _backslash(lines: list[str], layout: _Layout, line: int) -> bool:

@@ -7,6 +7,7 @@ from collections.abc import Collection, Iterator
 
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput
+from regvet.sources.waivers import directive
 
 
 def nearest(name: str, known: Collection[str]) -> str | None:
@@ -36,7 +37,16 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             text += "; did you mean " + ", ".join(f"`{g}` for `{n}`" for n, g in meant) + "?"
         else:
             text += "; `regvet rules` lists the rules."
-        yield RULE.finding(w.span, text)
+        fix = None
+        if w.reason is not None and not w.malformed and all(g for _, g in guesses):
+            # every misspelt name has a near rule: the editor can offer the corrected waiver
+            named = dict(guesses)
+            rules = list(dict.fromkeys(named.get(r) or r for r in w.rules))
+            s = w.span
+            fix = {"waiver": [s.line, s.col, s.end_line, s.end_col],
+                   "rewrite_waiver": directive(w.file_wide, rules, w.reason),
+                   "title": "Correct the waiver: " + ", ".join(f"`{n}` to `{g}`" for n, g in guesses)}  # fmt: skip
+        yield RULE.finding(w.span, text, fix=fix)
 
 
 RULE = Rule(

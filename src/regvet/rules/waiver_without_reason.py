@@ -12,9 +12,14 @@ from regvet.sources.waivers import directive
 def check(inp: RuleInput) -> Iterator[Finding]:
     for w in inp.waivers:
         if w.malformed:
+            fix = None
+            if w.intended and w.expected:  # the reason is there, in another form: the editor can rewrite it
+                s = w.span
+                fix = {"waiver": [s.line, s.col, s.end_line, s.end_col], "rewrite_waiver": w.expected}
             yield RULE.finding(
                 w.span,
                 f"This waiver {w.malformed}, so it takes no effect. Write it as `{w.expected}`.",
+                fix=fix,
             )
         elif w.reason is None:
             yield RULE.finding(
