@@ -27,6 +27,7 @@ from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput
+from regvet.rules.base import one_per_site
 from regvet.sources.imports import suggested_spellings
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
 from regvet.sources.python import SourceError, parse
@@ -251,7 +252,7 @@ def _finish(
         if not settings.enabled(rule.id):
             continue
         try:
-            findings.extend(rule.check(inp))
+            findings.extend(one_per_site(inp, rule.check(inp)))
         except Exception as exc:
             if strict:
                 raise
