@@ -26,7 +26,7 @@ from regvet.model.report import Crash, FileReport
 from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
-from regvet.rules import ALL_RULES, RuleInput
+from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput
 from regvet.rules.base import one_per_site
 from regvet.sources.imports import suggested_spellings
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
@@ -194,7 +194,7 @@ def _analyze_python(
         python, broken = without_broken_cells(python, cell_map.starts)
         if broken:
             tree = parse(python, path)
-    waivers = tuple(find_waivers(python))
+    waivers = tuple(find_waivers(python, RULES_BY_ID))
     if isinstance(tree, SourceError):
         inp = RuleInput(FileFacts(), settings, waivers, tree, cell_map)
         return replace(_finish(path, settings, inp, cell_map, (), strict, cell_count), python=python)
@@ -330,7 +330,7 @@ def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
     fix = f.fix
     if fix is not None:
         fix = dict(fix, cell=cell_map.locate(f.span.line)[0])
-        for key in ("fit_call", "statement"):
+        for key in ("fit_call", "statement", "waiver"):
             if key in fix:
                 s = cell_map.span(Span(*fix[key]))
                 fix[key] = [s.line, s.col, s.end_line, s.end_col]
