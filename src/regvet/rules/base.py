@@ -42,6 +42,9 @@ class RuleInput:
     runtime: RuntimeFacts | None = None  # only in runtime mode
     #: Ids of every rule in the catalogue (the engine fills it in), so waivers can name unknown ones.
     known_rules: frozenset[str] = frozenset()
+    #: Why the analysis of the file stopped early (a bound regvet keeps whatever the input: too
+    #: deep, over its time budget); the facts then hold what was found before it stopped, or nothing.
+    stopped: tuple[str, ...] = ()
 
     def where(self, loc: Loc) -> str:
         """A location as a message names it: ``line 12``, ``cell 3, line 2`` or ``helpers.py, line 8``."""
