@@ -81,7 +81,7 @@ def test_adopting_regvet_on_the_demo(run_cli, demo):
     # every open finding except the engine's own (a waiver without a reason is never hidden)
     assert len(recorded) == 10 and ("03_model_choice.py", "waiver-without-reason", 50) not in recorded
     assert all(len(e["fingerprint"]) == 20 for items in data["files"].values() for e in items)
-    code, out, err = run_cli("check", ".")
+    code, out, err = run_cli("check", "--format", "lines", ".")
     assert code == 1
     assert [line.split(": ")[1].split()[1] for line in out.splitlines() if ": warning " in line] == ["waiver-without-reason"]
     assert "regvet: baseline regvet-baseline.json: 10 known findings not shown\n" in out
@@ -111,7 +111,7 @@ def test_adopting_regvet_on_the_demo(run_cli, demo):
     assert "9 known findings not shown, 1 no longer found (refresh it with `regvet baseline --update`)" in out
     code, out, err = run_cli("baseline", ".", "--update")
     assert code == 0 and "(1 gone)" in out
-    code, out, err = run_cli("check", ".")
+    code, out, err = run_cli("check", ".", "--format", "lines")
     assert "9 known findings not shown\n" in out
     assert out.count("02_weather_effects.py:") == 3  # the new fit's findings are still reported
     code, out, err = run_cli("check", ".", "--no-baseline", "--format", "json")

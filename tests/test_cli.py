@@ -64,7 +64,8 @@ def test_exit_0_when_clean_and_1_with_findings(project, run_cli):
     code, out, err = run_cli("check", "dirty.py")
     assert code == 1 and err == ""
     lines = out.strip().split("\n")
-    assert lines[0].startswith("dirty.py:5:7: warning no-")
+    assert lines[0] == "dirty.py:5:7: res (riders ~ fare + fuel_price)"  # the fit's header, then its findings
+    assert lines[1].startswith("  warning no-form-test: `res` has its estimates used")
     assert lines[-1].startswith("regvet: 2 findings (0 errors, 2 warnings, 0 info) in 1 of 1 file")
 
 
@@ -100,7 +101,7 @@ def test_exit_3_when_a_rule_crashes_and_other_rules_still_report(project, run_cl
     assert code == 3
     assert "dirty.py: regvet failed in rule broken-rule: RuntimeError: deliberate test failure" in err
     assert "clean.py: regvet failed in rule broken-rule" in err
-    assert "dirty.py:5:7: warning no-form-test" in out  # the other rules' findings are kept
+    assert "dirty.py:5:7: res (riders ~ fare + fuel_price)\n  warning no-form-test: " in out  # the other rules' findings are kept
 
 
 def test_unreadable_and_undecodable_files_are_parse_errors(project, run_cli):

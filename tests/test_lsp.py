@@ -187,7 +187,7 @@ async def test_notebook_findings_are_published_on_their_cells(project):
         await c.until(lambda: c.published[-1].uri in (cell(1), cell(2)) and len(c.lsp.diagnostics[cell(2)]) == 0)
         hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=cell(2)),
                                                                     t.Position(0, 8)))  # fmt: skip
-        assert "functional form: **done**" in hover.contents.value and "(cell 2, line 4)" in hover.contents.value
+        assert "functional form: **done**" in hover.contents.value and "(cell 3, line 4)" in hover.contents.value  # cells counted from 1 for people
 
 
 async def test_hover_shows_the_status_of_each_check_family(project):

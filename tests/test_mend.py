@@ -139,7 +139,7 @@ def test_preview_prints_the_diff_and_writes_nothing(run_cli, demo):
     code, out, err = run_cli("mend", ".", "--preview")
     assert code == 0 and snapshot(demo) == before
     assert out.startswith("--- a/02_weather_effects.py\n+++ b/02_weather_effects.py\n")
-    assert "+++ b/04_timetable_change.ipynb (cell 7)" in out
+    assert "+++ b/04_timetable_change.ipynb (cell 8)" in out
     assert "would make 3 edits in 3 of 6 files" in err
     previewed = [line[1:] for line in out.splitlines() if line.startswith("+") and not line.startswith("+++")]
     run_cli("mend", ".")

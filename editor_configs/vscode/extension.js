@@ -6,9 +6,9 @@ const { LanguageClient, TransportKind } = require("vscode-languageclient/node");
 let client;
 
 function serverCommand() {
-  // regvet.server.path is a restricted setting: in an untrusted workspace VS Code
+  // regvet.executable is a restricted setting: in an untrusted workspace VS Code
   // returns the user-level value only.
-  const path = vscode.workspace.getConfiguration("regvet").get("server.path") || "regvet";
+  const path = vscode.workspace.getConfiguration("regvet").get("executable") || "regvet";
   return { command: path, args: ["serve"], transport: TransportKind.stdio };
 }
 
@@ -49,9 +49,9 @@ async function activate(context) {
     vscode.commands.registerCommand("regvet.restart", restart),
     vscode.commands.registerCommand("regvet.runFitsOfFile", runFits),
     vscode.workspace.onDidChangeConfiguration((event) => {
-      if (event.affectsConfiguration("regvet.server.path")) return restart();
+      if (event.affectsConfiguration("regvet.executable")) return restart();
     }),
-    vscode.workspace.onDidGrantWorkspaceTrust(restart), // the workspace's server.path now applies
+    vscode.workspace.onDidGrantWorkspaceTrust(restart), // the workspace's regvet.executable now applies
   );
   await restart();
 }

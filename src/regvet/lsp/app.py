@@ -26,6 +26,7 @@ from regvet.lsp.server import (
     on_config,
     on_initialize,
     on_initialized,
+    on_shutdown,
     on_watched,
 )
 
@@ -41,6 +42,7 @@ def create_server() -> RegvetServer:
     for method, handler, options in (
         (t.INITIALIZE, on_initialize, None),
         (t.INITIALIZED, on_initialized, None),
+        (t.SHUTDOWN, on_shutdown, None),
         (t.WORKSPACE_DID_CHANGE_CONFIGURATION, on_config, None),
         (t.WORKSPACE_DID_CHANGE_WATCHED_FILES, on_watched, None),
         (t.TEXT_DOCUMENT_DID_OPEN, did_open, None),
@@ -61,12 +63,22 @@ def create_server() -> RegvetServer:
 
 
 # --- entry point ---------------------------------------------------------------------------------
+def _free_port() -> int:
+    """A port on 127.0.0.1 that nothing listens on now (the system picks it)."""
+    import socket
+
+    with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
 def main(argv: list[str] | None = None) -> int:
     import argparse
 
     parser = argparse.ArgumentParser(prog="regvet serve", description="Run the regvet language server.")
     parser.add_argument("--tcp", action="store_true", help="listen on TCP (127.0.0.1) instead of stdio")
-    parser.add_argument("--port", type=int, default=2087, help="TCP port (default 2087)")
+    parser.add_argument("--port", type=int, default=None,
+                        help="the TCP port (1-65535); without it --tcp picks a free port and prints it")  # fmt: skip
     parser.add_argument("--log-file", help="write the server log here (stdout carries the protocol)")
     args = parser.parse_args(argv)
     logging.basicConfig(
@@ -74,9 +86,25 @@ def main(argv: list[str] | None = None) -> int:
         level=logging.INFO if args.log_file else logging.WARNING,
         format="%(asctime)s %(name)s %(levelname)s %(message)s",
     )
+    if args.port is not None and not args.tcp:
+        parser.error("--port needs --tcp (without --tcp the server speaks over stdio)")
+    if args.port is not None and not 0 < args.port < 65536:
+        parser.error(f"--port must be between 1 and 65535, not {args.port}")
     server = create_server()
     if args.tcp:
-        server.start_tcp("127.0.0.1", args.port)
+        port = args.port if args.port is not None else _free_port()
+        # The one line on stdout in TCP mode (stdio carries no protocol then): where to connect.
+        print(f"regvet language server: listening on 127.0.0.1:{port}", flush=True)
+        server.start_tcp("127.0.0.1", port)
     else:
         server.start_io()
-    return 0
+    # Leave at once: a thread still blocked reading stdin (or a quick fix under way) must not
+    # keep the process alive after `exit` or the end of the stream.
+    import atexit
+    import os
+    import sys
+
+    atexit._run_exitfuncs()
+    logging.shutdown()
+    sys.stdout.flush()
+    os._exit(server.exit_code)

@@ -145,10 +145,10 @@ def read_notebook(text: str) -> NotebookSource | SourceError:
         src = cell.get("source", cell.get("input", ""))
         if isinstance(src, list):
             if not all(isinstance(s, str) for s in src):
-                return SourceError(f"invalid notebook: cell {index} has a non-text source", Span(1, 0, 1, 0))
+                return SourceError(f"invalid notebook: cell {index + 1} has a non-text source", Span(1, 0, 1, 0))
             src = "".join(src)
         if not isinstance(src, str):
-            return SourceError(f"invalid notebook: cell {index} has a non-text source", Span(1, 0, 1, 0))
+            return SourceError(f"invalid notebook: cell {index + 1} has a non-text source", Span(1, 0, 1, 0))
         code.append((index, src))
     return join_cells(code, len(cells))
 
