@@ -377,3 +377,23 @@ def test_closed_documents_leave_no_state_behind(project):
     thread.join(20)
     assert not thread.is_alive() and ls.exit_code == 0
     assert ls.analyses.all == set()  # its analysis processes are ended
+
+
+async def test_a_cell_document_listed_twice_in_a_notebook_is_analysed_and_shown_once(project):
+    nb_uri = from_fs_path(str(project / "tides.ipynb"))
+    cell = lambda i: f"vscode-notebook-cell:{project.as_posix()}/tides.ipynb#W{i}"  # noqa: E731
+    async with session(project, capabilities(notebook=True)) as c:
+        c.lsp.notebook_document_did_open(t.DidOpenNotebookDocumentParams(
+            notebook_document=t.NotebookDocument(uri=nb_uri, notebook_type="jupyter-notebook", version=0, cells=[
+                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
+                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
+                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1))]),
+            cell_text_documents=[
+                t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
+                t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
+                t.TextDocumentItem(uri=cell(1), language_id="python", version=1, text="print(res.params)\n")]))  # fmt: skip
+        await c.until(lambda: c.lsp.diagnostics.get(cell(0)))
+        diags = c.lsp.diagnostics[cell(0)]
+        assert codes(diags) == expected_codes(NORMAL) != []  # once, not once per listing
+        assert len({(d.range.start.line, d.range.start.character, d.code) for d in diags}) == len(diags)
+        assert [p.uri for p in c.published].count(cell(0)) == 1 and list(c.lsp.diagnostics[cell(1)]) == []
