@@ -392,7 +392,7 @@ async def test_a_cell_document_listed_twice_in_a_notebook_is_analysed_and_shown_
                 t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
                 t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
                 t.TextDocumentItem(uri=cell(1), language_id="python", version=1, text="print(res.params)\n")]))  # fmt: skip
-        await c.until(lambda: c.lsp.diagnostics.get(cell(0)))
+        await c.until(lambda: c.lsp.diagnostics.get(cell(0)) and cell(1) in c.lsp.diagnostics)
         diags = c.lsp.diagnostics[cell(0)]
         assert codes(diags) == expected_codes(NORMAL) != []  # once, not once per listing
         assert len({(d.range.start.line, d.range.start.character, d.code) for d in diags}) == len(diags)
