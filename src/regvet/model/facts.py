@@ -64,6 +64,7 @@ class Fit:
     statement: Span | None  # the statement holding the fit call, in the analysed file
     model_span: Span | None = None  # the model constructor call, in the analysed file
     time_where: Loc | None = None  # where the evidence of time order is, when known
+    formula_too_large: bool = False  # the formula expands to too many terms to read them
 
 
 @dataclass(frozen=True)
