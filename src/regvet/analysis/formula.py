@@ -34,6 +34,8 @@ class Formula:
     shift_groups: frozenset[str]  # C(g) factors that only shift the intercept
     interacted_groups: frozenset[str]  # C(g) factors that appear in an interaction
     lagged: bool  # lags or differences appear in the formula
+    main_groups: frozenset[str] = frozenset()  # C(g) factors that are a term of their own (interacted or not)
+    interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
 
     @property
     def n_regressors(self) -> int:
@@ -264,11 +266,14 @@ def parse_formula(text: str) -> Formula | None:
     real = tuple(sorted(tuple(sorted(t)) for t in terms if t))
     shift: set[str] = set()
     inter: set[str] = set()
+    inter_columns: set[str] = set()
     for t in real:
         for f in t:
             g = _group_of(f)
             if g:
                 (inter if len(t) > 1 else shift).add(g)
+            if len(t) > 1:
+                inter_columns |= _identifiers(f)
     variables = _identifiers(rhs) | (_identifiers(lhs) if lhs else set())
     lagged = bool(_LAG_CALL.search(rhs)) or any(_LAG_NAME.search(v) for v in variables)
     return Formula(
@@ -280,4 +285,6 @@ def parse_formula(text: str) -> Formula | None:
         shift_groups=frozenset(shift - inter),
         interacted_groups=frozenset(inter),
         lagged=lagged,
+        main_groups=frozenset(shift),
+        interacted_columns=frozenset(inter_columns),
     )

@@ -568,6 +568,8 @@ class RegressionSemantics(CollectorState):
                     time_where=model.time_where,
                     shift_groups=model.formula.shift_groups if model.formula else frozenset(),
                     interacted_groups=model.formula.interacted_groups if model.formula else frozenset(),
+                    categorical_terms=model.formula.main_groups if model.formula else frozenset(),
+                    interacted_columns=model.formula.interacted_columns if model.formula else frozenset(),
                     columns=model.columns,
                     auxiliary=bool(model.aux_for),
                     parent=record.parent,
