@@ -4,7 +4,7 @@ VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test test-fast check bench clean
+.PHONY: demo test test-fast check bench fuzz clean
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
@@ -27,6 +27,10 @@ test-fast: $(STAMP)
 check: $(STAMP)
 	$(BIN)/ruff check .
 	$(BIN)/mypy
+
+# The long fuzzing campaign (tests/test_fuzz.py with REGVET_FUZZ=long): at least 10,000 generated and mutated inputs.
+fuzz: $(STAMP)
+	REGVET_FUZZ=long $(BIN)/python -m pytest -q -p no:cacheprovider tests/test_fuzz.py
 
 bench: $(STAMP)
 	$(BIN)/python bench/run.py

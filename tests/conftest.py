@@ -53,6 +53,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 #: ``make test-fast`` can leave them out. ``make test`` runs everything.
 SLOW_GROUPS: dict[str, str] = {
     "test_runtime.py": "runtime",  # the analysed code runs in real child processes
+    "test_golden_text.py::test_demo_run_text_matches_the_golden_file": "runtime",
     "test_runtime_rules.py": "runtime",
     "test_demo.py::test_demo_run_gives_the_documented_findings_from_the_numbers": "runtime",
     "test_demo.py::test_demo_scripts_run": "runtime",

@@ -89,6 +89,23 @@ def test_a_scan_of_the_hostile_folder_finishes_with_notes_and_the_good_files_fin
         json.loads(proc.stdout.decode("utf-8"))
 
 
+def test_report_skips_the_same_names(hostile):
+    proc = _regvet("report", "src", "-o", "audit.html", "--no-cache", cwd=hostile)
+    assert proc.returncode == 0, proc.stderr
+    assert "regvet: skipped src/pipe.py: a named pipe (FIFO)" in proc.stderr.decode()
+    assert "ferries.py" in (hostile / "audit.html").read_text()
+
+
+@pytest.mark.runtime
+def test_run_skips_the_same_names_and_runs_the_good_file(hostile):
+    proc = _regvet("run", "src", "--format", "json", "--no-cache", "--no-baseline", cwd=hostile, timeout=180)
+    assert proc.returncode == 1, proc.stderr
+    assert "regvet: skipped src/loop_a.py: a symbolic link loop" in proc.stderr.decode()
+    findings = json.loads(proc.stdout)["findings"]
+    assert {f["path"] for f in findings} == {"src/ferries.py"}
+    assert any(f["stats"] for f in findings)
+
+
 def test_a_fifo_named_on_the_command_line_is_skipped_not_opened(hostile):
     proc = _regvet("check", "src/pipe.py", "--no-cache", cwd=hostile, timeout=30)
     assert proc.returncode == 0, proc.stderr
@@ -128,6 +145,20 @@ def test_a_file_gone_after_the_walk_is_a_finding_for_that_file(hostile, monkeypa
     report = analyze_file(target, Settings(), hostile, {}, {})
     [finding] = report.findings
     assert finding.rule == "parse-error" and "cannot read the file" in finding.message
+
+
+@pytest.mark.skipif(not Path("/proc/self/mem").exists(), reason="Linux's /proc")
+def test_a_regular_file_whose_read_fails_is_a_finding_even_for_root(tmp_path):
+    """/proc/self/mem is a regular file that any process, root too, fails to read at offset 0 (EIO)."""
+    (tmp_path / ".git").mkdir()
+    (tmp_path / "ferries.py").write_text(FIT)
+    os.symlink("/proc/self/mem", tmp_path / "memory.py")
+    proc = _regvet("check", ".", "--format", "json", "--no-cache", cwd=tmp_path)
+    assert proc.returncode == 1, proc.stderr
+    findings = json.loads(proc.stdout)["findings"]
+    [err] = [f for f in findings if f["path"] == "memory.py"]
+    assert err["rule"] == "parse-error" and "cannot read the file: Input/output error" in err["message"]
+    assert any(f["path"] == "ferries.py" and f["rule"] != "parse-error" for f in findings)
 
 
 @pytest.mark.skipif(hasattr(os, "geteuid") and os.geteuid() == 0, reason="root reads a file of mode 000")
@@ -221,6 +252,24 @@ def test_github_and_report_outputs_do_not_break_on_the_name(raw_named):
         assert "harb\ufffdour.py" in text
 
 
+def test_the_baseline_keeps_a_non_utf8_name_and_matches_it_again(raw_named):
+    proc = _regvet("baseline", ".", cwd=raw_named)
+    assert proc.returncode == 0, proc.stderr
+    text = (raw_named / "regvet-baseline.json").read_bytes().decode("utf-8")  # valid UTF-8
+    assert '"harb\\udce9our.py"' in text  # the name's byte as a JSON escape: it reads back exactly
+    proc = _regvet("check", ".", "--no-cache", cwd=raw_named)
+    assert proc.returncode == 0, (proc.stdout, proc.stderr)
+    assert b"1 known finding not shown" in proc.stdout
+
+
+@pytest.mark.runtime
+def test_a_run_of_a_file_with_a_non_utf8_name(raw_named):
+    proc = _regvet("run", ".", "--format", "json", "--no-baseline", cwd=raw_named, timeout=180)
+    assert proc.returncode == 1, proc.stderr
+    [f] = json.loads(proc.stdout.decode("utf-8"))["findings"]
+    assert f["path_uri"] == "harb%E9our.py" and f["stats"]["fits"][0]["statistics"]["nobs"] == 6
+
+
 def test_the_safe_text_helpers():
     name = os.fsdecode(RAW_NAME)
     assert printable(name) == "harb\\xe9our.py"
@@ -282,3 +331,19 @@ def test_the_pre_commit_hook_skips_a_fifo_it_is_handed(hostile, monkeypatch, cap
     assert code == 1  # the staged script's finding
     assert "regvet: skipped src/pipe.py: a named pipe (FIFO)" in err
     assert "regvet: skipped src/loop_a.py: a symbolic link loop" in err
+
+
+@pytest.mark.parametrize("fmt", ["text", "github", "json", "sarif"])
+def test_an_ascii_locale_does_not_break_any_format(tmp_path, fmt):
+    (tmp_path / ".git").mkdir()
+    (tmp_path / "Ålesund.py").write_text(FIT)
+    proc = subprocess.run(
+        [sys.executable, "-m", "regvet", "check", ".", "--format", fmt, "--no-cache"], cwd=tmp_path,
+        capture_output=True, timeout=60, env={**os.environ, "PYTHONIOENCODING": "ascii"},
+    )  # fmt: skip
+    assert proc.returncode == 1, proc.stderr
+    if fmt in ("json", "sarif"):  # UTF-8 by definition, whatever the locale
+        json.loads(proc.stdout.decode("utf-8"))
+        assert ("Ålesund.py" if fmt == "json" else "%C3%85lesund.py") in proc.stdout.decode("utf-8")
+    else:  # the terminal's encoding, with what it lacks escaped
+        assert proc.stdout.isascii() and b"\\xc5lesund.py" in proc.stdout

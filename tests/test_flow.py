@@ -151,7 +151,7 @@ CONTAINERS = [
     """, VAR),
     case("comprehension-of-fits-unchecked", """
         formulas = ["riders ~ fare", "riders ~ fare + fuel_price"]
-        fits = [smf.ols(f, data=crossings).fit() for f in formulas]  # expect: no-variance-test, no-variance-test
+        fits = [smf.ols(f, data=crossings).fit() for f in formulas]  # expect: no-variance-test
         for res in fits:
             print(res.pvalues)
     """, VAR),
@@ -294,7 +294,7 @@ FUNCTIONS = [
 
 
         formulas = ("riders ~ fare", "riders ~ fare + fuel_price")
-        fits = [fit_riders(f) for f in formulas]  # expect: no-form-test, no-form-test
+        fits = [fit_riders(f) for f in formulas]  # expect: no-form-test
         print([r.params for r in fits])
     """, FORM),
     case("fit-function-in-loop-checked", """
@@ -585,7 +585,7 @@ MODULE_CASES = [
         from helpers import check_variance
         from pkg.mod import fit_all
 
-        fits = fit_all(["riders ~ fare", "riders ~ fare + wind_speed"], crossings)  # expect: no-form-test, no-form-test
+        fits = fit_all(["riders ~ fare", "riders ~ fare + wind_speed"], crossings)  # expect: no-form-test
         for name, res in fits.items():
             check_variance(res)
             print(name, res.summary())

@@ -206,3 +206,36 @@ def test_a_large_sigkilled_run_is_put_down_to_the_out_of_memory_killer():
     assert killed_by(RunResult(signal=signal.SIGSEGV, peak_mb=80.0)) == (
         "the process was ended by signal 11 (SIGSEGV) with a peak of 80 MB resident before the end"
     )
+    assert "near the `run_memory_mb` limit of 1000 MB" in killed_by(RunResult(signal=signal.SIGABRT, peak_mb=700.0), 1000)
+    assert "near" not in killed_by(RunResult(signal=signal.SIGABRT, peak_mb=100.0), 1000)
+    assert "memory" not in killed_by(RunResult(signal=signal.SIGTERM, self_signal=signal.SIGTERM, peak_mb=900.0), 1000)
+
+
+@pytest.mark.parametrize("pidfd", [True, False], ids=["pidfd", "waitid-polling"])
+def test_waiting_leaves_the_child_unreaped_until_its_group_is_ended(monkeypatch, pidfd):
+    """Both ways of waiting (pidfd on Linux 5.3+, else polling waitid with WNOWAIT) see the exit without
+    reaping: the child is a zombie, its group id still taken, until _end_group kills the group and reaps."""
+    import subprocess
+
+    from regvet.runtime.runner import _end_group, _exited
+
+    if not pidfd:
+        monkeypatch.delattr(os, "pidfd_open", raising=False)
+    elif not hasattr(os, "pidfd_open"):
+        pytest.skip("no pidfd_open here")
+    code = f"import subprocess, sys; p = subprocess.Popen({SLEEPER}); print(p.pid, flush=True)"
+    proc = subprocess.Popen([sys.executable, "-c", code], stdout=subprocess.PIPE, start_new_session=True)
+    assert proc.stdout is not None
+    left = int(proc.stdout.readline())
+    try:
+        assert not _exited(proc, 0.05) or _state(proc.pid) == "Z"
+        assert _exited(proc, 30)
+        assert _state(proc.pid) == "Z"  # exited, not reaped
+        assert _alive(left)  # the sleeper it left is still running, in the same group
+        assert os.getpgid(left) == proc.pid
+        _end_group(proc)
+        assert proc.returncode == 0 and _state(proc.pid) is None
+        assert _gone_soon(left)
+    finally:
+        _reap([left])
+        proc.stdout.close()

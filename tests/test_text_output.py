@@ -85,3 +85,20 @@ def test_notebook_places_count_cells_from_one_and_json_keeps_the_index(run_cli, 
     assert (first["cell"], first["line"], first["column"]) == (3, 10, 14)  # 0-based cell index for programs
     nb = json.loads((FIXTURES / "demo" / "04_timetable_change.ipynb").read_text())
     assert "pooled_hc3" in "".join(nb["cells"][3]["source"])  # the fourth cell on screen
+
+
+def test_a_finding_away_from_its_fit_shows_its_own_place_under_the_header():
+    from dataclasses import replace
+
+    from regvet.engine import analyze
+    from regvet.model.settings import Settings
+    from regvet.model.span import Span
+    from regvet.output.text import render
+
+    report = analyze(TWO_FITS, "two.py", Settings())
+    moved = [f.with_(span=Span(7, 0, 7, 17)) if f.rule == "no-variance-test" else f for f in report.findings]
+    out = render([replace(report, findings=tuple(moved))]).splitlines()
+    start = out.index("two.py:5:6: m1 (riders ~ fare)")
+    under = [line for line in out[start + 1 :] if not line.startswith("    ")][:2]
+    assert under[0].startswith("  warning no-form-test: ")  # at the fit's own place: no place repeated
+    assert under[1].startswith("  7:1: warning no-variance-test: ")  # elsewhere: its line and column first

@@ -27,6 +27,8 @@ from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RuleInput
+from regvet.rules.base import one_per_site
+from regvet.sources.imports import suggested_spellings
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
 from regvet.sources.python import SourceError, parse
 from regvet.sources.waivers import Waiver, find_waivers
@@ -212,7 +214,8 @@ def _analyze_python(
             raise
         facts = FileFacts()
         crashes.append(Crash("analysis", _describe(exc)))
-    inp = RuleInput(facts, settings, waivers, cell_map=cell_map)
+    spellings = suggested_spellings(tree) if facts.fits else ()
+    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, spellings=spellings)
     return replace(_finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count), python=python)
 
 
@@ -249,7 +252,7 @@ def _finish(
         if not settings.enabled(rule.id):
             continue
         try:
-            findings.extend(rule.check(inp))
+            findings.extend(one_per_site(inp, rule.check(inp)))
         except Exception as exc:
             if strict:
                 raise

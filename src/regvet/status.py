@@ -15,7 +15,7 @@ from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, rules_for_family
-from regvet.rules.base import RuleInput
+from regvet.rules.base import RuleInput, site_labels, specification
 from regvet.rules.no_break_test import break_question
 
 #: The check families the hover shows, by label (the rules that report each one missing say so
@@ -83,7 +83,7 @@ def _finding_for(report: FileReport, family: str, fit: Fit) -> Finding | None:
     rules = {r.id for r in rules_for_family(family)}
     site = _span(report, fit.site.span)
     for f in report.findings:
-        if f.rule in rules and f.span == site:
+        if f.rule in rules and f.span == site and (not f.fits or fit.id in f.fits):
             return f
     return None
 
@@ -121,9 +121,27 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
     if run is not None:
         families.append(run)
     name = f"`{fit.result_name}`" if fit.result_name else "this fit"
-    what = f"formula `{fit.formula}`" if fit.formula else f"{fit.api} API"
+    spec = specification(fit)
+    what = f"formula `{fit.formula}`" if fit.formula else f"{fit.api} API" + (f", {spec}" if spec else "")
     cov = fit.cov_type or "covariance not a literal"
     return FitStatus(fit, _span(report, fit.site.span), f"{name} ({fit.estimator}, {what}, {cov})", tuple(families))
+
+
+def hover_markdown(report: FileReport, fits: list[Fit], limit: int = 4) -> list[str]:
+    """The hover's parts for the fits at a position: each fit's status; when one line makes several
+    fits (a loop or comprehension), first a line naming how many and their specifications."""
+    parts = []
+    facts = report.facts
+    roots: dict[int, Fit] = {}
+    for f in fits:
+        if facts is not None and fits and f.site == fits[0].site:
+            roots.setdefault(facts.root(f.id), f)
+    if len(roots) > 1:
+        specs = site_labels(list(roots.values()))
+        more = f" and {len(specs) - limit} more" if len(specs) > limit else ""
+        parts.append(f"**regvet** · {len(roots)} fits from this line: {', '.join(specs[:limit])}{more}")
+    parts.extend(fit_status(report, f).markdown() for f in fits[:limit])
+    return parts
 
 
 def _run_line(report: FileReport, fit: Fit) -> FamilyStatus | None:

@@ -17,7 +17,16 @@ from regvet import __version__
 from regvet.baseline import BASELINE_NAME, BaselineError
 from regvet.cli.baseline import run_baseline
 from regvet.cli.check import run_check
-from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, EXIT_USAGE, EXTRA_EXCLUDE, UsageError, collect_files
+from regvet.cli.common import (
+    EXIT_FAILED,
+    EXIT_FINDINGS,
+    EXIT_OK,
+    EXIT_USAGE,
+    EXTRA_EXCLUDE,
+    UsageError,
+    collect_files,
+    tolerant_streams,
+)
 from regvet.cli.info import _serve
 from regvet.cli.mend import run_mend
 from regvet.cli.report import run_report
@@ -68,8 +77,8 @@ def _parser() -> argparse.ArgumentParser:
 def _check_options(c: argparse.ArgumentParser, run_verb: bool) -> None:
     """The options of ``check``, and of ``run`` (``run_verb``: the same without ``--run``, which it implies)."""
     c.add_argument("paths", nargs="*", default=["."], metavar="PATH",
-                   help="files or folders (default: .); `-` reads one script from standard input"
-                   + (" (not with --run)" if not run_verb else " (check only)"))  # fmt: skip
+                   help="files or folders (default: .)" + ("" if run_verb else
+                   "; `-` reads one script from standard input (not with --run)"))  # fmt: skip
     c.add_argument("--format", choices=["text", "lines", "json", "sarif", "github"], default="text",
                    help="text: each fit's findings under one header line, wrapped to the terminal (default); "
                    "lines: one `path:line:col:` line per finding, for tools; json; sarif (2.1.0); "
@@ -211,6 +220,7 @@ def main(argv: Sequence[str] | None = None) -> int:
             sys.stderr.write("regvet: the command comes first, then its options and paths, as in `regvet check "
                              f"--format json fixtures/demo`; this was read as `regvet {' '.join(args_list)}`\n")
         return EXIT_USAGE
+    tolerant_streams()
     if args.command == "rules":
         sys.stdout.write(render_rules())
         return EXIT_OK

@@ -8,8 +8,8 @@ import shutil
 import sys
 from pathlib import Path
 
-from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, UsageError
-from regvet.cli.scanning import STDIN, Scan, scan
+from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, UsageError, emit
+from regvet.cli.scanning import STDIN, Progress, Scan, scan
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
 from regvet.project import display_path
@@ -23,7 +23,7 @@ def run_check(args: argparse.Namespace) -> int:
     for flag, on in (("--quiet", args.quiet), ("--show-waived", args.show_waived), ("--counts", args.counts)):
         if on and not text:
             raise UsageError(f"{flag} shapes the text and lines formats, not --format {args.format}")
-    result = scan(args)
+    result = scan(args, Progress() if getattr(args, "run", False) else None)
     reports = result.reports
     note = ""
     if not result.files:
@@ -37,8 +37,9 @@ def run_check(args: argparse.Namespace) -> int:
     colour = args.color == "always" or (args.color == "auto" and sys.stdout.isatty() and not os.environ.get("NO_COLOR"))
     from regvet.output import renderer
 
-    sys.stdout.write(renderer(args.format)(reports, colour=colour, width=text_width(), quiet=args.quiet,
-                                           show_waived=args.show_waived, counts=args.counts))  # fmt: skip
+    emit(renderer(args.format)(reports, colour=colour, width=text_width(), quiet=args.quiet,
+                               show_waived=args.show_waived, counts=args.counts),
+         utf8=args.format in ("json", "sarif"))  # fmt: skip
     if note:
         (sys.stdout if text else sys.stderr).write(note)
     if result.failed:

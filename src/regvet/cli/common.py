@@ -22,6 +22,30 @@ class UsageError(Exception):
     pass
 
 
+def tolerant_streams() -> None:
+    """Standard output and error never fail on a character their encoding lacks (an ASCII or Latin-1
+    locale): it is written as a backslash escape instead."""
+    for stream in (sys.stdout, sys.stderr):
+        reconfigure = getattr(stream, "reconfigure", None)
+        if reconfigure is not None:
+            try:
+                reconfigure(errors="backslashreplace")
+            except (ValueError, OSError):  # a closed or unusual stream: leave it as it is
+                pass
+
+
+def emit(text: str, *, utf8: bool = False) -> None:
+    """Write ``text`` to standard output; with ``utf8`` (JSON, SARIF: UTF-8 by definition) as UTF-8 bytes
+    whatever the locale's encoding."""
+    buffer = getattr(sys.stdout, "buffer", None)
+    if not utf8 or buffer is None:
+        sys.stdout.write(text)
+        return
+    sys.stdout.flush()
+    buffer.write(text.encode("utf-8"))
+    buffer.flush()
+
+
 def _rule_list(text: str | None, flag: str) -> frozenset[str]:
     if not text:
         return frozenset()

@@ -42,10 +42,11 @@ class Progress:
     """One line on standard error while fits run (file k of n, the fit just computed, time so far);
     nothing at all when standard error is not a terminal."""
 
-    def __init__(self, stream=None) -> None:
+    def __init__(self, stream=None, delay: float = 0.0) -> None:
         self.stream = stream if stream is not None else sys.stderr
         self.enabled = bool(getattr(self.stream, "isatty", lambda: False)())
         self.start = time.monotonic()
+        self.delay = delay  # the reading of files is shown only once it has taken this long
         self.head = ""
         self.shown = False
 
@@ -59,8 +60,20 @@ class Progress:
         self.head = f"regvet: running file {k} of {n}, {path.name}"
         self._show(f"{self.head} ({time.monotonic() - self.start:.0f} s)")
 
-    def finished(self, k: int, n: int, path: Path) -> None:
-        self._show(f"regvet: ran {k} of {n} files, last {path.name} ({time.monotonic() - self.start:.0f} s)")
+    def finished(self, k: int, n: int, path: Path, cached: bool = False) -> None:
+        last = f"{path.name}, cached" if cached else path.name
+        self._show(f"regvet: ran {k} of {n} files, last {last} ({time.monotonic() - self.start:.0f} s)")
+
+    def ran(self, k: int, n: int, path: Path, cached: bool) -> None:
+        """After a file's run: say so when its statistics came from the run cache."""
+        if cached:
+            self._show(f"regvet: file {k} of {n}, {path.name}: cached ({time.monotonic() - self.start:.0f} s)")
+
+    def analysed(self, k: int, n: int, path: Path) -> None:
+        """Reading and analysing files (no run): shown once it has taken ``delay`` seconds."""
+        elapsed = time.monotonic() - self.start
+        if elapsed >= self.delay:
+            self._show(f"regvet: read {k} of {n} files, last {path.name} ({elapsed:.0f} s)")
 
     def fit_for(self, report: FileReport):
         """A callback for the runner: one call per fit the run records."""
@@ -113,7 +126,8 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     jobs = getattr(args, "jobs", None) or default_jobs()
     facts = None if no_cache else FactCache()
     tasks = [(file, finder.for_path(file), project_root(file.resolve(), roots, default_root)) for file in files]
-    reports = _analyze_all(tasks, facts, jobs)
+    reading = progress if progress is not None else Progress(delay=2.0)
+    reports = _analyze_all(tasks, facts, jobs, reading)
     if stdin:
         file = Path(STDIN)
         settings = finder.for_path(Path.cwd() / STDIN_NAME)
@@ -134,13 +148,15 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
             if progress is not None:
                 progress.file(k, len(files), file)
             report = _run_file(file, report, settings, cache, progress, plot_points)
+            if progress is not None:
+                progress.ran(k, len(files), file, _was_cached(report))
         for crash in report.crashes:
             out.failed = True
             where = "the analysis" if crash.where == "analysis" else f"rule {crash.where}"
             sys.stderr.write(printable(f"{report.path}: regvet failed in {where}: {crash.message}\n"))
         out.files.append((file, report))
-    if progress is not None:
-        progress.done()
+    for shown in {id(p): p for p in (reading, progress) if p is not None}.values():
+        shown.done()
     return out
 
 
@@ -168,8 +184,14 @@ def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,
             i = futures[future]
             out[i] = future.result()
             if progress is not None:
-                progress.finished(done, len(tasks), tasks[i][0])
+                progress.finished(done, len(tasks), tasks[i][0], _was_cached(out[i]))
     return out
+
+
+def _was_cached(report: FileReport) -> bool:
+    """Did the report's run statistics come from the run cache?"""
+    runtime = report.rule_input.runtime if report.rule_input is not None else None
+    return bool(runtime is not None and runtime.cached)
 
 
 def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,
@@ -212,8 +234,10 @@ def _worker_lost(task: Task, why: str) -> FileReport:
     return FileReport(display_path(task[0]), crashes=(Crash("analysis", why),))
 
 
-def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[FileReport]:
-    """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes."""
+def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int,
+                 progress: Progress | None = None) -> list[FileReport]:  # fmt: skip
+    """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes
+    (``progress`` counts the files read)."""
     reports: list[FileReport | None] = [None] * len(tasks)
     texts: dict[Path, str | None] = {}
     found: dict = {}
@@ -222,7 +246,14 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
             reports[i] = _cached(file, settings, root, texts, cache, found)
     todo = [i for i, r in enumerate(reports) if r is None]
     folder = str(cache.folder) if cache is not None else None
-    done = map_ordered(FileAnalyzer, (folder,), [tasks[i] for i in todo], jobs, _worker_lost)
+    finished = [len(tasks) - len(todo)]
+
+    def on_done(index: int) -> None:
+        finished[0] += 1
+        if progress is not None:
+            progress.analysed(finished[0], len(tasks), tasks[todo[index]][0])
+
+    done = map_ordered(FileAnalyzer, (folder,), [tasks[i] for i in todo], jobs, _worker_lost, on_done)
     for i, report in zip(todo, done, strict=False):
         reports[i] = report
     return [r for r in reports if r is not None]

@@ -21,7 +21,7 @@ from regvet.edits.comments import add_waiver
 from regvet.edits.rewrite import insert_after_statement, set_cov_type
 from regvet.edits.text import EditError
 from regvet.model.span import Span
-from regvet.sources.imports import spelling
+from regvet.sources.imports import DIAGNOSTIC_MODULES, spelling
 
 ROBUST_COVARIANCE = "robust-covariance"
 INSERT_RESET = "insert-reset"
@@ -30,8 +30,6 @@ WAIVER = "waiver"
 #: The kinds that change code (everything but a waiver), in the order ``regvet mend`` knows them.
 CODE_KINDS = (ROBUST_COVARIANCE, INSERT_RESET, INSERT_BREUSCH_PAGAN)
 
-#: Public modules each inserted function can be imported from (the first is the one an added import uses).
-DIAGNOSTIC_MODULES = ("statsmodels.stats.diagnostic", "statsmodels.stats.api")
 
 
 @dataclass(frozen=True)

@@ -157,7 +157,7 @@ def render_block(path: str, block: _Block, width: int, paint: _Paint) -> list[st
     if summary:
         lines += [paint(line, _DIM) for line in _wrap(f"{_INDENT}run: ", summary, _INDENT * 3, width)]
     for f in block.findings:
-        lead = _INDENT if f.span == block.span or _same_start(f.span, block.span) else f"{_INDENT}{place(f.span)}: "
+        lead = _INDENT if _same_start(f.span, block.span) else f"{_INDENT}{place(f.span)}: "
         lines += _finding_lines(f, lead, _INDENT * 3, width, paint)
     return lines
 
@@ -197,10 +197,13 @@ def rule_counts(counted: list[list[Finding]]) -> list[str]:
                                      sorted(tally.items(), key=lambda kv: (-kv[1], kv[0]))]  # fmt: skip
 
 
-def tail(reports: list[FileReport], counts: bool) -> list[str]:
-    """What ends every text and lines output: the per-rule counts (``--counts``), then the summary line."""
+def tail(reports: list[FileReport], counts: bool, width: int | None = None) -> list[str]:
+    """What ends every text and lines output: the per-rule counts (``--counts``), then the summary line
+    (wrapped at ``width`` when given)."""
     counted = [[f for f in r.findings if not f.waived] for r in reports]
-    return [*(rule_counts(counted) if counts else []), summary_line(reports, counted)]
+    summary = summary_line(reports, counted)
+    wrapped = _wrap("", summary, _INDENT * 2, width) if width is not None else [summary]
+    return [*(rule_counts(counted) if counts else []), *wrapped]
 
 
 def render(reports: list[FileReport], *, colour: bool = False, width: int = DEFAULT_WIDTH, quiet: bool = False,
@@ -216,4 +219,4 @@ def render(reports: list[FileReport], *, colour: bool = False, width: int = DEFA
                 lines += render_block(report.path, block, width, paint)
     if lines:
         lines.append("")
-    return printable("\n".join([*lines, *tail(reports, counts)]) + "\n")
+    return printable("\n".join([*lines, *tail(reports, counts, width)]) + "\n")

@@ -42,6 +42,16 @@ class RuleInput:
     runtime: RuntimeFacts | None = None  # only in runtime mode
     #: Ids of every rule in the catalogue (the engine fills it in), so waivers can name unknown ones.
     known_rules: frozenset[str] = frozenset()
+    #: How the file already calls the diagnostics findings suggest (``sources.imports.suggested_spellings``).
+    spellings: tuple[tuple[str, str], ...] = ()
+
+    def call(self, name: str) -> str:
+        """How suggested code calls ``name`` in this file: its import alias (``lr``, ``sms.linear_reset``)
+        when the file has imported it, else the plain name."""
+        for known, spelt in self.spellings:
+            if known == name:
+                return spelt
+        return name
 
     def where(self, loc: Loc) -> str:
         """A location as a message names it: ``line 12``, ``cell 3, line 2`` or ``helpers.py, line 8``."""
@@ -147,8 +157,113 @@ def once_per_root(inp: RuleInput, judge: Callable[[RuleInput, Fit], Finding | No
             yield found
 
 
+def specification(fit: Fit) -> str | None:
+    """A fit's specification as a message lists it: its formula, else its outcome on its regressors."""
+    if fit.formula:
+        return f"`{fit.formula}`"
+    if fit.outcome is not None and fit.regressors:
+        return f"`{fit.outcome.text}` on `{' + '.join(fit.regressors)}`"
+    return None
+
+
+def site_labels(fits: Sequence[Fit]) -> list[str]:
+    """How a message tells apart the fits of one site: each by its specification when that is known
+    and no other fit there has the same one, else by its number there (with the specification)."""
+    specs = [specification(f) for f in fits]
+    out = []
+    for i, spec in enumerate(specs, start=1):
+        if spec is not None and specs.count(spec) == 1:
+            out.append(spec)
+        else:
+            out.append(f"fit {i}" + (f" ({spec})" if spec else ""))
+    return out
+
+
+def _listed(names: Sequence[str], limit: int = 4) -> str:
+    shown = ", ".join(names[:limit])
+    return shown + (f" and {len(names) - limit} more" if len(names) > limit else "")
+
+
+def site_fits(inp: RuleInput, fit: Fit) -> list[Fit]:
+    """The judged fits made at ``fit``'s site (a loop, a comprehension or a helper called in one makes
+    several), one per root fit, in the order they are made."""
+    if fit.site.path is not None:
+        return [fit]
+    out: dict[int, Fit] = {}
+    for other in inp.judged_fits():
+        if other.site == fit.site:
+            out.setdefault(inp.facts.root(other.id), other)
+    return sorted(out.values(), key=lambda f: f.id) or [fit]
+
+
+def one_per_site(inp: RuleInput, findings: Iterable[Finding]) -> list[Finding]:
+    """One finding per rule and site: the findings a rule gives for several fits made at one call site
+    (a loop or comprehension over specifications) become one, whose message names how many fits the
+    site makes, lists their specifications when known and, when only some of them are flagged, which.
+    Its ``fits`` and ``related`` keep every fit it is about. Findings not placed on their one fit's
+    site are kept as they are. The engine applies it to every rule's findings."""
+    out: list[Finding] = []
+    groups: dict[tuple[str, Span], list[Finding]] = {}
+    for f in findings:
+        if len(f.fits) == 1:
+            try:
+                fit: Fit | None = inp.facts.fit(f.fits[0])
+            except KeyError:
+                fit = None
+            if fit is not None and fit.site.path is None and fit.site.span == f.span:
+                group = groups.setdefault((f.rule, f.span), [])
+                if not group:
+                    out.append(f)  # placeholder, replaced below
+                group.append(f)
+                continue
+        out.append(f)
+    merged: dict[int, Finding] = {}
+    for group in groups.values():
+        first = group[0]
+        fits = site_fits(inp, inp.facts.fit(first.fits[0]))
+        if len(fits) > 1:
+            merged[id(first)] = _merge(inp, group, fits)
+    return [merged.get(id(f), f) for f in out]
+
+
+def _merge(inp: RuleInput, group: list[Finding], fits: list[Fit]) -> Finding:
+    flagged_ids: list[int] = []
+    for f in group:
+        if f.fits[0] not in flagged_ids:
+            flagged_ids.append(f.fits[0])
+    flagged_roots = {inp.facts.root(fid) for fid in flagged_ids}
+    specs = site_labels(fits)
+    n = len(fits)
+    known = any(specification(f) for f in fits)
+    head = f"{n} fits from this line: {_listed(specs)}." if known else f"{n} fits from this line."
+    hit = [s for fit, s in zip(fits, specs, strict=True) if inp.facts.root(fit.id) in flagged_roots]
+    miss = [s for fit, s in zip(fits, specs, strict=True) if inp.facts.root(fit.id) not in flagged_roots]
+    if not miss:
+        lead = "For both: " if n == 2 else f"For all {n}: "
+    else:
+        lead = f"Only for {len(hit)} of them, {_listed(hit)} (not {_listed(miss)}): "
+    first = min(group, key=lambda f: f.fits[0])
+    subject = inp.facts.fit(first.fits[0])
+    body = first.message
+    if not subject.result_name and subject.formula:
+        body = body.replace(describe_fit(subject), "the fit", 1)
+    rel: list[Related] = []
+    for i, (fit, spec) in enumerate(zip(fits, specs, strict=True), start=1):
+        state = "" if inp.facts.root(fit.id) in flagged_roots else "; not flagged"
+        rel.append(Related(fit.site.span, f"fit {i} of {n} from this line: {spec}{state}", fit.site.path))
+    for f in group:
+        rel.extend(r for r in f.related if r not in rel)
+    message = f"{head} {lead}{body[:1].lower()}{body[1:]}"
+    return first.with_(message=message, related=tuple(rel), fits=tuple(flagged_ids))
+
+
 def related(loc: Loc, message: str) -> Related:
     return Related(loc.span, message, loc.path)
+
+
+def code_name(fit: Fit) -> str:
+    """The fit's variable in suggested code (``res`` when the result has no simple name)."""
+    return fit.result_name if fit.result_name and fit.result_name.isidentifier() else "res"
 
 
 def describe_fit(fit: Fit) -> str:

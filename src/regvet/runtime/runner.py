@@ -113,7 +113,7 @@ class RunCache:
     def key(path: Path, content: bytes, python: str, options: dict[str, Any]) -> str:
         h = hashlib.sha256()
         for part in (str(path.resolve()), python, probe_version(), json.dumps(options, sort_keys=True)):
-            h.update(part.encode())
+            h.update(part.encode("utf-8", "surrogatepass"))  # a file name need not be UTF-8
             h.update(b"\0")
         h.update(content)
         return h.hexdigest()
@@ -281,11 +281,12 @@ def _exited(proc: subprocess.Popen, timeout: float) -> bool:
         except OSError:
             fd = -1
         if fd >= 0:
-            try:
-                ready, _, _ = select.select([fd], [], [], max(timeout, 0.0))
+            try:  # poll, not select: a server with many open files may hand out a descriptor above 1023
+                poller = select.poll()
+                poller.register(fd, select.POLLIN)
+                return bool(poller.poll(max(timeout, 0.0) * 1000))
             finally:
                 os.close(fd)
-            return bool(ready)
     waitid = getattr(os, "waitid", None)
     if waitid is None:  # pragma: no cover - Windows: no process groups to end either
         try:

@@ -152,7 +152,7 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
         if result.timed_out:
             return RunFailure(f"it ran for more than {timeout:g} s (`run_timeout`) and was stopped", tuple(result.output_tail))
         if result.signal is not None:
-            return RunFailure(killed_by(result), tuple(result.output_tail))
+            return RunFailure(killed_by(result, memory_mb), tuple(result.output_tail))
         return RunFailure(f"the process ended without reporting (exit status {result.returncode})",
                           tuple(result.output_tail))  # fmt: skip
     status = end.get("status")
@@ -187,12 +187,19 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
 OOM_SHARE = 0.25
 
 
-def killed_by(result: RunResult) -> str:
+#: A resident peak from this share of the address-space limit on counts as near it (resident memory
+#: is always below the address space; a rule of thumb of ours).
+NEAR_LIMIT = 0.5
+
+
+def killed_by(result: RunResult, memory_mb: int | None = None) -> str:
     """Why a run that a signal ended did not finish, by the signal and the evidence of memory use.
 
     An address-space limit (``run_memory_mb``) never kills: it makes allocations fail, which the probe
-    reports as running out of memory. A SIGKILL comes from outside: the system's out-of-memory killer
-    (then the process was large), someone else, or the script itself (the probe saw it send it)."""
+    reports as running out of memory, though a native library may abort (SIGABRT, SIGSEGV) when an
+    allocation is refused: said when the resident peak came near the limit. A SIGKILL comes from
+    outside: the system's out-of-memory killer (then the process was large), someone else, or the
+    script itself (the probe saw it send it)."""
     import signal as signals
 
     sig = result.signal
@@ -213,7 +220,11 @@ def killed_by(result: RunResult) -> str:
             return (f"the process was killed (signal 9, SIGKILL) from outside{used}, far from the {ceiling:.0f} MB "
                     "this machine can give: not for memory, as far as regvet can tell")
         return "the process was killed (signal 9, SIGKILL) from outside; regvet cannot tell whether it was for memory"
-    return f"the process was ended by signal {sig} ({name}){used} before the end"
+    text = f"the process was ended by signal {sig} ({name}){used} before the end"
+    if memory_mb and peak is not None and peak >= NEAR_LIMIT * memory_mb:
+        text += (f"; that is near the `run_memory_mb` limit of {memory_mb} MB, where a native library may abort "
+                 "when an allocation is refused")
+    return text
 
 
 def run_and_judge(

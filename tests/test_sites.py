@@ -1,0 +1,174 @@
+"""One finding per place: a loop or comprehension that makes several fits at one call site gets one
+finding per rule at that site, naming how many fits the site makes, their specifications and, when
+only some of them are flagged, which. JSON keeps every fit in ``related``; the hover lists them.
+
+Each case is a small ferry-ridership script (invented names); ``# expect: RULE`` markers give where
+the findings are (one per rule and site), and each row says, per marked rule, which specifications
+the site makes and which of them are flagged.
+"""
+
+from __future__ import annotations
+
+import json
+import textwrap
+
+import pytest
+
+from conftest import expected_markers, found
+from regvet.engine import analyze
+from regvet.model.settings import Settings
+from regvet.status import fits_at, hover_markdown
+
+VAR = "no-variance-test"
+FORM = "no-form-test"
+
+_HEAD = """\
+import pandas as pd
+import statsmodels.api as sm
+import statsmodels.formula.api as smf
+from statsmodels.stats.diagnostic import het_breuschpagan, linear_reset
+
+ferries = pd.read_csv("ferries.csv")
+"""
+
+SPREAD = ["`riders ~ fare`", "`riders ~ temp`", "`riders ~ wind`"]
+THREE = ["`riders ~ fare`", "`riders ~ fare + temp`", "`riders ~ fare + temp + wind`"]
+
+
+def _script(body: str) -> str:
+    return _HEAD + textwrap.dedent(body).strip("\n") + "\n"
+
+
+# (id, body, {rule: (every specification at the site, the flagged ones)})
+CASES = [
+    ("loop-over-three-formulas", """
+        for formula in ["riders ~ fare", "riders ~ fare + temp", "riders ~ fare + temp + wind"]:
+            res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test, no-variance-test
+            print(res.summary())
+    """, {FORM: (THREE, THREE), VAR: (THREE, THREE)}),
+    ("comprehension-one-checked", """
+        fits = [smf.ols(f, data=ferries).fit() for f in ["riders ~ fare", "riders ~ temp", "riders ~ wind"]]  # expect: no-form-test, no-variance-test
+        print(het_breuschpagan(fits[1].resid, fits[1].model.exog))
+        for r in fits:
+            print(r.pvalues)
+    """, {VAR: (SPREAD, ["`riders ~ fare`", "`riders ~ wind`"]), FORM: (SPREAD, SPREAD)}),
+    ("comprehension-only-one-unchecked", """
+        fits = [smf.ols(f, data=ferries).fit() for f in ["riders ~ fare", "riders ~ temp"]]  # expect: no-form-test
+        print(linear_reset(fits[0], power=3, use_f=True))
+        for r in fits:
+            print(r.params)
+    """, {FORM: (["`riders ~ fare`", "`riders ~ temp`"], ["`riders ~ temp`"])}),
+    ("helper-called-in-a-loop", """
+        def fit_one(cols):
+            return sm.OLS(ferries["riders"], sm.add_constant(ferries[cols])).fit()
+
+        for cols in (["fare"], ["fare", "temp"]):
+            print(fit_one(cols).summary())  # expect: no-form-test, no-variance-test
+    """, {r: (["`riders` on `fare`", "`riders` on `fare + temp`"],) * 2 for r in (VAR, FORM)}),
+    ("same-formula-on-two-harbours", """
+        def fit_port(frame):
+            return smf.ols("riders ~ fare", data=frame).fit()
+
+        for name in ["north.csv", "south.csv"]:
+            print(fit_port(pd.read_csv(name)).summary())  # expect: no-form-test, no-variance-test
+    """, {r: (["fit 1 (`riders ~ fare`)", "fit 2 (`riders ~ fare`)"],) * 2 for r in (VAR, FORM)}),
+    ("loop-all-checked", """
+        for formula in ["riders ~ fare", "riders ~ fare + temp"]:
+            res = smf.ols(formula, data=ferries).fit()
+            print(het_breuschpagan(res.resid, res.model.exog), linear_reset(res, power=3, use_f=True))
+            print(res.summary())
+    """, {}),
+    ("two-lines-two-findings", """
+        small = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-form-test, no-variance-test
+        large = smf.ols("riders ~ fare + temp", data=ferries).fit()  # expect: no-form-test, no-variance-test
+        print(small.summary(), large.summary())
+    """, {}),
+]
+
+
+
+@pytest.mark.parametrize("body, sites", [pytest.param(b, s, id=i) for i, b, s in CASES])
+def test_one_finding_per_site(body, sites):
+    code = _script(body)
+    report = analyze(code, "ferries.py", Settings())
+    got = [f for f in found(report) if f[1] in (VAR, FORM)]
+    assert got == [m for m in expected_markers(code) if m[1] in (VAR, FORM)]
+    for f in report.findings:
+        if f.rule not in (VAR, FORM):
+            continue
+        if f.rule not in sites:  # a site with one fit: the message is the fit's own
+            assert "fits from this line" not in f.message
+            assert len(f.fits) == 1
+            continue
+        every, flagged = sites[f.rule]
+        assert f.message.startswith(f"{len(every)} fits from this line: {', '.join(every)}.")
+        if flagged == every:
+            assert ("For both:" if len(every) == 2 else f"For all {len(every)}:") in f.message
+        else:
+            rest = [s for s in every if s not in flagged]
+            assert f"Only for {len(flagged)} of them, {', '.join(flagged)} (not {', '.join(rest)})" in f.message
+        assert len(f.fits) == len(flagged)
+        listed = [r.message for r in f.related if "from this line" in r.message]
+        assert len(listed) == len(every)
+        for i, spec in enumerate(every, start=1):
+            state = "" if spec in flagged else "; not flagged"
+            assert listed[i - 1] == f"fit {i} of {len(every)} from this line: {spec}{state}"
+
+
+def test_single_fit_message_unchanged():
+    code = _script("""
+        res = smf.ols("riders ~ fare", data=ferries).fit()
+        print(res.summary())
+    """)
+    (finding,) = [f for f in analyze(code, "ferries.py").findings if f.rule == VAR]
+    assert finding.message.startswith("`res` reports inference")
+
+
+def test_json_keeps_every_fit_in_related(tmp_path, run_cli):
+    path = tmp_path / "ferries.py"
+    path.write_text(_script(CASES[0][1]))
+    code, out, _ = run_cli("check", "--format", "json", "--only", VAR, str(path))
+    assert code == 1
+    (finding,) = json.loads(out)["findings"]
+    listed = [r["message"] for r in finding["related"] if "from this line" in r["message"]]
+    assert listed == [f"fit {i} of 3 from this line: {s}" for i, s in enumerate(THREE, start=1)]
+    assert finding["line"] == 8
+
+
+def test_hover_lists_the_fits_of_the_site():
+    code = _script(CASES[1][1])
+    report = analyze(code, "ferries.py")
+    parts = hover_markdown(report, fits_at(report, 7, 12))
+    assert parts[0] == "**regvet** · 3 fits from this line: `riders ~ fare`, `riders ~ temp`, `riders ~ wind`"
+    assert len(parts) == 4
+    # the checked fit is done for variance; the others are missing
+    assert "variance: **done**" in parts[2] and "variance: **missing**" in parts[1] and "variance: **missing**" in parts[3]
+
+
+def _notebook(*cells: str) -> str:
+    return json.dumps({
+        "nbformat": 4, "nbformat_minor": 5, "metadata": {},
+        "cells": [{"cell_type": "code", "metadata": {}, "execution_count": None, "outputs": [],
+                   "source": textwrap.dedent(c).strip("\n")} for c in cells],
+    })  # fmt: skip
+
+
+def test_notebook_loop_gives_one_finding_in_its_cell():
+    nb = _notebook(
+        _HEAD,
+        """
+        formulas = ["riders ~ fare", "riders ~ fare + temp", "riders ~ fare + temp + wind"]
+        """,
+        """
+        for formula in formulas:
+            res = smf.ols(formula, data=ferries).fit()
+            if formula != "riders ~ fare":
+                print(res.summary())
+        """,
+    )
+    report = analyze(nb, "ferries.ipynb", Settings())
+    (finding,) = [f for f in report.findings if f.rule == VAR]
+    assert finding.span.cell == 2 and finding.span.line == 2
+    assert finding.message.startswith(f"3 fits from this line: {', '.join(THREE)}.")
+    # the related fits are placed in the cell too
+    assert all(r.span.cell == 2 for r in finding.related if "from this line" in r.message)
