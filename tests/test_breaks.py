@@ -221,3 +221,157 @@ def test_fixed_effects_key_reaches_the_rule(tmp_path, run_cli):
     (tmp_path / "regvet.toml").write_text('fixed_effects = ["harbour", "year"]\n')
     code, out, _ = run_cli("check", "--only", BREAK, str(script))
     assert code == 0 and BREAK not in out, out
+
+
+# --- formulas built from literal pieces, and patsy designs ----------------------------------------
+_BUILT_HEAD = _HEAD + "import patsy\n"
+
+
+def built(row_id: str, code: str, formula: str | None, base: str | None, groups: set[str], fires: bool):
+    return pytest.param(textwrap.dedent(code).strip("\n") + "\n", formula, base, frozenset(groups), fires, id=row_id)
+
+
+#: (code after _BUILT_HEAD, the formula read (None: not read), the outcome's base, shift groups, rule fires)
+BUILT = [
+    built("concatenation", """
+        res = smf.ols("tons ~ cranes + " + "C(berth)", data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
+    built("concatenation-of-names", """
+        outcome = "tons"
+        rhs = "cranes + rain + C(berth)"
+        formula = outcome + " ~ " + rhs
+        res = smf.ols(formula, data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
+    built("augmented-assignment", """
+        formula = "tons ~ cranes"
+        formula += " + C(berth)"
+        res = smf.ols(formula, data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
+    built("join-of-a-list-name", """
+        regressors = ["cranes", "rain", "C(berth)"]
+        res = smf.ols("tons ~ " + " + ".join(regressors), data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
+    built("join-inside-interaction", """
+        slopes = ("cranes", "rain")
+        res = smf.ols("tons ~ C(berth) * (" + " + ".join(slopes) + ")", data=freight).fit()
+        print(res.params)
+    """, "tons ~ C(berth) * (cranes + rain)", "tons", set(), False),
+    built("format-positional", """
+        res = smf.ols("{} ~ {} + C(berth)".format("tons", "cranes"), data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
+    built("format-numbered-and-keywords", """
+        group = "berth"
+        res = smf.ols("{0} ~ {x} + C({g})".format("tons", x="cranes", g=group), data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
+    built("f-string-of-names", """
+        y, x, g = "tons", "cranes + rain", "berth"
+        res = smf.ols(f"{y} ~ {x} + C({g})", data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
+    built("f-string-with-a-number", """
+        power = 2
+        res = smf.ols(f"tons ~ cranes + I(cranes**{power}) + C(berth)", data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + I(cranes**2) + C(berth)", "tons", {"berth"}, True),
+    built("percent-format", """
+        res = smf.ols("%s ~ cranes + C(%s)" % ("tons", "berth"), data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
+    built("built-two-way-fixed-effects", """
+        effects = ["C(harbour)", "C(year)"]
+        res = smf.ols("tons ~ cranes + " + " + ".join(effects), data=freight).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(harbour) + C(year)", "tons", {"harbour", "year"}, False),
+    built("dmatrices", """
+        y, X = patsy.dmatrices("tons ~ cranes + C(berth)", freight)
+        res = sm.OLS(y, X).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
+    built("dmatrices-dataframe-from-import", """
+        from patsy import dmatrices
+
+        y, X = dmatrices("tons ~ cranes + rain + C(berth)", data=freight, return_type="dataframe")
+        res = sm.OLS(y, X).fit()
+        print(res.summary())
+    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
+    built("dmatrices-of-a-built-formula", """
+        outcome = "tons"
+        y, X = patsy.dmatrices(f"{outcome} ~ cranes + C(berth)", freight, return_type="dataframe")
+        res = sm.OLS(y, X).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
+    built("dmatrices-fixed-effects", """
+        y, X = patsy.dmatrices("tons ~ cranes + C(harbour) + C(year)", freight)
+        res = sm.OLS(y, X).fit()
+        print(res.params)
+    """, "tons ~ cranes + C(harbour) + C(year)", "tons", {"harbour", "year"}, False),
+    # --- not every piece a literal: not read as a formula (the fixed start still names the outcome)
+    built("piece-from-input", """
+        extra = input()
+        res = smf.ols("tons ~ cranes + " + extra, data=freight).fit()
+        print(res.params)
+    """, None, "tons", set(), False),
+    built("join-of-data-columns", """
+        res = smf.ols("tons ~ " + " + ".join(freight.columns[1:]), data=freight).fit()
+        print(res.params)
+    """, None, "tons", set(), False),
+    built("format-with-a-spec", """
+        res = smf.ols("tons ~ cranes + C(berth) + {:>8}".format("rain"), data=freight).fit()
+        print(res.params)
+    """, None, "tons", set(), False),
+    built("f-string-of-a-call", """
+        res = smf.ols(f"tons ~ {input()} + C(berth)", data=freight).fit()
+        print(res.params)
+    """, None, "tons", set(), False),
+    built("dmatrices-of-an-unknown-formula", """
+        y, X = patsy.dmatrices(input(), freight)
+        res = sm.OLS(y, X).fit()
+        print(res.params)
+    """, None, None, set(), False),
+    built("ols-on-another-design", """
+        y, X = patsy.dmatrices("tons ~ cranes + C(berth)", freight)
+        _, Z = patsy.dmatrices("crew ~ rain", freight)
+        res = sm.OLS(y, Z).fit()
+        print(res.params)
+    """, None, None, set(), False),
+]
+
+
+def _one_fit(report):
+    fits = [f for f in report.facts.fits if f.site.path is None and not f.auxiliary]
+    assert len(fits) == 1, fits
+    return fits[0]
+
+
+def _check_built(report, formula, base, groups, fires):
+    fit = _one_fit(report)
+    assert fit.formula == formula
+    assert (fit.outcome.base if fit.outcome else None) == base
+    assert fit.shift_groups == groups
+    assert bool(_messages(report)) == fires
+
+
+@pytest.mark.parametrize("code, formula, base, groups, fires", BUILT)
+def test_built_formula_in_a_script(code, formula, base, groups, fires):
+    _check_built(analyze(_BUILT_HEAD + code, "freight.py", Settings(), strict=True), formula, base, groups, fires)
+
+
+@pytest.mark.parametrize("code, formula, base, groups, fires", BUILT)
+def test_built_formula_in_a_notebook(code, formula, base, groups, fires):
+    report = analyze(_notebook(_BUILT_HEAD, code), "freight.ipynb", Settings(), strict=True)
+    _check_built(report, formula, base, groups, fires)
+
+
+def test_built_formula_across_notebook_cells():
+    nb = _notebook(_BUILT_HEAD + 'outcome = "tons"\nslopes = ["cranes", "rain"]\n',
+                   'res = smf.ols(f"{outcome} ~ " + " + ".join(slopes) + " + C(berth)", data=freight).fit()\n'
+                   "print(res.params)\n")  # fmt: skip
+    report = analyze(nb, "freight.ipynb", Settings(), strict=True)
+    assert _one_fit(report).formula == "tons ~ cranes + rain + C(berth)"
+    assert found(report, BREAK) == [(1, BREAK)]
