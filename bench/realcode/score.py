@@ -157,6 +157,8 @@ def main(argv: list[str] | None = None) -> int:
     timed = sum(1 for s in scored if s.get("time_ordered"))
     commit = subprocess.run(["git", "-C", str(ROOT), "rev-parse", "--short", "HEAD"], capture_output=True,
                             text=True, check=False).stdout.strip()
+    dirty = subprocess.run(["git", "-C", str(ROOT), "diff", "--quiet", "HEAD", "--", "src"], check=False).returncode
+    commit += "+uncommitted src changes" if dirty else ""
     report = {"date": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%MZ"), "regvet_commit": commit,
               "files": len(present), "sites": sites, "time_ordered_sites": timed, "missing_files": missing, **result}
     print(f"{len(present)} files, {sites} labelled fit sites ({timed} on time-ordered data), regvet at {commit}")
