@@ -54,7 +54,7 @@ def test_a_test_in_a_later_cell_covers_an_earlier_fit():
 def test_waivers_in_notebook_cells():
     nb = notebook(
         ("code", "import statsmodels.api as sm"),
-        ("code", "# regvet: waive no-form-test, no-variance-test -- exploratory cell, not reported\nres = sm.OLS(y, X).fit()\nres.summary()"),
+        ("code", "# regvet: waive no-form-test, no-variance-test because exploratory cell, not reported\nres = sm.OLS(y, X).fit()\nres.summary()"),
     )
     report = analyze(nb, "nb.ipynb", strict=True)
     assert report.findings and all(f.waived for f in report.findings)
