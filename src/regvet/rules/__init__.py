@@ -10,6 +10,7 @@ from regvet.rules import (
     form_rejected,
     hc_small_sample,
     heteroskedastic_plain_se,
+    incomplete_analysis,
     mismatched_diagnostic,
     no_break_test,
     no_form_test,
@@ -36,6 +37,7 @@ ALL_RULES: tuple[Rule, ...] = (
     waiver_without_reason.RULE,
     waiver_unknown_rule.RULE,
     parse_error.RULE,
+    incomplete_analysis.RULE,
     # from a run's statistics (regvet check --run)
     heteroskedastic_plain_se.RULE,
     form_rejected.RULE,
