@@ -113,7 +113,7 @@ def test_the_budget_comes_from_the_settings(tmp_path, run_cli):
     (tmp_path / "regvet.toml").write_text("analysis_budget = 0.000001\n")
     code, out, _ = run_cli("check", "--format", "json", "--no-cache", str(tmp_path))
     by_file = {}
-    for f in json.loads(out)["findings"] if isinstance(json.loads(out), dict) else json.loads(out):
+    for f in json.loads(out)["findings"]:
         by_file.setdefault(f["path"].rsplit("/", 1)[-1], set()).add(f["rule"])
     assert by_file["long.py"] == {"incomplete-analysis"}
     assert "no-form-test" in by_file["small.py"]  # under 256 statements: analysed before the clock is read
@@ -154,3 +154,16 @@ def test_a_failure_outside_the_guarded_stages_is_a_finding(monkeypatch):
     report = analyze("{}", "n.ipynb")
     assert [c.where for c in report.crashes] == ["analysis"]
     assert [f.rule for f in report.findings] == ["incomplete-analysis"]
+
+
+def test_the_cli_reports_a_failure_as_a_finding_and_exits_3(tmp_path, run_cli, monkeypatch):
+    monkeypatch.setattr(engine, "ALL_RULES", (*ALL_RULES, BROKEN))
+    (tmp_path / "one.py").write_text(_script(1))
+    (tmp_path / "two.py").write_text(_script(2))
+    code, out, err = run_cli("check", "--format", "json", "--no-cache", "--jobs", "1", str(tmp_path))
+    findings = json.loads(out)["findings"]
+    failed = [f for f in findings if f["rule"] == "incomplete-analysis"]
+    assert sorted(f["path"].rsplit("/", 1)[-1] for f in failed) == ["one.py", "two.py"]
+    assert {f["rule"] for f in findings} > {"incomplete-analysis"}  # every file's other findings are kept
+    assert "regvet failed in rule broken-rule" in err
+    assert code == 3

@@ -191,7 +191,7 @@ def analyze(
         except Exception as exc:  # a bug in regvet outside the guarded stages: the file still gets its report
             if strict:
                 raise
-            return _failed(path, settings, Crash("analysis", _describe(exc)))
+            return failure_report(path, Crash("analysis", _describe(exc)), settings)
 
 
 def _analyze(
@@ -243,11 +243,12 @@ def analyze_cells(
         except Exception as exc:
             if strict:
                 raise
-            return _failed(path, settings, Crash("analysis", _describe(exc)))
+            return failure_report(path, Crash("analysis", _describe(exc)), settings)
 
 
-def _failed(path: str, settings: Settings | None, crash: Crash) -> FileReport:
-    """The report of a file regvet failed on outside the stages that guard themselves."""
+def failure_report(path: str, crash: Crash, settings: Settings | None = None) -> FileReport:
+    """The report of a file regvet failed on outside the stages that guard themselves (or whose worker
+    process died): the crash, and its ``incomplete-analysis`` finding."""
     settings = settings or Settings()
     return _finish(path, settings, RuleInput(FileFacts(), settings), None, (crash,), False, None)
 
