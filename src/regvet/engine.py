@@ -27,13 +27,13 @@ from regvet.model.report import Crash, FileReport
 from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
-from regvet.rules import ALL_RULES, RuleInput
+from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput
 from regvet.rules.base import one_per_site
 from regvet.rules.incomplete_analysis import RULE as _INCOMPLETE
 from regvet.rules.incomplete_analysis import crash_findings
 from regvet.sources.imports import suggested_spellings
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
-from regvet.sources.python import SourceError, parse
+from regvet.sources.python import SourceError, parse, without_broken_cells
 from regvet.sources.waivers import Waiver, find_waivers
 
 #: Why the analysis stops on input nested deeper than the analyser's recursion allows.
@@ -279,7 +279,12 @@ def _analyze_python(
     if skip_unrelated and not mentions_fits(python, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
     tree = parse(python, path)
-    waivers = tuple(find_waivers(python))
+    broken: tuple[SourceError, ...] = ()
+    if isinstance(tree, SourceError) and cell_map is not None:
+        python, broken = without_broken_cells(python, cell_map.starts)
+        if broken:
+            tree = parse(python, path)
+    waivers = tuple(find_waivers(python, RULES_BY_ID))
     if isinstance(tree, SourceError):
         inp = RuleInput(FileFacts(), settings, waivers, tree, cell_map)
         return replace(_finish(path, settings, inp, cell_map, (), strict, cell_count), python=python)
@@ -303,7 +308,8 @@ def _analyze_python(
         facts = FileFacts()
         crashes.append(Crash("analysis", _describe(exc)))
     spellings = suggested_spellings(tree) if facts.fits else ()
-    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, stopped=stopped, spellings=spellings)
+    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, stopped=stopped, spellings=spellings,
+                    broken_cells=broken)  # fmt: skip
     return replace(_finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count), python=python)
 
 
@@ -424,7 +430,7 @@ def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
     fix = f.fix
     if fix is not None:
         fix = dict(fix, cell=cell_map.locate(f.span.line)[0])
-        for key in ("fit_call", "statement"):
+        for key in ("fit_call", "statement", "waiver"):
             if key in fix:
                 s = cell_map.span(Span(*fix[key]))
                 fix[key] = [s.line, s.col, s.end_line, s.end_col]

@@ -43,6 +43,8 @@ class Formula:
     #: The right-hand side expands to more than MAX_TERMS terms: ``terms`` is empty, and the
     #: groups are the ones the formula names, all counted as interacted.
     too_large: bool = False
+    main_groups: frozenset[str] = frozenset()  # C(g) factors that are a term of their own (interacted or not)
+    interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
 
     @property
     def n_regressors(self) -> int:
@@ -314,11 +316,14 @@ def parse_formula(text: str) -> Formula | None:
     real = tuple(sorted(tuple(sorted(t)) for t in terms if t))
     shift: set[str] = set()
     inter: set[str] = set()
+    inter_columns: set[str] = set()
     for t in real:
         for f in t:
             g = _group_of(f)
             if g:
                 (inter if len(t) > 1 else shift).add(g)
+            if len(t) > 1:
+                inter_columns |= _identifiers(f)
     if too_large:
         inter = {g for g in (_group_of(tok) for tok in tokens) if g}
     variables = _identifiers(rhs) | (_identifiers(lhs) if lhs else set())
@@ -333,4 +338,6 @@ def parse_formula(text: str) -> Formula | None:
         interacted_groups=frozenset(inter),
         lagged=lagged,
         too_large=too_large,
+        main_groups=frozenset(shift),
+        interacted_columns=frozenset(inter_columns),
     )

@@ -81,7 +81,8 @@ class Frame:
     ctx: tuple[Loc, ...]  # the call sites that led here, outermost first
     func: FunctionRecord | None = None
     returns: Value = EMPTY
-    declared_global: set[str] = field(default_factory=set)
+    declared_global: set[str] = field(default_factory=set)  # names a ``global`` statement declares
+    declared_nonlocal: set[str] = field(default_factory=set)  # names a ``nonlocal`` statement declares
     cls_attrs: dict[str, Value] | None = None  # attributes of ``self`` shared by a class's methods
 
     @property
@@ -225,6 +226,9 @@ class CollectorState:
                         frame: Frame) -> None: ...  # fmt: skip
         def helper_families(self, qualname: str) -> tuple[str, ...] | None: ...
         def compare_measures(self, values: list[Value], node: Node, frame: Frame, how: str) -> bool: ...
+        # built
+        def string_operation(self, op: ast.operator, left: Value, right: Value) -> Value | None: ...
+        def design_matrices(self, args: list[Value], kwargs: dict[str, Value]) -> Value: ...
 
 
 def _code_point_column(lines: list[str], line: int, byte_col: int) -> int:

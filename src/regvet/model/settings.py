@@ -33,7 +33,7 @@ class Option:
     """One configuration key: its TOML type, default and a one-line description."""
 
     name: str
-    kind: str  # "float", "rules", "severity-map", "globs", "strings", "helpers"
+    kind: str  # "float", "rules", "severity-map", "globs", "strings", "columns", "helpers", ...
     default: object
     doc: str
 
@@ -45,6 +45,7 @@ class Option:
             "severity-map": 'a table of rule id = "error", "warning" or "info"',
             "globs": "a list of glob patterns",
             "strings": "a list of strings",
+            "columns": "a list of column names",
             "helpers": "a table of dotted function name = list of check families",
             "string": "a string",
             "int": "a positive whole number",
@@ -66,6 +67,12 @@ OPTIONS: tuple[Option, ...] = (
         "strings",
         (),
         "Columns (or pandas query expressions) where a structural break is suspected.",
+    ),
+    Option(
+        "fixed_effects",
+        "columns",
+        (),
+        "Categorical columns that are fixed effects (unit, period): their `C(...)` terms need no break test.",
     ),
     Option(
         "diagnostic_helpers",
@@ -106,6 +113,7 @@ class Settings:
     severity: tuple[tuple[str, str], ...] = ()
     exclude: tuple[str, ...] = ()
     break_candidates: tuple[str, ...] = ()
+    fixed_effects: tuple[str, ...] = ()
     diagnostic_helpers: tuple[tuple[str, tuple[str, ...]], ...] = ()
     analysis_budget: float = 20.0
     python: str = ""

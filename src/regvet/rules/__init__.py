@@ -21,6 +21,7 @@ from regvet.rules import (
     r2_unadjusted_compare,
     run_failed,
     serial_correlation_plain_se,
+    waiver_unknown_rule,
     waiver_without_reason,
 )
 from regvet.rules.base import QuickFix, Rule, RuleInput
@@ -34,6 +35,7 @@ ALL_RULES: tuple[Rule, ...] = (
     no_serial_test.RULE,
     no_break_test.RULE,
     waiver_without_reason.RULE,
+    waiver_unknown_rule.RULE,
     parse_error.RULE,
     incomplete_analysis.RULE,
     # from a run's statistics (regvet check --run)

@@ -47,6 +47,8 @@ class RuleInput:
     stopped: tuple[str, ...] = ()
     #: How the file already calls the diagnostics findings suggest (``sources.imports.suggested_spellings``).
     spellings: tuple[tuple[str, str], ...] = ()
+    #: Notebook cells that do not parse on their own (their code was left out of the analysis).
+    broken_cells: tuple[SourceError, ...] = ()
 
     def call(self, name: str) -> str:
         """How suggested code calls ``name`` in this file: its import alias (``lr``, ``sms.linear_reset``)
