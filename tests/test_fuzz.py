@@ -456,7 +456,7 @@ def test_regression_fixture(path):
 @pytest.mark.skipif(not LONG, reason="the long fuzzing campaign: make fuzz")
 @pytest.mark.parametrize("how", MUTATIONS)
 def test_sweep_every_mutation_over_every_seed(how):
-    """Each mutation at 20 places of every seed: about 20 x 50 x 21 = 21,000 deterministic cases."""
+    """Each mutation at 20 places of every seed: 21 mutations x 45 seeds x 20 = 18,900 deterministic cases."""
     for k, seed in enumerate(SEEDS):
         for place in range(20):
             check_bytes(mutate(seed, random.Random(k * 1_000 + place), how))
