@@ -214,7 +214,8 @@ def mutate(data: bytes, rnd: random.Random, how: str) -> bytes:
     if how == "huge-line":
         size = rnd.choice([10_000, 100_000, 400_000])
         line = rnd.choice([b"x = '" + b"a" * size + b"'\n", b"#" + b"z" * size + b"\n", b"x = " + b"1+" * (size // 2) + b"1\n",
-                           b"y = [" + b"0," * (size // 2) + b"]\n"])  # fmt: skip
+                           b"y = [" + b"0," * (size // 2) + b"]\n", b"x = 1  # regvet: waive no-form-test" + b" " * size + b"x\n",
+                           b"x = 1" + b" " * size + b"# spaces\n", b"\t" * size + b"\n"])  # fmt: skip
         return data[:at] + b"\n" + line + data[at:]
     if how == "deep":
         kind = rnd.choice(sorted(DEEP))
@@ -421,6 +422,7 @@ REGRESSION_FINDINGS = {
     "coding-undefined.py": "parse-error",
     "v3-worksheet-cells-not-a-list.ipynb": "parse-error",
     "shell-escapes-in-a-broken-cell.ipynb": "parse-error",
+    "waiver-with-a-run-of-spaces.py": None,  # the waiver is read (its reason malformed: a waiver-without-reason)
 }
 
 
