@@ -274,4 +274,4 @@ def test_global_fit_across_notebook_cells():
     )
     (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
     assert (finding.span.cell, finding.span.line) == (1, 3)
-    assert "`late` reports inference (`summary`, cell 3, line 1)" in finding.message
+    assert "`late` reports inference (`summary`, cell 4, line 1)" in finding.message

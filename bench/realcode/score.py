@@ -73,6 +73,8 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
     }
     static_pos = {"tp": 0, "fn": 0}
     serial_fp_untimed = 0
+    kind_of = {r["mirror"]: r.get("kind", "") for r in labels.get("repos", [])}
+    by_kind: dict[str, dict[str, int]] = defaultdict(lambda: {"tp": 0, "fp": 0, "fn": 0, "tn": 0})
     extra: dict[str, int] = {r: 0 for r in rules}
     for entry in labels["files"]:
         path = f"{entry['mirror']}/{entry['path']}"
@@ -92,6 +94,8 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
                 s = stats[rule]
                 key = ("tp" if truth else "fp") if fired else ("fn" if truth else "tn")
                 s[key] += 1
+                if rule == "no-serial-test":
+                    by_kind[kind_of.get(entry["mirror"], "")][key] += 1
                 if key == "fp" and rule == "no-serial-test" and not site.get("time_ordered"):
                     serial_fp_untimed += 1
                 if key == "fp":
@@ -114,6 +118,10 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
     stats["no-serial-test"]["recall_static_evidence"] = _ratio(static_pos["tp"], static_pos["tp"] + static_pos["fn"])
     stats["no-serial-test"]["static_evidence_positives"] = static_pos["tp"] + static_pos["fn"]
     stats["no-serial-test"]["false_positives_on_untimed_data"] = serial_fp_untimed
+    stats["no-serial-test"]["by_repository_kind"] = {
+        kind: {**c, "precision": _ratio(c["tp"], c["tp"] + c["fp"]), "recall": _ratio(c["tp"], c["tp"] + c["fn"])}
+        for kind, c in sorted(by_kind.items())
+    }
     return {"rules": stats, "unmatched": unmatched}
 
 
@@ -157,6 +165,8 @@ def main(argv: list[str] | None = None) -> int:
     timed = sum(1 for s in scored if s.get("time_ordered"))
     commit = subprocess.run(["git", "-C", str(ROOT), "rev-parse", "--short", "HEAD"], capture_output=True,
                             text=True, check=False).stdout.strip()
+    dirty = subprocess.run(["git", "-C", str(ROOT), "diff", "--quiet", "HEAD", "--", "src"], check=False).returncode
+    commit += "+uncommitted src changes" if dirty else ""
     report = {"date": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%MZ"), "regvet_commit": commit,
               "files": len(present), "sites": sites, "time_ordered_sites": timed, "missing_files": missing, **result}
     print(f"{len(present)} files, {sites} labelled fit sites ({timed} on time-ordered data), regvet at {commit}")
@@ -169,6 +179,9 @@ def main(argv: list[str] | None = None) -> int:
     print(f"no-serial-test recall over the {serial['static_evidence_positives']} positives with static evidence: "
           f"{serial['recall_static_evidence']}; false positives on data without time order: "
           f"{serial['false_positives_on_untimed_data']}")
+    for kind, c in serial["by_repository_kind"].items():
+        print(f"  no-serial-test in {kind or '?'} repositories: TP {c['tp']} FP {c['fp']} FN {c['fn']} TN {c['tn']}, "
+              f"precision {c['precision']}, recall {c['recall']}")
     args.out.parent.mkdir(parents=True, exist_ok=True)
     args.out.write_text(json.dumps(report, indent=1) + "\n", encoding="utf-8")
     print(f"written {args.out}")
