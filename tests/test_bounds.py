@@ -167,3 +167,17 @@ def test_the_cli_reports_a_failure_as_a_finding_and_exits_3(tmp_path, run_cli, m
     assert {f["rule"] for f in findings} > {"incomplete-analysis"}  # every file's other findings are kept
     assert "regvet failed in rule broken-rule" in err
     assert code == 3
+
+
+def test_a_file_stopped_at_its_budget_is_not_cached(tmp_path, run_cli, monkeypatch):
+    (tmp_path / "long.py").write_text(_script(600))
+    cache = tmp_path / "cache"
+    monkeypatch.setenv("REGVET_CACHE_DIR", str(cache))
+    (tmp_path / "regvet.toml").write_text("analysis_budget = 0.000001\n")
+    code, out, _ = run_cli("check", "--format", "json", str(tmp_path / "long.py"))
+    assert [f["rule"] for f in json.loads(out)["findings"]] == ["incomplete-analysis"]
+    assert not [p for p in cache.rglob("*") if p.is_file()]  # nothing stored: the next run tries again
+    (tmp_path / "regvet.toml").write_text("analysis_budget = 60\n")
+    code, out, _ = run_cli("check", "--format", "json", str(tmp_path / "long.py"))
+    assert "no-form-test" in {f["rule"] for f in json.loads(out)["findings"]}
+    assert [p for p in cache.rglob("*") if p.is_file()]  # an analysis that finished is cached

@@ -290,12 +290,14 @@ def _analyze_python(
         return replace(_finish(path, settings, inp, cell_map, (), strict, cell_count), python=python)
     crashes: list[Crash] = []
     stopped: tuple[str, ...] = ()
+    over_budget = False
     try:
         collector = _BudgetedCollector(provider, settings.helper_families(), module_key, _parse_module, module_cache)
         collector.deadline = started + budget
         facts = collector.run(tree, python)
     except OverBudget:
         facts = FileFacts()
+        over_budget = True
         stopped = (f"it took longer than its time budget of {budget:g} s (`analysis_budget`)",)
     except (RecursionError, MemoryError) as exc:  # input deeper or larger than the analyser can follow
         if strict:
@@ -310,7 +312,8 @@ def _analyze_python(
     spellings = suggested_spellings(tree) if facts.fits else ()
     inp = RuleInput(facts, settings, waivers, cell_map=cell_map, stopped=stopped, spellings=spellings,
                     broken_cells=broken)  # fmt: skip
-    return replace(_finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count), python=python)
+    report = _finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count)
+    return replace(report, python=python, over_budget=over_budget)
 
 
 class _BudgetedCollector(Collector):
