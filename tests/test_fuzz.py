@@ -34,7 +34,8 @@ from hypothesis import strategies as st
 
 from conftest import FIXTURES
 from regvet.analysis.formula import parse_formula
-from regvet.engine import analyze, error_report
+from regvet.analysis.providers import NoModules
+from regvet.engine import analyze, error_report, mentions_fits
 from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES
@@ -77,7 +78,15 @@ def analyse_bytes(data: bytes, path: str) -> tuple[FileReport, str | None]:
         if isinstance(decoded, SourceError):
             return error_report(path, decoded), None
         text = decoded
+    _precheck(text)
     return analyze(text, path, skip_unrelated=False), text
+
+
+def _precheck(text: str) -> None:
+    """The cheap pre-check the CLI runs first (analysed above without it, so that the whole analysis runs)."""
+    started = time.perf_counter()
+    mentions_fits(text, NoModules())
+    assert time.perf_counter() - started < 2.0, "the pre-check took seconds"
 
 
 def assert_contract(report: FileReport, text: str | None, started: float) -> None:
@@ -97,6 +106,7 @@ def assert_contract(report: FileReport, text: str | None, started: float) -> Non
 
 def check_text(text: str, path: str = "fuzzed.py") -> FileReport:
     started = time.perf_counter()
+    _precheck(text)
     report = analyze(text, path, skip_unrelated=False)
     assert_contract(report, text, started)
     return report
