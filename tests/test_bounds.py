@@ -207,3 +207,16 @@ def test_the_import_precheck_is_linear():
     started = time.perf_counter()
     assert mentions_fits(text, Modules())
     assert time.perf_counter() - started < 2.0
+
+
+def test_deep_fan_out_of_calls_ends_at_the_budget():
+    """Each function calls the next three times (issue 12: seconds to minutes on a few KB); the budget bounds it."""
+    code = HEAD + "def f30(d):\n    return smf.ols('riders ~ fare', data=d).fit()\n"
+    for i in range(29, -1, -1):
+        code += f"def f{i}(d):\n    a = [f{i + 1}(d), f{i + 1}(d[0])][0]\n    c = f{i + 1}(a)\n    return a\n"
+    code += "res = f0(df)\nprint(res.summary())\n"
+    started = time.perf_counter()
+    report = analyze(code, "fan.py", budget=2.0)
+    assert time.perf_counter() - started < 10.0
+    assert report.crashes == ()
+    assert report.over_budget == ("incomplete-analysis" in {f.rule for f in report.findings})
