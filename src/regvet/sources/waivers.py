@@ -20,10 +20,10 @@ from dataclasses import dataclass
 from regvet.model.span import Span
 
 _DIRECTIVE = re.compile(r"#\s*regvet\s*:\s*(?P<kind>waive-file|waive)\b(?P<rest>.*)$")
-_BECAUSE = re.compile(r"(?:^|\s)because(?:\s|$)")
+_BECAUSE = re.compile(r"(?:^|\s)because(?=\s|:|$):?")
 #: Separators of other habits, between the rules and a reason: `` -- reason``, ``RULE: reason``.
 # No `\s*` around it: searched over a comment of many spaces, that backtracked quadratically.
-_OTHER_SEPARATOR = re.compile(r"--+|:|—|–")
+_OTHER_SEPARATOR = re.compile(r"--+|:|—|–|(?<=\s)-(?=\s)")
 #: The word that introduces the reason.
 BECAUSE = "because"
 
