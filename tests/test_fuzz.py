@@ -11,7 +11,8 @@ deleted, duplicated and swapped, truncation at a random byte, random bytes, NUL,
 lone CR, tabs, bytes that are not UTF-8, coding cookies, huge lines, deep nesting, comments only),
 formulas from a small grammar (powers, long products, nested parentheses), and notebooks built
 as structures (nbformat 3 and 4, missing and mistyped keys, sources as strings and lists, odd
-cell types, binary outputs, many cells, magics).
+cell types, binary outputs, many cells, magics), and code cells handed over as an editor syncs them
+(``analyze_cells``).
 
 Profiles (``REGVET_FUZZ``): ``quick`` (the default, a few hundred cases in all, part of
 ``make test``) and ``long`` (``make fuzz``: at least 10,000 cases; the ``fuzz``-marked sweeps
@@ -35,7 +36,7 @@ from hypothesis import strategies as st
 from conftest import FIXTURES
 from regvet.analysis.formula import parse_formula
 from regvet.analysis.providers import NoModules
-from regvet.engine import analyze, error_report, mentions_fits
+from regvet.engine import analyze, analyze_cells, error_report, mentions_fits
 from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES
@@ -412,6 +413,19 @@ def test_structured_notebooks(text):
         for f in report.findings:
             if f.rule != "parse-error":
                 assert f.span.cell is not None and 0 <= f.span.cell < report.cell_count
+
+
+@cases(quick=40, long=1000)
+@given(st.lists(st.lists(st.sampled_from(CELL_SOURCES), max_size=4).map("".join), max_size=12), st.integers(0, 5))
+def test_cells_as_an_editor_syncs_them(sources, extra):
+    """``analyze_cells``, the language server's way in: code cells with their indices, among other cells."""
+    code_cells = [(2 * i, src) for i, src in enumerate(sources)]
+    count = 2 * len(sources) + extra
+    started = time.perf_counter()
+    report = analyze_cells(code_cells, count, "synced.ipynb")
+    assert_contract(report, "".join(sources), started)
+    for f in report.findings:
+        assert f.span.cell in {i for i, _ in code_cells}, f
 
 
 @cases(quick=40, long=1000)
