@@ -102,6 +102,18 @@ ROWS = [
         res = smf.ols("tons ~ cranes + C(harbour) + C(post_dredging)", data=freight).fit()  # expect: no-break-test
         print(res.params)
     """, _POST),
+    row("one-way-anova-has-no-slope", """
+        res = smf.ols("tons ~ C(berth)", data=freight).fit()
+        print(res.summary())
+    """),
+    row("factorial-cell-means-have-no-slope", """
+        res = smf.ols("tons ~ C(berth) + C(berth):C(crew)", data=freight).fit()
+        print(res.summary())
+    """),
+    row("ancova-has-a-slope", """
+        res = smf.ols("tons ~ C(berth) + cranes", data=freight).fit()  # expect: no-break-test
+        print(res.summary())
+    """, wording="`C(berth)`"),
     # --- calendar seasonals: still asked, about seasonal slopes
     row("month-seasonal", """
         res = smf.ols("tons ~ cranes + rain + C(month)", data=freight).fit()  # expect: no-break-test
@@ -195,7 +207,7 @@ def test_hover_says_fixed_effects_need_no_break_test():
     report = analyze(source, "freight.py", Settings(), strict=True)
     (fit,) = report.facts.fits
     breaks = next(s for s in fit_status(report, fit).families if s.family == "breaks")
-    assert (breaks.state, breaks.detail) == ("not needed", "fixed effects, not a break question")
+    assert (breaks.state, breaks.detail) == ("not needed", "fixed effects or no slope, not a break question")
 
 
 # --- the fixed_effects key ------------------------------------------------------------------

@@ -580,6 +580,7 @@ class RegressionSemantics(CollectorState):
                     interacted_groups=model.formula.interacted_groups if model.formula else frozenset(),
                     categorical_terms=model.formula.main_groups if model.formula else frozenset(),
                     interacted_columns=model.formula.interacted_columns if model.formula else frozenset(),
+                    slopes=model.formula.slopes if model.formula else True,
                     columns=model.columns,
                     auxiliary=bool(model.aux_for),
                     parent=record.parent,

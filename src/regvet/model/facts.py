@@ -66,6 +66,7 @@ class Fit:
     time_where: Loc | None = None  # where the evidence of time order is, when known
     categorical_terms: frozenset[str] = frozenset()  # C(g) factors that are a term of their own
     interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
+    slopes: bool = True  # the formula has a term without a C(...) factor (or is not a formula regvet read)
 
 
 @dataclass(frozen=True)

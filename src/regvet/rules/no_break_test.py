@@ -61,10 +61,18 @@ def fixed_effects(fit: Fit, fixed: tuple[str, ...], candidates: tuple[str, ...])
     return len(terms) >= 2 or bool(terms & set(fixed))
 
 
+def _group_shifts(fit: Fit, fixed: tuple[str, ...], candidates: tuple[str, ...]) -> frozenset[str]:
+    """The intercept-only groups that ask a break question: not fixed effects, and with a slope to differ
+    (``y ~ C(dose)`` alone is a one-way ANOVA: it has no slope)."""
+    if not fit.slopes or fixed_effects(fit, fixed, candidates):
+        return frozenset()
+    return fit.shift_groups
+
+
 def break_question(fit: Fit, candidates: tuple[str, ...], fixed: tuple[str, ...]) -> bool:
     """Does the fit's specification ask for a break test at all (intercept-only groups that are not fixed
     effects, or a configured break candidate it uses without interacting it)?"""
-    if fit.shift_groups and not fixed_effects(fit, fixed, candidates):
+    if _group_shifts(fit, fixed, candidates):
         return True
     return any(_candidate_open(fit, c) for c in _candidate_columns(candidates))
 
@@ -85,8 +93,7 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     # Every intercept-only group that is not a fixed effect, and every configured candidate the fit
     # uses without interacting it, needs its own test.
     candidates = _candidate_columns(inp.settings.break_candidates)
-    fixed = fixed_effects(fit, inp.settings.fixed_effects, inp.settings.break_candidates)
-    groups = set() if fixed else set(fit.shift_groups)
+    groups = _group_shifts(fit, inp.settings.fixed_effects, inp.settings.break_candidates)
     shift = {g for g in groups if not _group_tested(inp, fit, {g})}
     named = {c: e for c, e in candidates.items() if _candidate_open(fit, c) and not _group_tested(inp, fit, {c})}
     if not shift and not named:
@@ -135,8 +142,8 @@ RULE = Rule(
         "unrestricted one.\n\n"
         "Fixed effects are not a break question: a formula with two categorical terms or more (a unit and a "
         "period, `C(harbour) + C(year)`), or a categorical named in the config's `fixed_effects`, is not "
-        "flagged. Calendar seasonals (`C(month)`, `C(quarter)`, `C(season)`) alone still are, worded as a "
-        "question about seasonal slopes. A formula built from literal pieces (concatenation, `.format`, "
+        "flagged, nor is a formula with no slope at all (`y ~ C(dose)`, a one-way ANOVA). Calendar seasonals "
+        "(`C(month)`, `C(quarter)`, `C(season)`) alone still are, worded as a question about seasonal slopes. A formula built from literal pieces (concatenation, `.format`, "
         "f-strings, `\" + \".join(...)`) or a design from `patsy.dmatrices` is read like a literal one.\n\n"
         "Satisfied by: a Chow test (subsample fits combined in an F statistic from their SSRs), an F test of "
         "the interactions with the group (`anova_lm`, `compare_f_test`, or `f_test` on the interacted model), "
