@@ -410,14 +410,45 @@ def test_mutated_notebooks(data):
 
 
 # --- regressions: every crasher found is kept -------------------------------------------------
+#: Each file of tests/data/fuzz/ (its README says what it broke) and the one finding it now gives.
+REGRESSION_FINDINGS = {
+    "huge-power.py": None,  # read: two terms and their interaction
+    "sum-to-the-fiftieth.py": "incomplete-analysis",
+    "twenty-factor-product.py": "incomplete-analysis",
+    "exponent-digits.py": None,
+    "dots-after-from.py": "parse-error",  # and skipped by the pre-check (no statsmodels), in milliseconds
+    "deep-attribute-chain.py": "incomplete-analysis",
+    "coding-undefined.py": "parse-error",
+    "v3-worksheet-cells-not-a-list.ipynb": "parse-error",
+    "shell-escapes-in-a-broken-cell.ipynb": "parse-error",
+}
+
+
 def _regressions() -> list[Path]:
     return sorted(p for p in REGRESSIONS.glob("*") if p.suffix in (".py", ".ipynb"))
 
 
+def test_every_regression_fixture_has_its_expected_finding():
+    assert sorted(p.name for p in _regressions()) == sorted(REGRESSION_FINDINGS)
+
+
 @pytest.mark.parametrize("path", _regressions(), ids=lambda p: p.name)
 def test_regression_fixture(path):
-    """Each input that once broke the contract (see ``tests/data/fuzz/README.md``) keeps it now."""
-    check_bytes(path.read_bytes(), path.name)
+    """Each input that once broke the contract keeps it now, and gives the finding listed for it."""
+    data = path.read_bytes()
+    report = check_bytes(data, path.name)
+    rules = {f.rule for f in report.findings}
+    expected = REGRESSION_FINDINGS[path.name]
+    for rule in ("parse-error", "incomplete-analysis"):
+        assert (rule in rules) == (rule == expected), (rule, rules)
+    text = data.decode("utf-8", errors="replace")
+    for literal in {m for m in text.split('"') if "~" in m}:  # the formula reader alone, on every formula
+        started = time.perf_counter()
+        parse_formula(literal)
+        assert time.perf_counter() - started < 1.0
+    started = time.perf_counter()
+    plain = analyze(text, path.name)  # with the pre-check, as the CLI runs it
+    assert plain.crashes == () and time.perf_counter() - started < CASE_SECONDS
 
 
 # --- the long campaign only ------------------------------------------------------------------

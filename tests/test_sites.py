@@ -172,3 +172,106 @@ def test_notebook_loop_gives_one_finding_in_its_cell():
     assert finding.message.startswith(f"3 fits from this line: {', '.join(THREE)}.")
     # the related fits are placed in the cell too
     assert all(r.span.cell == 2 for r in finding.related if "from this line" in r.message)
+
+
+# --- a fit bound to a `global` (or `nonlocal`) name inside a function ------------------------------
+# (id, body): the ``# expect`` markers are the findings of the two rules; none means neither fires.
+GLOBALS = [
+    ("global-used-after-the-call", """
+        def fit_riders():
+            global late
+            late = smf.ols("riders ~ temp", data=ferries).fit()  # expect: no-variance-test
+
+        fit_riders()
+        print(late.pvalues)
+    """),
+    ("global-bound-first-at-module-level", """
+        res = None
+
+        def refit(frame):
+            global res
+            res = smf.ols("riders ~ fare", data=frame).fit()  # expect: no-variance-test
+
+        refit(ferries)
+        print(res.summary().tables[1])
+    """),
+    ("global-used-inside-the-function", """
+        def refit():
+            global res
+            res = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+            print(res.bse)
+
+        refit()
+    """),
+    ("global-checked-after-the-call", """
+        def fit_riders():
+            global late
+            late = smf.ols("riders ~ temp", data=ferries).fit()
+
+        fit_riders()
+        print(het_breuschpagan(late.resid, late.model.exog))
+        print(late.pvalues)
+    """),
+    ("global-fit-never-used", """
+        def fit_riders():
+            global late
+            late = smf.ols("riders ~ temp", data=ferries).fit()
+
+        fit_riders()
+    """),
+    ("global-in-a-loop-of-calls", """
+        def fit_riders(formula):
+            global last
+            last = smf.ols(formula, data=ferries).fit()  # expect: no-variance-test
+
+        for formula in ["riders ~ fare", "riders ~ temp"]:
+            fit_riders(formula)
+            print(last.pvalues)
+    """),
+    ("nonlocal-in-a-closure", """
+        def study():
+            res = None
+
+            def refit():
+                nonlocal res
+                res = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+
+            refit()
+            print(res.pvalues)
+
+        study()
+    """),
+    ("local-of-the-same-name-is-not-the-global", """
+        late = None
+
+        def fit_riders():
+            late = smf.ols("riders ~ temp", data=ferries).fit()
+            return None
+
+        fit_riders()
+        print(late)
+    """),
+]
+
+
+@pytest.mark.parametrize("body", [pytest.param(b, id=i) for i, b in GLOBALS])
+def test_fit_bound_to_a_global_name(body):
+    code = _script(body)
+    got = [f for f in found(analyze(code, "ferries.py", Settings())) if f[1] == VAR]
+    assert got == expected_markers(code, VAR)
+
+
+def test_global_fit_across_notebook_cells():
+    nb = _notebook(
+        _HEAD,
+        """
+        def fit_riders():
+            global late
+            late = smf.ols("riders ~ temp", data=ferries).fit()
+        """,
+        "fit_riders()",
+        "late.summary()",
+    )
+    (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
+    assert (finding.span.cell, finding.span.line) == (1, 3)
+    assert "`late` reports inference (`summary`, cell 4, line 1)" in finding.message

@@ -71,7 +71,10 @@ def _has_table(path: Path) -> bool:
         text = path.read_bytes().decode("utf-8-sig")
     except (OSError, UnicodeDecodeError):
         return True
-    if "regvet" not in text and not _TOOL_ASSIGNED.search(text):
+    assigned = _TOOL_ASSIGNED.search(text)
+    if "tool.regvet" in text and not assigned:
+        return True  # the usual case, decided without parsing (this runs once per scanned file)
+    if "regvet" not in text and not assigned:
         return False
     try:
         data = tomllib.loads(text)

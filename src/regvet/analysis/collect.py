@@ -177,8 +177,10 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
             match_stmt = cast(ast.Match, stmt)
             self.evaluate(match_stmt.subject, frame)
             self.run_branches(stmt, [c.body for c in match_stmt.cases], frame, exhaustive=False)
-        elif isinstance(stmt, (ast.Global, ast.Nonlocal)):
+        elif isinstance(stmt, ast.Global):
             frame.declared_global.update(stmt.names)
+        elif isinstance(stmt, ast.Nonlocal):
+            frame.declared_nonlocal.update(stmt.names)
         elif isinstance(stmt, ast.Delete):
             for target in stmt.targets:
                 if not isinstance(target, ast.Name):
@@ -264,14 +266,19 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
         return EMPTY
 
     def assign(self, frame: Frame, name: str, value: Value) -> None:
-        """Bind ``name`` in ``frame`` (in the module's globals when declared ``global`` there)."""
+        """Bind ``name`` in ``frame``: in the module's globals when declared ``global`` there (a fit so
+        bound inside a function is the module's, used after the call like any other), in the
+        enclosing function's frame when declared ``nonlocal``."""
         if name in frame.declared_global:
-            target = frame
-            while target.parent is not None:
-                target = target.parent
-            if name in frame.module.globals or target.is_module:
-                frame.module.globals[name] = value
-                return
+            frame.module.globals[name] = value
+            return
+        if name in frame.declared_nonlocal:
+            f = frame.parent
+            while f is not None and not f.is_module:
+                if name in f.locals:
+                    f.locals[name] = value
+                    return
+                f = f.parent
         frame.locals[name] = value
 
     def join_into(self, frame: Frame, name: str, value: Value) -> None:

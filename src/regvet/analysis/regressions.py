@@ -283,7 +283,7 @@ class RegressionSemantics(CollectorState):
             if lhs is not None and lhs.strip():
                 try:
                     outcome = outcome_of_expr(ast.parse(lhs.strip(), mode="eval").body)
-                except SyntaxError:
+                except (SyntaxError, ValueError, RecursionError, MemoryError):  # NUL bytes, absurd nesting
                     outcome = None
         elif source.how == ARRAYS:
             text = design_formula(data_values)  # sm.OLS(y, X) on patsy.dmatrices(formula, data)
@@ -291,8 +291,9 @@ class RegressionSemantics(CollectorState):
         columns: set[str] = set(column_names)
         if formula is not None:
             outcome = formula.outcome
-            n_regressors = formula.n_regressors
-            regressors = tuple(":".join(t) for t in formula.terms)
+            if not formula.too_large:  # too large to expand: the terms are not known
+                n_regressors = formula.n_regressors
+                regressors = tuple(":".join(t) for t in formula.terms)
             columns |= formula.variables
             if formula.lagged and time_reason is None:
                 time_reason = f"the formula uses lags or differences (`{text}`)"
@@ -586,6 +587,7 @@ class RegressionSemantics(CollectorState):
                     result_name=record.result_name,
                     statement=record.statement,
                     model_span=model_span,
+                    formula_too_large=model.formula is not None and model.formula.too_large,
                 )
             )
         return FileFacts(

@@ -68,7 +68,8 @@ class Frame:
     ctx: tuple[Loc, ...]  # the call sites that led here, outermost first
     func: FunctionRecord | None = None
     returns: Value = EMPTY
-    declared_global: set[str] = field(default_factory=set)
+    declared_global: set[str] = field(default_factory=set)  # names a ``global`` statement declares
+    declared_nonlocal: set[str] = field(default_factory=set)  # names a ``nonlocal`` statement declares
     cls_attrs: dict[str, Value] | None = None  # attributes of ``self`` shared by a class's methods
 
     @property

@@ -42,8 +42,13 @@ class RuleInput:
     runtime: RuntimeFacts | None = None  # only in runtime mode
     #: Ids of every rule in the catalogue (the engine fills it in), so waivers can name unknown ones.
     known_rules: frozenset[str] = frozenset()
+    #: Why the analysis of the file stopped early (a bound regvet keeps whatever the input: too
+    #: deep, over its time budget); the facts then hold what was found before it stopped, or nothing.
+    stopped: tuple[str, ...] = ()
     #: How the file already calls the diagnostics findings suggest (``sources.imports.suggested_spellings``).
     spellings: tuple[tuple[str, str], ...] = ()
+    #: Notebook cells that do not parse on their own (their code was left out of the analysis).
+    broken_cells: tuple[SourceError, ...] = ()
 
     def call(self, name: str) -> str:
         """How suggested code calls ``name`` in this file: its import alias (``lr``, ``sms.linear_reset``)
