@@ -217,7 +217,7 @@ def test_hover_says_fixed_effects_need_no_break_test():
     report = analyze(source, "freight.py", Settings(), strict=True)
     (fit,) = report.facts.fits
     breaks = next(s for s in fit_status(report, fit).families if s.family == "breaks")
-    assert (breaks.state, breaks.detail) == ("not needed", "fixed effects or no slope, not a break question")
+    assert (breaks.state, breaks.detail) == ("not needed", "fixed effects, not a break question")
 
 
 # --- the fixed_effects key ------------------------------------------------------------------

@@ -214,7 +214,8 @@ def mutate(data: bytes, rnd: random.Random, how: str) -> bytes:
     if how == "huge-line":
         size = rnd.choice([10_000, 100_000, 400_000])
         line = rnd.choice([b"x = '" + b"a" * size + b"'\n", b"#" + b"z" * size + b"\n", b"x = " + b"1+" * (size // 2) + b"1\n",
-                           b"y = [" + b"0," * (size // 2) + b"]\n"])  # fmt: skip
+                           b"y = [" + b"0," * (size // 2) + b"]\n", b"x = 1  # regvet: waive no-form-test" + b" " * size + b"x\n",
+                           b"x = 1" + b" " * size + b"# spaces\n", b"\t" * size + b"\n"])  # fmt: skip
         return data[:at] + b"\n" + line + data[at:]
     if how == "deep":
         kind = rnd.choice(sorted(DEEP))
@@ -421,6 +422,7 @@ REGRESSION_FINDINGS = {
     "coding-undefined.py": "parse-error",
     "v3-worksheet-cells-not-a-list.ipynb": "parse-error",
     "shell-escapes-in-a-broken-cell.ipynb": "parse-error",
+    "waiver-with-a-run-of-spaces.py": None,  # the waiver is read (its reason malformed: a waiver-without-reason)
 }
 
 
@@ -456,7 +458,7 @@ def test_regression_fixture(path):
 @pytest.mark.skipif(not LONG, reason="the long fuzzing campaign: make fuzz")
 @pytest.mark.parametrize("how", MUTATIONS)
 def test_sweep_every_mutation_over_every_seed(how):
-    """Each mutation at 20 places of every seed: about 20 x 50 x 21 = 21,000 deterministic cases."""
+    """Each mutation at 20 places of every seed: 21 mutations x 45 seeds x 20 = 18,900 deterministic cases."""
     for k, seed in enumerate(SEEDS):
         for place in range(20):
             check_bytes(mutate(seed, random.Random(k * 1_000 + place), how))

@@ -109,7 +109,7 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
             families.append(FamilyStatus(label, "not needed", "the data is not known to be time-ordered"))
         elif family == "breaks" and finding is None and not break_question(fit, settings.break_candidates,
                                                                             settings.fixed_effects):
-            why = ("fixed effects or no slope, not a break question" if fit.shift_groups
+            why = ("fixed effects, not a break question" if fit.shift_groups
                    else "no intercept-only group or configured break")  # fmt: skip
             families.append(FamilyStatus(label, "not needed", why))
         elif finding is not None and finding.waived:

@@ -45,7 +45,6 @@ class Formula:
     too_large: bool = False
     main_groups: frozenset[str] = frozenset()  # C(g) factors that are a term of their own (interacted or not)
     interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
-    slopes: bool = True  # some term has no C(...) factor: a slope a group's intercept shift leaves common
 
     @property
     def n_regressors(self) -> int:
@@ -341,5 +340,4 @@ def parse_formula(text: str) -> Formula | None:
         too_large=too_large,
         main_groups=frozenset(shift),
         interacted_columns=frozenset(inter_columns),
-        slopes=any(all(_group_of(f) is None for f in t) for t in real),
     )

@@ -67,7 +67,6 @@ class Fit:
     formula_too_large: bool = False  # the formula expands to too many terms to read them
     categorical_terms: frozenset[str] = frozenset()  # C(g) factors that are a term of their own
     interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
-    slopes: bool = True  # the formula has a term without a C(...) factor (or is not a formula regvet read)
 
 
 @dataclass(frozen=True)

@@ -53,26 +53,44 @@ def seasonal(group: str) -> bool:
     return bool(_SEASONAL.search(group.rsplit(".", 1)[-1]))
 
 
+#: Names of a period (a time effect) and of a unit identifier (a unit effect), common practice.
+_PERIOD = re.compile(r"(?:^|_)(?:year|years|yr|date|day|week|month|quarter|qtr|period|time|wave|t)(?:_|$)",
+                     re.IGNORECASE)  # fmt: skip
+_UNIT_ID = re.compile(r"^(?:id|pid|uid|.+_id|id_.+)$", re.IGNORECASE)
+
+
+def _name(group: str) -> str:
+    return group.rsplit(".", 1)[-1]
+
+
 def fixed_effects(fit: Fit, fixed: tuple[str, ...], candidates: tuple[str, ...]) -> bool:
-    """Is the fit a fixed-effects design: two categorical terms or more (unit and period), or a
-    categorical named in the config's ``fixed_effects``? Then its ``C(...)`` shifts ask no break question.
-    A configured break candidate is never counted as a fixed effect."""
+    """Is the fit a fixed-effects design? Unit and period effects (two categorical terms or more, one of
+    them a period such as ``C(year)`` or a unit identifier such as ``C(firm_id)``), a single unit
+    identifier (``C(id)``), or a categorical named in the config's ``fixed_effects``. Then its ``C(...)``
+    shifts ask no break question. A configured break candidate is never counted as a fixed effect;
+    two ordinary categoricals (``C(gender) + C(occupation)``) are not fixed effects."""
     terms = fit.categorical_terms - set(_candidate_columns(candidates))
-    return len(terms) >= 2 or bool(terms & set(fixed))
+    if terms & set(fixed):
+        return True
+    periods = {g for g in terms if _PERIOD.search(_name(g))}
+    units = {g for g in terms if _UNIT_ID.match(_name(g))}
+    if units:
+        return True
+    return len(terms) >= 2 and bool(periods)
 
 
-def _group_shifts(fit: Fit, fixed: tuple[str, ...], candidates: tuple[str, ...]) -> frozenset[str]:
-    """The intercept-only groups that ask a break question: not fixed effects, and with a slope to differ
-    (``y ~ C(dose)`` alone is a one-way ANOVA: it has no slope)."""
-    if not fit.slopes or fixed_effects(fit, fixed, candidates):
-        return frozenset()
-    return fit.shift_groups
+def no_slopes(fit: Fit) -> bool:
+    """Is every regressor a categorical's dummy (``y ~ C(g)``, ``y ~ C(a) + C(b)``)? Then there is no
+    slope whose equality across groups a break test could question."""
+    return bool(fit.regressors) and all("C(" in term or term in fit.categorical_terms for term in fit.regressors or ())
 
 
 def break_question(fit: Fit, candidates: tuple[str, ...], fixed: tuple[str, ...]) -> bool:
     """Does the fit's specification ask for a break test at all (intercept-only groups that are not fixed
     effects, or a configured break candidate it uses without interacting it)?"""
-    if _group_shifts(fit, fixed, candidates):
+    if no_slopes(fit):
+        return False
+    if fit.shift_groups and not fixed_effects(fit, fixed, candidates):
         return True
     return any(_candidate_open(fit, c) for c in _candidate_columns(candidates))
 
@@ -88,12 +106,13 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     escapes = [e for m in sorted(members) for e in inp.escapes(m)]
     if not uses and not escapes:
         return None
-    if inp.checks(fit.id, "breaks"):
+    if inp.checks(fit.id, "breaks") or no_slopes(fit):
         return None
     # Every intercept-only group that is not a fixed effect, and every configured candidate the fit
     # uses without interacting it, needs its own test.
     candidates = _candidate_columns(inp.settings.break_candidates)
-    groups = _group_shifts(fit, inp.settings.fixed_effects, inp.settings.break_candidates)
+    fixed = fixed_effects(fit, inp.settings.fixed_effects, inp.settings.break_candidates)
+    groups = set() if fixed else set(fit.shift_groups)
     shift = {g for g in groups if not _group_tested(inp, fit, {g})}
     named = {c: e for c, e in candidates.items() if _candidate_open(fit, c) and not _group_tested(inp, fit, {c})}
     if not shift and not named:
@@ -140,10 +159,13 @@ RULE = Rule(
         "Also fires for fits on data that use a column named in the config's `break_candidates`, unless the "
         "formula already interacts it with the regressors (`post * (fare + fuel_price)`): that model is the "
         "unrestricted one.\n\n"
-        "Fixed effects are not a break question: a formula with two categorical terms or more (a unit and a "
-        "period, `C(harbour) + C(year)`), or a categorical named in the config's `fixed_effects`, is not "
-        "flagged, nor is a formula with no slope at all (`y ~ C(dose)`, a one-way ANOVA). Calendar seasonals "
-        "(`C(month)`, `C(quarter)`, `C(season)`) alone still are, worded as a question about seasonal slopes. A formula built from literal pieces (concatenation, `.format`, "
+        "Fixed effects are not a break question: unit and period effects (two categorical terms or more, one "
+        "of them a period such as `C(year)`: `C(harbour) + C(year)`), a unit identifier (`C(ship_id)`), or a "
+        "categorical named in the config's `fixed_effects`, are not flagged (period and identifier names: "
+        "common practice); nor is a model of categorical terms only, which has no slope to compare. A column "
+        "made categorical (`pd.Categorical`, `.astype(\"category\")`) and named bare in the formula counts as "
+        "`C(column)`. Calendar seasonals (`C(month)`, `C(quarter)`, `C(season)`) alone still are, worded as a "
+        "question about seasonal slopes. A formula built from literal pieces (concatenation, `.format`, "
         "f-strings, `\" + \".join(...)`) or a design from `patsy.dmatrices` is read like a literal one.\n\n"
         "Satisfied by: a Chow test (subsample fits combined in an F statistic from their SSRs), an F test of "
         "the interactions with the group (`anova_lm`, `compare_f_test`, or `f_test` on the interacted model), "
