@@ -27,7 +27,7 @@ from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RuleInput
-from regvet.rules.base import one_per_site
+from regvet.rules.base import one_per_site, robust_reported
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
 from regvet.sources.python import SourceError, parse
 from regvet.sources.waivers import Waiver, find_waivers
@@ -250,7 +250,7 @@ def _finish(
         if not settings.enabled(rule.id):
             continue
         try:
-            findings.extend(one_per_site(inp, rule.check(inp)))
+            findings.extend(one_per_site(inp, robust_reported(inp, rule, rule.check(inp))))
         except Exception as exc:
             if strict:
                 raise

@@ -14,7 +14,7 @@ from regvet.model.finding import Finding
 from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, rules_for_family
-from regvet.rules.base import RuleInput, site_labels, specification
+from regvet.rules.base import RuleInput, robust_version, site_labels, specification
 
 #: The check families the hover shows, by label (the rules that report each one missing say so
 #: with ``Rule.family``).
@@ -90,7 +90,8 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
     """One line per check family for ``fit``: done (with which function and where), missing, waived."""
     facts = report.facts
     assert facts is not None
-    members = facts.same_residuals(fit.id)
+    members = facts.same_data(fit.id)
+    inp = report.rule_input if isinstance(report.rule_input, RuleInput) else None
     families: list[FamilyStatus] = []
     for label, family in FAMILY_LABELS.items():
         checks = [c for m in sorted(members) for c in facts.events_of("checks", m) if c.family == family]
@@ -108,6 +109,9 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
             families.append(FamilyStatus(label, "not needed", "no intercept-only group or configured break"))
         elif finding is not None and finding.waived:
             families.append(FamilyStatus(label, "waived", finding.reason or ""))
+        elif inp is not None and (other := robust_version(inp, fit, family)) is not None:
+            cov = (other.cov_type or "robust").upper()
+            families.append(FamilyStatus(label, "missing", f"{'an' if cov.startswith('HC') else 'a'} {cov} version is reported ({_where(report, other.site)})"))
         else:
             families.append(FamilyStatus(label, "missing"))
     families.append(_comparisons(report, fit))
