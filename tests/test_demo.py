@@ -26,7 +26,7 @@ def documented(section: str) -> list[tuple[str, int | None, int, str]]:
     for line in body.splitlines():
         m = _ROW.match(line.strip())
         if m:
-            rows.append((m.group(1), int(m.group(2)) if m.group(2) else None, int(m.group(3)), m.group(4)))
+            rows.append((m.group(1), int(m.group(2)) - 1 if m.group(2) else None, int(m.group(3)), m.group(4)))  # JSON's cell counts from 0
     assert rows, f"no rows in the README's {section} table"
     return sorted(rows, key=str)
 

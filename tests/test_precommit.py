@@ -71,8 +71,9 @@ def test_hook_fails_a_commit_with_a_finding_and_passes_a_clean_one(tmp_path, hoo
     proc = try_repo(repo, hook_home, "dirty.py", "notes.txt")
     assert proc.returncode == 1, proc.stdout + proc.stderr
     assert "Failed" in proc.stdout
-    assert "dirty.py:5:7: warning no-form-test" in proc.stdout
-    assert "dirty.py:5:7: warning no-variance-test" in proc.stdout
+    assert "dirty.py:5:7: res (riders ~ fare + fuel_price)\n" in proc.stdout  # the fit's header, its findings below
+    assert "\n  warning no-form-test: " in proc.stdout
+    assert "\n  warning no-variance-test: " in proc.stdout
     proc = try_repo(repo, hook_home, "clean.py")
     assert proc.returncode == 0, proc.stdout + proc.stderr
     assert "Passed" in proc.stdout

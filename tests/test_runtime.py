@@ -235,6 +235,9 @@ def test_text_output_carries_a_statistics_clause(tmp_path, monkeypatch, run_cli)
     monkeypatch.setenv("REGVET_CACHE_DIR", str(tmp_path / "cache"))
     (tmp_path / "model.py").write_text(FIT)
     code, out, _ = run_cli("check", "--run", "model.py")
+    assert out.count("\n  run: n=120, BP p") == 1  # once, in the fit's header block, not on each finding
+    assert len([line for line in out.splitlines() if line.startswith("  warning ")]) >= 2
+    code, out, _ = run_cli("check", "--run", "model.py", "--format", "lines")
     assert "[run: n=120, BP p" in out
     code, sarif, _ = run_cli("check", "--run", "model.py", "--format", "sarif")
     results = json.loads(sarif)["runs"][0]["results"]

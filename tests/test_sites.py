@@ -275,7 +275,7 @@ def test_global_fit_across_notebook_cells():
     )
     (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
     assert (finding.span.cell, finding.span.line) == (1, 3)
-    assert "`late` reports inference (`summary`, cell 3, line 1)" in finding.message
+    assert "`late` reports inference (`summary`, cell 4, line 1)" in finding.message
 
 
 # --- a robust or HAC version of the same specification on the same data is reported too -----------
@@ -394,4 +394,4 @@ def test_robust_version_across_notebook_cells():
     )
     (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
     assert finding.severity.label == "info" and (finding.span.cell, finding.span.line) == (1, 1)
-    assert "An HC3 version of the same specification on the same data is reported too (`robust`, cell 2, line 1)" in finding.message
+    assert "An HC3 version of the same specification on the same data is reported too (`robust`, cell 3, line 1)" in finding.message

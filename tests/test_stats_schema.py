@@ -126,6 +126,11 @@ def _cases() -> dict[str, tuple[Any, dict[str, Any]]]:
         ),
         "collinear design": (sm.OLS(flat["riders"].to_numpy(), collinear).fit(), {}),
         "constant only": (sm.OLS(flat["riders"].to_numpy(), np.ones((n, 1))).fit(), {}),
+        "panel of two routes, unit_column": (
+            smf.ols("riders ~ fare", data=flat.assign(month=np.tile(months[: n // 2], 2),
+                                                     route=np.repeat(["north", "south"], n // 2))).fit(),
+            {"time_column": "month", "unit_column": "route"},
+        ),  # fmt: skip
     }
 
 

@@ -219,6 +219,10 @@ def _statistic(family: str, stats: FitStatistics | None) -> tuple[str | None, st
         return text, jb.get("form"), p(jb.get("pvalue"))
     if family == "serial":
         bg = stats.get("breusch_godfrey")
+        within = stats.get("serial_within_units")
+        if (bg is None or bg.get("lm") is None) and within is not None and within.get("t") is not None:
+            text = f"rho = {num(within.get('rho'))}, t = {num(within.get('t'))} within {within.get('units')} units"
+            return text, within.get("form"), p(within.get("pvalue"))
         if bg is None or bg.get("lm") is None:
             return None, None, None
         dw = stats.get("durbin_watson")

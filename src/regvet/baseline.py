@@ -117,7 +117,8 @@ def fingerprint(report: FileReport, finding: Finding) -> str:
             parts.append(normalized_code(lines, fit.model_span))
     if finding.rule == "parse-error" or (not finding.fits and not parts[1]):
         parts.append(re.sub(r"\d+", "#", finding.message))
-    return hashlib.sha256("\0".join(parts).encode("utf-8")).hexdigest()[:20]
+    # surrogatepass: a helper module's file name may not be UTF-8 (the same bytes as "utf-8" otherwise)
+    return hashlib.sha256("\0".join(parts).encode("utf-8", "surrogatepass")).hexdigest()[:20]
 
 
 def _about(report: FileReport, finding: Finding) -> str:
@@ -238,7 +239,13 @@ def to_json(files: Mapping[str, list[Entry]]) -> str:
             if entries
         },
     }
-    return json.dumps(body, indent=2, ensure_ascii=False) + "\n"
+    text = json.dumps(body, indent=2, ensure_ascii=False) + "\n"
+    # A file name that is not UTF-8 holds lone surrogates (PEP 383): written as JSON \u escapes, the file
+    # stays valid UTF-8 and reads back as the very same key.
+    return _SURROGATE.sub(lambda m: f"\\u{ord(m.group()):04x}", text)
+
+
+_SURROGATE = re.compile("[\ud800-\udfff]")
 
 
 def from_json(text: str, path: Path) -> Baseline:

@@ -16,7 +16,7 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
-from regvet.model.settings import FAMILIES, OPTIONS, Option, Settings
+from regvet.model.settings import FAMILIES, MAX_MEGABYTES, MAX_SECONDS, MIN_MEGABYTES, OPTIONS, Option, Settings
 
 if sys.version_info >= (3, 11):
     import tomllib
@@ -26,6 +26,7 @@ else:  # pragma: no cover - exercised on Python 3.10 only
 CONFIG_NAMES = ("regvet.toml", "pyproject.toml")
 ROOT_MARKERS = ("pyproject.toml", ".git", ".hg")
 _SEVERITIES = ("error", "warning", "info")
+_COLUMN = re.compile(r"[A-Za-z_][\w.]*\Z")
 
 
 class ConfigError(Exception):
@@ -61,13 +62,32 @@ def find_config(start: Path) -> Path | None:
 
 
 def _has_table(path: Path) -> bool:
+    """Whether a config file is regvet's to read: a regvet.toml always; a pyproject.toml when it has a
+    ``tool.regvet`` table, or names regvet where it cannot be used (``tool = 5``, ``[regvet]``), or
+    cannot be read at all while it mentions regvet (load_settings then reports the problem)."""
     if path.name != "pyproject.toml":
         return True
     try:
-        data = path.read_text(encoding="utf-8")
+        text = path.read_bytes().decode("utf-8-sig")
     except (OSError, UnicodeDecodeError):
-        return True  # let load_settings report the problem
-    return "[tool.regvet" in data or "tool.regvet" in data
+        return True
+    assigned = _TOOL_ASSIGNED.search(text)
+    if "tool.regvet" in text and not assigned:
+        return True  # the usual case, decided without parsing (this runs once per scanned file)
+    if "regvet" not in text and not assigned:
+        return False
+    try:
+        data = tomllib.loads(text)
+    except (tomllib.TOMLDecodeError, RecursionError, MemoryError):
+        return "regvet" in text
+    tool = data.get("tool")
+    if tool is not None and not isinstance(tool, dict):
+        return True
+    return "regvet" in (tool or {}) or "regvet" in data
+
+
+#: ``tool = ...`` at the top level of a pyproject.toml: ``tool`` must be a table (PEP 518).
+_TOOL_ASSIGNED = re.compile(r"(?m)^[ \t]*[\"']?tool[\"']?[ \t]*=")
 
 
 def load_table(path: Path) -> dict[str, Any]:
@@ -82,23 +102,36 @@ def _read_table(path: Path) -> tuple[str, dict[str, Any]]:
     except OSError as exc:
         raise ConfigError(str(path), f"cannot read the file: {exc.strerror or exc}") from None
     try:
-        text = raw.decode("utf-8")
+        text = raw.decode("utf-8-sig")  # a byte-order mark at the start is not part of the TOML
         data = tomllib.loads(text)
     except UnicodeDecodeError:
         raise ConfigError(str(path), "the file is not UTF-8 text") from None
     except tomllib.TOMLDecodeError as exc:
         line, column = _toml_error_position(exc, text)
         raise ConfigError(str(path), f"invalid TOML: {exc}", line=line, column=column) from None
+    except (RecursionError, MemoryError):
+        raise ConfigError(str(path), "invalid TOML: arrays or inline tables nest too deeply to read") from None
     return text, _regvet_table(path, data)
 
 
 def _regvet_table(path: Path, data: dict[str, Any]) -> dict[str, Any]:
+    """The regvet table of a parsed file; a :class:`ConfigError` when it is missing from where it was
+    meant to be (``tool = 5``, ``[regvet]`` in a pyproject.toml, ``[tool.regvet]`` in a regvet.toml)."""
     if path.name == "pyproject.toml":
         tool = data.get("tool", {})
-        table = tool.get("regvet", {}) if isinstance(tool, dict) else {}
+        if not isinstance(tool, dict):
+            raise ConfigError(str(path), f"`tool` must be a table (regvet reads `[tool.regvet]`), got {_tomltype(tool)}")
+        if "regvet" not in tool and isinstance(data.get("regvet"), dict):
+            raise ConfigError(str(path), "regvet's options belong in `[tool.regvet]` in a pyproject.toml, not in "
+                              "`[regvet]`")  # fmt: skip
+        table = tool.get("regvet", {})
         if not isinstance(table, dict):
-            raise ConfigError(str(path), "`tool.regvet` must be a table")
+            raise ConfigError(str(path), f"`tool.regvet` must be a table, got {_tomltype(table)}")
         return table
+    tool = data.get("tool")
+    if isinstance(tool, dict) and "regvet" in tool:
+        raise ConfigError(str(path), "a regvet.toml holds the options at the top level; `[tool.regvet]` belongs in "
+                          "a pyproject.toml")  # fmt: skip
     return data
 
 
@@ -135,6 +168,16 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 values[key] = frozenset(value)
             else:
                 values[key] = tuple(value)
+        elif option.kind == "columns":
+            if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+                raise bad
+            for name in value:
+                if not _COLUMN.match(name):
+                    raise ConfigError(source, f"{name!r} is not a column name as a formula writes it in `C(...)` "
+                                      "(letters, digits, `_` and `.`, not starting with a digit)", key)  # fmt: skip
+                if value.count(name) > 1:
+                    raise ConfigError(source, f"`{name}` is listed twice", key)
+            values[key] = tuple(value)
         elif option.kind == "severity-map":
             if not isinstance(value, dict):
                 raise bad
@@ -155,9 +198,14 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 raise bad
             values[key] = value
         elif option.kind == "seconds":
-            if isinstance(value, bool) or not isinstance(value, (int, float)) or value <= 0:
+            # nan compares false with everything, so it fails the range test like inf and 0 do
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value <= MAX_SECONDS:
                 raise bad
             values[key] = float(value)
+        elif option.kind == "megabytes":
+            if isinstance(value, bool) or not isinstance(value, int) or not MIN_MEGABYTES <= value <= MAX_MEGABYTES:
+                raise bad
+            values[key] = value
         elif option.kind == "hc":
             if not isinstance(value, str) or value.upper() not in ("HC0", "HC1", "HC2", "HC3"):
                 raise bad
@@ -178,6 +226,12 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                     )
                 pairs.append((name, tuple(families)))
             values[key] = tuple(sorted(pairs))
+    fixed = values.get("fixed_effects", base.fixed_effects if base else ())
+    both = sorted(set(fixed) & set(values.get("break_candidates", base.break_candidates if base else ())))
+    if both:
+        key = "fixed_effects" if "fixed_effects" in values else "break_candidates"
+        raise ConfigError(source, f"`{both[0]}` is both a fixed effect and a break candidate; a column is one or "
+                          "the other (a break candidate asks for a break test, a fixed effect for none)", key)  # fmt: skip
     return replace(base or Settings(), source=source, **values)
 
 

@@ -281,7 +281,7 @@ def mend_notebook(
     new = text
     for index in sorted(changed, reverse=True):
         if index not in spans:
-            raise MendError(f"cannot find the source of cell {index} in the notebook's text")
+            raise MendError(f"cannot find the source of cell {index + 1} in the notebook's text")
         a, b = spans[index]
         new = new[:a] + _dump_source(changed[index][1], text[a:b], ensure_ascii) + new[b:]
     check = json.loads(new)
@@ -382,7 +382,7 @@ def unified_diff(shown: str, outcome: Outcome) -> str:
     pairs: list[tuple[str, str, str]] = []
     if outcome.cells:
         for index, (old, new) in sorted(outcome.cells.items()):
-            pairs.append((f"{shown} (cell {index})", old, new))
+            pairs.append((f"{shown} (cell {index + 1})", old, new))
     elif outcome.new != outcome.old:
         pairs.append((shown, outcome.old, outcome.new))
     out = []

@@ -117,11 +117,18 @@ def map_ordered(
     items: Sequence[T],
     jobs: int,
     lost: Callable[[T, str], R],
+    on_done: Callable[[int], None] | None = None,
 ) -> list[R]:
-    """``[factory(*factory_args)(item) for item in items]``, over ``jobs`` processes."""
+    """``[factory(*factory_args)(item) for item in items]``, over ``jobs`` processes. ``on_done`` is
+    called with each item's index as its result arrives (in the parent, in the order they finish)."""
+    done_hook = on_done if on_done is not None else (lambda _: None)
     if jobs <= 1 or len(items) <= 1:
         worker = factory(*factory_args)
-        return [worker(item) for item in items]
+        out = []
+        for i, item in enumerate(items):
+            out.append(worker(item))
+            done_hook(i)
+        return out
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
     from concurrent.futures.process import BrokenProcessPool
 
@@ -140,12 +147,16 @@ def map_ordered(
                         running[pool.submit(_call, items[index])] = index
                     done, _ = wait(running, return_when=FIRST_COMPLETED)
                     for future in done:
+                        index = running[future]
                         _harvest(future, running, results, items, lost)
+                        done_hook(index)
             except BrokenProcessPool:  # a worker died: keep what finished, suspect the rest
                 for future in list(running):
                     if future.done() and not future.cancelled() and not isinstance(future.exception(),
                                                                                    BrokenProcessPool):
+                        index = running[future]
                         _harvest(future, running, results, items, lost)
+                        done_hook(index)
                 suspects = sorted(running.values())
             except BaseException:
                 pool.shutdown(wait=False, cancel_futures=True)
@@ -153,4 +164,5 @@ def map_ordered(
         for index in suspects:  # which of the items in flight killed its process: each on its own
             if index not in results:
                 results[index] = run_alone(factory, factory_args, items[index], lost)
+                done_hook(index)
     return [results[i] for i in range(len(items))]

@@ -11,6 +11,7 @@ from collections.abc import Callable, Mapping
 from pathlib import Path
 
 from regvet.analysis.modules import ModuleSource
+from regvet.discovery import read_regular
 from regvet.sources.python import SourceError, decode
 
 
@@ -46,7 +47,7 @@ class FileModules:
             return self.overlay[path]
         if path not in self.texts:
             try:
-                text = decode(path.read_bytes())
+                text = decode(read_regular(path))
             except OSError:
                 text = None
             self.texts[path] = None if isinstance(text, SourceError) else text
@@ -108,5 +109,8 @@ def display_path(path: Path) -> str:
     except ValueError:  # another drive on Windows
         return path.as_posix()
     if rel.startswith(".."):
-        return Path(path).resolve().as_posix()
+        try:
+            return Path(path).resolve().as_posix()
+        except (OSError, RuntimeError):  # a symbolic link loop (a name a scan skips)
+            return Path(os.path.abspath(path)).as_posix()
     return Path(rel).as_posix()

@@ -101,6 +101,8 @@ class RegressionSemantics(CollectorState):
         """Constructors, diagnostics (catalogued or named as helpers), summary tables, anova, add_constant."""
         if qualname in catalog.CONSTRUCTORS:
             return self.make_models(qualname, catalog.CONSTRUCTORS[qualname], args, kwargs, node, frame)
+        if qualname in catalog.DESIGN_MATRICES:
+            return self.design_matrices(args, kwargs)
         if qualname in catalog.DIAGNOSTICS:
             family, fname = catalog.DIAGNOSTICS[qualname]
             self.credit(family, fname, [*args, *kwargs.values()], node, frame)
@@ -290,13 +292,17 @@ class RegressionSemantics(CollectorState):
             if lhs is not None and lhs.strip():
                 try:
                     outcome = outcome_of_expr(ast.parse(lhs.strip(), mode="eval").body)
-                except SyntaxError:
+                except (SyntaxError, ValueError, RecursionError, MemoryError):  # NUL bytes, absurd nesting
                     outcome = None
+        elif source.how == ARRAYS:
+            text = design_formula(data_values)  # sm.OLS(y, X) on patsy.dmatrices(formula, data)
+            formula = parse_formula(text) if text is not None else None
         columns: set[str] = set(column_names)
         if formula is not None:
             outcome = formula.outcome
-            n_regressors = formula.n_regressors
-            regressors = tuple(":".join(t) for t in formula.terms)
+            if not formula.too_large:  # too large to expand: the terms are not known
+                n_regressors = formula.n_regressors
+                regressors = tuple(":".join(t) for t in formula.terms)
             columns |= formula.variables
             if formula.lagged and time_reason is None:
                 time_reason = f"the formula uses lags or differences (`{text}`)"
@@ -508,7 +514,12 @@ class RegressionSemantics(CollectorState):
 
     # --- arithmetic and comparisons of results ---------------------------------------------------
     def binary_operation(self, op: ast.operator, left: Value, right: Value, node: Node, frame: Frame) -> Value:
-        """``a op b``: powers of residuals and fitted values, differences and ratios of measures, SSR sums."""
+        """``a op b``: strings built from literals, powers of residuals and fitted values, differences and
+        ratios of measures, SSR sums."""
+        if isinstance(op, (ast.Add, ast.Mod)):
+            text = self.string_operation(op, left, right)
+            if text is not None:
+                return text
         result: set[Tag] = set()
         left_flat, right_flat = flat(left), flat(right)
         if isinstance(op, ast.Pow):
@@ -588,12 +599,15 @@ class RegressionSemantics(CollectorState):
                     time_where=model.time_where,
                     shift_groups=model.formula.shift_groups if model.formula else frozenset(),
                     interacted_groups=model.formula.interacted_groups if model.formula else frozenset(),
+                    categorical_terms=model.formula.main_groups if model.formula else frozenset(),
+                    interacted_columns=model.formula.interacted_columns if model.formula else frozenset(),
                     columns=model.columns,
                     auxiliary=bool(model.aux_for),
                     parent=record.parent,
                     result_name=record.result_name,
                     statement=record.statement,
                     model_span=model_span,
+                    formula_too_large=model.formula is not None and model.formula.too_large,
                     spec=spec,
                 )
             )
@@ -608,6 +622,19 @@ class RegressionSemantics(CollectorState):
             tsa_in_use=self.tsa_in_use,
             dependencies=tuple(sorted({src.path for src in self.sources.values()})),
         )
+
+
+def design_formula(data_values: list[Value]) -> str | None:
+    """The formula of ``sm.OLS(y, X)`` when X (and y, if it is one) come from one ``patsy.dmatrices`` call."""
+    if len(data_values) != 2:
+        return None
+    endog, exog = (flat(v) for v in data_values)
+    formulas = {tags.design_formula(t) for t in exog.tags_of(tags.DESIGN) if tags.design_side(t) == tags.EXOG}
+    if len(formulas) != 1:
+        return None
+    text = next(iter(formulas))
+    from_y = {tags.design_formula(t) for t in endog.tags_of(tags.DESIGN)}
+    return text if not from_y or from_y == {text} else None
 
 
 def _bound(name: str, frame: Frame) -> Value | None:

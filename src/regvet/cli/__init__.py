@@ -17,14 +17,23 @@ from regvet import __version__
 from regvet.baseline import BASELINE_NAME, BaselineError
 from regvet.cli.baseline import run_baseline
 from regvet.cli.check import run_check
-from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, EXIT_USAGE, EXTRA_EXCLUDE, UsageError, collect_files
+from regvet.cli.common import (
+    EXIT_FAILED,
+    EXIT_FINDINGS,
+    EXIT_OK,
+    EXIT_USAGE,
+    EXTRA_EXCLUDE,
+    UsageError,
+    collect_files,
+    tolerant_streams,
+)
 from regvet.cli.info import _serve
 from regvet.cli.mend import run_mend
 from regvet.cli.report import run_report
 from regvet.cli.scanning import Progress, Scan, analyze_file, scan
 from regvet.config import ConfigError
-from regvet.rules import ALL_RULES, RULES_BY_ID
-from regvet.rules.texts import CAUTION, explain, render_rules
+from regvet.rules import ALL_RULES
+from regvet.rules.texts import CAUTION, explain, find_rule, nearest_rule, render_rules
 
 __all__ = [
     "EXIT_FAILED", "EXIT_FINDINGS", "EXIT_OK", "EXIT_USAGE", "EXTRA_EXCLUDE", "Progress", "Scan", "UsageError",
@@ -48,8 +57,32 @@ def _parser() -> argparse.ArgumentParser:
         "specification checks are missing.",
         epilog=CAUTION,
     )
-    c.add_argument("paths", nargs="*", default=["."], metavar="PATH", help="files or folders (default: .)")
-    c.add_argument("--format", choices=["text", "json", "sarif", "github"], default="text")
+    _check_options(c, run_verb=False)
+    r = sub.add_parser(
+        "run",
+        help="the same as `check --run`: EXECUTES the analysed code to attach real statistics",
+        description="Run each analysed script or notebook (this EXECUTES your code, in a child process with "
+        "limits) and attach the statistics of every fit to the findings.",
+        epilog=CAUTION,
+    )
+    _check_options(r, run_verb=True)
+    _subcommands(sub)
+    sub.add_parser("rules", help="list the rules")
+    sub.add_parser("serve", help="run the language server (stdio; --tcp [--port N] for 127.0.0.1)")
+    e = sub.add_parser("explain", help="explain rules: rationale, examples, references")
+    e.add_argument("rule", nargs="+", metavar="RULE", help="a rule id as `regvet rules` lists it, in any letter case")
+    return p
+
+
+def _check_options(c: argparse.ArgumentParser, run_verb: bool) -> None:
+    """The options of ``check``, and of ``run`` (``run_verb``: the same without ``--run``, which it implies)."""
+    c.add_argument("paths", nargs="*", default=["."], metavar="PATH",
+                   help="files or folders (default: .)" + ("" if run_verb else
+                   "; `-` reads one script from standard input (not with --run)"))  # fmt: skip
+    c.add_argument("--format", choices=["text", "lines", "json", "sarif", "github"], default="text",
+                   help="text: each fit's findings under one header line, wrapped to the terminal (default); "
+                   "lines: one `path:line:col:` line per finding, for tools; json; sarif (2.1.0); "
+                   "github: workflow annotations")  # fmt: skip
     c.add_argument(
         "--fail-on",
         choices=["error", "warning", "info"],
@@ -60,27 +93,17 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("--skip", metavar="RULES", help="comma-separated rule ids: never report these")
     c.add_argument("--config", metavar="FILE", help="use this config file instead of searching for one")
     c.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
-    c.add_argument("--color", choices=["auto", "always", "never"], default="auto", help="colour in text output")
+    c.add_argument("--color", choices=["auto", "always", "never"], default="auto",
+                   help="colour in text output (default auto: on a terminal, unless NO_COLOR is set)")  # fmt: skip
     c.add_argument("--baseline", metavar="FILE", help=f"use this baseline instead of the nearest {BASELINE_NAME}")
     c.add_argument("--no-baseline", action="store_true", help="report every finding, the baselined ones too")
-    _run_options(c)
-
-    r = sub.add_parser(
-        "run",
-        help="the same as `check --run`: EXECUTES the analysed code to attach real statistics",
-        description="Run each analysed script or notebook (this EXECUTES your code, in a child process with "
-        "limits) and attach the statistics of every fit to the findings.",
-        epilog=CAUTION,
-    )
-    for action in c._actions:
-        if action.dest not in ("help", "run"):
-            r._add_action(action)
-    _subcommands(sub)
-    sub.add_parser("rules", help="list the rules")
-    sub.add_parser("serve", help="run the language server (stdio; --tcp [--port N] for 127.0.0.1)")
-    e = sub.add_parser("explain", help="explain one rule: rationale, examples, references")
-    e.add_argument("rule", metavar="RULE")
-    return p
+    c.add_argument("--quiet", "-q", action="store_true",
+                   help="print only the summary line (and the counts with --counts), no findings (text and lines)")
+    c.add_argument("--show-waived", action="store_true",
+                   help="list the waived findings too, each with its reason (text and lines)")  # fmt: skip
+    c.add_argument("--counts", action="store_true",
+                   help="end with the number of findings of each rule (text and lines)")  # fmt: skip
+    _run_options(c, run_verb)
 
 
 def _scan_options(p: argparse.ArgumentParser) -> None:
@@ -131,18 +154,22 @@ def _subcommands(sub: argparse._SubParsersAction) -> None:
     _run_options(b)
 
 
-def _run_options(p: argparse.ArgumentParser) -> None:
-    p.add_argument(
-        "--run",
-        action="store_true",
-        help="runtime mode: EXECUTE each analysed file in a child process (its own folder, stdin closed, "
-        "time and memory limits) and attach the statistics of its fits; never used by the pre-commit hook",
-    )
+def _run_options(p: argparse.ArgumentParser, run_verb: bool = False) -> None:
+    """``--run``, ``--no-cache`` and ``--jobs``; for ``regvet run`` (``run_verb``) without ``--run`` and in its words."""
+    if not run_verb:
+        p.add_argument(
+            "--run",
+            action="store_true",
+            help="runtime mode: EXECUTE each analysed file in a child process (its own folder, stdin closed, "
+            "time and memory limits) and attach the statistics of its fits; never used by the pre-commit hook",
+        )
+    p.set_defaults(run=run_verb)
     p.add_argument("--no-cache", action="store_true",
-                   help="neither read nor write regvet's caches: analyse every file again (and with --run, run again)")
+                   help="neither read nor write regvet's caches: analyse " + ("and run every file again" if run_verb
+                   else "every file again (and with --run, run again)"))  # fmt: skip
     p.add_argument("--jobs", "-j", type=_jobs, default=None, metavar="N",
-                   help="analyse (and with --run, run) N files at a time in worker processes "
-                   "(default: the number of cores)")  # fmt: skip
+                   help="analyse " + ("and run" if run_verb else "(and with --run, run)") + " N files at a time in "
+                   "worker processes (default: the number of cores)")  # fmt: skip
 
 
 def _jobs(text: str) -> int:
@@ -155,30 +182,50 @@ def _jobs(text: str) -> int:
     return value
 
 
+COMMANDS = ("check", "run", "report", "mend", "baseline", "rules", "explain", "serve")
+#: The options that take a value (so that a value spelled like a command is not taken for one).
+_VALUED = {"--format", "--fail-on", "--only", "--skip", "--config", "--color", "--baseline", "--jobs", "-j", "-o",
+           "--output", "--port", "--log-file"}  # fmt: skip
+
+
+def arrange(argv: list[str]) -> list[str]:
+    """The arguments with the command first: ``check`` when none is named (``regvet fixtures/demo``,
+    ``regvet -``), and options written before the command moved after it (``regvet --format json
+    fixtures/demo`` is ``regvet check --format json fixtures/demo``)."""
+    if not argv:
+        return ["check"]
+    first = argv[0]
+    if first in COMMANDS or first in ("-h", "--help", "--version"):
+        return argv
+    if first == "-" or not first.startswith("-"):
+        return ["check", *argv]
+    for i, arg in enumerate(argv):
+        if arg in COMMANDS and argv[i - 1] not in _VALUED:
+            return [arg, *argv[:i], *argv[i + 1 :]]
+    return ["check", *argv]
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    args_list = list(sys.argv[1:] if argv is None else argv)
-    commands = ("check", "run", "report", "mend", "baseline", "rules", "explain", "serve")
-    if not args_list or (args_list[0] not in commands and not args_list[0].startswith("-")):
-        args_list.insert(0, "check")
+    given = list(sys.argv[1:] if argv is None else argv)
+    args_list = arrange(given)
     if args_list and args_list[0] == "serve":
         return _serve(args_list[1:])
     parser = _parser()
     try:
         args = parser.parse_args(args_list)
     except SystemExit as exc:  # argparse already printed the problem
-        return EXIT_USAGE if exc.code not in (0, None) else EXIT_OK
-    if args.command == "run":
-        args.run = True
+        if exc.code in (0, None):
+            return EXIT_OK
+        if given and given[0].startswith("-") and given[0] != "-" and args_list[0] in COMMANDS:
+            sys.stderr.write("regvet: the command comes first, then its options and paths, as in `regvet check "
+                             f"--format json fixtures/demo`; this was read as `regvet {' '.join(args_list)}`\n")
+        return EXIT_USAGE
+    tolerant_streams()
     if args.command == "rules":
         sys.stdout.write(render_rules())
         return EXIT_OK
     if args.command == "explain":
-        rule = RULES_BY_ID.get(args.rule)
-        if rule is None:
-            sys.stderr.write(f"regvet: error: no rule `{args.rule}`; `regvet rules` lists them\n")
-            return EXIT_USAGE
-        sys.stdout.write(explain(rule.id))
-        return EXIT_OK
+        return _explain(args.rule)
     try:
         if args.command == "report":
             return run_report(args)
@@ -200,3 +247,19 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(main())
+
+
+def _explain(names: list[str]) -> int:
+    """``regvet explain RULE...``: each rule's text, the caution once at the end; a typo gets the nearest rule."""
+    rules = []
+    for name in names:
+        rule = find_rule(name)
+        if rule is None:
+            guess = nearest_rule(name)
+            hint = f"; did you mean `{guess}`?" if guess else "; `regvet rules` lists them"
+            sys.stderr.write(f"regvet: error: no rule `{name}`{hint}\n")
+            return EXIT_USAGE
+        rules.append(rule)
+    texts = [explain(r.id, caution=False) for r in rules]
+    sys.stdout.write("\n".join(texts) + "\n" + CAUTION + "\n")
+    return EXIT_OK

@@ -4,33 +4,62 @@ from __future__ import annotations
 
 import argparse
 import os
+import shutil
 import sys
 from pathlib import Path
 
-from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, UsageError
-from regvet.cli.scanning import Scan, scan
+from regvet.cli.common import EXIT_FAILED, EXIT_FINDINGS, EXIT_OK, UsageError, emit
+from regvet.cli.scanning import STDIN, Progress, Scan, scan
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
 from regvet.project import display_path
 
+#: The formats a person reads, which ``--quiet``, ``--show-waived`` and ``--counts`` shape.
+TEXT_FORMATS = ("text", "lines")
+
 
 def run_check(args: argparse.Namespace) -> int:
-    result = scan(args)
+    text = args.format in TEXT_FORMATS
+    for flag, on in (("--quiet", args.quiet), ("--show-waived", args.show_waived), ("--counts", args.counts)):
+        if on and not text:
+            raise UsageError(f"{flag} shapes the text and lines formats, not --format {args.format}")
+    result = scan(args, Progress() if getattr(args, "run", False) else None)
     reports = result.reports
     note = ""
+    if not result.files:
+        where = ", ".join(args.paths)
+        (sys.stdout if text else sys.stderr).write(
+            f"regvet: no files were found to check in {where} (regvet reads .py and .ipynb files)\n")
+        if text:
+            return EXIT_OK
     if not args.no_baseline:
         reports, note = _apply_baselines(result, Path(args.baseline) if args.baseline else None)
     colour = args.color == "always" or (args.color == "auto" and sys.stdout.isatty() and not os.environ.get("NO_COLOR"))
     from regvet.output import renderer
 
-    sys.stdout.write(renderer(args.format)(reports, colour=colour))
+    emit(renderer(args.format)(reports, colour=colour, width=text_width(), quiet=args.quiet,
+                               show_waived=args.show_waived, counts=args.counts),
+         utf8=args.format in ("json", "sarif"))  # fmt: skip
     if note:
-        (sys.stdout if args.format == "text" else sys.stderr).write(note)
+        (sys.stdout if text else sys.stderr).write(note)
     if result.failed:
         return EXIT_FAILED
     threshold = Severity.parse(args.fail_on)
     hit = any(f.severity >= threshold and not f.waived for r in reports for f in r.findings)
     return EXIT_FINDINGS if hit else EXIT_OK
+
+
+def text_width() -> int:
+    """The width text output is wrapped to: the terminal's when standard output is one (or ``COLUMNS``
+    when set), else ``DEFAULT_WIDTH``."""
+    from regvet.output.text import DEFAULT_WIDTH, MIN_WIDTH
+
+    columns = os.environ.get("COLUMNS", "")
+    if columns.isdigit() and int(columns) > 0:
+        return max(int(columns), MIN_WIDTH)
+    if sys.stdout.isatty():
+        return max(shutil.get_terminal_size((DEFAULT_WIDTH, 24)).columns, MIN_WIDTH)
+    return DEFAULT_WIDTH
 
 
 def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport], str]:
@@ -44,6 +73,9 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
     scanned: dict[Path, set[str]] = {}
     reports = []
     for file, report in result.files:
+        if str(file) == STDIN:
+            reports.append(report)  # standard input has no place in a baseline
+            continue
         where = forced if forced is not None else find_baseline(file)
         if where is None:
             reports.append(report)

@@ -3,13 +3,16 @@
 from __future__ import annotations
 
 import argparse
-import fnmatch
 import os
+import sys
 from collections.abc import Sequence
 from pathlib import Path
 
 from regvet.config import ConfigError, load_settings
+from regvet.discovery import MissingPath, discover, examine
 from regvet.model.settings import Settings
+from regvet.output.safe import printable
+from regvet.project import display_path
 from regvet.workspace import ConfigCache, Overrides, split_rule_ids
 
 EXIT_OK, EXIT_FINDINGS, EXIT_USAGE, EXIT_FAILED = 0, 1, 2, 3
@@ -18,6 +21,30 @@ EXTRA_EXCLUDE = (".ipynb_checkpoints", "__pycache__", ".tox", ".nox", ".mypy_cac
 
 class UsageError(Exception):
     pass
+
+
+def tolerant_streams() -> None:
+    """Standard output and error never fail on a character their encoding lacks (an ASCII or Latin-1
+    locale): it is written as a backslash escape instead."""
+    for stream in (sys.stdout, sys.stderr):
+        reconfigure = getattr(stream, "reconfigure", None)
+        if reconfigure is not None:
+            try:
+                reconfigure(errors="backslashreplace")
+            except (ValueError, OSError):  # a closed or unusual stream: leave it as it is
+                pass
+
+
+def emit(text: str, *, utf8: bool = False) -> None:
+    """Write ``text`` to standard output; with ``utf8`` (JSON, SARIF: UTF-8 by definition) as UTF-8 bytes
+    whatever the locale's encoding."""
+    buffer = getattr(sys.stdout, "buffer", None)
+    if not utf8 or buffer is None:
+        sys.stdout.write(text)
+        return
+    sys.stdout.flush()
+    buffer.write(text.encode("utf-8"))
+    buffer.flush()
 
 
 def _rule_list(text: str | None, flag: str) -> frozenset[str]:
@@ -29,42 +56,18 @@ def _rule_list(text: str | None, flag: str) -> frozenset[str]:
     return known
 
 
-def _excluded(rel: Path, patterns: Sequence[str]) -> bool:
-    posix = rel.as_posix()
-    for pat in patterns:
-        pat = pat.rstrip("/")
-        if "/" in pat:
-            if fnmatch.fnmatch(posix, pat) or fnmatch.fnmatch(posix, pat + "/*"):
-                return True
-        elif any(fnmatch.fnmatch(part, pat) for part in rel.parts):
-            return True
-    return False
-
-
 def collect_files(paths: Sequence[str], exclude: Sequence[str]) -> list[Path]:
-    """Files to scan: named files as given, folders walked for ``.py`` and ``.ipynb`` files."""
-    files: list[Path] = []
-    for raw in paths:
-        path = Path(raw)
-        if path.is_file():
-            files.append(path)
-        elif path.is_dir():
-            for folder, dirs, names in os.walk(path):
-                rel_folder = Path(folder).relative_to(path)
-                dirs[:] = sorted(d for d in dirs if not _excluded(rel_folder / d, exclude))
-                for name in sorted(names):
-                    if name.endswith((".py", ".ipynb")) and not _excluded(rel_folder / name, exclude):
-                        files.append(Path(folder) / name)
-        else:
-            raise UsageError(f"no such file or folder: {raw}")
-    seen: set[Path] = set()
-    unique = []
-    for f in files:
-        key = f.resolve()
-        if key not in seen:
-            seen.add(key)
-            unique.append(f)
-    return unique
+    """Files to scan: named files as given, folders walked for ``.py`` and ``.ipynb`` files.
+
+    Names that are not regular files (symbolic link loops, FIFOs, devices) and folders that cannot be
+    listed are left out with a note on standard error (see :mod:`regvet.discovery`)."""
+    try:
+        found = discover(paths, exclude)
+    except MissingPath as exc:
+        raise UsageError(f"no such file or folder: {exc}") from None
+    for skipped in found.skipped:
+        sys.stderr.write(f"regvet: skipped {printable(display_path(skipped.path))}: {skipped.why}\n")
+    return found.files
 
 
 class _SettingsFinder:
@@ -77,7 +80,9 @@ class _SettingsFinder:
         if args.config:
             path = Path(args.config)
             if not path.is_file():
-                raise UsageError(f"--config: no such file: {args.config}")
+                _, why = examine(path)  # a FIFO, a link loop: say so rather than "no such file"
+                raise UsageError(f"--config: {args.config} is {why}" if why and os.path.lexists(path)
+                                 else f"--config: no such file: {args.config}")  # fmt: skip
             self.forced = load_settings(path)
         self.configs = ConfigCache()
 

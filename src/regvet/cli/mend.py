@@ -15,6 +15,7 @@ from regvet.cli.common import (
     _SettingsFinder,
     collect_files,
 )
+from regvet.discovery import read_regular
 from regvet.engine import analyze
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
@@ -56,7 +57,7 @@ def run_mend(args: argparse.Namespace) -> int:
         settings = finder.for_path(file)
         provider = FileModules(project_root(file.resolve(), roots, Path.cwd().resolve()), file, texts)
         try:
-            original = file.read_bytes()
+            original = read_regular(file)
             if file.suffix == ".ipynb":
                 try:
                     text = original.decode("utf-8")

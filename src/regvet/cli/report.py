@@ -9,6 +9,7 @@ from pathlib import Path
 
 from regvet.cli.common import EXIT_FAILED, EXIT_OK, UsageError
 from regvet.cli.scanning import Progress, scan
+from regvet.output.safe import valid_utf8
 from regvet.project import display_path
 
 #: Most points per residual plot (a larger fit is downsampled deterministically, see regvet_points).
@@ -51,12 +52,12 @@ def run_report(args: argparse.Namespace) -> int:
             if images:
                 (output.parent / folder).mkdir(exist_ok=True)
             for name, svg in images.items():
-                _write_new(output.parent / name, svg.encode("utf-8"))
+                _write_new(output.parent / name, valid_utf8(svg).encode("utf-8"))
         else:
             from regvet.output.report_html import render as render_html
 
             text = render_html(audit, plots, same=same_as)
-        _write_new(output, text.encode("utf-8"))
+        _write_new(output, valid_utf8(text).encode("utf-8"))
     except OSError as exc:
         raise UsageError(f"-o: cannot write {exc.filename or args.output}: {exc.strerror or exc}") from None
     n_files = sum(1 for f in audit.files if f.fits)

@@ -9,16 +9,21 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from regvet.analysis.providers import ModuleProvider
-from regvet.cli.common import EXTRA_EXCLUDE, _SettingsFinder, collect_files
+from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
+from regvet.discovery import read_regular
 from regvet.engine import analyze, error_report
 from regvet.factcache import FactCache, RecordingModules
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
+from regvet.output.safe import printable
 from regvet.parallel import default_jobs, map_ordered
 from regvet.project import FileModules, display_path
 from regvet.sources.python import SourceError, decode
 from regvet.workspace import project_root
+
+#: The path that names standard input, and the name its findings are shown under.
+STDIN, STDIN_NAME = "-", "<stdin>"
 
 
 @dataclass
@@ -37,10 +42,11 @@ class Progress:
     """One line on standard error while fits run (file k of n, the fit just computed, time so far);
     nothing at all when standard error is not a terminal."""
 
-    def __init__(self, stream=None) -> None:
+    def __init__(self, stream=None, delay: float = 0.0) -> None:
         self.stream = stream if stream is not None else sys.stderr
         self.enabled = bool(getattr(self.stream, "isatty", lambda: False)())
         self.start = time.monotonic()
+        self.delay = delay  # the reading of files is shown only once it has taken this long
         self.head = ""
         self.shown = False
 
@@ -54,8 +60,20 @@ class Progress:
         self.head = f"regvet: running file {k} of {n}, {path.name}"
         self._show(f"{self.head} ({time.monotonic() - self.start:.0f} s)")
 
-    def finished(self, k: int, n: int, path: Path) -> None:
-        self._show(f"regvet: ran {k} of {n} files, last {path.name} ({time.monotonic() - self.start:.0f} s)")
+    def finished(self, k: int, n: int, path: Path, cached: bool = False) -> None:
+        last = f"{path.name}, cached" if cached else path.name
+        self._show(f"regvet: ran {k} of {n} files, last {last} ({time.monotonic() - self.start:.0f} s)")
+
+    def ran(self, k: int, n: int, path: Path, cached: bool) -> None:
+        """After a file's run: say so when its statistics came from the run cache."""
+        if cached:
+            self._show(f"regvet: file {k} of {n}, {path.name}: cached ({time.monotonic() - self.start:.0f} s)")
+
+    def analysed(self, k: int, n: int, path: Path) -> None:
+        """Reading and analysing files (no run): shown once it has taken ``delay`` seconds."""
+        elapsed = time.monotonic() - self.start
+        if elapsed >= self.delay:
+            self._show(f"regvet: read {k} of {n} files, last {path.name} ({elapsed:.0f} s)")
 
     def fit_for(self, report: FileReport):
         """A callback for the runner: one call per fit the run records."""
@@ -92,18 +110,31 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
 
     ``plot_points`` asks the run for that many residual points per fit (the report's plots)."""
     finder = _SettingsFinder(args)
-    base_settings = finder.for_path(Path(args.paths[0]) if args.paths else Path("."))
+    running = getattr(args, "run", False)
+    _refuse_runtime_only(finder.overrides.only, running)
+    stdin = STDIN in args.paths
+    if stdin and (running or getattr(args, "command", "check") not in ("check", None)):
+        raise UsageError("`-` (a script on standard input) is read by `regvet check` without --run only; "
+                         "save the script to a file for this")  # fmt: skip
+    paths = [p for p in args.paths if p != STDIN]
+    base_settings = finder.for_path(Path(paths[0]) if paths else Path("."))
     exclude = (*DEFAULT_EXCLUDE, *EXTRA_EXCLUDE, *base_settings.exclude)
-    files = collect_files(args.paths, exclude)
+    files = collect_files(paths, exclude)
     roots = {Path(p).resolve() for p in args.paths if Path(p).is_dir()}
     default_root = Path.cwd().resolve()
     no_cache = getattr(args, "no_cache", False)
     jobs = getattr(args, "jobs", None) or default_jobs()
     facts = None if no_cache else FactCache()
     tasks = [(file, finder.for_path(file), project_root(file.resolve(), roots, default_root)) for file in files]
-    reports = _analyze_all(tasks, facts, jobs)
+    reading = progress if progress is not None else Progress(delay=2.0)
+    reports = _analyze_all(tasks, facts, jobs, reading)
+    if stdin:
+        file = Path(STDIN)
+        settings = finder.for_path(Path.cwd() / STDIN_NAME)
+        tasks.append((file, settings, default_root))
+        reports.append(_analyze_bytes(Path.cwd() / STDIN_NAME, STDIN_NAME, sys.stdin.buffer.read(), settings,
+                                      FileModules(default_root, Path.cwd() / STDIN_NAME, {}), {}))  # fmt: skip
     cache = None
-    running = getattr(args, "run", False)
     if running:
         from regvet.runtime.runner import RunCache
 
@@ -117,14 +148,26 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
             if progress is not None:
                 progress.file(k, len(files), file)
             report = _run_file(file, report, settings, cache, progress, plot_points)
+            if progress is not None:
+                progress.ran(k, len(files), file, _was_cached(report))
         for crash in report.crashes:
             out.failed = True
             where = "the analysis" if crash.where == "analysis" else f"rule {crash.where}"
-            sys.stderr.write(f"{report.path}: regvet failed in {where}: {crash.message}\n")
+            sys.stderr.write(printable(f"{report.path}: regvet failed in {where}: {crash.message}\n"))
         out.files.append((file, report))
-    if progress is not None:
-        progress.done()
+    for shown in {id(p): p for p in (reading, progress) if p is not None}.values():
+        shown.done()
     return out
+
+
+def _refuse_runtime_only(only: frozenset[str], running: bool) -> None:
+    """``--only`` naming nothing but rules that judge a run's statistics, without ``--run``: nothing to check."""
+    from regvet.rules import RULES_BY_ID
+
+    if only and not running and all(RULES_BY_ID[r].needs_run for r in only):
+        raise UsageError(f"--only {','.join(sorted(only))}: {'these rules judge' if len(only) > 1 else 'this rule judges'}"
+                         " the statistics of a run, so without --run nothing will be checked; add --run (or use "
+                         "`regvet run`; either EXECUTES the code), or name rules that read the code")  # fmt: skip
 
 
 def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,
@@ -141,8 +184,14 @@ def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,
             i = futures[future]
             out[i] = future.result()
             if progress is not None:
-                progress.finished(done, len(tasks), tasks[i][0])
+                progress.finished(done, len(tasks), tasks[i][0], _was_cached(out[i]))
     return out
+
+
+def _was_cached(report: FileReport) -> bool:
+    """Did the report's run statistics come from the run cache?"""
+    runtime = report.rule_input.runtime if report.rule_input is not None else None
+    return bool(runtime is not None and runtime.cached)
 
 
 def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,
@@ -185,8 +234,10 @@ def _worker_lost(task: Task, why: str) -> FileReport:
     return FileReport(display_path(task[0]), crashes=(Crash("analysis", why),))
 
 
-def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[FileReport]:
-    """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes."""
+def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int,
+                 progress: Progress | None = None) -> list[FileReport]:  # fmt: skip
+    """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes
+    (``progress`` counts the files read)."""
     reports: list[FileReport | None] = [None] * len(tasks)
     texts: dict[Path, str | None] = {}
     found: dict = {}
@@ -195,7 +246,14 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
             reports[i] = _cached(file, settings, root, texts, cache, found)
     todo = [i for i, r in enumerate(reports) if r is None]
     folder = str(cache.folder) if cache is not None else None
-    done = map_ordered(FileAnalyzer, (folder,), [tasks[i] for i in todo], jobs, _worker_lost)
+    finished = [len(tasks) - len(todo)]
+
+    def on_done(index: int) -> None:
+        finished[0] += 1
+        if progress is not None:
+            progress.analysed(finished[0], len(tasks), tasks[todo[index]][0])
+
+    done = map_ordered(FileAnalyzer, (folder,), [tasks[i] for i in todo], jobs, _worker_lost, on_done)
     for i, report in zip(todo, done, strict=False):
         reports[i] = report
     return [r for r in reports if r is not None]
@@ -204,7 +262,7 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int) -> list[
 def _cached(file: Path, settings: Settings, root: Path, texts: dict[Path, str | None],
             cache: FactCache, found: dict) -> FileReport | None:  # fmt: skip
     try:
-        data = file.read_bytes()
+        data = read_regular(file)
     except OSError:
         return None
     key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
@@ -219,7 +277,7 @@ def analyze_file(
     the analysis is stored there with the project-module lookups it made."""
     shown = display_path(file)
     try:
-        data = file.read_bytes()
+        data = read_regular(file)
     except OSError as exc:
         return _unreadable(shown, settings, f"cannot read the file: {exc.strerror or exc}")
     modules = FileModules(root, file, texts, found=found)

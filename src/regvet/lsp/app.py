@@ -26,6 +26,7 @@ from regvet.lsp.server import (
     on_config,
     on_initialize,
     on_initialized,
+    on_shutdown,
     on_watched,
 )
 
@@ -41,6 +42,7 @@ def create_server() -> RegvetServer:
     for method, handler, options in (
         (t.INITIALIZE, on_initialize, None),
         (t.INITIALIZED, on_initialized, None),
+        (t.SHUTDOWN, on_shutdown, None),
         (t.WORKSPACE_DID_CHANGE_CONFIGURATION, on_config, None),
         (t.WORKSPACE_DID_CHANGE_WATCHED_FILES, on_watched, None),
         (t.TEXT_DOCUMENT_DID_OPEN, did_open, None),
@@ -96,4 +98,17 @@ def main(argv: list[str] | None = None) -> int:
         server.start_tcp("127.0.0.1", port)
     else:
         server.start_io()
-    return 0
+    # Leave at once: a thread still blocked reading stdin (or a quick fix under way) must not
+    # keep the process alive after `exit` or the end of the stream.
+    import atexit
+    import os
+    import sys
+
+    atexit._run_exitfuncs()
+    logging.shutdown()
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (OSError, ValueError):  # `exit` closed stdout, or the client is gone
+            pass
+    os._exit(server.exit_code)

@@ -22,6 +22,7 @@ import atexit
 import logging
 import shutil
 import tempfile
+import threading
 import uuid
 from collections import OrderedDict
 from concurrent.futures import ThreadPoolExecutor
@@ -37,17 +38,19 @@ from pygls.uris import from_fs_path, to_fs_path
 from regvet import __version__
 from regvet.baseline import hide_known
 from regvet.config import ConfigError, find_config
-from regvet.engine import analyze, analyze_cells, with_runtime
+from regvet.engine import with_runtime
 from regvet.lsp.convert import CONFIG_ERROR, Positions, to_diagnostic
+from regvet.lsp.transport import CHUNK, RegvetProtocol, serve
+from regvet.lsp.workers import DEFAULT_BUDGET_S, AnalysisFailed, AnalysisPool, AnalysisTimeout, Job, analyse_job
 from regvet.model.report import FileReport
 from regvet.model.settings import Settings
-from regvet.project import FileModules
 from regvet.rules import RULES_BY_ID
 from regvet.workspace import ConfigCache, Overrides, project_root, split_rule_ids
 
 log = logging.getLogger("regvet.lsp")
 DEFAULT_DEBOUNCE_MS = 300
-CLIENT_KEYS = ("alpha", "skip", "only", "debounceMs")
+CLIENT_KEYS = ("alpha", "skip", "only", "debounceMs", "budgetMs")
+STOPPED = "analysis-stopped"  #: the code of the diagnostic on a document whose analysis was given up
 
 
 class LRU(OrderedDict):
@@ -129,8 +132,10 @@ class RegvetServer(LanguageServer):
                 ],
                 save=True,
             ),
+            protocol_cls=RegvetProtocol,
         )
-        self.pool = ThreadPoolExecutor(max_workers=2, thread_name_prefix="regvet-analysis")
+        self.pool = ThreadPoolExecutor(max_workers=2, thread_name_prefix="regvet-analysis")  # quick fixes, runs
+        self.analyses = AnalysisPool()  # static analyses as you type: child processes with a budget
         self.client_settings: dict[str, Any] = {}
         self.pending: dict[str, asyncio.Task] = {}
         self.results: dict[str, Result] = {}
@@ -144,6 +149,7 @@ class RegvetServer(LanguageServer):
         self._rule_docs: Path | None = None
         self._doc_uris: dict[str, str | None] = {}
         self._warned: set[tuple] = set()
+        self.exit_code = 0
 
     @property
     def rule_docs(self) -> Path:
@@ -161,6 +167,57 @@ class RegvetServer(LanguageServer):
         for rid in RULES_BY_ID:
             (self.rule_docs / f"{rid}.md").write_text(explain(rid), encoding="utf-8")
 
+    # --- transport (pygls' reading loop replaced: see transport.py) ----------------------------
+    def start_io(self, stdin: Any = None, stdout: Any = None) -> None:
+        """Serve over stdio until the client says ``exit`` or closes the stream."""
+        import os
+        import sys
+
+        from pygls.io_ import StdoutWriter
+
+        self._stop_event = stop = threading.Event()
+        fd = (stdin or sys.stdin.buffer).fileno()
+        self.protocol.set_writer(StdoutWriter(stdout or sys.stdout.buffer))
+        reader = ThreadPoolExecutor(max_workers=1, thread_name_prefix="regvet-stdin")
+
+        async def read() -> bytes:
+            return await asyncio.get_running_loop().run_in_executor(reader, os.read, fd, CHUNK)
+
+        self.exit_code = 1  # the end of the stream without `shutdown` first (as `exit` without it)
+        try:
+            asyncio.run(serve(stop, read, self.protocol))  # type: ignore[arg-type]
+            self.exit_code = 0 if self.protocol._shutdown else 1
+        except BrokenPipeError:
+            log.error("the client's end of the pipe is closed; stopping")
+        except SystemExit as exc:  # `exit`: 0 after `shutdown`, 1 without
+            self.exit_code = exc.code if isinstance(exc.code, int) else 1
+        except KeyboardInterrupt:
+            pass
+        finally:
+            reader.shutdown(wait=False)
+            self.shutdown()
+
+    def start_tcp(self, host: str, port: int) -> None:
+        """Serve one client over TCP until it says ``exit`` or disconnects."""
+        self._stop_event = stop = threading.Event()
+
+        async def connection(reader: asyncio.StreamReader, writer: asyncio.StreamWriter) -> None:
+            self.protocol.set_writer(writer)
+            try:
+                await serve(stop, lambda: reader.read(CHUNK), self.protocol)  # type: ignore[arg-type]
+            finally:
+                self.shutdown()
+
+        async def listen() -> None:
+            self._server = await asyncio.start_server(connection, host, port)
+            async with self._server:
+                await self._server.serve_forever()
+
+        try:
+            asyncio.run(listen())
+        except (asyncio.CancelledError, KeyboardInterrupt, SystemExit):
+            pass
+
     # --- reporting -------------------------------------------------------------------------
     def report_server_error(self, error: Exception, source: Any) -> None:
         log.error("regvet internal error: %r", error)
@@ -176,6 +233,22 @@ class RegvetServer(LanguageServer):
             path = self.rule_docs / f"{rule}.md"
             self._doc_uris[rule] = from_fs_path(str(path)) if path.exists() else None
         return self._doc_uris[rule]
+
+    @property
+    def budget(self) -> float:
+        """Seconds one analysis may take before it is given up (the client's `budgetMs`)."""
+        value = self.client_settings.get("budgetMs")
+        if isinstance(value, (int, float)) and not isinstance(value, bool) and 0 < value < 3_600_000:
+            return float(value) / 1000.0
+        return DEFAULT_BUDGET_S
+
+    def shutdown(self) -> None:
+        """Stop reading, and end every analysis process and pending task at once."""
+        self.analyses.close()
+        for task in list(self.pending.values()):
+            task.cancel()
+        self.pool.shutdown(wait=False, cancel_futures=True)
+        super().shutdown()
 
     @property
     def debounce(self) -> float:
@@ -205,11 +278,16 @@ class RegvetServer(LanguageServer):
         if nb is not None:
             cells = []
             versions = []
+            seen: set[str] = set()
             for index, cell in enumerate(nb.cells):
                 doc = self.open_text(cell.document)
                 text = doc.source if doc is not None else ""
                 versions.append(doc.version if doc is not None else None)
-                cells.append(CellSnapshot(index, cell.kind, cell.document, text))
+                kind = cell.kind
+                if unquote(cell.document) in seen:  # one document listed twice: analysed (and shown) once
+                    kind, text = t.NotebookCellKind.Markup, ""
+                seen.add(unquote(cell.document))
+                cells.append(CellSnapshot(index, kind, cell.document, text))
             return NotebookSnapshot(key, (nb.version, tuple(versions)), tuple(cells))
         doc = self.open_text(key)
         if doc is None:
@@ -269,26 +347,42 @@ def _root_for(ls: RegvetServer, path: Path) -> Path:
     return project_root(path, folders, Path(root) if root else None)
 
 
-def run_analysis(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str]) -> FileReport:
-    key = snap.key
-    fs = to_fs_path(key)
+def job_for(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str]) -> Job:
+    """What the analysis of ``snap`` needs besides its text: settings, project root, open buffers."""
+    fs = to_fs_path(snap.key)
     path = Path(fs).resolve() if fs else None
-    settings = ls.settings_for(path)
-    provider = (
-        FileModules(_root_for(ls, path), path, overlay=overlay, show=lambda p: str(p)) if path is not None else None
-    )
-    shown = str(path) if path is not None else key
-    module_key = path.stem if path is not None else ""
-    if isinstance(snap, NotebookSnapshot):
-        report = analyze_cells(snap.code_cells(), len(snap.cells), shown, settings, provider=provider,
-                               module_key=module_key, module_cache=ls.module_cache)  # fmt: skip
-    else:
-        report = analyze(snap.text, shown, settings, notebook=False, provider=provider, module_key=module_key,
-                         module_cache=ls.module_cache)  # fmt: skip
-    ran = ls.runtime.get(key)
+    root = _root_for(ls, path) if path is not None else None
+    return Job(snap, ls.settings_for(path), root, path, overlay)
+
+
+def with_last_run(ls: RegvetServer, snap: Snapshot, report: FileReport, settings: Settings) -> FileReport:
+    ran = ls.runtime.get(snap.key)
     if ran is not None and ran[0] == snap.version:
         report = with_runtime(report, ran[1], settings)  # the last run still describes this text
     return report
+
+
+def run_analysis(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str]) -> FileReport:
+    """The analysis in this process (``regvet.runFits``, which the user starts, runs it in the pool)."""
+    job = job_for(ls, snap, overlay)
+    return with_last_run(ls, snap, analyse_job(job, ls.module_cache), job.settings)
+
+
+def stopped_result(ls: RegvetServer, snap: Snapshot, why: str) -> Result:
+    """A result with one diagnostic saying the analysis was given up (on the first code cell of a notebook)."""
+    shown = to_fs_path(snap.key) or snap.key
+    if isinstance(snap, NotebookSnapshot):
+        texts = {c.uri: c.text for c in snap.cells if c.is_code}
+        cells = {c.index: c.uri for c in snap.cells}
+    else:
+        texts, cells = {snap.uri: snap.text}, {}
+    diagnostics: dict[str, list[t.Diagnostic]] = {uri: [] for uri in texts}
+    for uri in list(diagnostics)[:1]:
+        diagnostics[uri].append(t.Diagnostic(
+            range=t.Range(t.Position(0, 0), t.Position(0, 0)), severity=t.DiagnosticSeverity.Warning,
+            source="regvet", code=STOPPED, message=f"regvet did not finish analysing this document: {why}. "
+            "Its other documents are analysed as usual; `regvet check` reports the file on its own."))  # fmt: skip
+    return Result(snap.version, FileReport(path=shown), diagnostics, texts, cells)
 
 
 def build_result(ls: RegvetServer, snap: Snapshot, report: FileReport) -> Result:
@@ -325,7 +419,9 @@ def build_result(ls: RegvetServer, snap: Snapshot, report: FileReport) -> Result
                 t.DiagnosticRelatedInformation(location=t.Location(uri=rel_uri, range=rel_pos.range(r.span)),
                                                message=r.message)  # fmt: skip
             )
-        diagnostics[uri].append(to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule)))
+        diagnostic = to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule))
+        if diagnostic not in diagnostics[uri]:
+            diagnostics[uri].append(diagnostic)
     return Result(snap.version, report, diagnostics, texts, cells)
 
 
@@ -345,12 +441,22 @@ async def analyse(ls: RegvetServer, key: str) -> Result | None:
     snap = ls.snapshot(key)
     if snap is None:
         return None
-    overlay = ls.overlay()
-    loop = asyncio.get_running_loop()
-    report = await loop.run_in_executor(ls.pool, run_analysis, ls, snap, overlay)
+    job = job_for(ls, snap, ls.overlay())
+    budget = ls.budget
+    report: FileReport | None = None
+    try:
+        report = await ls.analyses.run(job, budget)
+    except AnalysisTimeout:
+        why = f"it took longer than the budget of {budget:g} s (too large or too complex to analyse as you type)"
+    except AnalysisFailed as exc:
+        why = f"the analysis failed ({exc})"
     if ls.current_version(key) != snap.version:
         return None  # edited while we worked: a newer analysis is on its way
-    result = build_result(ls, snap, report)
+    if report is None:
+        log.warning("%s: %s", key, why)
+        result = stopped_result(ls, snap, why)
+    else:
+        result = build_result(ls, snap, with_last_run(ls, snap, report, job.settings))
     ls.results[key] = result
     publish_config_errors(ls)
     return result
@@ -428,6 +534,7 @@ def forget(ls: RegvetServer, key: str) -> None:
     if task is not None:
         task.cancel()
     ls.results.pop(key, None)
+    ls.runtime.pop(key, None)
 
 
 def schedule_dependents(ls: RegvetServer, changed: Path, delay: float) -> None:
@@ -503,6 +610,7 @@ async def pull_settings(ls: RegvetServer) -> None:
 
 
 async def on_initialized(ls: RegvetServer, params: t.InitializedParams) -> None:
+    ls.analyses.background(ls.analyses.warm())  # the first analysis process starts while settings arrive
     await pull_settings(ls)
     ws = ls.client_capabilities.workspace
     if ws and ws.did_change_watched_files and ws.did_change_watched_files.dynamic_registration:
@@ -523,6 +631,13 @@ async def on_initialized(ls: RegvetServer, params: t.InitializedParams) -> None:
                 ]
             )
         )
+
+
+async def on_shutdown(ls: RegvetServer, params: Any) -> None:
+    """``shutdown``: no more analyses; the ones under way end now (their processes are killed)."""
+    ls.analyses.close()
+    for task in list(ls.pending.values()):
+        task.cancel()
 
 
 async def on_config(ls: RegvetServer, params: t.DidChangeConfigurationParams) -> None:

@@ -64,6 +64,9 @@ class Fit:
     statement: Span | None  # the statement holding the fit call, in the analysed file
     model_span: Span | None = None  # the model constructor call, in the analysed file
     time_where: Loc | None = None  # where the evidence of time order is, when known
+    formula_too_large: bool = False  # the formula expands to too many terms to read them
+    categorical_terms: frozenset[str] = frozenset()  # C(g) factors that are a term of their own
+    interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
     #: Fits with the same number are the same specification fitted on the same data (None: unknown).
     spec: int | None = None
 

@@ -23,12 +23,17 @@ FAMILIES: dict[str, str] = {
 DEFAULT_EXCLUDE: tuple[str, ...] = (".venv", "venv", ".git", "build", "site-packages", "node_modules")
 
 
+#: Bounds of the runtime limits: a longer run or a larger address space is a typo, not a plan.
+MAX_SECONDS = 7 * 24 * 3600
+MIN_MEGABYTES, MAX_MEGABYTES = 64, 16 * 1024 * 1024
+
+
 @dataclass(frozen=True)
 class Option:
     """One configuration key: its TOML type, default and a one-line description."""
 
     name: str
-    kind: str  # "float", "rules", "severity-map", "globs", "strings", "helpers"
+    kind: str  # "float", "rules", "severity-map", "globs", "strings", "columns", "helpers", ...
     default: object
     doc: str
 
@@ -40,11 +45,13 @@ class Option:
             "severity-map": 'a table of rule id = "error", "warning" or "info"',
             "globs": "a list of glob patterns",
             "strings": "a list of strings",
+            "columns": "a list of column names",
             "helpers": "a table of dotted function name = list of check families",
             "string": "a string",
             "int": "a positive whole number",
             "optional-int": "a whole number, 0 or more",
-            "seconds": "a positive number of seconds",
+            "seconds": f"a number of seconds, more than 0 and at most {MAX_SECONDS} (a week)",
+            "megabytes": f"a whole number of MB from {MIN_MEGABYTES} to {MAX_MEGABYTES} (16 TB)",
             "hc": 'one of "HC0", "HC1", "HC2", "HC3"',
         }[self.kind]
 
@@ -62,6 +69,12 @@ OPTIONS: tuple[Option, ...] = (
         "Columns (or pandas query expressions) where a structural break is suspected.",
     ),
     Option(
+        "fixed_effects",
+        "columns",
+        (),
+        "Categorical columns that are fixed effects (unit, period): their `C(...)` terms need no break test.",
+    ),
+    Option(
         "diagnostic_helpers",
         "helpers",
         (),
@@ -70,9 +83,10 @@ OPTIONS: tuple[Option, ...] = (
     # --- runtime mode (regvet check --run) ---
     Option("python", "string", "", "Interpreter that runs the analysis in runtime mode (default: regvet's own)."),
     Option("run_timeout", "seconds", 300.0, "Wall-clock limit for one script's run, in seconds."),
-    Option("run_memory_mb", "int", 8192, "Address-space limit for one script's run, in MB."),
+    Option("run_memory_mb", "megabytes", 8192, "Address-space limit for one script's run, in MB."),
     Option("serial_lags", "optional-int", 0, "Lags for Breusch-Godfrey (default by the index frequency: 4, 12 or 1)."),
     Option("time_column", "string", "", "A column that orders the data in time (besides a date index)."),
+    Option("unit_column", "string", "", "The column naming the unit of a panel: serial tests run within units."),
     Option("white_max_columns", "int", 40, "Largest auxiliary regression for the full White test (else the special form)."),
     Option("robust_se", "hc", "HC3", "Robust standard errors reported beside the usual ones."),
     Option("robust_se_large", "hc", "HC1", "Robust standard errors used instead when n is large."),
@@ -92,12 +106,14 @@ class Settings:
     severity: tuple[tuple[str, str], ...] = ()
     exclude: tuple[str, ...] = ()
     break_candidates: tuple[str, ...] = ()
+    fixed_effects: tuple[str, ...] = ()
     diagnostic_helpers: tuple[tuple[str, tuple[str, ...]], ...] = ()
     python: str = ""
     run_timeout: float = 300.0
     run_memory_mb: int = 8192
     serial_lags: int = 0  # 0: by the index frequency
     time_column: str = ""
+    unit_column: str = ""
     white_max_columns: int = 40
     robust_se: str = "HC3"
     robust_se_large: str = "HC1"

@@ -38,7 +38,8 @@ class Span:
         return (-1 if self.cell is None else self.cell, self.line, self.col)
 
     def describe(self) -> str:
-        """Short human form: ``line 12`` or ``cell 3, line 2``."""
+        """Short human form: ``line 12`` or ``cell 4, line 2`` (cells counted from 1, as people count them
+        on screen; ``cell`` itself counts from 0)."""
         if self.cell is None:
             return f"line {self.line}"
-        return f"cell {self.cell}, line {self.line}"
+        return f"cell {self.cell + 1}, line {self.line}"

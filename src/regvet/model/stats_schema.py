@@ -83,6 +83,20 @@ class BreuschGodfrey(TypedDict):
     form: str
 
 
+class WithinUnitSerial(TypedDict):
+    """First-order serial correlation within the units of a stacked panel (``unit_column``)."""
+
+    rho: float | None
+    se: float | None
+    t: float | None
+    pvalue: float | None
+    df: int
+    units: int
+    pairs: int
+    units_from: str
+    form: str
+
+
 class GroupSize(TypedDict):
     label: str
     nobs: int
@@ -158,6 +172,9 @@ class _FitStatisticsAlways(TypedDict):
     time_ordered: str | None
     durbin_watson: float | None
     breusch_godfrey: BreuschGodfrey | None
+    #: For a stacked panel whose units are known (``unit_column``, or a (unit, time) index): the
+    #: serial test within units; None otherwise (then, for a panel, the two above say why not).
+    serial_within_units: WithinUnitSerial | None
     chow: list[ChowTest]
     coefficient_tests: str
     coefficients: list[Coefficient] | None

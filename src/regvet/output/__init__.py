@@ -10,7 +10,7 @@ import importlib
 from collections.abc import Callable
 
 #: Format name -> the module (in this package) whose ``render`` writes it.
-FORMAT_MODULES = {"text": "text", "json": "json_out", "sarif": "sarif", "github": "github"}
+FORMAT_MODULES = {"text": "text", "lines": "lines", "json": "json_out", "sarif": "sarif", "github": "github"}
 
 
 def renderer(name: str) -> Callable[..., str]:

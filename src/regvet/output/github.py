@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from regvet.model.finding import Severity
 from regvet.model.report import FileReport
+from regvet.output.safe import printable
 
 _LEVEL = {Severity.ERROR: "error", Severity.WARNING: "warning", Severity.INFO: "notice"}
 
@@ -30,7 +31,7 @@ def render(reports: list[FileReport], **_: object) -> str:
                 if s.end_line == s.line:
                     props.append(f"endColumn={s.end_col + 1}")
             else:
-                message = f"cell {s.cell}, line {s.line}: {message}"
+                message = f"{s.describe()}: {message}"
             props.append(f"title={_escape_prop('regvet ' + f.rule)}")
             out.append(f"::{_LEVEL[f.severity]} {','.join(props)}::{_escape_data(message)}")
-    return "\n".join(out) + ("\n" if out else "")
+    return printable("\n".join(out) + ("\n" if out else ""))

@@ -7,11 +7,12 @@ from typing import Any
 
 from regvet.model.finding import Finding
 from regvet.model.report import FileReport
+from regvet.output.safe import encodable, uri_path, valid_utf8
 
 
 def finding_dict(path: str, f: Finding) -> dict[str, Any]:
     s = f.span
-    return {
+    out: dict[str, Any] = {
         "rule": f.rule,
         "severity": f.severity.label,
         "path": path,
@@ -35,8 +36,11 @@ def finding_dict(path: str, f: Finding) -> dict[str, Any]:
         "reason": f.reason,
         "stats": f.stats,
     }
+    if not encodable(path):  # a file name that is not UTF-8: "path" shows it with U+FFFD, this keeps its bytes
+        out["path_uri"] = uri_path(path)
+    return out
 
 
 def render(reports: list[FileReport], **_: object) -> str:
     findings = [finding_dict(r.path, f) for r in reports for f in r.findings]
-    return json.dumps({"version": 1, "findings": findings}, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    return valid_utf8(json.dumps({"version": 1, "findings": findings}, indent=2, ensure_ascii=False, allow_nan=False)) + "\n"

@@ -12,12 +12,12 @@ import hashlib
 import json
 from pathlib import Path
 from typing import Any
-from urllib.parse import quote
 
 from regvet import __version__
 from regvet.model.finding import Finding, Severity
 from regvet.model.report import FileReport
 from regvet.model.span import Span
+from regvet.output.safe import uri_path, valid_utf8
 from regvet.rules import ALL_RULES
 
 _LEVEL = {Severity.ERROR: "error", Severity.WARNING: "warning", Severity.INFO: "note"}
@@ -26,7 +26,7 @@ SCHEMA_URI = "https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas
 
 
 def _uri(path: str) -> str:
-    return quote(Path(path).as_posix(), safe="/")
+    return uri_path(Path(path).as_posix())  # a name that is not UTF-8: its own bytes, percent-encoded
 
 
 def _region(span: Span) -> dict[str, int]:
@@ -42,7 +42,7 @@ def _fingerprint(rule: str, path: str, message: str, cell: int | None) -> str:
     # Stable across runs that only move lines: rule, path, cell and message (messages name the
     # fit by variable or formula, not by line).
     head = message.split(" (first at ")[0].split(" (`")[0]
-    return hashlib.sha256(f"{rule}\0{path}\0{cell}\0{head}".encode()).hexdigest()[:32]
+    return hashlib.sha256(f"{rule}\0{path}\0{cell}\0{head}".encode("utf-8", "surrogatepass")).hexdigest()[:32]
 
 
 def _location(path: str, span: Span, message: str | None = None, id_: int | None = None) -> dict[str, Any]:
@@ -128,4 +128,4 @@ def build(reports: list[FileReport], root: Path | None = None) -> dict[str, Any]
 
 
 def render(reports: list[FileReport], **_: object) -> str:
-    return json.dumps(build(reports), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    return valid_utf8(json.dumps(build(reports), indent=2, ensure_ascii=False, allow_nan=False)) + "\n"

@@ -43,6 +43,21 @@ class RuleInput:
     runtime: RuntimeFacts | None = None  # only in runtime mode
     #: Ids of every rule in the catalogue (the engine fills it in), so waivers can name unknown ones.
     known_rules: frozenset[str] = frozenset()
+    #: Why the analysis of the file stopped early (a bound regvet keeps whatever the input: too
+    #: deep, over its time budget); the facts then hold what was found before it stopped, or nothing.
+    stopped: tuple[str, ...] = ()
+    #: How the file already calls the diagnostics findings suggest (``sources.imports.suggested_spellings``).
+    spellings: tuple[tuple[str, str], ...] = ()
+    #: Notebook cells that do not parse on their own (their code was left out of the analysis).
+    broken_cells: tuple[SourceError, ...] = ()
+
+    def call(self, name: str) -> str:
+        """How suggested code calls ``name`` in this file: its import alias (``lr``, ``sms.linear_reset``)
+        when the file has imported it, else the plain name."""
+        for known, spelt in self.spellings:
+            if known == name:
+                return spelt
+        return name
 
     def where(self, loc: Loc) -> str:
         """A location as a message names it: ``line 12``, ``cell 3, line 2`` or ``helpers.py, line 8``."""
@@ -294,6 +309,11 @@ def _merge(inp: RuleInput, group: list[Finding], fits: list[Fit]) -> Finding:
 
 def related(loc: Loc, message: str) -> Related:
     return Related(loc.span, message, loc.path)
+
+
+def code_name(fit: Fit) -> str:
+    """The fit's variable in suggested code (``res`` when the result has no simple name)."""
+    return fit.result_name if fit.result_name and fit.result_name.isidentifier() else "res"
 
 
 def describe_fit(fit: Fit) -> str:

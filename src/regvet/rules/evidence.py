@@ -88,6 +88,9 @@ def summary(stats: FitStatistics) -> str:
     bg = stats.get("breusch_godfrey")
     if bg is not None and bg.get("lm_pvalue") is not None:
         bits.append(f"BG {p(bg.get('lm_pvalue'))}")
+    within = stats.get("serial_within_units")
+    if within is not None and within.get("pvalue") is not None:
+        bits.append(f"serial within units {p(within.get('pvalue'))}")
     ci = stats.get("condition_index")
     if ci is not None and ci.get("value") is not None:
         bits.append(f"cond. index {num(ci.get('value'))}")

@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import QuickFix, Rule, RuleInput, describe_fit, missing_check, once_per_root
+from regvet.rules.base import QuickFix, Rule, RuleInput, code_name, describe_fit, missing_check, once_per_root
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -29,8 +29,8 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
         target,
         f"{describe_fit(target)} has its estimates used{used} but no functional-form test was run on it. "
         "The coefficients assume the model is linear in these regressors with no missing powers or "
-        "interactions; run a RESET test (`linear_reset(res, power=3, use_f=True)`) and revisit the "
-        "specification if it rejects.",
+        f"interactions; run a RESET test (`{inp.call('linear_reset')}({code_name(target)}, power=3, use_f=True)`) "
+        "and revisit the specification if it rejects.",
         uses,
         escapes,
     )

@@ -7,7 +7,7 @@ from collections.abc import Iterator
 from regvet.analysis.catalog import HAC_COV
 from regvet.model.facts import Fit, Loc
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check, related
+from regvet.rules.base import Rule, RuleInput, code_name, describe_fit, missing_check, related
 
 
 def time_evidence(inp: RuleInput, fit: Fit) -> tuple[str, Loc | None] | None:
@@ -39,7 +39,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             fit,
             f"{describe_fit(fit)} is fitted on time-ordered data ({reason}{place}) and its inference is used, but "
             "neither a serial-correlation test nor HAC covariance was applied. Its standard errors assume "
-            "uncorrelated errors; run `acorr_breusch_godfrey(res, nlags=...)` or fit with "
+            f"uncorrelated errors; run `{inp.call('acorr_breusch_godfrey')}({code_name(fit)}, nlags=...)` or fit with "
             '`cov_type="HAC", cov_kwds={"maxlags": ...}`.',
             uses,
             escapes,

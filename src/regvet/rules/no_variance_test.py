@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import QuickFix, Rule, RuleInput, describe_fit, missing_check
+from regvet.rules.base import QuickFix, Rule, RuleInput, code_name, describe_fit, missing_check
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -19,13 +19,14 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if inp.checks(fit.id, "variance"):
             continue
         used = f" (`{uses[0].member}`, {inp.where(uses[0].loc)})" if uses else ""
+        name = code_name(fit)
         yield missing_check(
             RULE,
             fit,
             f"{describe_fit(fit)} reports inference{used} with the default non-robust covariance, and no "
             "heteroskedasticity test was applied to it. Those standard errors assume constant error "
-            "variance; test it (`het_breuschpagan(res.resid, res.model.exog)`) or fit with robust "
-            'standard errors (`.fit(cov_type="HC3")`).',
+            f"variance; test it (`{inp.call('het_breuschpagan')}({name}.resid, {name}.model.exog)`) or fit "
+            'with robust standard errors (`.fit(cov_type="HC3")`).',
             uses,
             escapes,
         )

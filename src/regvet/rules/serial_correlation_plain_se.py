@@ -19,6 +19,21 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if not uses:
             continue
         for s in runs(inp, fit.id):
+            within = s.get("serial_within_units")
+            within_p = within.get("pvalue") if within is not None else None
+            if within is not None and within_p is not None and within_p < alpha:
+                if str(s.get("cov_type", "")).lower() in (*HAC_COV, "cluster"):
+                    continue  # clustered by unit (or HAC): the covariance allows for it
+                yield RULE.fit_finding(
+                    fit,
+                    f"Serial correlation within units: residual on its own unit's previous residual, "
+                    f"rho = {num(within.get('rho'))}, t = {num(within.get('t'))}, {p(within_p)} "
+                    f"({within.get('units')} units from {within.get('units_from')}, cluster-robust): the errors "
+                    f"of {describe_fit(fit)} are correlated over time within units, so its standard errors are "
+                    'not valid. Use standard errors clustered by unit (`cov_type="cluster"`) or model the dynamics.',
+                    uses[:1],
+                )
+                break
             bg = s.get("breusch_godfrey")
             pvalue = bg.get("lm_pvalue") if bg is not None else None
             if str(s.get("cov_type", "")).lower() in HAC_COV or bg is None or pvalue is None or pvalue >= alpha:
@@ -45,6 +60,9 @@ RULE = Rule(
         "are inconsistent, usually too small. Breusch-Godfrey regresses the residuals on the regressors and "
         "their own lags (zero-padded, all observations: statsmodels' convention); lags default by the data's "
         "frequency (4 quarterly, 12 monthly, 1 otherwise; common practice) or `serial_lags`.\n\n"
+        "For a stacked panel (time values repeat: several units per period) Breusch-Godfrey over the "
+        "stacked rows would mix units and is not run; with `unit_column` (or a (unit, time) index) the "
+        "residual is regressed on its own unit's previous residual, cluster-robust by unit.\n\n"
         "Runtime mode only, for data with a date or period index or a configured `time_column`."
     ),
     bad='''\

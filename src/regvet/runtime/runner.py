@@ -6,6 +6,13 @@ started in the script's own folder with standard input closed, the matplotlib ba
 forced to Agg, an address-space limit and a wall-clock timeout. Its findings come back as
 JSON lines in a temporary file, written as each fit completes.
 
+The child leads a session (and so a process group) of its own. When it ends, for whatever
+reason, every process still in that group (what the script started and left running) is
+killed before the child is reaped: the child's pid, and so the group's id, cannot be reused
+meanwhile. A process that leaves the group (a new session, ``setsid``, a daemon) escapes;
+only a cgroup could hold it. The child's peak resident memory (``wait4``) and any signal the
+script sent itself (recorded by the probe) tell a self-inflicted kill from one for memory.
+
 **This executes the user's code.** It is only ever reached through an explicit request
 (``regvet check --run`` / ``regvet run``, or the editor's ``regvet.runFits`` command).
 """
@@ -15,6 +22,7 @@ from __future__ import annotations
 import hashlib
 import json
 import os
+import select
 import signal
 import subprocess
 import sys
@@ -45,6 +53,10 @@ class RunResult:
     elapsed_s: float = 0.0
     cached: bool = False
     command_error: str | None = None
+    #: The child's peak resident set in MB (None where the platform does not tell).
+    peak_mb: float | None = None
+    #: A signal the script sent to itself or its own group (recorded by the probe just before).
+    self_signal: int | None = None
 
     @property
     def completed(self) -> bool:
@@ -54,7 +66,7 @@ class RunResult:
         return {
             "fits": self.fits, "end": self.end, "timed_out": self.timed_out, "returncode": self.returncode,
             "signal": self.signal, "output_tail": self.output_tail, "elapsed_s": self.elapsed_s,
-            "command_error": self.command_error,
+            "command_error": self.command_error, "peak_mb": self.peak_mb, "self_signal": self.self_signal,
         }  # fmt: skip
 
     @classmethod
@@ -68,6 +80,8 @@ class RunResult:
             output_tail=list(data.get("output_tail") or []),
             elapsed_s=float(data.get("elapsed_s") or 0.0),
             command_error=data.get("command_error"),
+            peak_mb=data.get("peak_mb"),
+            self_signal=data.get("self_signal"),
         )
 
 
@@ -99,7 +113,7 @@ class RunCache:
     def key(path: Path, content: bytes, python: str, options: dict[str, Any]) -> str:
         h = hashlib.sha256()
         for part in (str(path.resolve()), python, probe_version(), json.dumps(options, sort_keys=True)):
-            h.update(part.encode())
+            h.update(part.encode("utf-8", "surrogatepass"))  # a file name need not be UTF-8
             h.update(b"\0")
         h.update(content)
         return h.hexdigest()
@@ -202,12 +216,14 @@ def run(
                 started(proc)
             try:
                 if on_fit is None:
-                    proc.wait(timeout=timeout)
+                    exited = _exited(proc, timeout)
                 else:
-                    _wait_watching(proc, timeout, out, on_fit)
-            except subprocess.TimeoutExpired:
-                result.timed_out = True
-                _kill(proc)
+                    exited = _wait_watching(proc, timeout, out, on_fit)
+            except BaseException:  # interrupted (Ctrl-C): end the group, then let it propagate
+                result.peak_mb = _end_group(proc)
+                raise
+            result.timed_out = not exited
+            result.peak_mb = _end_group(proc)
         result.elapsed_s = round(time.perf_counter() - start, 3)
         result.returncode = proc.returncode
         if proc.returncode is not None and proc.returncode < 0:
@@ -218,22 +234,23 @@ def run(
                 result.fits.append(cast(FitRecord, record))  # the probe writes FitRecord lines
             elif record.get("type") == "end":
                 result.end = record
+            elif record.get("type") == "self-signal" and result.signal is not None:
+                if record.get("signal") == result.signal:  # the script sent the very signal that ended it
+                    result.self_signal = result.signal
     if cache is not None:
         cache.put(key, result)
     return result
 
 
-def _wait_watching(proc: subprocess.Popen, timeout: float, out: Path, on_fit: Callable[[FitRecord], None]) -> None:
-    """``proc.wait(timeout)``, calling ``on_fit`` for each complete fit line the child adds to ``out``."""
+def _wait_watching(proc: subprocess.Popen, timeout: float, out: Path, on_fit: Callable[[FitRecord], None]) -> bool:
+    """:func:`_exited` with ``timeout``, calling ``on_fit`` for each complete fit line the child adds to ``out``."""
     deadline = time.monotonic() + timeout
     done = 0  # bytes of ``out`` already passed on
     while True:
-        try:
-            proc.wait(timeout=max(min(0.2, deadline - time.monotonic()), 0.001))
-            return
-        except subprocess.TimeoutExpired:
-            if time.monotonic() >= deadline:
-                raise
+        if _exited(proc, max(min(0.2, deadline - time.monotonic()), 0.001)):
+            return True
+        if time.monotonic() >= deadline:
+            return False
         try:
             with open(out, "rb") as fh:
                 fh.seek(done)
@@ -254,12 +271,82 @@ def _wait_watching(proc: subprocess.Popen, timeout: float, out: Path, on_fit: Ca
                     pass
 
 
-def _kill(proc: subprocess.Popen) -> None:
+def _exited(proc: subprocess.Popen, timeout: float) -> bool:
+    """Whether the child ends within ``timeout`` seconds. It is *not* reaped: while it is a zombie its pid,
+    which is its process group's id, cannot be given to another process, so :func:`_end_group` is safe."""
+    pidfd_open = getattr(os, "pidfd_open", None)
+    if pidfd_open is not None:  # Linux 5.3+: the descriptor becomes readable when the process exits
+        try:
+            fd = pidfd_open(proc.pid)
+        except OSError:
+            fd = -1
+        if fd >= 0:
+            try:  # poll, not select: a server with many open files may hand out a descriptor above 1023
+                poller = select.poll()
+                poller.register(fd, select.POLLIN)
+                return bool(poller.poll(max(timeout, 0.0) * 1000))
+            finally:
+                os.close(fd)
+    waitid = getattr(os, "waitid", None)
+    if waitid is None:  # pragma: no cover - Windows: no process groups to end either
+        try:
+            proc.wait(timeout=timeout)
+            return True
+        except subprocess.TimeoutExpired:
+            return False
+    deadline = time.monotonic() + timeout
+    delay = 0.001
+    while True:
+        try:
+            if waitid(os.P_PID, proc.pid, os.WEXITED | os.WNOHANG | os.WNOWAIT) is not None:
+                return True
+        except ChildProcessError:
+            return True
+        left = deadline - time.monotonic()
+        if left <= 0:
+            return False
+        time.sleep(min(delay, left))
+        delay = min(delay * 2, 0.05)
+
+
+def _end_group(proc: subprocess.Popen) -> float | None:
+    """Kill every process left in the child's group (the child too, if it still runs), then reap the child.
+
+    Returns the child's peak resident memory in MB when the platform reports it (``wait4``)."""
     try:
         os.killpg(proc.pid, signal.SIGKILL)
-    except (ProcessLookupError, PermissionError, AttributeError):
-        proc.kill()
+    except (ProcessLookupError, PermissionError, AttributeError, OSError):
+        if proc.poll() is None:
+            proc.kill()
+    wait4 = getattr(os, "wait4", None)
+    if wait4 is not None and proc.returncode is None:
+        try:
+            _, status, usage = wait4(proc.pid, 0)
+        except ChildProcessError:
+            pass
+        else:
+            proc.returncode = os.waitstatus_to_exitcode(status)
+            # ru_maxrss is in KB on Linux, in bytes on macOS
+            return round(usage.ru_maxrss / (1024 * 1024 if sys.platform == "darwin" else 1024), 1)
     proc.wait()
+    return None
+
+
+def memory_ceiling_mb() -> float | None:
+    """The memory the machine can give a process, in MB: physical memory, or a smaller cgroup limit."""
+    sizes: list[float] = []
+    try:
+        sizes.append(os.sysconf("SC_PHYS_PAGES") * os.sysconf("SC_PAGE_SIZE") / 2**20)
+    except (AttributeError, ValueError, OSError):
+        pass
+    for limit in ("/sys/fs/cgroup/memory.max", "/sys/fs/cgroup/memory/memory.limit_in_bytes"):
+        try:
+            text = Path(limit).read_text().strip()
+        except OSError:
+            continue
+        if text.isdigit() and int(text) < 2**60:
+            sizes.append(int(text) / 2**20)
+    return min(sizes) if sizes else None
 
 
 def _tail(path: Path) -> list[str]:

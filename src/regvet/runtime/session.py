@@ -20,7 +20,7 @@ from regvet.model.settings import Settings
 from regvet.model.span import Span, byte_col, code_point_col
 from regvet.model.stats_schema import FitRecord
 from regvet.rules import RULES_BY_ID
-from regvet.runtime.runner import RunCache, RunResult, run
+from regvet.runtime.runner import RunCache, RunResult, memory_ceiling_mb, run
 
 
 @dataclass
@@ -52,6 +52,7 @@ def options_for(settings: Settings) -> dict[str, Any]:
         "white_max_columns": settings.white_max_columns,
         "serial_lags": settings.serial_lags or None,
         "time_column": settings.time_column or None,
+        "unit_column": settings.unit_column or None,
         "break_candidates": list(settings.break_candidates),
         "robust_se": settings.robust_se,
         "robust_se_large": settings.robust_se_large,
@@ -150,9 +151,8 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
     if end is None:
         if result.timed_out:
             return RunFailure(f"it ran for more than {timeout:g} s (`run_timeout`) and was stopped", tuple(result.output_tail))
-        if result.signal == 9:
-            return RunFailure("the process was killed (signal 9), most likely for using too much memory",
-                              tuple(result.output_tail))  # fmt: skip
+        if result.signal is not None:
+            return RunFailure(killed_by(result, memory_mb), tuple(result.output_tail))
         return RunFailure(f"the process ended without reporting (exit status {result.returncode})",
                           tuple(result.output_tail))  # fmt: skip
     status = end.get("status")
@@ -179,6 +179,52 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
     if status == "probe-failed":
         return RunFailure(f"the probe could not start in that interpreter: {end.get('message')}")
     return RunFailure(f"it ended with status {status!r}")
+
+
+#: A process killed by SIGKILL whose peak resident memory reached this share of what the machine (or
+#: its cgroup) can give was most likely the out-of-memory killer's choice (a rule of thumb, common
+#: practice; from memory: Linux's OOM killer picks the process with the largest resident set).
+OOM_SHARE = 0.25
+
+
+#: A resident peak from this share of the address-space limit on counts as near it (resident memory
+#: is always below the address space; a rule of thumb of ours).
+NEAR_LIMIT = 0.5
+
+
+def killed_by(result: RunResult, memory_mb: int | None = None) -> str:
+    """Why a run that a signal ended did not finish, by the signal and the evidence of memory use.
+
+    An address-space limit (``run_memory_mb``) never kills: it makes allocations fail, which the probe
+    reports as running out of memory, though a native library may abort (SIGABRT, SIGSEGV) when an
+    allocation is refused: said when the resident peak came near the limit. A SIGKILL comes from
+    outside: the system's out-of-memory killer (then the process was large), someone else, or the
+    script itself (the probe saw it send it)."""
+    import signal as signals
+
+    sig = result.signal
+    try:
+        name = signals.Signals(sig).name if sig is not None else "a signal"
+    except ValueError:
+        name = f"signal {sig}"
+    peak = result.peak_mb
+    used = f" with a peak of {peak:g} MB resident" if peak is not None else ""
+    if result.self_signal is not None and result.self_signal == sig:
+        return f"the script ended itself with signal {sig} ({name}) before the end"
+    if sig == signals.SIGKILL:
+        ceiling = memory_ceiling_mb()
+        if peak is not None and ceiling is not None:
+            if peak >= OOM_SHARE * ceiling:
+                return (f"the process was killed (signal 9, SIGKILL){used} of the {ceiling:.0f} MB this machine "
+                        "can give: most likely by the system's out-of-memory killer")
+            return (f"the process was killed (signal 9, SIGKILL) from outside{used}, far from the {ceiling:.0f} MB "
+                    "this machine can give: not for memory, as far as regvet can tell")
+        return "the process was killed (signal 9, SIGKILL) from outside; regvet cannot tell whether it was for memory"
+    text = f"the process was ended by signal {sig} ({name}){used} before the end"
+    if memory_mb and peak is not None and peak >= NEAR_LIMIT * memory_mb:
+        text += (f"; that is near the `run_memory_mb` limit of {memory_mb} MB, where a native library may abort "
+                 "when an allocation is refused")
+    return text
 
 
 def run_and_judge(

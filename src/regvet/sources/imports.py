@@ -11,6 +11,21 @@ from __future__ import annotations
 import ast
 from collections.abc import Iterator, Sequence
 
+#: Public modules the suggested diagnostics can be imported from (the first is the one an added import uses).
+DIAGNOSTIC_MODULES = ("statsmodels.stats.diagnostic", "statsmodels.stats.api")
+#: The diagnostics findings suggest, spelt as the file can already call them (``RuleInput.call``).
+SUGGESTED = ("linear_reset", "het_breuschpagan", "acorr_breusch_godfrey")
+
+
+def suggested_spellings(tree: ast.Module) -> tuple[tuple[str, str], ...]:
+    """(name, how the file calls it) for each suggested diagnostic the module already imports."""
+    out = []
+    for name in SUGGESTED:
+        spelt = spelling(tree, name, DIAGNOSTIC_MODULES)
+        if spelt is not None and spelt != name:
+            out.append((name, spelt))
+    return tuple(out)
+
 
 def _module_imports(tree: ast.Module, before_line: int | None) -> Iterator[ast.Import | ast.ImportFrom]:
     """Imports of the module's own body (inside top-level ``if``/``try``/``with`` too, not in functions

@@ -8,6 +8,7 @@ import io
 import tokenize
 import warnings
 from dataclasses import dataclass
+from itertools import pairwise
 
 from regvet.model.span import Span
 
@@ -26,15 +27,62 @@ def decode(data: bytes) -> str | SourceError:
         encoding, _ = tokenize.detect_encoding(io.BytesIO(data).readline)
     except SyntaxError as exc:
         return SourceError(f"cannot determine the file's encoding: {exc}", Span(1, 0, 1, 0))
+    refused = None if encoding in ("utf-8", "utf-8-sig") else _refused_encoding(encoding)
+    if refused:
+        return SourceError(f"the coding cookie names {encoding!r}, which Python refuses: {refused}", Span(1, 0, 1, 0))
     try:
-        codecs.lookup(encoding)
         text = data.decode(encoding)
-    except (LookupError, UnicodeDecodeError) as exc:
-        line = data[: getattr(exc, "start", 0)].count(b"\n") + 1
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
         return SourceError(f"cannot decode the file as {encoding}: {exc}", Span(line, 0, line, 0))
+    except (LookupError, UnicodeError, ValueError, TypeError) as exc:  # a codec that fails in its own way
+        return SourceError(f"cannot decode the file as {encoding}: {exc}", Span(1, 0, 1, 0))
     if text.startswith("\ufeff"):
         text = text[1:]
     return text
+
+
+#: Characters a coding line is written in: CPython reads it back in the encoding it names, so an
+#: encoding that does not spell them as ASCII does (EBCDIC, UTF-16 without a BOM) cannot be declared.
+_COOKIE_PROBE = "# -*- coding: abcdefghijklmnopqrstuvwxyz_ABCXYZ-0123456789. -*-\n\t"
+
+
+def _refused_encoding(name: str) -> str | None:
+    """Why CPython would refuse source declared in encoding ``name`` (None when it accepts it)."""
+    try:
+        info = codecs.lookup(name)
+    except LookupError:
+        return "it is not a known encoding"
+    if not getattr(info, "_is_text_encoding", True):
+        return "it is not a text encoding"
+    try:
+        spelled = codecs.decode(_COOKIE_PROBE.encode("ascii"), info.name)
+    except (UnicodeError, ValueError, TypeError, LookupError):
+        spelled = None
+    if spelled != _COOKIE_PROBE:
+        return "it does not write ASCII as ASCII, so the coding line itself cannot be read in it"
+    return None
+
+
+def without_broken_cells(python: str, starts: tuple[int, ...]) -> tuple[str, tuple[SourceError, ...]]:
+    """A notebook's joined code with every cell that does not parse on its own blanked out (its lines kept,
+    so positions do not move), and the error of each such cell in the joined module's lines.
+
+    Jupyter compiles each cell on its own: a cell with a syntax error fails alone and the others run,
+    so the others can be analysed without it. ``starts``: the 1-based first line of each code cell.
+    """
+    lines = python.split("\n")
+    errors: list[SourceError] = []
+    bounds = [*starts, len(lines) + 1]
+    for first, after in pairwise(bounds):
+        chunk = lines[first - 1 : after - 1]
+        found = parse("\n".join(chunk))
+        if isinstance(found, SourceError):
+            span = found.span
+            errors.append(SourceError(found.message, Span(span.line + first - 1, span.col,
+                                                          span.end_line + first - 1, span.end_col)))  # fmt: skip
+            lines[first - 1 : after - 1] = [""] * len(chunk)
+    return "\n".join(lines), tuple(errors)
 
 
 def parse(text: str, filename: str = "<unknown>") -> ast.Module | SourceError:

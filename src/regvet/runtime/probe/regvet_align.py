@@ -17,11 +17,11 @@ condition) raises :class:`RowDataError`, whose message says why.
 from __future__ import annotations
 
 import hashlib
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 
-__all__ = ["RowDataError", "aligned", "candidate_groups", "fingerprint", "lags_for", "model_frame", "time_order"]
+__all__ = ["RowDataError", "TimeOrder", "aligned", "candidate_groups", "fingerprint", "lags_for", "model_frame", "time_order"]
 
 
 class RowDataError(Exception):
@@ -120,53 +120,120 @@ def lags_for(offset: Any) -> int:
     return 1
 
 
-def time_order(model: Any, column: str | None) -> tuple[str | None, Any]:
-    """(reason the data is time-ordered or None, the data frequency as a pandas offset or None).
+class TimeOrder(NamedTuple):
+    """Whether and how a fit's rows are ordered in time (see :func:`time_order`)."""
 
-    The data is time-ordered when the fit's rows have a DatetimeIndex or PeriodIndex, or when
-    ``column`` (the ``time_column`` option) is a column of the model's data frame.
+    reason: str | None  # why the data is time-ordered, or None when it is not
+    freq: Any  # the data frequency as a pandas offset, inferred from the sorted times, or None
+    order: np.ndarray | None  # the rows' positions in time order when the rows are not in it, else None
+    repeats: bool  # some time value is on several rows: a stacked panel, not one series
+    keys: np.ndarray | None = None  # a sortable time key per fit row (int64), when known
+    units: np.ndarray | None = None  # the unit code per fit row, for a panel whose unit is known
+    unit_name: str | None = None  # where the units come from (the column, or the index level)
+
+
+_NOT_TIMED = TimeOrder(None, None, None, False)
+
+
+def _infer_freq(values: Any) -> Any:
+    """The frequency of sorted, distinct times (a pandas index), or None."""
+    import pandas as pd
+
+    if len(values) < 3:
+        return None
+    try:
+        inferred = pd.infer_freq(values)
+        return pd.tseries.frequencies.to_offset(inferred) if inferred else None
+    except (TypeError, ValueError):
+        return None
+
+
+def _sorting(keys: Any, monotonic: bool) -> tuple[np.ndarray | None, str]:
+    """(positions in time order or None, what the reason adds) for the time values ``keys``."""
+    if monotonic:
+        return None, ""
+    try:
+        order = np.argsort(np.asarray(keys), kind="stable")
+    except TypeError:
+        return None, " (rows are not in time order and could not be sorted; the serial tests use the row order)"
+    return order, " (rows are not in time order; the serial tests sort them by time)"
+
+
+def _time_keys(values: Any) -> tuple[np.ndarray | None, Any]:
+    """(int64 keys, frequency) of date or period values (an index or a series), or (None, None)."""
+    import pandas as pd
+
+    if isinstance(values, pd.PeriodIndex) or isinstance(getattr(values, "dtype", None), pd.PeriodDtype):
+        index = pd.PeriodIndex(values)
+        return np.asarray(index.asi8), index.freq
+    if isinstance(values, pd.DatetimeIndex) or pd.api.types.is_datetime64_any_dtype(getattr(values, "dtype", None)):
+        index = pd.DatetimeIndex(values)
+        return np.asarray(index.asi8), index.freq or _infer_freq(index.dropna().unique().sort_values())
+    return None, None
+
+
+def _codes(values: Any) -> np.ndarray:
+    import pandas as pd
+
+    try:
+        codes, _ = pd.factorize(values, sort=True, use_na_sentinel=False)
+    except TypeError:
+        codes, _ = pd.factorize(values, sort=False, use_na_sentinel=False)
+    return np.asarray(codes)
+
+
+def time_order(model: Any, column: str | None, unit_column: str | None = None) -> TimeOrder:
+    """Whether the fit's rows are ordered in time, their frequency, how to put them in time order,
+    and, for a stacked panel, each row's unit.
+
+    The data is time-ordered when the fit's rows have a DatetimeIndex or PeriodIndex, a two-level
+    index whose second level holds dates or periods (unit, time), or when ``column`` (the
+    ``time_column`` option) is a column of the model's data frame. The frequency is inferred from the
+    distinct times in sorted order, so rows out of order do not hide it. The units of a panel come
+    from ``unit_column`` (a column of the data frame) or the first level of a two-level index.
     """
-    labels = model.data.row_labels
-    if labels is not None and is_pandas(labels):
-        import pandas as pd
+    import pandas as pd
 
+    labels = model.data.row_labels
+    n = int(model.endog.shape[0])
+    frame = model_frame(model) if (column is not None or unit_column is not None) else None
+    reason: str | None = None
+    keys: Any = None
+    freq: Any = None
+    monotonic = True
+    units: np.ndarray | None = None
+    unit_name: str | None = None
+    if labels is not None and is_pandas(labels):
         if isinstance(labels, (pd.DatetimeIndex, pd.PeriodIndex)):
             kind = "DatetimeIndex" if isinstance(labels, pd.DatetimeIndex) else "PeriodIndex"
-            freq = labels.freq
-            if freq is None and len(labels) >= 3:
-                try:
-                    inferred = pd.infer_freq(labels)
-                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
-                except (TypeError, ValueError):
-                    freq = None
-            reason = f"the fit's rows have a {kind}"
-            if not labels.is_monotonic_increasing:
-                reason += " (rows are not in time order; the statistics use the row order)"
-            return reason, freq
-    frame = model_frame(model) if column is not None else None
-    if frame is not None and column in frame.columns:
-        import pandas as pd
-
-        series = frame[column]
-        freq = None
-        if isinstance(series.dtype, pd.PeriodDtype):
-            freq = series.dtype.freq
-        elif pd.api.types.is_datetime64_any_dtype(series.dtype):
-            values = pd.DatetimeIndex(series.dropna().unique()).sort_values()
-            if len(values) >= 3:
-                try:
-                    inferred = pd.infer_freq(values)
-                    freq = pd.tseries.frequencies.to_offset(inferred) if inferred else None
-                except (TypeError, ValueError):
-                    freq = None
-        reason = f"time_column {column!r} is in the model's data frame"
+            keys, freq = _time_keys(labels)
+            reason, monotonic = f"the fit's rows have a {kind}", bool(labels.is_monotonic_increasing)
+        elif isinstance(labels, pd.MultiIndex) and labels.nlevels == 2:
+            level_keys, level_freq = _time_keys(labels.get_level_values(1))
+            if level_keys is not None:
+                keys, freq = level_keys, level_freq
+                reason, monotonic = "the fit's rows have a (unit, time) index", False
+                units, unit_name = _codes(labels.get_level_values(0)), f"index level {labels.names[0] or 0!r}"
+    if reason is None and frame is not None and column in frame.columns:
+        series = pd.Series(aligned(frame[column], frame, labels, n))
+        keys, freq = _time_keys(series)
+        if keys is None:
+            keys = series.to_numpy()
         try:
-            if not series.is_monotonic_increasing:
-                reason += " (rows are not in time order; the statistics use the row order)"
+            monotonic = bool(series.is_monotonic_increasing)
         except TypeError:
-            pass
-        return reason, freq
-    return None, None
+            monotonic = False
+        reason = f"time_column {column!r} is in the model's data frame"
+    if reason is None:
+        return _NOT_TIMED
+    order, note = _sorting(keys, monotonic)
+    repeats = bool(pd.Series(keys).duplicated().any()) if keys is not None else False
+    if frame is not None and unit_column is not None and unit_column in frame.columns:
+        units, unit_name = _codes(aligned(frame[unit_column], frame, labels, n)), f"unit_column {unit_column!r}"
+    if units is not None:
+        note = ""  # within units the rows are sorted by unit and time
+    return TimeOrder(reason + note, freq, order, repeats, np.asarray(keys) if keys is not None else None,
+                     units, unit_name)  # fmt: skip
 
 
 def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tuple[np.ndarray, list[str]]:

@@ -30,6 +30,8 @@ DEFAULT_OPTIONS: dict[str, Any] = {
     "serial_lags": None,
     # A column of the model's data frame that makes the data time-ordered.
     "time_column": None,
+    # A column of the model's data frame naming the unit of a panel (serial tests within units).
+    "unit_column": None,
     # Column names (split the sample by its values) or pandas query expressions (split into the rows
     # where it holds and where it does not).
     "break_candidates": [],
@@ -118,8 +120,9 @@ def read_options(options: Mapping[str, Any] | None) -> dict[str, Any]:
     if isinstance(cands, str) or not all(isinstance(c, str) for c in cands):
         raise ValueError("option break_candidates must be a list of strings")
     opts["break_candidates"] = list(cands)
-    if opts["time_column"] is not None and not isinstance(opts["time_column"], str):
-        raise ValueError("option time_column must be None or a column name")
+    for key in ("time_column", "unit_column"):
+        if opts[key] is not None and not isinstance(opts[key], str):
+            raise ValueError(f"option {key} must be None or a column name")
     opts["cv"] = bool(opts["cv"])
     return opts
 

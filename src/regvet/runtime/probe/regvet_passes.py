@@ -38,6 +38,10 @@ class RowPasses:
         large = fit.n >= self.opts["robust_se_large_n"]
         self.hc: str = self.opts["robust_se_large"] if large else self.opts["robust_se"]
         self.time_reason: str | None = None
+        self.time_rank: np.ndarray | None = None  # each row's place in time order (None: rows are in it)
+        self.u_time: np.ndarray | None = None  # the residuals in time order
+        self.stacked_panel = False  # time values repeat: several units per period
+        self.panel: tuple[np.ndarray, np.ndarray, str] | None = None  # (unit codes, time keys, where from)
         self.lags = 0
         self.white_columns = 0
         self.white_full = False
@@ -82,14 +86,24 @@ class RowPasses:
                 self.reset_z = z / b
         # Time order and BG lags.
         try:
-            reason, freq = time_order(fit.model, self.opts["time_column"])
+            timed = time_order(fit.model, self.opts["time_column"], self.opts["unit_column"])
         except Exception as exc:
             self.errors["time_ordered"] = error_message(exc)
-            reason, freq = None, None
-        if reason is not None:
-            self.time_reason = reason
-            self.lags = int(self.opts["serial_lags"] or lags_for(freq))
-            self.u_padded = np.concatenate([np.zeros(self.lags), u])
+            timed = None
+        if timed is not None and timed.reason is not None:
+            self.time_reason = timed.reason
+            if timed.repeats:
+                self.stacked_panel = True
+                if timed.units is not None and timed.keys is not None:
+                    self.panel = (timed.units, timed.keys, timed.unit_name or "the units")
+            self.lags = int(self.opts["serial_lags"] or lags_for(timed.freq))
+            # Residuals in time order, zero-padded in front; lag_block maps each row to its place.
+            u_time = u if timed.order is None else u[timed.order]
+            self.u_time = u_time
+            self.u_padded = np.concatenate([np.zeros(self.lags), u_time])
+            if timed.order is not None:
+                self.time_rank = np.empty(fit.n, dtype=np.intp)
+                self.time_rank[timed.order] = np.arange(fit.n)
         # White: which form.
         p_plus = fit.k + (0 if fit.one_in_span else 1)
         self.white_columns = p_plus * (p_plus + 1) // 2
@@ -109,7 +123,10 @@ class RowPasses:
         """Rows s..e of the zero-padded lagged residuals û_{t-1}..û_{t-p}."""
         p, u = self.lags, self.u_padded
         assert u is not None, "only for time-ordered data"
-        return np.column_stack([u[s + p - j : e + p - j] for j in range(1, p + 1)])
+        if self.time_rank is None:  # rows already in time order
+            return np.column_stack([u[s + p - j : e + p - j] for j in range(1, p + 1)])
+        at = self.time_rank[s:e] + p  # each row's place in time order, in the padded residuals
+        return np.column_stack([u[at - j] for j in range(1, p + 1)])
 
     def reset_block(self, s: int, e: int) -> np.ndarray:
         assert self.reset_z is not None, "only when RESET can be computed"

@@ -28,6 +28,53 @@ def _limit_memory(megabytes: int | None) -> None:
         pass
 
 
+def _note_self_signals(recorder) -> None:
+    """Record a signal the script sends to itself (or to its own process group) just before it goes:
+    the parent then tells a run that killed itself from one killed for memory. Calls pass through
+    unchanged, errors included."""
+    import signal
+
+    me = os.getpid()
+
+    def note(sig, via: str) -> None:
+        try:
+            recorder.write({"type": "self-signal", "signal": int(sig), "via": via})
+        except Exception:  # never change what the script's call does
+            pass
+
+    real_kill, real_killpg = os.kill, getattr(os, "killpg", None)
+
+    def kill(pid, sig):
+        if os.getpid() == me and pid in (me, 0, -me):
+            note(sig, "os.kill")
+        return real_kill(pid, sig)
+
+    os.kill = kill
+    if real_killpg is not None:
+        def killpg(pgid, sig):
+            if os.getpid() == me and pgid in (0, me):
+                note(sig, "os.killpg")
+            return real_killpg(pgid, sig)
+
+        os.killpg = killpg
+    real_raise = getattr(signal, "raise_signal", None)
+    if real_raise is not None:
+        def raise_signal(sig):
+            if os.getpid() == me:
+                note(sig, "signal.raise_signal")
+            return real_raise(sig)
+
+        signal.raise_signal = raise_signal
+    real_abort = os.abort
+
+    def abort():
+        if os.getpid() == me:
+            note(signal.SIGABRT, "os.abort")
+        return real_abort()
+
+    os.abort = abort
+
+
 def main(argv: list[str]) -> int:
     with open(argv[1], encoding="utf-8") as fh:
         request = json.load(fh)
@@ -40,6 +87,7 @@ def main(argv: list[str]) -> int:
     user_files = {os.path.abspath(p) for p in request.get("user_files", [])}
     recorder = probe.Recorder(request["out"], request.get("options", {}), user_files)
     recorder.write({"type": "start", "python": sys.version.split()[0], "pid": os.getpid()})
+    _note_self_signals(recorder)
     try:
         probe.install(recorder)
     except Exception as exc:  # statsmodels missing or broken in that interpreter

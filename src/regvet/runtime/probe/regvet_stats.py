@@ -77,6 +77,7 @@ FORM_WHITE_SPECIAL = "special (ŷ, ŷ²)"
 FORM_RESET = "F test of powers 2 and 3 of the fitted values"
 FORM_JARQUE_BERA = "kurtosis is not excess kurtosis"
 FORM_CONDITION_INDEX = "Belsley-Kuh-Welsch: columns incl. the constant scaled to unit length, not centred"
+FORM_WITHIN_UNITS = "û_it on û_i,t-1 with an intercept, rows sorted by unit and time; cluster-robust by unit, t(G-1)"
 FORM_BREUSCH_GODFREY = "n·R² of û on the regressors and its lags (zero-padded, all n observations)"
 COEFFICIENT_TESTS = "t distribution with df_resid for both"
 WEIGHTS_NOTE = (
@@ -334,24 +335,88 @@ class _Stats(RowPasses):
 
     def time_series(self) -> None:
         self.out["time_ordered"] = self.time_reason
+        self.out["serial_within_units"] = None
         if self.time_reason is None:
             self.out["durbin_watson"] = None
             self.out["breusch_godfrey"] = None
             return
         self.put("durbin_watson", self.durbin_watson)
         self.put("breusch_godfrey", self.breusch_godfrey)
+        if self.panel is not None:
+            self.put("serial_within_units", self.serial_within_units)
 
-    def durbin_watson(self) -> float | None:
-        """Σ(Δû)² / Σû² in row order (= statsmodels' durbin_watson)."""
+    def _one_series(self) -> None:
+        if self.stacked_panel:
+            advice = ("see serial_within_units" if self.panel is not None else
+                      "name the unit column (`unit_column`) to test within units")  # fmt: skip
+            raise StatisticError(
+                "not run: the time values repeat (several rows per period, a stacked panel), so a serial "
+                f"test over the stacked rows would mix units; {advice}"
+            )
+
+    def serial_within_units(self) -> dict[str, Any]:
+        """First-order serial correlation within the units of a panel: û_it regressed on û_i,t-1 (an
+        intercept included), rows sorted by unit and time, the slope tested with cluster-robust
+        standard errors by unit (statsmodels' cluster correction, t with G - 1 df).
+
+        The test for AR(1) errors in panel data of Wooldridge's panel-data textbook, chapter 10
+        (cited from memory); the tests check it against statsmodels' OLS with ``cov_type="cluster"``.
+        """
         fit = self.fit
         fit.require_residuals()
-        diff = np.diff(fit.u)
+        assert self.panel is not None
+        units, keys, where = self.panel
+        order = np.lexsort((keys, units))
+        u, g = fit.u[order], units[order]
+        same = g[1:] == g[:-1]
+        y, x, groups = u[1:][same], u[:-1][same], g[1:][same]
+        pairs = int(y.size)
+        _, groups = np.unique(groups, return_inverse=True)
+        G = int(groups.max()) + 1 if pairs else 0
+        if pairs < 3 or G < 2:
+            raise StatisticError("too few consecutive pairs of rows within units (or fewer than two units)")
+        X = np.column_stack([np.ones(pairs), x])
+        xtx = X.T @ X
+        try:
+            inv = np.linalg.inv(xtx)
+        except np.linalg.LinAlgError as exc:
+            raise StatisticError("the lagged residuals are constant") from exc
+        beta = inv @ (X.T @ y)
+        e = y - X @ beta
+        scores = np.zeros((G, 2))
+        np.add.at(scores, groups, X * e[:, None])
+        correction = G / (G - 1) * (pairs - 1) / (pairs - 2)
+        cov = correction * inv @ (scores.T @ scores) @ inv
+        se = math.sqrt(cov[1, 1]) if cov[1, 1] > 0 else None
+        if se is None:
+            raise StatisticError("the cluster-robust variance of the slope is zero")
+        t = float(beta[1]) / se
+        return {
+            "rho": as_float(beta[1]),
+            "se": as_float(se),
+            "t": as_float(t),
+            "pvalue": as_float(2 * stats.t.sf(abs(t), G - 1)),
+            "df": G - 1,
+            "units": G,
+            "pairs": pairs,
+            "units_from": where,
+            "form": FORM_WITHIN_UNITS,
+        }
+
+    def durbin_watson(self) -> float | None:
+        """Σ(Δû)² / Σû² with the residuals in time order (= statsmodels' durbin_watson on sorted rows)."""
+        fit = self.fit
+        fit.require_residuals()
+        self._one_series()
+        u = fit.u if self.u_time is None else self.u_time
+        diff = np.diff(u)
         return as_float(float(diff @ diff) / fit.ssr)
 
     def breusch_godfrey(self) -> dict[str, Any]:
         """BG LM = n·R² of û on [design, intercept if none, lags 1..p zero-padded] (= acorr_breusch_godfrey)."""
         fit = self.fit
         fit.require_residuals()
+        self._one_series()
         self.need("gram", "lags", "bg")
         n, p = fit.n, self.lags
         d = fit.u - self.u_mean
