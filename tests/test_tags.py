@@ -59,6 +59,8 @@ ROUNDTRIPS = [
      [(tags.dates_what, "`pd.to_datetime`"), (tags.dates_where, _WHERE)]),
     (tags.date_column("week", "`parse_dates`", _WHERE), tags.DATE_COLUMN,
      [(tags.date_column_name, "week"), (tags.date_column_what, "`parse_dates`"), (tags.date_column_where, _WHERE)]),
+    (tags.categories("`pd.Categorical`"), tags.CATEGORIES, []),
+    (tags.category_column("chain"), tags.CATEGORY_COLUMN, [(tags.category_column_name, "chain")]),
 ]
 
 

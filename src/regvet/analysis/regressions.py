@@ -273,6 +273,7 @@ class RegressionSemantics(CollectorState):
         all_data = flat(join_all(data_values))
         column_sources: dict[str, set[Tag]] = {}
         column_names: set[str] = set()
+        categorical: set[str] = set()
         for tag in all_data.tags:
             kind = tags.kind(tag)
             if kind == tags.COLUMN_VALUE:
@@ -281,6 +282,8 @@ class RegressionSemantics(CollectorState):
                 column_names.add(tags.column(tag))
             elif kind == tags.DATE_COLUMN:
                 column_names.add(tags.date_column_name(tag))
+            elif kind == tags.CATEGORY_COLUMN:
+                categorical.add(tags.category_column_name(tag))
         timed = min(all_data.tags_of(tags.TIMED), key=_evidence_order, default=None)
         time_reason = tags.time_reason(timed) if timed is not None else None
         time_where = tags.time_where(timed) if timed is not None else None
@@ -323,7 +326,7 @@ class RegressionSemantics(CollectorState):
         data_tags = frozenset(t for value in data_values for t in value.tags_of(tags.DATA))
         model = ModelRecord(
             mid, qualname, ctor.estimator, ctor.api, formula, text, outcome, n_regressors, regressors, data_name,
-            time_reason, time_where, frozenset(columns), aux, data_tags, loc,
+            time_reason, time_where, frozenset(categorical), frozenset(columns), aux, data_tags, loc,
         )  # fmt: skip
         self.models[mid] = model
         for data in data_tags:
@@ -580,6 +583,7 @@ class RegressionSemantics(CollectorState):
             spec = None if model.spec is None else specs.setdefault(model.spec, len(specs))
             site = record.via[-1] if record.via else record.fit_call
             model_span = model.loc.span if model.loc.path is None else None
+            shift, inter, main = _category_column_groups(model)
             fits.append(
                 Fit(
                     id=record.id,
@@ -597,9 +601,9 @@ class RegressionSemantics(CollectorState):
                     data_name=model.data_name,
                     time_reason=model.time_reason,
                     time_where=model.time_where,
-                    shift_groups=model.formula.shift_groups if model.formula else frozenset(),
-                    interacted_groups=model.formula.interacted_groups if model.formula else frozenset(),
-                    categorical_terms=model.formula.main_groups if model.formula else frozenset(),
+                    shift_groups=shift | (model.formula.shift_groups if model.formula else frozenset()),
+                    interacted_groups=inter | (model.formula.interacted_groups if model.formula else frozenset()),
+                    categorical_terms=main | (model.formula.main_groups if model.formula else frozenset()),
                     interacted_columns=model.formula.interacted_columns if model.formula else frozenset(),
                     columns=model.columns,
                     auxiliary=bool(model.aux_for),
@@ -666,3 +670,14 @@ def _evidence_order(tag: Tag) -> tuple:
     if where is None:
         return (1, "", (), tags.time_reason(tag))
     return (0, where.path or "", where.span.sort_key(), tags.time_reason(tag))
+
+
+def _category_column_groups(model: ModelRecord) -> tuple[frozenset[str], frozenset[str], frozenset[str]]:
+    """(intercept-only groups, interacted groups, groups that are a term of their own) of the formula terms
+    that name a column holding categories (``df["chain"] = pd.Categorical(...)``, then ``y ~ x + chain``)."""
+    if model.formula is None or not model.categorical_columns:
+        return frozenset(), frozenset(), frozenset()
+    cols = model.categorical_columns
+    alone = {t[0] for t in model.formula.terms if len(t) == 1 and t[0] in cols}
+    inter = {f for t in model.formula.terms if len(t) > 1 for f in t if f in cols}
+    return frozenset(alone - inter), frozenset(inter), frozenset(alone)

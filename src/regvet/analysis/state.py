@@ -93,6 +93,7 @@ class ModelRecord:
     data_name: str | None
     time_reason: str | None
     time_where: Loc | None
+    categorical_columns: frozenset[str]  # columns of its data that hold categories (pd.Categorical)
     columns: frozenset[str]
     aux_for: dict[str, set[int]]  # family ("form", "variance", "serial", "other") -> fits it is auxiliary to
     data_tags: frozenset[tags.Tag]

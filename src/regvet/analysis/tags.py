@@ -537,11 +537,40 @@ date_column_name: Callable[[Tag], str] = itemgetter(1)
 date_column_what: Callable[[Tag], str] = itemgetter(2)
 date_column_where: Callable[[Tag], Loc] = itemgetter(3)
 
+# --- categories -----------------------------------------------------------------------------------
+CATEGORIES = "cats"
+
+
+def categories(what: str) -> Tag:
+    """Values made categorical (``pd.Categorical(...)``, ``.astype("category")``; ``what`` names the call).
+
+    Made by: ``libraries`` (``call_library_name``, ``call_data_method``). Read by:
+    ``libraries.assigned_column_tags`` and ``assign`` (a column that holds categories).
+    """
+    return (CATEGORIES, what)
+
+
+CATEGORY_COLUMN = "catcol"
+
+
+def category_column(name: str) -> Tag:
+    """A frame's column ``name`` holds categories: a formula term naming it is a categorical's dummies,
+    as ``C(name)`` would be.
+
+    Made by: ``libraries`` (column assignment, ``assign``). Read by: ``regressions.new_model``
+    (``ModelRecord.categorical_columns``, then the fit's shift and interacted groups).
+    """
+    return (CATEGORY_COLUMN, name)
+
+
+#: The column of a CATEGORY_COLUMN tag.
+category_column_name: Callable[[Tag], str] = itemgetter(1)
+
 #: Every kind above.
 KINDS: frozenset[str] = frozenset(
     {QUALIFIED, PROJECT_MODULE, LAZY_IMPORT, FUNCTION, DATA, LITERAL, PREFIX, STRING_METHOD, DESIGN, MODEL, MODEL_FIT, MODEL_PART, FIT,
      PART, FIT_METHOD, MEASURE, SSR_SUM, PASSING_METHOD, TIME_METHOD, DATA_METHOD, CONTAINER_METHOD, GETTER,
-     OUTCOME, COLUMNS, COLUMN_NAME, COLUMN_VALUE, TIMED, DATES, DATE_COLUMN}
+     OUTCOME, COLUMNS, COLUMN_NAME, COLUMN_VALUE, TIMED, DATES, DATE_COLUMN, CATEGORIES, CATEGORY_COLUMN}
 )  # fmt: skip
 
 

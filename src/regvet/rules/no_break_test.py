@@ -53,17 +53,43 @@ def seasonal(group: str) -> bool:
     return bool(_SEASONAL.search(group.rsplit(".", 1)[-1]))
 
 
+#: Names of a period (a time effect) and of a unit identifier (a unit effect), common practice.
+_PERIOD = re.compile(r"(?:^|_)(?:year|years|yr|date|day|week|month|quarter|qtr|period|time|wave|t)(?:_|$)",
+                     re.IGNORECASE)  # fmt: skip
+_UNIT_ID = re.compile(r"^(?:id|pid|uid|.+_id|id_.+)$", re.IGNORECASE)
+
+
+def _name(group: str) -> str:
+    return group.rsplit(".", 1)[-1]
+
+
 def fixed_effects(fit: Fit, fixed: tuple[str, ...], candidates: tuple[str, ...]) -> bool:
-    """Is the fit a fixed-effects design: two categorical terms or more (unit and period), or a
-    categorical named in the config's ``fixed_effects``? Then its ``C(...)`` shifts ask no break question.
-    A configured break candidate is never counted as a fixed effect."""
+    """Is the fit a fixed-effects design? Unit and period effects (two categorical terms or more, one of
+    them a period such as ``C(year)`` or a unit identifier such as ``C(firm_id)``), a single unit
+    identifier (``C(id)``), or a categorical named in the config's ``fixed_effects``. Then its ``C(...)``
+    shifts ask no break question. A configured break candidate is never counted as a fixed effect;
+    two ordinary categoricals (``C(gender) + C(occupation)``) are not fixed effects."""
     terms = fit.categorical_terms - set(_candidate_columns(candidates))
-    return len(terms) >= 2 or bool(terms & set(fixed))
+    if terms & set(fixed):
+        return True
+    periods = {g for g in terms if _PERIOD.search(_name(g))}
+    units = {g for g in terms if _UNIT_ID.match(_name(g))}
+    if units:
+        return True
+    return len(terms) >= 2 and bool(periods)
+
+
+def no_slopes(fit: Fit) -> bool:
+    """Is every regressor a categorical's dummy (``y ~ C(g)``, ``y ~ C(a) + C(b)``)? Then there is no
+    slope whose equality across groups a break test could question."""
+    return bool(fit.regressors) and all("C(" in term or term in fit.categorical_terms for term in fit.regressors or ())
 
 
 def break_question(fit: Fit, candidates: tuple[str, ...], fixed: tuple[str, ...]) -> bool:
     """Does the fit's specification ask for a break test at all (intercept-only groups that are not fixed
     effects, or a configured break candidate it uses without interacting it)?"""
+    if no_slopes(fit):
+        return False
     if fit.shift_groups and not fixed_effects(fit, fixed, candidates):
         return True
     return any(_candidate_open(fit, c) for c in _candidate_columns(candidates))
@@ -80,7 +106,7 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     escapes = [e for m in sorted(members) for e in inp.escapes(m)]
     if not uses and not escapes:
         return None
-    if inp.checks(fit.id, "breaks"):
+    if inp.checks(fit.id, "breaks") or no_slopes(fit):
         return None
     # Every intercept-only group that is not a fixed effect, and every configured candidate the fit
     # uses without interacting it, needs its own test.
