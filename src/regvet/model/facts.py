@@ -182,6 +182,16 @@ class FileFacts:
         index = self._build()
         return set(index["siblings"].get(self.root(fid), {fid}))
 
+    def fits_at_site(self, site: Loc) -> list[Fit]:
+        """The fits placed at ``site`` (a loop, a comprehension or a helper called in one makes several)."""
+        index = self._build()
+        by_site = index.get("by_site")
+        if by_site is None:
+            by_site = index["by_site"] = {}
+            for f in self.fits:
+                by_site.setdefault(f.site, []).append(f)
+        return by_site.get(site, [])
+
     def same_data(self, fid: int) -> set[int]:
         """The fits whose checks count for ``fid``: those sharing its residuals, and every fit of the
         identical specification on the same data (with the fits sharing their residuals)."""

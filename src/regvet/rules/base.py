@@ -197,8 +197,8 @@ def site_fits(inp: RuleInput, fit: Fit) -> list[Fit]:
     if fit.site.path is not None:
         return [fit]
     out: dict[int, Fit] = {}
-    for other in inp.judged_fits():
-        if other.site == fit.site:
+    for other in inp.facts.fits_at_site(fit.site):
+        if not other.auxiliary:
             out.setdefault(inp.facts.root(other.id), other)
     return sorted(out.values(), key=lambda f: f.id) or [fit]
 
