@@ -77,7 +77,7 @@ def time_order_of(args: Iterable[Value], kwargs: dict[str, Value], receiver: Val
         if value.elem is not None or value.items is not None:  # ``pd.concat([north, south])``
             value = flat(value)
         out.extend(value.tags_of(tags.TIMED))
-    return out[:2]
+    return timeorder.earliest(out)
 
 
 def subscript_tags(base: Value, index: Value, node: ast.Subscript) -> set[Tag]:
@@ -293,7 +293,7 @@ class LibrarySemantics(CollectorState):
             found.extend(timeorder.index_order(index, None, short_text(node, 50), self.loc(node, frame)))
         data = args[0] if args else kwargs.get("data")
         if data is not None:
-            found.extend(flat(data).tags_of(tags.TIMED)[:2])
+            found.extend(timeorder.earliest(flat(data).tags_of(tags.TIMED)))
             for pair in (data.items or ()) if data.keys is not None else ():
                 if pair.items and len(pair.items) == 2:
                     for col in tags.literal_strings(pair.items[0].tags):

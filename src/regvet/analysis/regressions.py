@@ -284,7 +284,7 @@ class RegressionSemantics(CollectorState):
                 column_names.add(tags.date_column_name(tag))
             elif kind == tags.CATEGORY_COLUMN:
                 categorical.add(tags.category_column_name(tag))
-        timed = min(all_data.tags_of(tags.TIMED), key=_evidence_order, default=None)
+        timed = min(all_data.tags_of(tags.TIMED), key=timeorder.evidence_order, default=None)
         time_reason = tags.time_reason(timed) if timed is not None else None
         time_where = tags.time_where(timed) if timed is not None else None
         if source.how == FORMULA_LITERAL:
@@ -662,13 +662,6 @@ def _spec_key(ctor: catalog.Constructor, source: ModelSource, data_keys: tuple, 
     text = "".join((source.text or "").split())
     return (ctor.estimator, ctor.api, text, data_keys, others, frame.ctx, unroll)
 
-
-def _evidence_order(tag: Tag) -> tuple:
-    """The first evidence of time order in the code (known places first, then by position)."""
-    where = tags.time_where(tag)
-    if where is None:
-        return (1, "", (), tags.time_reason(tag))
-    return (0, where.path or "", where.span.sort_key(), tags.time_reason(tag))
 
 
 def _category_column_groups(model: ModelRecord) -> tuple[frozenset[str], frozenset[str], frozenset[str]]:

@@ -23,6 +23,7 @@ letter case) are common practice, not a standard.
 from __future__ import annotations
 
 import ast
+from collections.abc import Iterable
 
 from regvet.analysis import tags
 from regvet.analysis.tags import Tag
@@ -37,6 +38,27 @@ FREQUENCY_METHODS = frozenset({"asfreq", "resample", "to_period"})
 TSA_ARRAY_HELPERS = frozenset({"lagmat", "lagmat2ds", "add_trend"})
 #: Methods that keep a frame's date columns (most methods of a frame return a frame).
 _DROPS_DATE_COLUMNS = frozenset({"groupby", "mean", "sum", "count", "describe", "corr", "cov", "agg", "apply"})
+
+
+def evidence_order(tag: Tag) -> tuple:
+    """A TIMED, DATES or DATE_COLUMN tag's place in a stable order: evidence at a known place first, by
+    file and position, then by its text. Sets of tags iterate in an order that changes with the hash
+    seed; whatever is kept of them is chosen in this order, so findings do not change from run to run."""
+    kind = tags.kind(tag)
+    if kind == tags.TIMED:
+        where, text = tags.time_where(tag), tags.time_reason(tag)
+    elif kind == tags.DATES:
+        where, text = tags.dates_where(tag), tags.dates_what(tag)
+    else:
+        where, text = tags.date_column_where(tag), tags.date_column_name(tag)
+    if where is None:
+        return (1, "", (), text)
+    return (0, where.path or "", where.span.sort_key(), text)
+
+
+def earliest(found: Iterable[Tag], n: int = 2) -> list[Tag]:
+    """The first ``n`` of ``found`` in :func:`evidence_order`."""
+    return sorted(found, key=evidence_order)[:n]
 
 
 def date_like(name: object) -> bool:
@@ -57,14 +79,15 @@ def literal_names(value: Value) -> list[object]:
 
 def date_columns(value: Value) -> dict[str, Tag]:
     """The DATE_COLUMN tags of a frame, by column name."""
-    return {tags.date_column_name(t): t for t in value.tags_of(tags.DATE_COLUMN)}
+    ordered = sorted(value.tags_of(tags.DATE_COLUMN), key=evidence_order, reverse=True)
+    return {tags.date_column_name(t): t for t in ordered}  # the earliest evidence per column wins
 
 
 def index_order(key: Value, frame_value: Value | None, code: str, where: Loc) -> list[Tag]:
     """The time order a frame gets from ``key`` as its index (``set_index(key)``, ``index=key``,
     ``df.index = key``): dates, a date column of the frame, a date-like column name."""
-    out: list[Tag] = list(flat(key).tags_of(tags.TIMED))
-    for d in flat(key).tags_of(tags.DATES):
+    out: list[Tag] = earliest(flat(key).tags_of(tags.TIMED))
+    for d in earliest(flat(key).tags_of(tags.DATES)):
         out.append(tags.time_order(f"the data gets a date index from {tags.dates_what(d)} ({_code(code)})", where))
     known = date_columns(frame_value) if frame_value is not None else {}
     for name in literal_names(key):
@@ -73,13 +96,13 @@ def index_order(key: Value, frame_value: Value | None, code: str, where: Loc) ->
             out.append(tags.time_order(f"the data gets a date index ({_code(code)}, dates from {how})", where))
         elif date_like(name):
             out.append(tags.time_order(f"the data gets a date-like index ({_code(code)})", where))
-    return out[:2]
+    return earliest(out)
 
 
 def sort_order(by: Value, frame_value: Value, code: str, where: Loc) -> list[Tag]:
     """``sort_values(by)`` on a frame: sorted by one of its date columns, the rows are in time order."""
     known = date_columns(frame_value)
-    for name in literal_names(by):
+    for name in sorted(set(literal_names(by)), key=str):
         if isinstance(name, str) and name in known:
             return [tags.time_order(f"the rows are sorted by the date column {name!r} ({_code(code)})", where)]
     return []
@@ -108,7 +131,7 @@ def assigned_dates(column: object, value: Value) -> list[Tag]:
     """``df[column] = value``, ``df.assign(column=value)``: a column that holds dates."""
     if not isinstance(column, str):
         return []
-    return [tags.date_column(column, tags.dates_what(d), tags.dates_where(d)) for d in value.tags_of(tags.DATES)][:1]
+    return [tags.date_column(column, tags.dates_what(d), tags.dates_where(d)) for d in earliest(value.tags_of(tags.DATES), 1)]
 
 
 def keeps_date_columns(method: str) -> bool:

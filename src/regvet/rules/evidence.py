@@ -45,10 +45,12 @@ def p(value: float | None) -> str:
 
 
 def num(value: float | None) -> str:
-    """Four significant digits (14.09, 5.339, 0.01234, 4.328e+04)."""
+    """Four significant digits, trailing zeros kept (14.09, 11.00, 5.339, 0.01234, 4.328e+04)."""
     if value is None:
         return "?"
-    return f"{value:.4g}"
+    text = f"{value:#.4g}"
+    mantissa, e, exponent = text.partition("e")
+    return mantissa.rstrip(".") + e + exponent
 
 
 def fingerprint(stats: FitStatistics) -> str | None:
