@@ -661,9 +661,11 @@ def _spec_numbers(models: list[ModelRecord]) -> dict[int, int]:
     of several are the expressions compared, by their ``ast.dump``."""
 
     def arg(item: tuple, full: bool) -> tuple:
-        if item[0] != "expr":
+        how, *rest = item
+        if how != "expr":
             return item
-        return ("expr", ast.dump(item[1]) if full else type(item[1]).__name__, item[2])
+        node, names = rest
+        return ("expr", ast.dump(node) if full else type(node).__name__, names)
 
     def key(spec: tuple, full: bool) -> tuple:
         estimator, api, text, data_keys, (extra, named), ctx, unroll = spec
