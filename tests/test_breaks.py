@@ -102,6 +102,18 @@ ROWS = [
         res = smf.ols("tons ~ cranes + C(harbour) + C(post_dredging)", data=freight).fit()  # expect: no-break-test
         print(res.params)
     """, _POST),
+    row("one-way-anova-has-no-slope", """
+        res = smf.ols("tons ~ C(berth)", data=freight).fit()
+        print(res.summary())
+    """),
+    row("factorial-cell-means-have-no-slope", """
+        res = smf.ols("tons ~ C(berth) + C(berth):C(crew)", data=freight).fit()
+        print(res.summary())
+    """),
+    row("ancova-has-a-slope", """
+        res = smf.ols("tons ~ C(berth) + cranes", data=freight).fit()  # expect: no-break-test
+        print(res.summary())
+    """, wording="`C(berth)`"),
     # --- calendar seasonals: still asked, about seasonal slopes
     row("month-seasonal", """
         res = smf.ols("tons ~ cranes + rain + C(month)", data=freight).fit()  # expect: no-break-test
@@ -122,6 +134,16 @@ ROWS = [
     row("season-interacted", """
         res = smf.ols("tons ~ C(quarter) * cranes", data=freight).fit()
         print(res.params)
+    """),
+    row("f-string-in-a-loop-over-groups", """
+        for group in ["berth", "crew"]:
+            res = smf.ols(f"tons ~ cranes + C({group})", data=freight).fit()  # expect: no-break-test
+            print(res.params)
+    """, wording="2 fits from this line"),
+    row("f-string-in-a-loop-over-fixed-effects", """
+        for unit in ["harbour", "berth"]:
+            res = smf.ols(f"tons ~ cranes + C({unit}) + C(year)", data=freight).fit()
+            print(res.params)
     """),
     # --- however the result is used
     row("only-in-a-summary-table", """
@@ -311,6 +333,11 @@ BUILT = [
         res = sm.OLS(y, X).fit()
         print(res.params)
     """, "tons ~ cranes + C(harbour) + C(year)", "tons", {"harbour", "year"}, False),
+    built("dmatrices-by-position", """
+        design = patsy.dmatrices("tons ~ rain + C(month)", freight)
+        res = sm.OLS(design[0], design[1]).fit()
+        print(res.params)
+    """, "tons ~ rain + C(month)", "tons", {"month"}, True),
     # --- not every piece a literal: not read as a formula (the fixed start still names the outcome)
     built("piece-from-input", """
         extra = input()

@@ -76,6 +76,8 @@ def test_waiver_without_reason_does_not_take_effect():
          "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`"),
         ("# regvet: waive no-form-test: linear by design", "separates its reason with `:` instead of the word "
          "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`"),
+        ("# regvet: waive no-form-test - linear by design", "separates its reason with ` - ` instead of the word "
+         "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`"),
         ("# regvet: waive no-form-test, no-variance-test -- pilot", "`# regvet: waive no-form-test, "
          "no-variance-test because pilot`"),
         ("# regvet: waive no-form-test linear by design", "gives its reason without the word `because`, so it takes "
@@ -156,6 +158,7 @@ def test_waiver_findings_cannot_be_waived():
         ("# regvet: waive no-form-test because", ("no-form-test",), None),
         ("# regvet: waive no-form-test -- because fares are fixed", ("no-form-test",), "fares are fixed"),
         ("# regvet: waive no-form-test: because fares are fixed", ("no-form-test",), "fares are fixed"),
+        ("# regvet: waive no-form-test because: fares are fixed", ("no-form-test",), "fares are fixed"),
     ],
 )
 def test_reading_the_because_form(comment, rules, reason):

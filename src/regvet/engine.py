@@ -10,14 +10,16 @@ from __future__ import annotations
 
 import ast
 import gc
+import time
 import traceback
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import replace
 from functools import lru_cache
 
-from regvet.analysis.collect import collect
+from regvet.analysis.collect import Collector
 from regvet.analysis.modules import ModuleProvider, NoModules
+from regvet.analysis.state import Frame, OverBudget
 from regvet.model.cells import CellMap
 from regvet.model.facts import FileFacts
 from regvet.model.finding import Finding, Severity
@@ -164,6 +166,7 @@ def analyze(
     module_cache: dict | None = None,
     strict: bool = False,
     skip_unrelated: bool = True,
+    budget: float | None = None,
 ) -> FileReport:
     """Analyse one file's text. ``path`` names the file in findings; it is never opened.
 
@@ -174,11 +177,13 @@ def analyze(
 
     It never raises (unless ``strict``): input too deep or too large for the analysis gives an
     ``incomplete-analysis`` finding, and a failure of regvet itself a :class:`Crash` with the same
-    finding, so a scan keeps every other file's findings.
+    finding, so a scan keeps every other file's findings. The collection of facts stops after
+    ``budget`` seconds (default: the ``analysis_budget`` setting) with that finding too.
     """
     with _no_gc_pauses():
         try:
-            return _analyze(text, path, settings, notebook, provider, module_key, module_cache, strict, skip_unrelated)
+            return _analyze(text, path, settings, notebook, provider, module_key, module_cache, strict, skip_unrelated,
+                            budget)  # fmt: skip
         except (RecursionError, MemoryError) as exc:  # deeper or larger than the analyser can follow
             if strict:
                 raise
@@ -186,7 +191,7 @@ def analyze(
         except Exception as exc:  # a bug in regvet outside the guarded stages: the file still gets its report
             if strict:
                 raise
-            return _failed(path, settings, Crash("analysis", _describe(exc)))
+            return failure_report(path, Crash("analysis", _describe(exc)), settings)
 
 
 def _analyze(
@@ -199,6 +204,7 @@ def _analyze(
     module_cache: dict | None,
     strict: bool,
     skip_unrelated: bool,
+    budget: float | None,
 ) -> FileReport:
     settings = settings or Settings()
     is_nb = path.endswith(".ipynb") if notebook is None else notebook
@@ -207,8 +213,9 @@ def _analyze(
         if isinstance(nb, SourceError):
             return _finish(path, settings, RuleInput(FileFacts(), settings, (), nb), None, (), strict, None)
         return _analyze_python(nb.python, path, settings, provider, module_key, module_cache, strict,
-                               skip_unrelated, nb)  # fmt: skip
-    return _analyze_python(text, path, settings, provider, module_key, module_cache, strict, skip_unrelated, None)
+                               skip_unrelated, nb, budget)  # fmt: skip
+    return _analyze_python(text, path, settings, provider, module_key, module_cache, strict, skip_unrelated, None,
+                           budget)  # fmt: skip
 
 
 def analyze_cells(
@@ -221,13 +228,14 @@ def analyze_cells(
     module_key: str = "",
     module_cache: dict | None = None,
     strict: bool = False,
+    budget: float | None = None,
 ) -> FileReport:
     """Analyse a notebook given as ``(cell index, source)`` code cells (as an editor syncs them)."""
     with _no_gc_pauses():
         try:
             nb = join_cells(code_cells, cell_count)
             return _analyze_python(nb.python, path, settings or Settings(), provider, module_key, module_cache,
-                                   strict, True, nb)  # fmt: skip
+                                   strict, True, nb, budget)  # fmt: skip
         except (RecursionError, MemoryError) as exc:  # deeper or larger than the analyser can follow
             if strict:
                 raise
@@ -235,11 +243,12 @@ def analyze_cells(
         except Exception as exc:
             if strict:
                 raise
-            return _failed(path, settings, Crash("analysis", _describe(exc)))
+            return failure_report(path, Crash("analysis", _describe(exc)), settings)
 
 
-def _failed(path: str, settings: Settings | None, crash: Crash) -> FileReport:
-    """The report of a file regvet failed on outside the stages that guard themselves."""
+def failure_report(path: str, crash: Crash, settings: Settings | None = None) -> FileReport:
+    """The report of a file regvet failed on outside the stages that guard themselves (or whose worker
+    process died): the crash, and its ``incomplete-analysis`` finding."""
     settings = settings or Settings()
     return _finish(path, settings, RuleInput(FileFacts(), settings), None, (crash,), False, None)
 
@@ -260,7 +269,10 @@ def _analyze_python(
     strict: bool,
     skip_unrelated: bool,
     nb: NotebookSource | None,
+    budget: float | None = None,
 ) -> FileReport:
+    started = time.monotonic()
+    budget = settings.analysis_budget if budget is None else budget
     provider = provider or NoModules()
     cell_map = nb.cell_map if nb is not None else None
     cell_count = nb.cell_count if nb is not None else None
@@ -278,16 +290,15 @@ def _analyze_python(
         return replace(_finish(path, settings, inp, cell_map, (), strict, cell_count), python=python)
     crashes: list[Crash] = []
     stopped: tuple[str, ...] = ()
+    over_budget = False
     try:
-        facts = collect(
-            tree,
-            python,
-            provider=provider,
-            helpers=settings.helper_families(),
-            module_key=module_key,
-            parse=_parse_module,
-            module_cache=module_cache,
-        )
+        collector = _BudgetedCollector(provider, settings.helper_families(), module_key, _parse_module, module_cache)
+        collector.deadline = started + budget
+        facts = collector.run(tree, python)
+    except OverBudget:
+        facts = FileFacts()
+        over_budget = True
+        stopped = (f"it took longer than its time budget of {budget:g} s (`analysis_budget`)",)
     except (RecursionError, MemoryError) as exc:  # input deeper or larger than the analyser can follow
         if strict:
             raise
@@ -301,7 +312,17 @@ def _analyze_python(
     spellings = suggested_spellings(tree) if facts.fits else ()
     inp = RuleInput(facts, settings, waivers, cell_map=cell_map, stopped=stopped, spellings=spellings,
                     broken_cells=broken)  # fmt: skip
-    return replace(_finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count), python=python)
+    report = _finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count)
+    return replace(report, python=python, over_budget=over_budget)
+
+
+class _BudgetedCollector(Collector):
+    """The collector with its clock: every statement it runs is counted (``tick``), so it stops
+    with :class:`OverBudget` once its deadline has passed."""
+
+    def exec_stmt(self, stmt: ast.stmt, frame: Frame) -> None:
+        self.tick()
+        super().exec_stmt(stmt, frame)
 
 
 def error_report(path: str, error: SourceError, settings: Settings | None = None) -> FileReport:

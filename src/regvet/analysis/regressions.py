@@ -521,11 +521,10 @@ class RegressionSemantics(CollectorState):
     def binary_operation(self, op: ast.operator, left: Value, right: Value, node: Node, frame: Frame) -> Value:
         """``a op b``: strings built from literals, powers of residuals and fitted values, differences and
         ratios of measures, SSR sums."""
-        if isinstance(op, (ast.Add, ast.Mod)):
-            text = self.string_operation(op, left, right)
-            if text is not None:
-                return text
-        result: set[Tag] = set()
+        text = self.string_operation(op, left, right) if isinstance(op, (ast.Add, ast.Mod)) else None
+        if text is not None and not text.has(tags.PREFIX):
+            return text  # a string built from literals only
+        result: set[Tag] = set(text.tags) if text is not None else set()  # a known start, and what else flows
         left_flat, right_flat = flat(left), flat(right)
         if isinstance(op, ast.Pow):
             power = [p for p in tags.literal_values(right_flat.tags) if isinstance(p, (int, float))]

@@ -13,6 +13,7 @@ part calls on another are declared at the end of :class:`CollectorState` for the
 from __future__ import annotations
 
 import ast
+import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
@@ -30,6 +31,18 @@ Parser = Callable[[str, str], "ast.Module | None"]
 ModuleCache = dict[tuple[str, str], ast.Module]
 #: A node whose position the collector records (an expression, or a statement such as ``x += y``).
 Node = ast.expr | ast.stmt
+
+
+class OverBudget(BaseException):
+    """The analysis ran past its deadline (``CollectorState.tick``).
+
+    A ``BaseException``, like ``KeyboardInterrupt``, so that no ``except Exception`` inside the
+    collector (a provider's failure, an odd tree) stops it on the way out to the engine.
+    """
+
+
+#: Statements between two looks at the clock.
+_TICKS = 256
 
 
 # --- records -------------------------------------------------------------------------------------
@@ -172,6 +185,15 @@ class CollectorState:
         self.stmt: ast.stmt | None = None  # the simple statement being run
         self.stmt_module: ModuleRecord | None = None
         self._ids = 0
+        #: ``time.monotonic()`` after which the analysis stops (None: no budget).
+        self.deadline: float | None = None
+        self._ticks = 0
+
+    def tick(self) -> None:
+        """Count one statement run; every few hundred, raise :class:`OverBudget` past the deadline."""
+        self._ticks += 1
+        if self._ticks % _TICKS == 0 and self.deadline is not None and time.monotonic() > self.deadline:
+            raise OverBudget
 
     def new_id(self) -> int:
         """A fresh id for a function, model or fit (one counter: ids never collide)."""

@@ -67,7 +67,7 @@ def _parser() -> argparse.ArgumentParser:
     )
     _check_options(r, run_verb=True)
     _subcommands(sub)
-    sub.add_parser("rules", help="list the rules")
+    sub.add_parser("rules", help="list the rules: id, default severity, `run` for those that judge a run, summary")
     sub.add_parser("serve", help="run the language server (stdio; --tcp [--port N] for 127.0.0.1)")
     e = sub.add_parser("explain", help="explain rules: rationale, examples, references")
     e.add_argument("rule", nargs="+", metavar="RULE", help="a rule id as `regvet rules` lists it, in any letter case")

@@ -80,6 +80,13 @@ OPTIONS: tuple[Option, ...] = (
         (),
         "Functions regvet cannot read that run checks, e.g. {\"ourlib.check_fit\" = [\"form\", \"variance\"]}.",
     ),
+    Option(
+        "analysis_budget",
+        "seconds",
+        20.0,
+        "Wall-clock limit for the static analysis of one file, in seconds; past it the file gets an "
+        "`incomplete-analysis` finding instead of its findings.",
+    ),
     # --- runtime mode (regvet check --run) ---
     Option("python", "string", "", "Interpreter that runs the analysis in runtime mode (default: regvet's own)."),
     Option("run_timeout", "seconds", 300.0, "Wall-clock limit for one script's run, in seconds."),
@@ -108,6 +115,7 @@ class Settings:
     break_candidates: tuple[str, ...] = ()
     fixed_effects: tuple[str, ...] = ()
     diagnostic_helpers: tuple[tuple[str, tuple[str, ...]], ...] = ()
+    analysis_budget: float = 20.0
     python: str = ""
     run_timeout: float = 300.0
     run_memory_mb: int = 8192

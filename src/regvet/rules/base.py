@@ -200,7 +200,9 @@ def site_fits(inp: RuleInput, fit: Fit) -> list[Fit]:
     for other in inp.facts.fits_at_site(fit.site):
         if not other.auxiliary:
             out.setdefault(inp.facts.root(other.id), other)
-    return sorted(out.values(), key=lambda f: f.id) or [fit]
+    # in the order their root fits are made: a copy's own id can depend on the order a set of
+    # fits was walked in (robust copies of several candidates), which varies with the hash seed
+    return [f for _, f in sorted(out.items())] or [fit]
 
 
 #: The covariances whose reported version of a fit answers a family's missing check (``robust_reported``).

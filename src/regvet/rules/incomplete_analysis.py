@@ -21,7 +21,7 @@ _START = Span(1, 0, 1, 0)
 
 def check(inp: RuleInput) -> Iterator[Finding]:
     for why in inp.stopped:
-        yield RULE.finding(_START, f"regvet stopped analysing this file: {why}. Fits in it may go unchecked.")
+        yield RULE.finding(_START, f"regvet stopped analysing this file: {why}, so nothing in it was checked.")
     for fit in inp.judged_fits():
         if fit.formula_too_large:
             yield RULE.fit_finding(

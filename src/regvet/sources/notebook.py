@@ -134,7 +134,7 @@ def read_notebook(text: str) -> NotebookSource | SourceError:
         for number, ws in enumerate(nb["worksheets"]):
             held = ws.get("cells", []) if isinstance(ws, dict) else None
             if not isinstance(held, list):
-                return SourceError(f"invalid notebook: worksheet {number} has no list of cells", Span(1, 0, 1, 0))
+                return SourceError(f"invalid notebook: worksheet {number + 1} has no list of cells", Span(1, 0, 1, 0))
             cells.extend(held)
     if not isinstance(cells, list):
         return SourceError("invalid notebook: no list of cells", Span(1, 0, 1, 0))

@@ -20,9 +20,10 @@ from dataclasses import dataclass
 from regvet.model.span import Span
 
 _DIRECTIVE = re.compile(r"#\s*regvet\s*:\s*(?P<kind>waive-file|waive)\b(?P<rest>.*)$")
-_BECAUSE = re.compile(r"(?:^|\s)because(?:\s|$)")
+_BECAUSE = re.compile(r"(?:^|\s)because(?=\s|:|$):?")
 #: Separators of other habits, between the rules and a reason: `` -- reason``, ``RULE: reason``.
-_OTHER_SEPARATOR = re.compile(r"\s*(--+|:|—|–)\s*")
+# No `\s*` around it: searched over a comment of many spaces, that backtracked quadratically.
+_OTHER_SEPARATOR = re.compile(r"--+|:|—|–|(?<=\s)-(?=\s)")
 #: The word that introduces the reason.
 BECAUSE = "because"
 
@@ -82,7 +83,7 @@ def _parse(rest: str, file_wide: bool, known: Collection[str] | None
     if other:  # `RULE -- reason`, `RULE: reason`: a reason in a form regvet does not read
         named = [w for w, _ in _words(rest[: other.start()])]
         why = rest[other.end() :].strip()
-        sep = other.group(1)
+        sep = other.group(0)
         shown = f"` {sep} `" if sep != ":" else "`:`"
         problem = f"separates its reason with {shown} instead of the word `because`"
         return (tuple(named), None, problem if named else "names no rule and " + problem,
