@@ -33,6 +33,7 @@ ferries = pd.read_csv("ferries.csv")
 """
 
 SPREAD = ["`riders ~ fare`", "`riders ~ temp`", "`riders ~ wind`"]
+TWO = ["`riders ~ fare`", "`riders ~ temp`"]
 THREE = ["`riders ~ fare`", "`riders ~ fare + temp`", "`riders ~ fare + temp + wind`"]
 
 
@@ -73,6 +74,29 @@ CASES = [
         for name in ["north.csv", "south.csv"]:
             print(fit_port(pd.read_csv(name)).summary())  # expect: no-form-test, no-variance-test
     """, {r: (["fit 1 (`riders ~ fare`)", "fit 2 (`riders ~ fare`)"],) * 2 for r in (VAR, FORM)}),
+    ("check-applied-conditionally-in-the-loop", """
+        for formula in ["riders ~ fare", "riders ~ fare + temp", "riders ~ fare + temp + wind"]:
+            res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test, no-variance-test
+            if "temp" in formula:
+                print(het_breuschpagan(res.resid, res.model.exog))
+            print(res.pvalues)
+    """, {VAR: (THREE, ["`riders ~ fare`"]), FORM: (THREE, THREE)}),
+    ("check-on-the-first-step-of-enumerate", """
+        for i, formula in enumerate(["riders ~ fare", "riders ~ temp"]):
+            res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test, no-variance-test
+            if i == 0:
+                print(het_breuschpagan(res.resid, res.model.exog))
+            else:
+                print(res.bse)
+            print(res.pvalues)
+    """, {VAR: (TWO, ["`riders ~ temp`"]), FORM: (TWO, TWO)}),
+    ("check-under-a-condition-on-data-is-credited-to-each", """
+        for formula in ["riders ~ fare", "riders ~ fare + temp"]:
+            res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test
+            if res.nobs > 30:
+                print(het_breuschpagan(res.resid, res.model.exog))
+            print(res.pvalues)
+    """, {FORM: (THREE[:2], THREE[:2])}),
     ("loop-all-checked", """
         for formula in ["riders ~ fare", "riders ~ fare + temp"]:
             res = smf.ols(formula, data=ferries).fit()

@@ -28,6 +28,7 @@ from typing import Any, cast
 
 from regvet.analysis import built, catalog, tags, timeorder
 from regvet.analysis.built import BuiltFormulas
+from regvet.analysis.folding import known_comparison
 from regvet.analysis.libraries import (
     ARITHMETIC_KEEPS,
     LibrarySemantics,
@@ -136,7 +137,11 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
                 frame.returns = join(frame.returns, self.evaluate(stmt.value, frame))
         elif isinstance(stmt, ast.If):
             self.evaluate(stmt.test, frame)
-            self.run_branches(stmt, [stmt.body, stmt.orelse], frame)
+            truth = self.known_truth(stmt.test, frame)
+            if truth is None:
+                self.run_branches(stmt, [stmt.body, stmt.orelse], frame)
+            else:
+                self.exec_block(stmt.body if truth else stmt.orelse, frame)
         elif isinstance(stmt, (ast.For, ast.AsyncFor)):
             iterable = self.evaluate(stmt.iter, frame)
             steps = self.unrollable_steps(iterable)
@@ -189,6 +194,16 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
             for child in ast.iter_child_nodes(stmt):
                 if isinstance(child, ast.expr):
                     self.evaluate(child, frame)
+
+    def known_truth(self, test: ast.expr, frame: Frame) -> bool | None:
+        """The outcome of an ``if`` test comparing names and constants whose values are single literals
+        (a loop unrolled over literals), else None: then both branches run."""
+        if not isinstance(test, ast.Compare) or len(test.ops) != 1:
+            return None
+        sides = (test.left, test.comparators[0])
+        if not all(isinstance(n, (ast.Name, ast.Constant)) for n in sides):
+            return None
+        return known_comparison(test.ops[0], self.evaluate(sides[0], frame), self.evaluate(sides[1], frame))
 
     def touched(self, stmt: ast.stmt) -> frozenset[str]:
         """Every name (and dotted attribute path) a compound statement mentions: all it can rebind.

@@ -341,11 +341,13 @@ class RegressionSemantics(CollectorState):
     def same_data_key(self, node: ast.expr | None, value: Value | None, frame: Frame) -> tuple:
         """An argument as two model calls must share it to be given the same data: the expression, with
         the value every name in it holds now (``ferries["riders"]`` twice over one frame is the same
-        data; after ``ferries`` is rebound it is not). Without a node, its value."""
+        data; after ``ferries`` is rebound it is not). Without a node, its value. The expression is
+        kept as its node here; ``_spec_numbers`` compares its text only between models that agree
+        on everything else."""
         if node is None:
             return ("value", value)
         names = sorted({n.id for n in ast.walk(node) if isinstance(n, ast.Name)})
-        return (ast.dump(node), tuple((n, _bound(n, frame)) for n in names))
+        return ("expr", node, tuple((n, _bound(n, frame)) for n in names))
 
     # --- fits ------------------------------------------------------------------------------------
     def call_model_fit(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
@@ -576,10 +578,10 @@ class RegressionSemantics(CollectorState):
     # --- the facts -------------------------------------------------------------------------------
     def build_facts(self) -> FileFacts:
         fits: list[Fit] = []
-        specs: dict[tuple, int] = {}
+        specs = _spec_numbers([m for m in self.models.values() if m.spec is not None])
         for record in self.fits.values():
             model = record.model
-            spec = None if model.spec is None else specs.setdefault(model.spec, len(specs))
+            spec = specs.get(model.id)
             site = record.via[-1] if record.via else record.fit_call
             model_span = model.loc.span if model.loc.path is None else None
             shift, inter, main = _category_column_groups(model)
@@ -649,6 +651,37 @@ def _bound(name: str, frame: Frame) -> Value | None:
                 return f.locals[name]
             f = f.parent
     return frame.module.globals.get(name)
+
+
+def _spec_numbers(models: list[ModelRecord]) -> dict[int, int]:
+    """Model id -> a number shared by the models of the same specification on the same data.
+
+    Models are first grouped with each argument's expression left out (cheap); only within a group
+    of several are the expressions compared, by their ``ast.dump``."""
+
+    def arg(item: tuple, full: bool) -> tuple:
+        how, *rest = item
+        if how != "expr":
+            return item
+        node, names = rest
+        return ("expr", ast.dump(node) if full else type(node).__name__, names)
+
+    def key(spec: tuple, full: bool) -> tuple:
+        estimator, api, text, data_keys, (extra, named), ctx, unroll = spec
+        return (estimator, api, text, tuple(arg(d, full) for d in data_keys),
+                tuple(arg(a, full) for a in extra), tuple((n, arg(a, full)) for n, a in named), ctx, unroll)  # fmt: skip
+
+    groups: dict[tuple, list[ModelRecord]] = {}
+    for model in models:
+        groups.setdefault(key(model.spec, False), []).append(model)  # type: ignore[arg-type]
+    out: dict[int, int] = {}
+    numbers: dict[tuple, int] = {}
+    for group in groups.values():
+        if len(group) < 2:
+            continue
+        for model in group:
+            out[model.id] = numbers.setdefault(key(model.spec, True), len(numbers))  # type: ignore[arg-type]
+    return out
 
 
 def _spec_key(ctor: catalog.Constructor, source: ModelSource, data_keys: tuple, others: tuple,
