@@ -64,6 +64,7 @@ SLOW_GROUPS: dict[str, str] = {
     "test_stats_schema.py::test_a_robust_copy_records_the_fit_it_came_from": "runtime",
     "test_stats_schema.py::test_plot_points_are_downsampled_and_in_time_order": "runtime",
     "test_lsp.py": "server",  # the real language server over stdio and TCP
+    "test_lsp_stress.py": "server",  # the real server under stress and hostile input
     "test_baseline.py::test_the_language_server_hides_baselined_findings": "server",
     "test_report.py::test_run_report_has_statistics_coefficients_and_plots": "runtime",
     "test_report.py::test_the_fit_whose_significance_changes_ranks_first": "runtime",

@@ -78,12 +78,14 @@ def test_adopting_regvet_on_the_demo(run_cli, demo):
     data = json.loads((demo / BASELINE_NAME).read_text())
     assert data["format"] == "regvet-baseline" and data["version"] == 1
     recorded = sorted((path, e["rule"], e["line"]) for path, items in data["files"].items() for e in items)
-    # every open finding except the engine's own (a waiver without a reason is never hidden)
+    # every open finding except the engine's own (a waiver without a reason, or naming no rule, is never hidden)
     assert len(recorded) == 10 and ("03_model_choice.py", "waiver-without-reason", 50) not in recorded
+    assert ("03_model_choice.py", "waiver-unknown-rule", 43) not in recorded
     assert all(len(e["fingerprint"]) == 20 for items in data["files"].values() for e in items)
     code, out, err = run_cli("check", "--format", "lines", ".")
     assert code == 1
-    assert [line.split(": ")[1].split()[1] for line in out.splitlines() if ": warning " in line] == ["waiver-without-reason"]
+    assert [line.split(": ")[1].split()[1] for line in out.splitlines() if ": warning " in line] == ["waiver-unknown-rule",
+                                                                                                "waiver-without-reason"]
     assert "regvet: baseline regvet-baseline.json: 10 known findings not shown\n" in out
 
     # edits that keep every finding known: lines inserted above the fits, a variable renamed elsewhere
@@ -94,14 +96,15 @@ def test_adopting_regvet_on_the_demo(run_cli, demo):
     text = text.replace("checks.items()", "battery.items()")
     weather.write_text(text)
     code, out, err = run_cli("check", ".", "--format", "json")
-    assert [f["rule"] for f in json.loads(out)["findings"] if not f["waived"]] == ["waiver-without-reason"]
+    assert [f["rule"] for f in json.loads(out)["findings"] if not f["waived"]] == ["waiver-unknown-rule",
+                                                                                  "waiver-without-reason"]
     assert "10 known findings not shown" in err  # machine formats keep stdout clean
 
     # a new fit is reported
     weather.write_text(text + 'fuel_res = smf.ols("riders ~ fuel_price", data=crossings).fit()\nprint(fuel_res.summary())\n')
     code, out, err = run_cli("check", ".", "--format", "json")
     new = sorted((f["path"], f["line"], f["rule"]) for f in json.loads(out)["findings"]
-                 if f["rule"] != "waiver-without-reason" and not f["waived"])  # fmt: skip
+                 if not f["rule"].startswith("waiver-") and not f["waived"])  # fmt: skip
     fit_line = text.count("\n") + 1
     assert new == [("02_weather_effects.py", fit_line, r) for r in ("no-form-test", "no-serial-test", "no-variance-test")]
 
@@ -115,7 +118,7 @@ def test_adopting_regvet_on_the_demo(run_cli, demo):
     assert "9 known findings not shown\n" in out
     assert out.count("02_weather_effects.py:") == 3  # the new fit's findings are still reported
     code, out, err = run_cli("check", ".", "--no-baseline", "--format", "json")
-    assert len([f for f in json.loads(out)["findings"] if not f["waived"]]) == 13
+    assert len([f for f in json.loads(out)["findings"] if not f["waived"]]) == 14
 
 
 def test_a_broken_baseline_is_a_clear_error(run_cli, demo):

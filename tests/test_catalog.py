@@ -46,6 +46,13 @@ def test_helper_path_exists(qualname):
     assert callable(_resolve(qualname))
 
 
+@pytest.mark.parametrize("qualname", sorted(cat.DESIGN_MATRICES))
+def test_design_matrices_path_exists(qualname):
+    import patsy  # statsmodels' formula engine, installed with it
+
+    assert _resolve(qualname) is patsy.dmatrices
+
+
 @pytest.mark.parametrize("alias,target", sorted(cat.NAMESPACE_ALIASES.items()))
 def test_namespace_alias_is_the_same_object(alias, target):
     assert _resolve(alias) is _resolve(target)

@@ -127,7 +127,7 @@ def test_syntax_error_position_and_scan_continues(project, run_cli):
 def test_json_shape(project, run_cli):
     sub = project / "analysis"
     sub.mkdir()
-    (sub / "dirty.py").write_text(UNCHECKED.replace("fit()", "fit()  # regvet: waive no-form-test -- fare is linear by design"))
+    (sub / "dirty.py").write_text(UNCHECKED.replace("fit()", "fit()  # regvet: waive no-form-test because fare is linear by design"))
     code, out, _ = run_cli("check", "analysis", "--format", "json")
     data = json.loads(out)
     assert data["version"] == 1
@@ -159,9 +159,62 @@ def test_rules_and_explain(run_cli):
     assert code == 0
     from regvet.rules import ALL_RULES
 
-    assert [line.split()[0] for line in out.strip().split("\n")] == [r.id for r in ALL_RULES]
+    table = out.strip().split("\n\n")[0].split("\n")
+    assert [line.split()[0] for line in table] == [r.id for r in ALL_RULES]
+    # the runtime-only rules are marked `run` in their own column, the static ones are not
+    marked = {line.split()[0] for line in table if line.split()[2] == "run"}
+    assert marked == {r.id for r in ALL_RULES if r.needs_run} and marked
+    assert "run: judges the statistics of a run" in out
     code, out, _ = run_cli("explain", "no-variance-test")
     assert code == 0 and "Long, J. S. and Ervin" in out and "qualified statistician" in out
+
+
+@pytest.mark.parametrize("spelt", ["No-Form-Test", "NO-FORM-TEST", "no_form_test", " no-form-test"])
+def test_explain_accepts_any_letter_case(run_cli, spelt):
+    code, out, err = run_cli("explain", spelt)
+    assert code == 0 and err == "" and out.startswith("no-form-test (warning by default)")
+
+
+@pytest.mark.parametrize("typo,meant", [("no-from-test", "no-form-test"), ("No-Varience-Test", "no-variance-test"),
+                                        ("waiver-unkown-rule", "waiver-unknown-rule"), ("brake-rejected", "break-rejected")])
+def test_explain_suggests_the_nearest_rule_on_a_typo(run_cli, typo, meant):
+    code, out, err = run_cli("explain", typo)
+    assert code == 2 and out == ""
+    assert err == f"regvet: error: no rule `{typo}`; did you mean `{meant}`?\n"
+
+
+def test_explain_without_a_close_rule_points_to_the_catalogue(run_cli):
+    code, out, err = run_cli("explain", "ferry-timetable")
+    assert code == 2 and "no rule `ferry-timetable`; `regvet rules` lists them" in err and "did you mean" not in err
+
+
+def test_explain_shows_examples_without_test_harness_comments(run_cli):
+    from regvet.rules import ALL_RULES
+
+    code, out, _ = run_cli("explain", *[r.id for r in ALL_RULES])
+    assert code == 0
+    assert "# expect" not in out and "expect:" not in out
+    assert "regvet config for this example" not in out
+    # the configuration an example needs is said in words instead
+    assert 'With `break_candidates = ["post_timetable"]` under `[tool.regvet]`:' in out
+    # the flagged line itself is still shown, without its marker
+    assert '    res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()\n' in out
+
+
+def test_explain_prints_the_caution_once_at_the_end(run_cli):
+    from regvet.rules.texts import CAUTION
+
+    for rules in (["no-form-test"], ["no-form-test", "run-failed", "waiver-unknown-rule"]):
+        code, out, _ = run_cli("explain", *rules)
+        assert code == 0 and out.count("does not make a model right") == 1
+        assert out.endswith("\n\n" + CAUTION + "\n")
+        assert out.count(" (warning by default") + out.count(" (error by default") == len(rules)
+    # shorter than before (it was 453 characters) and it keeps its four points
+    assert len(CAUTION) < 300
+    for point in ("Passing regvet does not make a model right", "missing or failed",
+                  "judgement about the economics stays with the analyst",
+                  "qualified statistician or econometrician under the rules of their field or institution"):
+        assert point in CAUTION
 
 
 def test_colour_only_when_asked_or_on_a_terminal(project, run_cli):

@@ -152,7 +152,7 @@ def test_waivers_waive_both_findings_in_one_comment(name):
         (f,) = [f for f in analyze(twice, "ferry.py").findings if f.rule == rule]
         assert f.waived and f.reason == "REASON"
     (removed, added), = changes(old, twice)
-    assert removed == "" and added.strip() == "# regvet: waive no-form-test, no-variance-test -- REASON"
+    assert removed == "" and added.strip() == "# regvet: waive no-form-test, no-variance-test because REASON"
 
 
 # --- positions --------------------------------------------------------------------------------
@@ -337,7 +337,7 @@ def test_two_imports_from_one_module():
 def test_waiver_goes_above_the_statement_at_its_indentation():
     old = "def f():\n    # fit it\n    res = m.fit()  # why\n"
     new = checked(old, add_waiver(old, 3, "no-form-test", "fares are fixed"))
-    assert changes(old, new) == [("", "    # regvet: waive no-form-test -- fares are fixed\n")]
+    assert changes(old, new) == [("", "    # regvet: waive no-form-test because fares are fixed\n")]
     assert new.index("regvet") > new.index("# fit it")
 
 
@@ -351,19 +351,19 @@ def test_waiver_inside_a_multiline_statement_is_a_trailing_comment_and_waives():
     assert changes(MULTI, new) == [
         (
             '    "fare": smf.ols("riders ~ fare", data=crossings).fit(),  # first\n',
-            '    "fare": smf.ols("riders ~ fare", data=crossings).fit(),  # regvet: waive no-form-test -- REASON  # first\n',
+            '    "fare": smf.ols("riders ~ fare", data=crossings).fit(),  # regvet: waive no-form-test because REASON  # first\n',
         )
     ]
     (w,) = [g for g in analyze(new, "ferry.py").findings if g.rule == "no-form-test"]
     assert w.waived and w.reason == "REASON"
     new2 = checked(new, add_waiver(new, 6, "no-variance-test"))
-    assert "# regvet: waive no-form-test, no-variance-test -- REASON  # first\n" in new2
+    assert "# regvet: waive no-form-test, no-variance-test because REASON  # first\n" in new2
     assert all(g.waived for g in analyze(new2, "ferry.py").findings if g.rule in ("no-form-test", "no-variance-test"))
 
 
 def test_trailing_waiver_without_a_comment_and_with_trailing_spaces_and_crlf():
     old = "x = f(\r\n    m.fit(),   \r\n)\r\n"
-    assert add_waiver(old, 2, "no-form-test") == "x = f(\r\n    m.fit(),  # regvet: waive no-form-test -- REASON   \r\n)\r\n"
+    assert add_waiver(old, 2, "no-form-test") == "x = f(\r\n    m.fit(),  # regvet: waive no-form-test because REASON   \r\n)\r\n"
 
 
 @pytest.mark.parametrize(
@@ -375,8 +375,8 @@ def test_trailing_waiver_without_a_comment_and_with_trailing_spaces_and_crlf():
 )
 def test_waiver_goes_alone_directly_above_a_line_that_cannot_take_a_comment(old, line, indent):
     new = checked(old, add_waiver(old, line, "no-form-test"))
-    assert changes(old, new) == [("", f"{indent}# regvet: waive no-form-test -- REASON\n")]
-    assert new.split("\n")[line - 1] == f"{indent}# regvet: waive no-form-test -- REASON"
+    assert changes(old, new) == [("", f"{indent}# regvet: waive no-form-test because REASON\n")]
+    assert new.split("\n")[line - 1] == f"{indent}# regvet: waive no-form-test because REASON"
 
 
 def test_a_waiver_placed_above_a_line_inside_brackets_is_honoured():
@@ -403,17 +403,17 @@ def test_no_waiver_where_no_line_can_hold_one():
     "old, expected",
     [
         (
-            "# regvet: waive no-form-test -- fixed fares\nres = m.fit()\n",
-            "# regvet: waive no-form-test, no-variance-test -- fixed fares\n",
+            "# regvet: waive no-form-test because fixed fares\nres = m.fit()\n",
+            "# regvet: waive no-form-test, no-variance-test because fixed fares\n",
         ),
         (
-            "res = m.fit()  # regvet: waive no-form-test -- fixed fares\n",
-            "res = m.fit()  # regvet: waive no-form-test, no-variance-test -- fixed fares\n",
+            "res = m.fit()  # regvet: waive no-form-test because fixed fares\n",
+            "res = m.fit()  # regvet: waive no-form-test, no-variance-test because fixed fares\n",
         ),
-        ("# regvet:waive no-form-test\nres = m.fit()\n", "# regvet:waive no-form-test, no-variance-test -- REASON\n"),
+        ("# regvet:waive no-form-test\nres = m.fit()\n", "# regvet:waive no-form-test, no-variance-test because REASON\n"),
         (
             "# regvet: waive no-form-test  # expect: x\nres = m.fit()\n",
-            "# regvet: waive no-form-test, no-variance-test -- REASON  # expect: x\n",
+            "# regvet: waive no-form-test, no-variance-test because REASON  # expect: x\n",
         ),
     ],
 )
@@ -423,15 +423,50 @@ def test_an_existing_waiver_gets_the_rule(old, expected):
     assert lines(new)[0] == expected and new.count("regvet") == 1
 
 
+@pytest.mark.parametrize(
+    "old, expected",
+    [
+        # an existing waiver in the old ` -- reason` form is rewritten with `because` as the rule is added
+        ("# regvet: waive no-form-test -- fixed fares\nres = m.fit()\n",
+         "# regvet: waive no-form-test, no-variance-test because fixed fares\n"),
+        ("res = m.fit()  # regvet: waive no-form-test: fixed fares  # expect: x\n",
+         "res = m.fit()  # regvet: waive no-form-test, no-variance-test because fixed fares  # expect: x\n"),
+        ("# regvet: waive no-variance-test -- fixed fares\nres = m.fit()\n",
+         "# regvet: waive no-variance-test because fixed fares\n"),
+    ],
+)
+def test_an_existing_waiver_in_another_form_is_rewritten_when_the_rule_is_added(old, expected):
+    line = 1 if old.startswith("res") else 2
+    new = checked(old, add_waiver(old, line, "no-variance-test"))
+    assert lines(new)[0] == expected
+    from regvet.sources.waivers import find_waivers
+
+    (w,) = find_waivers(new)
+    assert w.malformed is None and w.reason == "fixed fares" and "no-variance-test" in w.rules
+
+
+def test_rewrite_waiver_replaces_the_directive_and_keeps_what_follows():
+    from regvet.edits.comments import rewrite_waiver
+
+    old = "res = m.fit()  # regvet: waive no-frm-test because fixed  # noqa: E501\nprint(1)\n"
+    w = Span(1, 15, 1, len(old.split("\n")[0]))
+    new = rewrite_waiver(old, w, "# regvet: waive no-form-test because fixed")
+    assert new == "res = m.fit()  # regvet: waive no-form-test because fixed  # noqa: E501\nprint(1)\n"
+    with pytest.raises(EditError):  # the comment moved away: nothing is guessed
+        rewrite_waiver("res = m.fit()\n", Span(1, 0, 1, 5), "# regvet: waive no-form-test because fixed")
+    with pytest.raises(EditError):
+        rewrite_waiver(old, w, "print(2)")
+
+
 def test_a_rule_already_waived_with_a_reason_changes_nothing():
-    old = "# regvet: waive no-variance-test -- ok\nres = m.fit()\n"
+    old = "# regvet: waive no-variance-test because ok\nres = m.fit()\n"
     assert add_waiver(old, 2, "no-variance-test") == old
 
 
 def test_a_file_wide_waiver_or_a_waiver_two_lines_up_is_not_merged():
-    old = "# regvet: waive-file no-form-test -- all\nres = m.fit()\n"
+    old = "# regvet: waive-file no-form-test because all\nres = m.fit()\n"
     assert add_waiver(old, 2, "no-variance-test").count("regvet:") == 2
-    old = "# regvet: waive no-form-test -- x\n\nres = m.fit()\n"
+    old = "# regvet: waive no-form-test because x\n\nres = m.fit()\n"
     assert add_waiver(old, 3, "no-variance-test").count("regvet:") == 2
 
 

@@ -112,6 +112,17 @@ def test_a_fifo_named_on_the_command_line_is_skipped_not_opened(hostile):
     assert "regvet: skipped src/pipe.py: a named pipe (FIFO)" in proc.stderr.decode()
 
 
+@pytest.mark.parametrize("name, why", [("pipe.toml", "a named pipe (FIFO)"), ("loop.toml", "a symbolic link loop")])
+def test_a_config_that_is_not_a_regular_file_is_a_usage_error_that_says_what_it_is(hostile, name, why):
+    if name == "pipe.toml":
+        os.mkfifo(hostile / name)
+    else:
+        os.symlink(name, hostile / name)
+    proc = _regvet("check", "src/ferries.py", "--config", name, "--no-cache", cwd=hostile, timeout=30)
+    assert proc.returncode == 2
+    assert f"regvet: error: --config: {name} is {why}" in proc.stderr.decode()
+
+
 def test_a_missing_path_is_still_a_usage_error(hostile):
     proc = _regvet("check", "src/nowhere.py", cwd=hostile)
     assert proc.returncode == 2

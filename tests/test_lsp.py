@@ -191,9 +191,9 @@ async def test_notebook_findings_are_published_on_their_cells(project):
 
 
 async def test_hover_shows_the_status_of_each_check_family(project):
-    text = SCRIPT + "print(linear_reset(res, power=3, use_f=True))  # regvet: waive no-variance-test -- x\n"
+    text = SCRIPT + "print(linear_reset(res, power=3, use_f=True))  # regvet: waive no-variance-test because x\n"
     text = text.replace("import pandas as pd\n", "import pandas as pd\nfrom statsmodels.stats.diagnostic import linear_reset\n")
-    text = text.replace(".fit()\n", ".fit()  # regvet: waive no-variance-test -- volumes are pooled over equal-size routes\n", 1)
+    text = text.replace(".fit()\n", ".fit()  # regvet: waive no-variance-test because volumes are pooled over equal-size routes\n", 1)
     async with session(project) as c:
         uri = c.open(project / "model.py", text)
         await c.diagnostics_for(uri, 1)
@@ -212,6 +212,34 @@ async def test_hover_shows_the_status_of_each_check_family(project):
             t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(0, 0))
         )
         assert nothing is None
+
+
+async def test_hover_on_a_loop_lists_the_fits_of_the_line(project):
+    text = textwrap.dedent(
+        """\
+        import pandas as pd
+        import statsmodels.formula.api as smf
+
+        crossings = pd.read_csv("crossings.csv")
+        for formula in ["riders ~ fare", "riders ~ fare + fuel_price"]:
+            res = smf.ols(formula, data=crossings).fit()
+            print(res.summary())
+        """
+    )
+    async with session(project) as c:
+        uri = c.open(project / "loop.py", text)
+        diags = await c.diagnostics_for(uri, 1)
+        assert codes(diags) == ["no-form-test", "no-variance-test"]  # one per rule for the two fits
+        d = next(d for d in diags if d.code == "no-variance-test")
+        assert d.message.startswith("2 fits from this line: `riders ~ fare`, `riders ~ fare + fuel_price`. For both:")
+        line = text.split("\n")[5]
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(5, line.index("smf.ols") + 3))
+        )
+        value = hover.contents.value
+        assert "**regvet** · 2 fits from this line: `riders ~ fare`, `riders ~ fare + fuel_price`" in value
+        assert "`res` (OLS, formula `riders ~ fare`, nonrobust)" in value
+        assert "`res` (OLS, formula `riders ~ fare + fuel_price`, nonrobust)" in value
 
 
 async def test_client_settings_override_skip(project):
@@ -388,7 +416,39 @@ async def test_each_quick_fix_clears_the_finding_it_targets(project, rule, title
         others = {"no-form-test", "no-variance-test"} - {rule}
         assert set(codes(after)) == others  # only the targeted finding went away
         if title_start.startswith("Waive"):
-            assert f"# regvet: waive {rule} -- REASON" in new
+            assert f"# regvet: waive {rule} because REASON" in new
+
+
+@pytest.mark.parametrize(
+    "comment,title,written,waived",
+    [
+        ("# regvet: waive no-form-test -- fares are fixed by contract",
+         "Rewrite the waiver as `# regvet: waive no-form-test because fares are fixed by contract`",
+         "# regvet: waive no-form-test because fares are fixed by contract", "no-form-test"),
+        ("# regvet: waive no-frm-test because fares are fixed by contract",
+         "Correct the waiver: `no-frm-test` to `no-form-test`",
+         "# regvet: waive no-form-test because fares are fixed by contract", "no-form-test"),
+    ],
+)
+async def test_a_waiver_in_another_form_or_misspelt_is_rewritten_by_its_quick_fix(project, comment, title, written,
+                                                                                waived):
+    text = SCRIPT.replace(".fit()\n", f".fit()  {comment}\n", 1)
+    async with session(project) as c:
+        uri = c.open(project / "model.py", text)
+        diags = await c.diagnostics_for(uri, 1)
+        target = next(d for d in diags if d.code in ("waiver-without-reason", "waiver-unknown-rule"))
+        assert waived in codes(diags)  # the waiver does not take effect yet
+        actions = await c.lsp.text_document_code_action_async(t.CodeActionParams(
+            text_document=t.TextDocumentIdentifier(uri=uri), range=target.range,
+            context=t.CodeActionContext(diagnostics=[target])))  # fmt: skip
+        assert [a.title for a in actions] == [title]  # no waiver of a waiver finding is offered
+        [change] = actions[0].edit.document_changes
+        [edit] = change.edits
+        new = apply_text_edit(text, edit)
+        assert new == text.replace(comment, written)
+        version = c.replace(uri, new)
+        after = await c.diagnostics_for(uri, version)
+        assert waived not in codes(after) and target.code not in codes(after)
 
 
 async def test_quick_fixes_in_a_notebook_cell_edit_that_cell(project):

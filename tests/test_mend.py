@@ -159,6 +159,27 @@ def test_only_selects_rules_and_refuses_a_rule_without_a_fix(run_cli, demo):
     assert changed == ["02_weather_effects.py"]
 
 
+def test_mend_never_writes_or_rewrites_a_waiver(run_cli, demo):
+    """A waiver records a person's decision: mend leaves the demo's misspelt waiver and a ` -- ` one as they are,
+    and refuses the waiver rules (the editor offers their rewrite)."""
+    (demo / "05_old_waiver.py").write_text(
+        "import pandas as pd\nimport statsmodels.formula.api as smf\n\ncrossings = pd.read_csv('c.csv')\n"
+        "res = smf.ols('riders ~ fare', data=crossings).fit()  # regvet: waive no-form-test -- fares are fixed\n"
+        "print(res.params)\n"
+    )
+    before = snapshot(demo)
+    code, out, err = run_cli("mend", ".")
+    assert code == 0, err
+    after = snapshot(demo)
+    assert "# regvet: waive no-form-test -- fares are fixed" in after["05_old_waiver.py"].decode()
+    assert "# regvet: waive no-brake-test because" in after["03_model_choice.py"].decode()
+    assert "regvet: waive no-form-test because" not in after["05_old_waiver.py"].decode()
+    assert after["05_old_waiver.py"].decode().count("regvet:") == before["05_old_waiver.py"].decode().count("regvet:")
+    for rule in ("waiver-without-reason", "waiver-unknown-rule"):
+        code, out, err = run_cli("mend", ".", "--only", rule)
+        assert code == 2 and "has no mechanical fix" in err
+
+
 @pytest.mark.parametrize("name", STATSMODELS_FILES)
 def test_mend_on_copies_of_statsmodels_files(run_cli, tmp_path, monkeypatch, name):
     original = (STATSMODELS / name).read_bytes()

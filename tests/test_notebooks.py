@@ -54,7 +54,7 @@ def test_a_test_in_a_later_cell_covers_an_earlier_fit():
 def test_waivers_in_notebook_cells():
     nb = notebook(
         ("code", "import statsmodels.api as sm"),
-        ("code", "# regvet: waive no-form-test, no-variance-test -- exploratory cell, not reported\nres = sm.OLS(y, X).fit()\nres.summary()"),
+        ("code", "# regvet: waive no-form-test, no-variance-test because exploratory cell, not reported\nres = sm.OLS(y, X).fit()\nres.summary()"),
     )
     report = analyze(nb, "nb.ipynb", strict=True)
     assert report.findings and all(f.waived for f in report.findings)
@@ -128,3 +128,23 @@ def test_nbformat_written_notebook_roundtrip(tmp_path):
     nbformat.write(nb, str(path))
     report = analyze(path.read_text(), "nb.ipynb", strict=True)
     assert [(f.rule, f.span.cell, f.span.line) for f in report.findings] == [("no-form-test", 1, 2)]
+
+
+def test_a_broken_cell_is_reported_and_the_other_cells_are_still_checked():
+    # Jupyter compiles each cell on its own: one cell with a syntax error fails alone.
+    nb = notebook(
+        ("code", "import pandas as pd\nimport statsmodels.formula.api as smf\nharbour = pd.read_csv('h.csv')"),
+        ("code", "!pip install something\nimport nothing as n -q"),
+        ("code", "res = smf.ols('tons ~ cranes', data=harbour).fit()\nprint(res.summary())"),
+    )
+    report = analyze(nb, "harbour.ipynb", strict=True)
+    found = sorted((f.rule, f.span.cell, f.span.line) for f in report.findings)
+    assert ("parse-error", 1, 2) in found
+    assert ("no-form-test", 2, 1) in found and ("no-variance-test", 2, 1) in found
+    (broken,) = [f for f in report.findings if f.rule == "parse-error"]
+    assert "other cells were checked" in broken.message
+
+
+def test_a_notebook_whose_cells_all_parse_gets_no_parse_error():
+    nb = notebook(("code", "import statsmodels.api as sm"), ("code", "x = 1"))
+    assert [f.rule for f in analyze(nb, "ok.ipynb", strict=True).findings] == []

@@ -6,7 +6,15 @@ import ast
 
 import pytest
 
-from regvet.edits.plan import CODE_KINDS, INSERT_BREUSCH_PAGAN, INSERT_RESET, ROBUST_COVARIANCE, WAIVER, plan
+from regvet.edits.plan import (
+    CODE_KINDS,
+    INSERT_BREUSCH_PAGAN,
+    INSERT_RESET,
+    REWRITE_WAIVER,
+    ROBUST_COVARIANCE,
+    WAIVER,
+    plan,
+)
 from regvet.engine import analyze
 from regvet.rules import ALL_RULES, QuickFix
 from regvet.sources.imports import spelling
@@ -95,3 +103,50 @@ def test_malformed_fix_data_plans_nothing_and_never_raises():
     text = SCRIPT.format(imports="")
     for fix in (None, {}, {"fit_call": "x", "statement": [1, 2], "result": 3}, {"fit_call": [99, 0, 99, 4]}):
         assert plan(text, "no-variance-test", list(CODE_KINDS), fix) == []
+
+
+WAIVED = """\
+import pandas as pd
+import statsmodels.formula.api as smf
+
+crossings = pd.read_csv("crossings.csv")
+m1 = smf.ols("riders ~ fare", data=crossings).fit()  {comment}
+print(m1.params)
+"""
+
+
+@pytest.mark.parametrize(
+    "comment,rule,written",
+    [
+        ("# regvet: waive no-form-test -- fares are set by contract", "waiver-without-reason",
+         "# regvet: waive no-form-test because fares are set by contract"),
+        ("# regvet: waive-file no-form-test: fares are set by contract", "waiver-without-reason",
+         "# regvet: waive-file no-form-test because fares are set by contract"),
+        ("# regvet: waive no-form-test fares are set by contract", "waiver-without-reason",
+         "# regvet: waive no-form-test because fares are set by contract"),
+        ("# regvet: waive No_Form_Test because fares are set by contract", "waiver-unknown-rule",
+         "# regvet: waive no-form-test because fares are set by contract"),
+    ],
+)
+def test_a_waiver_finding_plans_the_waiver_rewritten_and_the_rewrite_takes_effect(comment, rule, written):
+    text = WAIVED.format(comment=comment)
+    f = _finding(text, rule)
+    edits = plan(text, f.rule, [], f.fix)  # the editor's call for a rule that is not waivable
+    assert [e.kind for e in edits] == [REWRITE_WAIVER] and edits[0].preferred
+    assert edits[0].text == text.replace(comment, written)
+    after = analyze(edits[0].text, "model.py", strict=True).findings
+    assert [(g.rule, g.waived) for g in after] == [("no-form-test", True)]
+
+
+@pytest.mark.parametrize(
+    "comment,rule",
+    [
+        ("# regvet: waive no-form-test", "waiver-without-reason"),  # no reason to carry over: nothing is invented
+        ("# regvet: waive ferry-schedule because fares are set by contract", "waiver-unknown-rule"),  # nothing close
+        ("# regvet: waive no-frm-test", "waiver-unknown-rule"),  # no reason: the rewrite would not take effect
+    ],
+)
+def test_no_rewrite_is_planned_when_it_would_have_to_guess(comment, rule):
+    text = WAIVED.format(comment=comment)
+    f = _finding(text, rule)
+    assert plan(text, f.rule, [], f.fix) == []

@@ -23,7 +23,7 @@ SCRIPT = textwrap.dedent(
 
     # Überfahrten: the comment holds non-ASCII text before the fit
     crossings = pd.read_csv("crossings.csv")
-    r_ü = smf.ols("riders ~ fare", data=crossings).fit()  # regvet: waive no-form-test -- fare is linear by design
+    r_ü = smf.ols("riders ~ fare", data=crossings).fit()  # regvet: waive no-form-test because fare is linear by design
     print(r_ü.summary())
     """
 )

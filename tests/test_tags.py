@@ -30,6 +30,10 @@ ROUNDTRIPS = [
     (tags.literal("riders ~ fare"), tags.LITERAL, [(tags.literal_value, "riders ~ fare")]),
     (tags.literal(3), tags.LITERAL, [(tags.literal_value, 3)]),
     (tags.fstring_prefix("riders ~ "), tags.PREFIX, [(tags.prefix_text, "riders ~ ")]),
+    (tags.string_method(" + ", "join"), tags.STRING_METHOD,
+     [(tags.string_method_text, " + "), (tags.string_method_name, "join")]),
+    (tags.design("tons ~ cranes", tags.EXOG), tags.DESIGN,
+     [(tags.design_formula, "tons ~ cranes"), (tags.design_side, tags.EXOG)]),
     (tags.model(5), tags.MODEL, [(tags.model_id, 5)]),
     (tags.model_fit(5), tags.MODEL_FIT, [(tags.model_id, 5)]),
     (tags.model_part(5, tags.EXOG), tags.MODEL_PART, [(tags.model_id, 5), (tags.part_name, tags.EXOG)]),
@@ -55,6 +59,8 @@ ROUNDTRIPS = [
      [(tags.dates_what, "`pd.to_datetime`"), (tags.dates_where, _WHERE)]),
     (tags.date_column("week", "`parse_dates`", _WHERE), tags.DATE_COLUMN,
      [(tags.date_column_name, "week"), (tags.date_column_what, "`parse_dates`"), (tags.date_column_where, _WHERE)]),
+    (tags.categories("`pd.Categorical`"), tags.CATEGORIES, []),
+    (tags.category_column("chain"), tags.CATEGORY_COLUMN, [(tags.category_column_name, "chain")]),
 ]
 
 

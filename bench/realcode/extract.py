@@ -48,7 +48,11 @@ def main(argv: list[str] | None = None) -> int:
     except (OSError, json.JSONDecodeError) as exc:
         print(f"extract: {args.labels}: cannot read the labels ({exc})", file=sys.stderr)
         return 2
-    paths = sorted({f["path"] for f in labels["files"] if f["repo"].replace("/", "+") == key})
+    try:
+        paths = sorted({f["path"] for f in labels["files"] if f["mirror"] == key})
+    except (KeyError, TypeError) as exc:
+        print(f"extract: {args.labels}: not a labels file (missing {exc})", file=sys.stderr)
+        return 2
     if not paths:
         print(f"extract: {key}: no files listed for this repository in {args.labels}", file=sys.stderr)
         return 1

@@ -10,11 +10,13 @@ under CORPUS (``CORPUS/owner+name/path``, as bench/realcode/extract.py writes th
 findings to labelled fit sites:
 
 * a finding matches a site when it has the same file, the same notebook cell (0-based, ``null``
-  outside notebooks) and its line (the start of its span) is the site's ``line`` (where the model
-  call starts), its ``fit_line`` (the ``.fit()`` call when that is a separate statement) or one of
+  outside notebooks) and its line (the start of its span) is the site's ``fit_line`` (the line of
+  the ``.fit()`` call when that is a separate statement from the model call; one model fitted
+  twice gives two sites) or, without one, its ``line`` (where the model call starts), or one of
   its ``call_lines`` (where a fit made inside a helper function surfaces at the helper's call);
 * a site "fires" for a rule when at least one non-waived finding of that rule (any severity,
-  info included) matches it;
+  info included) matches it; further findings of the same rule at the same site (a loop making
+  several fits at one call) are counted as ``extra_findings_at_one_site``, not as false positives;
 * a finding of a scored rule that matches no labelled site of its file is counted as a false
   positive (every fit site of a labelled file is labelled) and listed under ``unmatched``;
   sites whose label for a rule is ``null`` are left out of that rule's counts.
@@ -28,6 +30,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import subprocess
 import sys
 from collections import defaultdict
@@ -69,16 +72,21 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
         r: {"tp": 0, "fp": 0, "fn": 0, "tn": 0, "false_positives": [], "false_negatives": []} for r in rules
     }
     static_pos = {"tp": 0, "fn": 0}
+    serial_fp_untimed = 0
+    kind_of = {r["mirror"]: r.get("kind", "") for r in labels.get("repos", [])}
+    by_kind: dict[str, dict[str, int]] = defaultdict(lambda: {"tp": 0, "fp": 0, "fn": 0, "tn": 0})
+    extra: dict[str, int] = {r: 0 for r in rules}
     for entry in labels["files"]:
         path = f"{entry['mirror']}/{entry['path']}"
         if path not in present:
             continue
         for site in entry["sites"]:
-            lines = {site["line"], site.get("fit_line", site["line"]), *site.get("call_lines", [])}
+            lines = {site.get("fit_line", site["line"]), *site.get("call_lines", [])}
             place = f"{path}" + (f", cell {site['cell']}" if site["cell"] is not None else "") + f", line {site['line']}"
             for rule in rules:
                 hits = [f for ln in lines for f in by_place.get((rule, path, site["cell"], ln), [])]
                 used.update(id(f) for f in hits)
+                extra[rule] += max(0, len(hits) - 1)
                 truth = site["labels"][rule]["fire"]
                 if truth is None:
                     continue
@@ -86,6 +94,10 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
                 s = stats[rule]
                 key = ("tp" if truth else "fp") if fired else ("fn" if truth else "tn")
                 s[key] += 1
+                if rule == "no-serial-test":
+                    by_kind[kind_of.get(entry["mirror"], "")][key] += 1
+                if key == "fp" and rule == "no-serial-test" and not site.get("time_ordered"):
+                    serial_fp_untimed += 1
                 if key == "fp":
                     s["false_positives"].append({"site": place, "why_not": site["labels"][rule]["why"],
                                                  "message": hits[0]["message"][:300]})
@@ -99,11 +111,17 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
             stats[f["rule"]]["fp"] += 1
             unmatched.append({"rule": f["rule"], "path": f["path"], "cell": f.get("cell"), "line": f["line"],
                               "message": f["message"][:300]})
-    for s in stats.values():
+    for rule, s in stats.items():
+        s["extra_findings_at_one_site"] = extra[rule]
         s["precision"] = _ratio(s["tp"], s["tp"] + s["fp"])
         s["recall"] = _ratio(s["tp"], s["tp"] + s["fn"])
     stats["no-serial-test"]["recall_static_evidence"] = _ratio(static_pos["tp"], static_pos["tp"] + static_pos["fn"])
     stats["no-serial-test"]["static_evidence_positives"] = static_pos["tp"] + static_pos["fn"]
+    stats["no-serial-test"]["false_positives_on_untimed_data"] = serial_fp_untimed
+    stats["no-serial-test"]["by_repository_kind"] = {
+        kind: {**c, "precision": _ratio(c["tp"], c["tp"] + c["fp"]), "recall": _ratio(c["tp"], c["tp"] + c["fn"])}
+        for kind, c in sorted(by_kind.items())
+    }
     return {"rules": stats, "unmatched": unmatched}
 
 
@@ -119,7 +137,15 @@ def main(argv: list[str] | None = None) -> int:
     except (OSError, ValueError) as exc:
         print(f"score: {args.labels}: cannot read the labels ({exc})", file=sys.stderr)
         return 2
-    wanted = [f"{e['mirror']}/{e['path']}" for e in labels["files"]]
+    try:
+        wanted = [f"{e['mirror']}/{e['path']}" for e in labels["files"]]
+        for e in labels["files"]:
+            for site in e["sites"]:
+                for rule in labels["rules"]:
+                    site["labels"][rule]["fire"]  # every site labels every rule
+    except (KeyError, TypeError) as exc:
+        print(f"score: {args.labels}: not a labels file (missing {exc})", file=sys.stderr)
+        return 2
     present = {p for p in wanted if (args.corpus / p).is_file()}
     missing = sorted(set(wanted) - present)
     if missing:
@@ -129,14 +155,21 @@ def main(argv: list[str] | None = None) -> int:
             print(f"  {p}", file=sys.stderr)
     if not present:
         return 2
-    findings = run_regvet(args.regvet.split(), args.corpus, sorted(present))
+    command = args.regvet.split()
+    if "/" in command[0]:  # a path to the program: resolve it here, as regvet runs from the corpus folder
+        command[0] = os.path.abspath(command[0])
+    findings = run_regvet(command, args.corpus, sorted(present))
     result = score(labels, findings, present)
-    sites = sum(len(e["sites"]) for e in labels["files"] if f"{e['mirror']}/{e['path']}" in present)
+    scored = [s for e in labels["files"] if f"{e['mirror']}/{e['path']}" in present for s in e["sites"]]
+    sites = len(scored)
+    timed = sum(1 for s in scored if s.get("time_ordered"))
     commit = subprocess.run(["git", "-C", str(ROOT), "rev-parse", "--short", "HEAD"], capture_output=True,
                             text=True, check=False).stdout.strip()
+    dirty = subprocess.run(["git", "-C", str(ROOT), "diff", "--quiet", "HEAD", "--", "src"], check=False).returncode
+    commit += "+uncommitted src changes" if dirty else ""
     report = {"date": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%MZ"), "regvet_commit": commit,
-              "files": len(present), "sites": sites, "missing_files": missing, **result}
-    print(f"{len(present)} files, {sites} labelled fit sites, regvet at {commit}")
+              "files": len(present), "sites": sites, "time_ordered_sites": timed, "missing_files": missing, **result}
+    print(f"{len(present)} files, {sites} labelled fit sites ({timed} on time-ordered data), regvet at {commit}")
     print(f"{'rule':18} {'TP':>4} {'FP':>4} {'FN':>4} {'TN':>4} {'prec':>6} {'recall':>6}")
     for rule, s in result["rules"].items():
         prec = "-" if s["precision"] is None else f"{s['precision']:.3f}"
@@ -144,7 +177,11 @@ def main(argv: list[str] | None = None) -> int:
         print(f"{rule:18} {s['tp']:4} {s['fp']:4} {s['fn']:4} {s['tn']:4} {prec:>6} {rec:>6}")
     serial = result["rules"]["no-serial-test"]
     print(f"no-serial-test recall over the {serial['static_evidence_positives']} positives with static evidence: "
-          f"{serial['recall_static_evidence']}")
+          f"{serial['recall_static_evidence']}; false positives on data without time order: "
+          f"{serial['false_positives_on_untimed_data']}")
+    for kind, c in serial["by_repository_kind"].items():
+        print(f"  no-serial-test in {kind or '?'} repositories: TP {c['tp']} FP {c['fp']} FN {c['fn']} TN {c['tn']}, "
+              f"precision {c['precision']}, recall {c['recall']}")
     args.out.parent.mkdir(parents=True, exist_ok=True)
     args.out.write_text(json.dumps(report, indent=1) + "\n", encoding="utf-8")
     print(f"written {args.out}")

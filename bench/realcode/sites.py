@@ -2,7 +2,7 @@
 
 Usage: python bench/realcode/sites.py CORPUS_DIR [owner+name ...]
 
-A site is a call of ``OLS``/``ols``/``OLS.from_formula`` (any module prefix) read with ``ast``;
+A site is a call of ``OLS``/``ols``/``WLS``/``wls`` (or ``.from_formula``) (any module prefix) read with ``ast``;
 its line is the line where the call starts, counted within the cell for notebooks (code cells
 only, cell = 0-based index in the notebook's cell list, magics and shell lines masked). Prints
 one JSON object per line: repo, path, cell, line, code.
@@ -15,7 +15,7 @@ import json
 import sys
 from pathlib import Path
 
-FIT_NAMES = {"OLS", "ols"}
+FIT_NAMES = {"OLS", "ols", "WLS", "wls"}
 
 
 def _calls(source: str) -> list[int]:

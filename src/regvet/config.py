@@ -26,6 +26,7 @@ else:  # pragma: no cover - exercised on Python 3.10 only
 CONFIG_NAMES = ("regvet.toml", "pyproject.toml")
 ROOT_MARKERS = ("pyproject.toml", ".git", ".hg")
 _SEVERITIES = ("error", "warning", "info")
+_COLUMN = re.compile(r"[A-Za-z_][\w.]*\Z")
 
 
 class ConfigError(Exception):
@@ -70,7 +71,10 @@ def _has_table(path: Path) -> bool:
         text = path.read_bytes().decode("utf-8-sig")
     except (OSError, UnicodeDecodeError):
         return True
-    if "regvet" not in text and not _TOOL_ASSIGNED.search(text):
+    assigned = _TOOL_ASSIGNED.search(text)
+    if "tool.regvet" in text and not assigned:
+        return True  # the usual case, decided without parsing (this runs once per scanned file)
+    if "regvet" not in text and not assigned:
         return False
     try:
         data = tomllib.loads(text)
@@ -164,6 +168,16 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 values[key] = frozenset(value)
             else:
                 values[key] = tuple(value)
+        elif option.kind == "columns":
+            if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+                raise bad
+            for name in value:
+                if not _COLUMN.match(name):
+                    raise ConfigError(source, f"{name!r} is not a column name as a formula writes it in `C(...)` "
+                                      "(letters, digits, `_` and `.`, not starting with a digit)", key)  # fmt: skip
+                if value.count(name) > 1:
+                    raise ConfigError(source, f"`{name}` is listed twice", key)
+            values[key] = tuple(value)
         elif option.kind == "severity-map":
             if not isinstance(value, dict):
                 raise bad
@@ -212,6 +226,12 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                     )
                 pairs.append((name, tuple(families)))
             values[key] = tuple(sorted(pairs))
+    fixed = values.get("fixed_effects", base.fixed_effects if base else ())
+    both = sorted(set(fixed) & set(values.get("break_candidates", base.break_candidates if base else ())))
+    if both:
+        key = "fixed_effects" if "fixed_effects" in values else "break_candidates"
+        raise ConfigError(source, f"`{both[0]}` is both a fixed effect and a break candidate; a column is one or "
+                          "the other (a break candidate asks for a break test, a fixed effect for none)", key)  # fmt: skip
     return replace(base or Settings(), source=source, **values)
 
 

@@ -10,15 +10,16 @@ from __future__ import annotations
 
 import ast
 import gc
-import re
+import time
 import traceback
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import replace
 from functools import lru_cache
 
-from regvet.analysis.collect import collect
+from regvet.analysis.collect import Collector
 from regvet.analysis.modules import ModuleProvider, NoModules
+from regvet.analysis.state import Frame, OverBudget
 from regvet.model.cells import CellMap
 from regvet.model.facts import FileFacts
 from regvet.model.finding import Finding, Severity
@@ -26,16 +27,20 @@ from regvet.model.report import Crash, FileReport
 from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
-from regvet.rules import ALL_RULES, RuleInput
-from regvet.rules.base import one_per_site
+from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput
+from regvet.rules.base import one_per_site, robust_reported
+from regvet.rules.incomplete_analysis import RULE as _INCOMPLETE
+from regvet.rules.incomplete_analysis import crash_findings
 from regvet.sources.imports import suggested_spellings
 from regvet.sources.notebook import NotebookSource, join_cells, read_notebook
-from regvet.sources.python import SourceError, parse
+from regvet.sources.python import SourceError, parse, without_broken_cells
 from regvet.sources.waivers import Waiver, find_waivers
 
-_IMPORT = re.compile(
-    r"^[ \t]*(?:from[ \t]+(\.*[\w.]*)[ \t]+import[ \t]+\(?([\w., \t]*)|import[ \t]+([\w., \t]+))", re.MULTILINE
-)
+#: Why the analysis stops on input nested deeper than the analyser's recursion allows.
+TOO_DEEP = "the code is nested too deeply for regvet's analyser"
+#: Why it stops when the analysis needs more memory than there is.
+TOO_BIG = "the analysis ran out of memory"
+INCOMPLETE = _INCOMPLETE.id
 
 
 def mentions_fits(text: str, provider: ModuleProvider) -> bool:
@@ -92,21 +97,62 @@ def _no_gc_pauses() -> Iterator[None]:
 
 
 def _imported(text: str, importer: str | None) -> list[tuple[str, str | None, int]]:
-    """(module, importer, level) for every import in ``text``, with ``from m import n`` also as ``m.n``."""
+    """(module, importer, level) for every import in ``text``, with ``from m import n`` also as ``m.n``.
+
+    A scan of the lines that start with ``from`` or ``import``, linear in the text (a regular
+    expression here backtracked quadratically over a long run of dots after ``from``).
+    """
     out: list[tuple[str, str | None, int]] = []
-    for m in _IMPORT.finditer(text):
-        if m.group(1) is not None:
-            module = m.group(1)
+    for raw in text.split("\n"):
+        line = raw.lstrip(" \t")
+        if line.startswith("from"):
+            start = _blanks(line, 4)
+            end = _run(line, start, _module_char)
+            at = _blanks(line, end)
+            if start == 4 or end == start or at == end or not line.startswith("import", at):
+                continue
+            first = _blanks(line, at + 6)
+            if first == at + 6:
+                continue
+            if line.startswith("(", first):
+                first += 1
+            module = line[start:end]
             level = len(module) - len(module.lstrip("."))
             module = module.lstrip(".")
             out.append((module, importer, level))
-            for name in (n.strip().split(" ")[0] for n in m.group(2).split(",")):
+            names = line[first : _run(line, first, _names_char)]
+            for name in (n.strip().split(" ")[0] for n in names.split(",")):
                 if name and name != "*":
                     out.append((f"{module}.{name}" if module else name, importer, level))
-        else:
-            for part in m.group(3).split(","):
+        elif line.startswith("import"):
+            first = _blanks(line, 6)
+            end = _run(line, first, _names_char)
+            if first == 6 or end == first:
+                continue
+            for part in line[first:end].split(","):
                 out.append((part.strip().split(" ")[0], importer, 0))
     return out
+
+
+def _module_char(ch: str) -> bool:
+    return ch.isalnum() or ch in "_."
+
+
+def _names_char(ch: str) -> bool:
+    return ch.isalnum() or ch in "_., \t"
+
+
+def _blanks(line: str, i: int) -> int:
+    """The index after the spaces and tabs from ``i`` on."""
+    return _run(line, i, lambda ch: ch in " \t")
+
+
+def _run(line: str, i: int, ok) -> int:
+    """The index after the characters from ``i`` on for which ``ok`` holds."""
+    n = len(line)
+    while i < n and ok(line[i]):
+        i += 1
+    return i
 
 
 def analyze(
@@ -120,6 +166,7 @@ def analyze(
     module_cache: dict | None = None,
     strict: bool = False,
     skip_unrelated: bool = True,
+    budget: float | None = None,
 ) -> FileReport:
     """Analyse one file's text. ``path`` names the file in findings; it is never opened.
 
@@ -127,9 +174,24 @@ def analyze(
     rule re-raises (for tests) instead of being reported as a :class:`Crash`. With
     ``skip_unrelated`` (the default) a file that mentions no statsmodels, directly or
     through the project modules it imports, is not parsed at all.
+
+    It never raises (unless ``strict``): input too deep or too large for the analysis gives an
+    ``incomplete-analysis`` finding, and a failure of regvet itself a :class:`Crash` with the same
+    finding, so a scan keeps every other file's findings. The collection of facts stops after
+    ``budget`` seconds (default: the ``analysis_budget`` setting) with that finding too.
     """
     with _no_gc_pauses():
-        return _analyze(text, path, settings, notebook, provider, module_key, module_cache, strict, skip_unrelated)
+        try:
+            return _analyze(text, path, settings, notebook, provider, module_key, module_cache, strict, skip_unrelated,
+                            budget)  # fmt: skip
+        except (RecursionError, MemoryError) as exc:  # deeper or larger than the analyser can follow
+            if strict:
+                raise
+            return _stopped(path, settings, TOO_DEEP if isinstance(exc, RecursionError) else TOO_BIG)
+        except Exception as exc:  # a bug in regvet outside the guarded stages: the file still gets its report
+            if strict:
+                raise
+            return failure_report(path, Crash("analysis", _describe(exc)), settings)
 
 
 def _analyze(
@@ -142,6 +204,7 @@ def _analyze(
     module_cache: dict | None,
     strict: bool,
     skip_unrelated: bool,
+    budget: float | None,
 ) -> FileReport:
     settings = settings or Settings()
     is_nb = path.endswith(".ipynb") if notebook is None else notebook
@@ -150,8 +213,9 @@ def _analyze(
         if isinstance(nb, SourceError):
             return _finish(path, settings, RuleInput(FileFacts(), settings, (), nb), None, (), strict, None)
         return _analyze_python(nb.python, path, settings, provider, module_key, module_cache, strict,
-                               skip_unrelated, nb)  # fmt: skip
-    return _analyze_python(text, path, settings, provider, module_key, module_cache, strict, skip_unrelated, None)
+                               skip_unrelated, nb, budget)  # fmt: skip
+    return _analyze_python(text, path, settings, provider, module_key, module_cache, strict, skip_unrelated, None,
+                           budget)  # fmt: skip
 
 
 def analyze_cells(
@@ -164,12 +228,35 @@ def analyze_cells(
     module_key: str = "",
     module_cache: dict | None = None,
     strict: bool = False,
+    budget: float | None = None,
 ) -> FileReport:
     """Analyse a notebook given as ``(cell index, source)`` code cells (as an editor syncs them)."""
-    nb = join_cells(code_cells, cell_count)
     with _no_gc_pauses():
-        return _analyze_python(nb.python, path, settings or Settings(), provider, module_key, module_cache,
-                               strict, True, nb)  # fmt: skip
+        try:
+            nb = join_cells(code_cells, cell_count)
+            return _analyze_python(nb.python, path, settings or Settings(), provider, module_key, module_cache,
+                                   strict, True, nb, budget)  # fmt: skip
+        except (RecursionError, MemoryError) as exc:  # deeper or larger than the analyser can follow
+            if strict:
+                raise
+            return _stopped(path, settings, TOO_DEEP if isinstance(exc, RecursionError) else TOO_BIG)
+        except Exception as exc:
+            if strict:
+                raise
+            return failure_report(path, Crash("analysis", _describe(exc)), settings)
+
+
+def failure_report(path: str, crash: Crash, settings: Settings | None = None) -> FileReport:
+    """The report of a file regvet failed on outside the stages that guard themselves (or whose worker
+    process died): the crash, and its ``incomplete-analysis`` finding."""
+    settings = settings or Settings()
+    return _finish(path, settings, RuleInput(FileFacts(), settings), None, (crash,), False, None)
+
+
+def _stopped(path: str, settings: Settings | None, why: str) -> FileReport:
+    """The report of a file whose analysis reached one of its bounds outside the guarded stages."""
+    settings = settings or Settings()
+    return _finish(path, settings, RuleInput(FileFacts(), settings, stopped=(why,)), None, (), False, None)
 
 
 def _analyze_python(
@@ -182,41 +269,60 @@ def _analyze_python(
     strict: bool,
     skip_unrelated: bool,
     nb: NotebookSource | None,
+    budget: float | None = None,
 ) -> FileReport:
+    started = time.monotonic()
+    budget = settings.analysis_budget if budget is None else budget
     provider = provider or NoModules()
     cell_map = nb.cell_map if nb is not None else None
     cell_count = nb.cell_count if nb is not None else None
     if skip_unrelated and not mentions_fits(python, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
     tree = parse(python, path)
-    waivers = tuple(find_waivers(python))
+    broken: tuple[SourceError, ...] = ()
+    if isinstance(tree, SourceError) and cell_map is not None:
+        python, broken = without_broken_cells(python, cell_map.starts)
+        if broken:
+            tree = parse(python, path)
+    waivers = tuple(find_waivers(python, RULES_BY_ID))
     if isinstance(tree, SourceError):
         inp = RuleInput(FileFacts(), settings, waivers, tree, cell_map)
         return replace(_finish(path, settings, inp, cell_map, (), strict, cell_count), python=python)
     crashes: list[Crash] = []
+    stopped: tuple[str, ...] = ()
+    over_budget = False
     try:
-        facts = collect(
-            tree,
-            python,
-            provider=provider,
-            helpers=settings.helper_families(),
-            module_key=module_key,
-            parse=_parse_module,
-            module_cache=module_cache,
-        )
-    except RecursionError:
+        collector = _BudgetedCollector(provider, settings.helper_families(), module_key, _parse_module, module_cache)
+        collector.deadline = started + budget
+        facts = collector.run(tree, python)
+    except OverBudget:
+        facts = FileFacts()
+        over_budget = True
+        stopped = (f"it took longer than its time budget of {budget:g} s (`analysis_budget`)",)
+    except (RecursionError, MemoryError) as exc:  # input deeper or larger than the analyser can follow
         if strict:
             raise
         facts = FileFacts()
-        crashes.append(Crash("analysis", "the code is nested too deeply for regvet's analyser"))
+        stopped = (TOO_DEEP if isinstance(exc, RecursionError) else TOO_BIG,)
     except Exception as exc:  # a bug in regvet: report it with the file, keep scanning
         if strict:
             raise
         facts = FileFacts()
         crashes.append(Crash("analysis", _describe(exc)))
     spellings = suggested_spellings(tree) if facts.fits else ()
-    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, spellings=spellings)
-    return replace(_finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count), python=python)
+    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, stopped=stopped, spellings=spellings,
+                    broken_cells=broken)  # fmt: skip
+    report = _finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count)
+    return replace(report, python=python, over_budget=over_budget)
+
+
+class _BudgetedCollector(Collector):
+    """The collector with its clock: every statement it runs is counted (``tick``), so it stops
+    with :class:`OverBudget` once its deadline has passed."""
+
+    def exec_stmt(self, stmt: ast.stmt, frame: Frame) -> None:
+        self.tick()
+        super().exec_stmt(stmt, frame)
 
 
 def error_report(path: str, error: SourceError, settings: Settings | None = None) -> FileReport:
@@ -252,11 +358,13 @@ def _finish(
         if not settings.enabled(rule.id):
             continue
         try:
-            findings.extend(one_per_site(inp, rule.check(inp)))
+            findings.extend(one_per_site(inp, robust_reported(inp, rule, rule.check(inp))))
         except Exception as exc:
             if strict:
                 raise
             all_crashes.append(Crash(rule.id, _describe(exc)))
+    if all_crashes and settings.enabled(INCOMPLETE):
+        findings.extend(crash_findings(all_crashes))
     if inp.runtime is not None:
         from regvet.rules.evidence import attach
 
@@ -325,7 +433,7 @@ def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
     fix = f.fix
     if fix is not None:
         fix = dict(fix, cell=cell_map.locate(f.span.line)[0])
-        for key in ("fit_call", "statement"):
+        for key in ("fit_call", "statement", "waiver"):
             if key in fix:
                 s = cell_map.span(Span(*fix[key]))
                 fix[key] = [s.line, s.col, s.end_line, s.end_col]

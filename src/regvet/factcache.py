@@ -144,8 +144,9 @@ class FactCache:
         return report
 
     def put(self, key: str, lookups: dict, report: FileReport) -> None:
-        """Store ``report`` (atomically: a temporary file renamed into place); crashed analyses are not stored."""
-        if report.crashes:
+        """Store ``report`` (atomically: a temporary file renamed into place); crashed analyses, and those
+        stopped at their time budget (a slower moment of the machine), are not stored."""
+        if report.crashes or report.over_budget:
             return
         entry = self._entry(key)
         try:

@@ -12,9 +12,11 @@ from regvet.analysis.catalog import HAC_COV, ROBUST_COV
 from regvet.model.facts import Fit, Loc
 from regvet.model.finding import Finding
 from regvet.model.report import FileReport
+from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, rules_for_family
-from regvet.rules.base import RuleInput, site_labels, specification
+from regvet.rules.base import RuleInput, robust_version, site_labels, specification
+from regvet.rules.no_break_test import break_question
 
 #: The check families the hover shows, by label (the rules that report each one missing say so
 #: with ``Rule.family``).
@@ -90,7 +92,9 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
     """One line per check family for ``fit``: done (with which function and where), missing, waived."""
     facts = report.facts
     assert facts is not None
-    members = facts.same_residuals(fit.id)
+    members = facts.same_data(fit.id)
+    inp = report.rule_input if isinstance(report.rule_input, RuleInput) else None
+    settings = report.rule_input.settings if report.rule_input is not None else Settings()
     families: list[FamilyStatus] = []
     for label, family in FAMILY_LABELS.items():
         checks = [c for m in sorted(members) for c in facts.events_of("checks", m) if c.family == family]
@@ -104,10 +108,16 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
             families.append(FamilyStatus(label, "done", "HAC covariance"))
         elif family == "serial" and not (fit.time_reason or facts.tsa_in_use):
             families.append(FamilyStatus(label, "not needed", "the data is not known to be time-ordered"))
-        elif family == "breaks" and finding is None and not fit.shift_groups:
-            families.append(FamilyStatus(label, "not needed", "no intercept-only group or configured break"))
+        elif family == "breaks" and finding is None and not break_question(fit, settings.break_candidates,
+                                                                            settings.fixed_effects):
+            why = ("fixed effects, not a break question" if fit.shift_groups
+                   else "no intercept-only group or configured break")  # fmt: skip
+            families.append(FamilyStatus(label, "not needed", why))
         elif finding is not None and finding.waived:
             families.append(FamilyStatus(label, "waived", finding.reason or ""))
+        elif inp is not None and (other := robust_version(inp, fit, family)) is not None:
+            cov = (other.cov_type or "robust").upper()
+            families.append(FamilyStatus(label, "missing", f"{'an' if cov.startswith('HC') else 'a'} {cov} version is reported ({_where(report, other.site)})"))
         else:
             families.append(FamilyStatus(label, "missing"))
     families.append(_comparisons(report, fit))

@@ -112,6 +112,8 @@ DIAGNOSTICS: dict[str, tuple[str, str]] = {
 SUMMARY_TABLES: frozenset[str] = frozenset(
     {"statsmodels.iolib.summary2.summary_col", "statsmodels.iolib.summary2.summary_params"}
 )
+#: ``patsy.dmatrices(formula, data)``: the (y, X) design of a formula, read like the formula (``built``).
+DESIGN_MATRICES: frozenset[str] = frozenset({"patsy.dmatrices", "patsy.highlevel.dmatrices"})
 #: ``anova_lm(f1, f2, ...)``: inference on each fit, and an F test between nested fits.
 ANOVA: frozenset[str] = frozenset({"statsmodels.stats.anova.anova_lm", "statsmodels.stats.api.anova_lm"})
 #: Return their first argument's data unchanged apart from a constant column.

@@ -26,7 +26,8 @@ import builtins
 from collections.abc import Callable
 from typing import Any, cast
 
-from regvet.analysis import catalog, tags, timeorder
+from regvet.analysis import built, catalog, tags, timeorder
+from regvet.analysis.built import BuiltFormulas
 from regvet.analysis.libraries import (
     ARITHMETIC_KEEPS,
     LibrarySemantics,
@@ -79,7 +80,7 @@ _INTERESTING = RESULT_KINDS | {tags.FUNCTION}  # a callback may make or check fi
 _TIME_KINDS = frozenset({tags.TIMED, tags.DATE_COLUMN, tags.DATES})
 
 
-class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, ModuleLoading):
+class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, ModuleLoading, BuiltFormulas):
     """Collects facts about one module. Use :func:`collect`."""
 
     # --- entry points ------------------------------------------------------------------------
@@ -176,8 +177,10 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
             match_stmt = cast(ast.Match, stmt)
             self.evaluate(match_stmt.subject, frame)
             self.run_branches(stmt, [c.body for c in match_stmt.cases], frame, exhaustive=False)
-        elif isinstance(stmt, (ast.Global, ast.Nonlocal)):
+        elif isinstance(stmt, ast.Global):
             frame.declared_global.update(stmt.names)
+        elif isinstance(stmt, ast.Nonlocal):
+            frame.declared_nonlocal.update(stmt.names)
         elif isinstance(stmt, ast.Delete):
             for target in stmt.targets:
                 if not isinstance(target, ast.Name):
@@ -263,14 +266,19 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
         return EMPTY
 
     def assign(self, frame: Frame, name: str, value: Value) -> None:
-        """Bind ``name`` in ``frame`` (in the module's globals when declared ``global`` there)."""
+        """Bind ``name`` in ``frame``: in the module's globals when declared ``global`` there (a fit so
+        bound inside a function is the module's, used after the call like any other), in the
+        enclosing function's frame when declared ``nonlocal``."""
         if name in frame.declared_global:
-            target = frame
-            while target.parent is not None:
-                target = target.parent
-            if name in frame.module.globals or target.is_module:
-                frame.module.globals[name] = value
-                return
+            frame.module.globals[name] = value
+            return
+        if name in frame.declared_nonlocal:
+            f = frame.parent
+            while f is not None and not f.is_module:
+                if name in f.locals:
+                    f.locals[name] = value
+                    return
+                f = f.parent
         frame.locals[name] = value
 
     def join_into(self, frame: Frame, name: str, value: Value) -> None:
@@ -403,25 +411,19 @@ class Collector(UncalledFunctions, RegressionSemantics, LibrarySemantics, Module
         return EMPTY
 
     def eval_JoinedStr(self, node: ast.JoinedStr, frame: Frame) -> Value:
-        prefix = []
-        fixed = True
+        """An f-string: a literal when every placeholder holds literals, else its known start (``built``)."""
+        parts: list[tuple[str | None, Value | None, int]] = []
         for part in node.values:
             if isinstance(part, ast.Constant) and isinstance(part.value, str):
-                if fixed:
-                    prefix.append(part.value)
+                parts.append((part.value, None, -1))
+            elif isinstance(part, ast.FormattedValue):
+                value = self.evaluate(part.value, frame)
+                if part.format_spec is not None:
+                    self.evaluate(part.format_spec, frame)
+                parts.append((None, None if part.format_spec is not None else value, part.conversion))
             else:
-                fixed = False
-                self.evaluate(part, frame)
-        text = "".join(prefix)
-        if fixed:
-            return tagged(tags.literal(text))
-        return tagged(tags.fstring_prefix(text)) if text else EMPTY
-
-    def eval_FormattedValue(self, node: ast.FormattedValue, frame: Frame) -> Value:
-        self.evaluate(node.value, frame)
-        if node.format_spec is not None:
-            self.evaluate(node.format_spec, frame)
-        return EMPTY
+                parts.append((None, self.evaluate(part, frame), -1))
+        return built.fstring(parts) or EMPTY
 
     def eval_Name(self, node: ast.Name, frame: Frame) -> Value:
         return self.lookup(node.id, frame)
@@ -793,6 +795,8 @@ ATTRIBUTE_HANDLERS: dict[str, AttributeHandler] = {
     tags.COLUMNS: Collector.attribute_of_columns,
     tags.TIMED: Collector.attribute_of_timed,
     tags.DATE_COLUMN: Collector.attribute_of_date_column,
+    tags.CATEGORY_COLUMN: Collector.attribute_of_date_column,
+    tags.LITERAL: Collector.attribute_of_literal,
 }
 #: ``call`` handlers by tag kind: ``(collector, tag, args, kwargs, node, frame, receiver) -> Value | None``.
 CallHandler = Callable[[Collector, Tag, list[Value], dict[str, Value], ast.Call, Frame, Value | None],
@@ -807,6 +811,7 @@ CALL_HANDLERS: dict[str, CallHandler] = {
     tags.DATA_METHOD: Collector.call_data_method,
     tags.CONTAINER_METHOD: Collector.call_container_method,
     tags.GETTER: Collector.call_getter,
+    tags.STRING_METHOD: Collector.call_string_method,
 }
 #: ``eval_<NodeType>`` by node type, filled on first use.
 _EVALUATORS: dict[type, Callable[[Collector, Any, Frame], Value]] = {}

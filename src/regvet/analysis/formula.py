@@ -4,6 +4,11 @@ It understands the operators formulas use (``~ + - * / : **``, parentheses,
 ``0``/``1``/``-1`` for the intercept) well enough to tell the dependent
 variable, the model's terms and which categorical ``C(...)`` factors are
 interacted. It never raises: a formula it cannot read gives ``None``.
+
+Its work is bounded whatever the formula: at most ``MAX_TERMS`` terms are expanded and no
+product of term sets above ``MAX_PAIRS`` pairs is formed (a longer one gives a formula marked
+``too_large``, whose terms are not known), a power stops as soon as it adds no term (a sum of
+k factors saturates by the power k), and parentheses nest at most ``MAX_DEPTH`` deep.
 """
 
 from __future__ import annotations
@@ -20,7 +25,8 @@ _TRANSFORMS = {
     "log": "log", "log1p": "log1p", "log10": "log10", "log2": "log2", "sqrt": "sqrt", "exp": "exp",
     "square": "square", "abs": "abs", "arcsinh": "asinh", "asinh": "asinh",
 }  # fmt: skip
-_LAG_NAME = re.compile(r"(?:^|_)(?:lag|lagged|l\d+)(?:\d*)(?:_|$)|lag\d", re.IGNORECASE)
+# One way to match each name (``l\d+\d*`` backtracks quadratically over a long run of digits).
+_LAG_NAME = re.compile(r"(?:^|_)(?:lagged\d*|lag\d*|l\d+)(?:_|$)|lag\d", re.IGNORECASE)
 _LAG_CALL = re.compile(r"\b(?:shift|diff|lag|L)\s*\(")
 
 
@@ -34,6 +40,11 @@ class Formula:
     shift_groups: frozenset[str]  # C(g) factors that only shift the intercept
     interacted_groups: frozenset[str]  # C(g) factors that appear in an interaction
     lagged: bool  # lags or differences appear in the formula
+    #: The right-hand side expands to more than MAX_TERMS terms: ``terms`` is empty, and the
+    #: groups are the ones the formula names, all counted as interacted.
+    too_large: bool = False
+    main_groups: frozenset[str] = frozenset()  # C(g) factors that are a term of their own (interacted or not)
+    interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
 
     @property
     def n_regressors(self) -> int:
@@ -88,6 +99,18 @@ class _Unreadable(Exception):
     pass
 
 
+class _TooLarge(Exception):
+    pass
+
+
+#: The most terms a formula is expanded to (patsy would build a column for each).
+MAX_TERMS = 1000
+#: The most pairs of terms one product (``*``, ``:``, a step of ``**``) may combine.
+MAX_PAIRS = 100_000
+#: The deepest nesting of parentheses read.
+MAX_DEPTH = 100
+
+
 _Terms = frozenset  # frozenset[frozenset[str]]; the empty frozenset is the intercept
 
 
@@ -136,6 +159,7 @@ class _Parser:
     def __init__(self, tokens: list[str]) -> None:
         self.toks = tokens
         self.i = 0
+        self.depth = 0
 
     def peek(self) -> str | None:
         return self.toks[self.i] if self.i < len(self.toks) else None
@@ -175,10 +199,10 @@ class _Parser:
             op = self.take()
             right, _ = self.factor()
             if op == "*":
-                left = left | right | _Terms(a | b for a, b in product(left, right))
+                left = _bounded(left | right | _pairs(left, right))
             else:
                 everything = frozenset().union(*left) if left else frozenset()
-                left = left | _Terms(everything | b for b in right)
+                left = _bounded(left | _Terms(everything | b for b in right))
             icpt = None
         return left, icpt
 
@@ -187,7 +211,7 @@ class _Parser:
         while self.peek() == ":":
             self.take()
             right, _ = self.power()
-            left = _Terms(a | b for a, b in product(left, right))
+            left = _bounded(_pairs(left, right))
             icpt = None
         return left, icpt
 
@@ -196,20 +220,31 @@ class _Parser:
         if self.peek() == "**":
             self.take()
             exp = self.take()
-            if not exp.isdigit():
+            if not exp.isascii() or not exp.isdigit():
                 raise _Unreadable
+            # Each step can only add unions of more base factors, so after as many steps as the
+            # base has factors nothing is added: the exponent beyond that changes nothing.
+            factors = frozenset().union(*base) if base else frozenset()
+            steps = min(int(exp) if len(exp) <= 7 else len(factors), len(factors)) - 1
             result = base
-            for _ in range(int(exp) - 1):
-                result = result | _Terms(a | b for a, b in product(result, base))
+            for _ in range(steps):
+                grown = _bounded(result | _pairs(result, base))
+                if grown == result:
+                    break
+                result = grown
             return _Terms(t for t in result if t), None
         return base, icpt
 
     def atom(self) -> tuple[_Terms, bool | None]:
         tok = self.take()
         if tok == "(":
+            self.depth += 1
+            if self.depth > MAX_DEPTH:
+                raise _Unreadable
             inner, icpt = self.expr()
             if self.take() != ")":
                 raise _Unreadable
+            self.depth -= 1
             return inner, icpt
         if tok in ("0", "1"):
             return _Terms(), tok == "1"
@@ -219,6 +254,19 @@ class _Parser:
         if tok in "+*/:)":
             raise _Unreadable
         return _Terms({frozenset({_normalize_factor(tok)})}), None
+
+
+def _pairs(left: _Terms, right: _Terms) -> _Terms:
+    """Every union of a term of ``left`` with a term of ``right`` (an interaction), or _TooLarge."""
+    if len(left) * len(right) > MAX_PAIRS:
+        raise _TooLarge
+    return _Terms(a | b for a, b in product(left, right))
+
+
+def _bounded(terms: _Terms) -> _Terms:
+    if len(terms) > MAX_TERMS + 1:  # the intercept's empty term aside
+        raise _TooLarge
+    return terms
 
 
 def _normalize_factor(tok: str) -> str:
@@ -252,23 +300,32 @@ def parse_formula(text: str) -> Formula | None:
     if lhs:
         try:
             outcome = outcome_of_expr(ast.parse(lhs, mode="eval").body)
-        except SyntaxError:
+        except (SyntaxError, ValueError, RecursionError, MemoryError):  # NUL bytes, absurd nesting
             outcome = None
+    too_large = False
     try:
-        parser = _Parser(_tokenize(rhs))
+        tokens = _tokenize(rhs)
+        parser = _Parser(tokens)
         terms, intercept = parser.expr()
         if parser.peek() is not None:
             return None
+    except _TooLarge:
+        too_large, terms, intercept = True, _Terms(), None
     except (_Unreadable, RecursionError):
         return None
     real = tuple(sorted(tuple(sorted(t)) for t in terms if t))
     shift: set[str] = set()
     inter: set[str] = set()
+    inter_columns: set[str] = set()
     for t in real:
         for f in t:
             g = _group_of(f)
             if g:
                 (inter if len(t) > 1 else shift).add(g)
+            if len(t) > 1:
+                inter_columns |= _identifiers(f)
+    if too_large:
+        inter = {g for g in (_group_of(tok) for tok in tokens) if g}
     variables = _identifiers(rhs) | (_identifiers(lhs) if lhs else set())
     lagged = bool(_LAG_CALL.search(rhs)) or any(_LAG_NAME.search(v) for v in variables)
     return Formula(
@@ -280,4 +337,7 @@ def parse_formula(text: str) -> Formula | None:
         shift_groups=frozenset(shift - inter),
         interacted_groups=frozenset(inter),
         lagged=lagged,
+        too_large=too_large,
+        main_groups=frozenset(shift),
+        interacted_columns=frozenset(inter_columns),
     )

@@ -62,10 +62,12 @@ _CONTAINER_VIEW_METHODS = frozenset({"items", "values", "keys", "get", "pop", "c
 _NOT_GROWN = frozenset({tags.FIT, tags.QUALIFIED})  # ``res.append(...)``, ``np.append(...)``: not containers
 _KEPT_BY_NUMPY = frozenset({tags.TIMED, tags.MODEL_PART, tags.COLUMNS, tags.MEASURE})
 _KEPT_FROM_OTHER_ARGUMENTS = frozenset({tags.PART, tags.MODEL_PART, tags.TIMED, tags.MEASURE})
-_KEPT_BY_DATA_METHODS = frozenset({tags.TIMED, tags.COLUMN_VALUE, tags.COLUMN_NAME, tags.DATE_COLUMN})
+_KEPT_BY_DATA_METHODS = frozenset({tags.TIMED, tags.COLUMN_VALUE, tags.COLUMN_NAME, tags.DATE_COLUMN, tags.CATEGORY_COLUMN})
 _ASSIGNED_SOURCES = frozenset({tags.PART, tags.FIT})  # what a column is recorded to hold
 _SUBSCRIPT_KEEPS = frozenset({tags.PART, tags.MODEL_PART, tags.COLUMNS, tags.OUTCOME, tags.MEASURE})
 _OPAQUE_SUBSCRIPTED = frozenset({tags.DATA, tags.TIMED})
+#: Tags about a frame's columns, kept by a selection of its rows or columns.
+_FRAME_COLUMNS = frozenset({tags.DATE_COLUMN, tags.CATEGORY_COLUMN})
 
 
 def time_order_of(args: Iterable[Value], kwargs: dict[str, Value], receiver: Value | None) -> list[Tag]:
@@ -99,7 +101,7 @@ def subscript_tags(base: Value, index: Value, node: ast.Subscript) -> set[Tag]:
                 extra.add(tags.columns(cols))
         if kind in _SUBSCRIPT_KEEPS:
             extra.add(tag)
-        elif kind == tags.DATE_COLUMN and not (len(index.tags) == 1 and tags.literal_strings(index.tags)):
+        elif kind in _FRAME_COLUMNS and not (len(index.tags) == 1 and tags.literal_strings(index.tags)):
             extra.add(tag)  # a selection of rows or columns of a frame keeps its date columns
     if sum(1 for t in extra if tags.kind(t) == tags.OUTCOME) > 1:
         # A column picked out of a frame is that column, whatever the frame was called.
@@ -117,6 +119,8 @@ def assigned_column_tags(value: Value, index: Value) -> set[Tag]:
         if isinstance(col, str):
             extra.add(tags.holds_column(col))
             extra.update(timeorder.assigned_dates(col, value))
+            if value.has(tags.CATEGORIES):
+                extra.add(tags.category_column(col))
             for held in flat(value).tags:
                 if tags.kind(held) in _ASSIGNED_SOURCES:
                     extra.add(tags.column_value(col, held))
@@ -238,10 +242,14 @@ class LibrarySemantics(CollectorState):
             if key is not None:
                 how = timeorder.index_order if name == "set_index" else timeorder.sort_order
                 out.update(how(key, receiver or EMPTY, short_text(node, 50), self.loc(node, frame)))
+        if name == "astype" and any("category" in tags.literal_strings(a.tags) for a in (*args, *kwargs.values())):
+            out.add(tags.categories('`.astype("category")`'))
         if name == "assign":
             for col, value in kwargs.items():
                 out.add(tags.holds_column(col))
                 out.update(timeorder.assigned_dates(col, value))
+                if value.has(tags.CATEGORIES):
+                    out.add(tags.category_column(col))
                 for held in flat(value).tags:
                     held_kind = tags.kind(held)
                     if held_kind in _ASSIGNED_SOURCES:
@@ -260,6 +268,8 @@ class LibrarySemantics(CollectorState):
         if qualname.startswith("pandas.read_"):
             found = timeorder.read_order(kwargs, short_text(node, 50), self.loc(node, frame))
             return tagged(tags.opaque_call(node), *found)
+        if qualname == "pandas.Categorical":
+            return tagged(tags.opaque_call(node), tags.categories("`pd.Categorical`"))
         if qualname in ("pandas.DataFrame", "pandas.Series"):
             return self.call_frame_constructor(args, kwargs, node, frame)
         if qualname.startswith(("numpy.", "scipy.special.")):

@@ -101,6 +101,8 @@ class RegressionSemantics(CollectorState):
         """Constructors, diagnostics (catalogued or named as helpers), summary tables, anova, add_constant."""
         if qualname in catalog.CONSTRUCTORS:
             return self.make_models(qualname, catalog.CONSTRUCTORS[qualname], args, kwargs, node, frame)
+        if qualname in catalog.DESIGN_MATRICES:
+            return self.design_matrices(args, kwargs)
         if qualname in catalog.DIAGNOSTICS:
             family, fname = catalog.DIAGNOSTICS[qualname]
             self.credit(family, fname, [*args, *kwargs.values()], node, frame)
@@ -233,19 +235,28 @@ class RegressionSemantics(CollectorState):
             else:
                 sources = [ModelSource(FORMULA_UNKNOWN)]
             data_values = [data_value]
+            data_nodes = [data_node]
             data_name = short_text(data_node) if data_node is not None else None
         else:
-            endog, _ = arg(0, "endog")
-            exog, _ = arg(1, "exog")
+            endog, endog_node = arg(0, "endog")
+            exog, exog_node = arg(1, "exog")
             data_values = [endog, exog]
+            data_nodes = [endog_node, exog_node]
             sources = [ModelSource(ARRAYS)]
             data_name = None
+        taken = {"formula", "data", "df"} if ctor.api == "formula" else {"endog", "exog"}
+        others = (tuple(self.same_data_key(a, None, frame) for a in node.args[2:]),
+                  tuple(sorted((k.arg or "**", self.same_data_key(k.value, None, frame)) for k in node.keywords
+                               if k.arg not in taken)))  # fmt: skip
+        data_keys = tuple(self.same_data_key(n, v, frame) for n, v in zip(data_nodes, data_values, strict=True))
         out: set[Tag] = set()
         for source in sources:
             memo = (id(node), source, frame.ctx, tuple(self.unroll))
             mid = self.model_memo.get(memo)
             if mid is None:
                 mid = self.new_model(qualname, ctor, source, data_values, data_name, loc)
+                if all(data_values):
+                    self.models[mid].spec = _spec_key(ctor, source, data_keys, others, frame, tuple(self.unroll))
                 self.model_memo[memo] = mid
             out.add(tags.model(mid))
         return Value(frozenset(out))
@@ -262,6 +273,7 @@ class RegressionSemantics(CollectorState):
         all_data = flat(join_all(data_values))
         column_sources: dict[str, set[Tag]] = {}
         column_names: set[str] = set()
+        categorical: set[str] = set()
         for tag in all_data.tags:
             kind = tags.kind(tag)
             if kind == tags.COLUMN_VALUE:
@@ -270,6 +282,8 @@ class RegressionSemantics(CollectorState):
                 column_names.add(tags.column(tag))
             elif kind == tags.DATE_COLUMN:
                 column_names.add(tags.date_column_name(tag))
+            elif kind == tags.CATEGORY_COLUMN:
+                categorical.add(tags.category_column_name(tag))
         timed = min(all_data.tags_of(tags.TIMED), key=_evidence_order, default=None)
         time_reason = tags.time_reason(timed) if timed is not None else None
         time_where = tags.time_where(timed) if timed is not None else None
@@ -281,13 +295,17 @@ class RegressionSemantics(CollectorState):
             if lhs is not None and lhs.strip():
                 try:
                     outcome = outcome_of_expr(ast.parse(lhs.strip(), mode="eval").body)
-                except SyntaxError:
+                except (SyntaxError, ValueError, RecursionError, MemoryError):  # NUL bytes, absurd nesting
                     outcome = None
+        elif source.how == ARRAYS:
+            text = design_formula(data_values)  # sm.OLS(y, X) on patsy.dmatrices(formula, data)
+            formula = parse_formula(text) if text is not None else None
         columns: set[str] = set(column_names)
         if formula is not None:
             outcome = formula.outcome
-            n_regressors = formula.n_regressors
-            regressors = tuple(":".join(t) for t in formula.terms)
+            if not formula.too_large:  # too large to expand: the terms are not known
+                n_regressors = formula.n_regressors
+                regressors = tuple(":".join(t) for t in formula.terms)
             columns |= formula.variables
             if formula.lagged and time_reason is None:
                 time_reason = f"the formula uses lags or differences (`{text}`)"
@@ -308,7 +326,7 @@ class RegressionSemantics(CollectorState):
         data_tags = frozenset(t for value in data_values for t in value.tags_of(tags.DATA))
         model = ModelRecord(
             mid, qualname, ctor.estimator, ctor.api, formula, text, outcome, n_regressors, regressors, data_name,
-            time_reason, time_where, frozenset(columns), aux, data_tags, loc,
+            time_reason, time_where, frozenset(categorical), frozenset(columns), aux, data_tags, loc,
         )  # fmt: skip
         self.models[mid] = model
         for data in data_tags:
@@ -319,6 +337,15 @@ class RegressionSemantics(CollectorState):
                 for fid in fits:
                     self.checks[Check(fid, family, label, loc)] = None
         return mid
+
+    def same_data_key(self, node: ast.expr | None, value: Value | None, frame: Frame) -> tuple:
+        """An argument as two model calls must share it to be given the same data: the expression, with
+        the value every name in it holds now (``ferries["riders"]`` twice over one frame is the same
+        data; after ``ferries`` is rebound it is not). Without a node, its value."""
+        if node is None:
+            return ("value", value)
+        names = sorted({n.id for n in ast.walk(node) if isinstance(n, ast.Name)})
+        return (ast.dump(node), tuple((n, _bound(n, frame)) for n in names))
 
     # --- fits ------------------------------------------------------------------------------------
     def call_model_fit(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
@@ -490,8 +517,12 @@ class RegressionSemantics(CollectorState):
 
     # --- arithmetic and comparisons of results ---------------------------------------------------
     def binary_operation(self, op: ast.operator, left: Value, right: Value, node: Node, frame: Frame) -> Value:
-        """``a op b``: powers of residuals and fitted values, differences and ratios of measures, SSR sums."""
-        result: set[Tag] = set()
+        """``a op b``: strings built from literals, powers of residuals and fitted values, differences and
+        ratios of measures, SSR sums."""
+        text = self.string_operation(op, left, right) if isinstance(op, (ast.Add, ast.Mod)) else None
+        if text is not None and not text.has(tags.PREFIX):
+            return text  # a string built from literals only
+        result: set[Tag] = set(text.tags) if text is not None else set()  # a known start, and what else flows
         left_flat, right_flat = flat(left), flat(right)
         if isinstance(op, ast.Pow):
             power = [p for p in tags.literal_values(right_flat.tags) if isinstance(p, (int, float))]
@@ -545,10 +576,13 @@ class RegressionSemantics(CollectorState):
     # --- the facts -------------------------------------------------------------------------------
     def build_facts(self) -> FileFacts:
         fits: list[Fit] = []
+        specs: dict[tuple, int] = {}
         for record in self.fits.values():
             model = record.model
+            spec = None if model.spec is None else specs.setdefault(model.spec, len(specs))
             site = record.via[-1] if record.via else record.fit_call
             model_span = model.loc.span if model.loc.path is None else None
+            shift, inter, main = _category_column_groups(model)
             fits.append(
                 Fit(
                     id=record.id,
@@ -566,14 +600,18 @@ class RegressionSemantics(CollectorState):
                     data_name=model.data_name,
                     time_reason=model.time_reason,
                     time_where=model.time_where,
-                    shift_groups=model.formula.shift_groups if model.formula else frozenset(),
-                    interacted_groups=model.formula.interacted_groups if model.formula else frozenset(),
+                    shift_groups=shift | (model.formula.shift_groups if model.formula else frozenset()),
+                    interacted_groups=inter | (model.formula.interacted_groups if model.formula else frozenset()),
+                    categorical_terms=main | (model.formula.main_groups if model.formula else frozenset()),
+                    interacted_columns=model.formula.interacted_columns if model.formula else frozenset(),
                     columns=model.columns,
                     auxiliary=bool(model.aux_for),
                     parent=record.parent,
                     result_name=record.result_name,
                     statement=record.statement,
                     model_span=model_span,
+                    formula_too_large=model.formula is not None and model.formula.too_large,
+                    spec=spec,
                 )
             )
         return FileFacts(
@@ -589,9 +627,56 @@ class RegressionSemantics(CollectorState):
         )
 
 
+def design_formula(data_values: list[Value]) -> str | None:
+    """The formula of ``sm.OLS(y, X)`` when X (and y, if it is one) come from one ``patsy.dmatrices`` call."""
+    if len(data_values) != 2:
+        return None
+    endog, exog = (flat(v) for v in data_values)
+    formulas = {tags.design_formula(t) for t in exog.tags_of(tags.DESIGN) if tags.design_side(t) == tags.EXOG}
+    if len(formulas) != 1:
+        return None
+    text = next(iter(formulas))
+    from_y = {tags.design_formula(t) for t in endog.tags_of(tags.DESIGN)}
+    return text if not from_y or from_y == {text} else None
+
+
+def _bound(name: str, frame: Frame) -> Value | None:
+    """What ``name`` holds in ``frame`` now, read without resolving anything (a lazy import stays one)."""
+    f: Frame | None = frame
+    if name not in frame.declared_global:
+        while f is not None:
+            if name in f.locals:
+                return f.locals[name]
+            f = f.parent
+    return frame.module.globals.get(name)
+
+
+def _spec_key(ctor: catalog.Constructor, source: ModelSource, data_keys: tuple, others: tuple,
+              frame: Frame, unroll: tuple) -> tuple | None:  # fmt: skip
+    """What two models must share to be the same specification on the same data: the estimator, the
+    formula (or the arrays), the data and every other argument (``same_data_key``), and the calling
+    context and loop step (the data of another call or iteration may differ under the same tags).
+    None when the formula is unknown."""
+    if source.how not in (FORMULA_LITERAL, ARRAYS):
+        return None
+    text = "".join((source.text or "").split())
+    return (ctor.estimator, ctor.api, text, data_keys, others, frame.ctx, unroll)
+
+
 def _evidence_order(tag: Tag) -> tuple:
     """The first evidence of time order in the code (known places first, then by position)."""
     where = tags.time_where(tag)
     if where is None:
         return (1, "", (), tags.time_reason(tag))
     return (0, where.path or "", where.span.sort_key(), tags.time_reason(tag))
+
+
+def _category_column_groups(model: ModelRecord) -> tuple[frozenset[str], frozenset[str], frozenset[str]]:
+    """(intercept-only groups, interacted groups, groups that are a term of their own) of the formula terms
+    that name a column holding categories (``df["chain"] = pd.Categorical(...)``, then ``y ~ x + chain``)."""
+    if model.formula is None or not model.categorical_columns:
+        return frozenset(), frozenset(), frozenset()
+    cols = model.categorical_columns
+    alone = {t[0] for t in model.formula.terms if len(t) == 1 and t[0] in cols}
+    inter = {f for t in model.formula.terms if len(t) > 1 for f in t if f in cols}
+    return frozenset(alone - inter), frozenset(inter), frozenset(alone)

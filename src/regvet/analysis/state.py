@@ -13,6 +13,7 @@ part calls on another are declared at the end of :class:`CollectorState` for the
 from __future__ import annotations
 
 import ast
+import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING
@@ -30,6 +31,18 @@ Parser = Callable[[str, str], "ast.Module | None"]
 ModuleCache = dict[tuple[str, str], ast.Module]
 #: A node whose position the collector records (an expression, or a statement such as ``x += y``).
 Node = ast.expr | ast.stmt
+
+
+class OverBudget(BaseException):
+    """The analysis ran past its deadline (``CollectorState.tick``).
+
+    A ``BaseException``, like ``KeyboardInterrupt``, so that no ``except Exception`` inside the
+    collector (a provider's failure, an odd tree) stops it on the way out to the engine.
+    """
+
+
+#: Statements between two looks at the clock.
+_TICKS = 256
 
 
 # --- records -------------------------------------------------------------------------------------
@@ -68,7 +81,8 @@ class Frame:
     ctx: tuple[Loc, ...]  # the call sites that led here, outermost first
     func: FunctionRecord | None = None
     returns: Value = EMPTY
-    declared_global: set[str] = field(default_factory=set)
+    declared_global: set[str] = field(default_factory=set)  # names a ``global`` statement declares
+    declared_nonlocal: set[str] = field(default_factory=set)  # names a ``nonlocal`` statement declares
     cls_attrs: dict[str, Value] | None = None  # attributes of ``self`` shared by a class's methods
 
     @property
@@ -92,10 +106,14 @@ class ModelRecord:
     data_name: str | None
     time_reason: str | None
     time_where: Loc | None
+    categorical_columns: frozenset[str]  # columns of its data that hold categories (pd.Categorical)
     columns: frozenset[str]
     aux_for: dict[str, set[int]]  # family ("form", "variance", "serial", "other") -> fits it is auxiliary to
     data_tags: frozenset[tags.Tag]
     loc: Loc
+    #: What makes two models the same specification on the same data (estimator, formula or arrays,
+    #: the data's values, the other arguments, the calling context and loop step); None when unknown.
+    spec: tuple | None = None
 
 
 @dataclass(eq=False)
@@ -167,6 +185,15 @@ class CollectorState:
         self.stmt: ast.stmt | None = None  # the simple statement being run
         self.stmt_module: ModuleRecord | None = None
         self._ids = 0
+        #: ``time.monotonic()`` after which the analysis stops (None: no budget).
+        self.deadline: float | None = None
+        self._ticks = 0
+
+    def tick(self) -> None:
+        """Count one statement run; every few hundred, raise :class:`OverBudget` past the deadline."""
+        self._ticks += 1
+        if self._ticks % _TICKS == 0 and self.deadline is not None and time.monotonic() > self.deadline:
+            raise OverBudget
 
     def new_id(self) -> int:
         """A fresh id for a function, model or fit (one counter: ids never collide)."""
@@ -203,6 +230,9 @@ class CollectorState:
                         frame: Frame) -> None: ...  # fmt: skip
         def helper_families(self, qualname: str) -> tuple[str, ...] | None: ...
         def compare_measures(self, values: list[Value], node: Node, frame: Frame, how: str) -> bool: ...
+        # built
+        def string_operation(self, op: ast.operator, left: Value, right: Value) -> Value | None: ...
+        def design_matrices(self, args: list[Value], kwargs: dict[str, Value]) -> Value: ...
 
 
 def _code_point_column(lines: list[str], line: int, byte_col: int) -> int:

@@ -161,8 +161,8 @@ LITERAL = "lit"
 def literal(value: object) -> Tag:
     """A literal string (up to 4000 characters) or number.
 
-    Made by: ``collect.eval_Constant``, ``collect.eval_JoinedStr`` (f-strings without
-    placeholders), ``libraries.call_builtin`` (``enumerate`` positions, ``dict(a=...)`` keys).
+    Made by: ``collect.eval_Constant``, ``built`` (strings built from literal pieces: f-strings,
+    ``+``, ``%``, ``.format``, ``.join``), ``libraries.call_builtin`` (``enumerate`` positions, ``dict(a=...)`` keys).
     Read by: ``regressions.make_models`` (formulas), ``regressions.cov_literal``, subscripts and
     dict keys (``collect``, ``values.dict_value``), column names (``libraries``), powers
     (``regressions.binary_operation``, ``libraries.call_numpy``), ``getattr``/``attrgetter`` names.
@@ -177,9 +177,9 @@ PREFIX = "prefix"
 
 
 def fstring_prefix(text: str) -> Tag:
-    """The fixed start of an f-string with placeholders (``f"riders ~ {rhs}"`` -> ``"riders ~ "``).
+    """The fixed start of a string built at run time (``f"riders ~ {rhs}"`` -> ``"riders ~ "``).
 
-    Made by: ``collect.eval_JoinedStr``. Read by: ``regressions.make_models`` (the outcome of a
+    Made by: ``built`` (f-strings, ``+``, ``%``, ``.format`` whose later pieces are not literals). Read by: ``regressions.make_models`` (the outcome of a
     formula built at run time).
     """
     return (PREFIX, text)
@@ -187,6 +187,37 @@ def fstring_prefix(text: str) -> Tag:
 
 #: The text of a PREFIX tag.
 prefix_text: Callable[[Tag], str] = itemgetter(1)
+
+STRING_METHOD = "strmethod"
+
+
+def string_method(text: str, name: str) -> Tag:
+    """``"{} ~ {}".format`` or ``" + ".join`` read on a literal string: calling it builds a formula.
+
+    Made by: ``strings.attribute_of_literal``. Read by: ``strings.call_string_method``.
+    """
+    return (STRING_METHOD, text, name)
+
+
+#: The literal string and the method name of a STRING_METHOD tag.
+string_method_text: Callable[[Tag], str] = itemgetter(1)
+string_method_name: Callable[[Tag], str] = itemgetter(2)
+
+DESIGN = "design"
+
+
+def design(formula: str, side: str) -> Tag:
+    """One side (``ENDOG`` or ``EXOG``) of ``patsy.dmatrices(formula, data)``: a design read like the formula.
+
+    Made by: ``strings.call_design_matrices``. Read by: ``regressions.new_model`` (``sm.OLS(y, X)`` on it
+    is read like ``smf.ols(formula, data)``).
+    """
+    return (DESIGN, formula, side)
+
+
+#: The formula and the side of a DESIGN tag.
+design_formula: Callable[[Tag], str] = itemgetter(1)
+design_side: Callable[[Tag], str] = itemgetter(2)
 
 # --- statsmodels models ---------------------------------------------------------------------------
 MODEL = "model"
@@ -506,11 +537,40 @@ date_column_name: Callable[[Tag], str] = itemgetter(1)
 date_column_what: Callable[[Tag], str] = itemgetter(2)
 date_column_where: Callable[[Tag], Loc] = itemgetter(3)
 
+# --- categories -----------------------------------------------------------------------------------
+CATEGORIES = "cats"
+
+
+def categories(what: str) -> Tag:
+    """Values made categorical (``pd.Categorical(...)``, ``.astype("category")``; ``what`` names the call).
+
+    Made by: ``libraries`` (``call_library_name``, ``call_data_method``). Read by:
+    ``libraries.assigned_column_tags`` and ``assign`` (a column that holds categories).
+    """
+    return (CATEGORIES, what)
+
+
+CATEGORY_COLUMN = "catcol"
+
+
+def category_column(name: str) -> Tag:
+    """A frame's column ``name`` holds categories: a formula term naming it is a categorical's dummies,
+    as ``C(name)`` would be.
+
+    Made by: ``libraries`` (column assignment, ``assign``). Read by: ``regressions.new_model``
+    (``ModelRecord.categorical_columns``, then the fit's shift and interacted groups).
+    """
+    return (CATEGORY_COLUMN, name)
+
+
+#: The column of a CATEGORY_COLUMN tag.
+category_column_name: Callable[[Tag], str] = itemgetter(1)
+
 #: Every kind above.
 KINDS: frozenset[str] = frozenset(
-    {QUALIFIED, PROJECT_MODULE, LAZY_IMPORT, FUNCTION, DATA, LITERAL, PREFIX, MODEL, MODEL_FIT, MODEL_PART, FIT,
+    {QUALIFIED, PROJECT_MODULE, LAZY_IMPORT, FUNCTION, DATA, LITERAL, PREFIX, STRING_METHOD, DESIGN, MODEL, MODEL_FIT, MODEL_PART, FIT,
      PART, FIT_METHOD, MEASURE, SSR_SUM, PASSING_METHOD, TIME_METHOD, DATA_METHOD, CONTAINER_METHOD, GETTER,
-     OUTCOME, COLUMNS, COLUMN_NAME, COLUMN_VALUE, TIMED, DATES, DATE_COLUMN}
+     OUTCOME, COLUMNS, COLUMN_NAME, COLUMN_VALUE, TIMED, DATES, DATE_COLUMN, CATEGORIES, CATEGORY_COLUMN}
 )  # fmt: skip
 
 

@@ -32,8 +32,8 @@ from regvet.cli.mend import run_mend
 from regvet.cli.report import run_report
 from regvet.cli.scanning import Progress, Scan, analyze_file, scan
 from regvet.config import ConfigError
-from regvet.rules import ALL_RULES, RULES_BY_ID
-from regvet.rules.texts import CAUTION, explain, render_rules
+from regvet.rules import ALL_RULES
+from regvet.rules.texts import CAUTION, explain, find_rule, nearest_rule, render_rules
 
 __all__ = [
     "EXIT_FAILED", "EXIT_FINDINGS", "EXIT_OK", "EXIT_USAGE", "EXTRA_EXCLUDE", "Progress", "Scan", "UsageError",
@@ -67,10 +67,10 @@ def _parser() -> argparse.ArgumentParser:
     )
     _check_options(r, run_verb=True)
     _subcommands(sub)
-    sub.add_parser("rules", help="list the rules")
+    sub.add_parser("rules", help="list the rules: id, default severity, `run` for those that judge a run, summary")
     sub.add_parser("serve", help="run the language server (stdio; --tcp [--port N] for 127.0.0.1)")
-    e = sub.add_parser("explain", help="explain one rule: rationale, examples, references")
-    e.add_argument("rule", metavar="RULE", help="a rule id, as `regvet rules` lists them")
+    e = sub.add_parser("explain", help="explain rules: rationale, examples, references")
+    e.add_argument("rule", nargs="+", metavar="RULE", help="a rule id as `regvet rules` lists it, in any letter case")
     return p
 
 
@@ -225,12 +225,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         sys.stdout.write(render_rules())
         return EXIT_OK
     if args.command == "explain":
-        rule = RULES_BY_ID.get(args.rule)
-        if rule is None:
-            sys.stderr.write(f"regvet: error: no rule `{args.rule}`; `regvet rules` lists them\n")
-            return EXIT_USAGE
-        sys.stdout.write(explain(rule.id))
-        return EXIT_OK
+        return _explain(args.rule)
     try:
         if args.command == "report":
             return run_report(args)
@@ -252,3 +247,19 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 if __name__ == "__main__":  # pragma: no cover
     sys.exit(main())
+
+
+def _explain(names: list[str]) -> int:
+    """``regvet explain RULE...``: each rule's text, the caution once at the end; a typo gets the nearest rule."""
+    rules = []
+    for name in names:
+        rule = find_rule(name)
+        if rule is None:
+            guess = nearest_rule(name)
+            hint = f"; did you mean `{guess}`?" if guess else "; `regvet rules` lists them"
+            sys.stderr.write(f"regvet: error: no rule `{name}`{hint}\n")
+            return EXIT_USAGE
+        rules.append(rule)
+    texts = [explain(r.id, caution=False) for r in rules]
+    sys.stdout.write("\n".join(texts) + "\n" + CAUTION + "\n")
+    return EXIT_OK

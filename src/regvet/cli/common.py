@@ -3,12 +3,13 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 from collections.abc import Sequence
 from pathlib import Path
 
 from regvet.config import ConfigError, load_settings
-from regvet.discovery import MissingPath, discover
+from regvet.discovery import MissingPath, discover, examine
 from regvet.model.settings import Settings
 from regvet.output.safe import printable
 from regvet.project import display_path
@@ -79,7 +80,9 @@ class _SettingsFinder:
         if args.config:
             path = Path(args.config)
             if not path.is_file():
-                raise UsageError(f"--config: no such file: {args.config}")
+                _, why = examine(path)  # a FIFO, a link loop: say so rather than "no such file"
+                raise UsageError(f"--config: {args.config} is {why}" if why and os.path.lexists(path)
+                                 else f"--config: no such file: {args.config}")  # fmt: skip
             self.forced = load_settings(path)
         self.configs = ConfigCache()
 

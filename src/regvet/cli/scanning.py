@@ -11,7 +11,7 @@ from pathlib import Path
 from regvet.analysis.providers import ModuleProvider
 from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
 from regvet.discovery import read_regular
-from regvet.engine import analyze, error_report
+from regvet.engine import analyze, error_report, failure_report
 from regvet.factcache import FactCache, RecordingModules
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
@@ -231,7 +231,7 @@ def _worker_lost(task: Task, why: str) -> FileReport:
     """The report for a file whose worker process died: regvet failed on it, the scan goes on."""
     from regvet.model.report import Crash
 
-    return FileReport(display_path(task[0]), crashes=(Crash("analysis", why),))
+    return failure_report(display_path(task[0]), Crash("analysis", why), task[1])
 
 
 def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int,

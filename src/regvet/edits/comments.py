@@ -8,7 +8,8 @@ import tokenize
 from dataclasses import dataclass, field
 
 from regvet.edits.text import EditError, offset
-from regvet.sources.waivers import Waiver, find_waivers
+from regvet.model.span import Span
+from regvet.sources.waivers import BECAUSE, Waiver, directive, find_waivers, split_reason
 
 _RULE_ID = re.compile(r"^[a-z0-9][a-z0-9-]*$")
 _HEAD = re.compile(r"#\s*regvet\s*:\s*waive\b")
@@ -19,7 +20,7 @@ _STRING_CLOSE = {getattr(tokenize, n) for n in ("FSTRING_END", "TSTRING_END") if
 
 
 def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str:
-    """``source`` with ``# regvet: waive RULE -- REASON`` waiving the finding that starts on ``line`` (1-based).
+    """``source`` with ``# regvet: waive RULE because REASON`` waiving the finding that starts on ``line`` (1-based).
 
     On the first line of a statement the comment goes alone on a new line above it, at its
     indentation. Inside a multi-line statement it is appended to ``line`` (before any comment
@@ -54,7 +55,7 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
         anchor, alone = line, True
     else:
         anchor, alone = line, False
-    comment = f"# regvet: waive {rule} -- {reason}"
+    comment = directive(False, [rule], reason)
     existing = _waiver_near(find_waivers(source), anchor)
     if existing is not None:
         return _merge(source, existing, rule, reason)
@@ -72,6 +73,26 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
         return source[:at] + comment + "  " + source[at:]
     at = offset(source, line, layout.code_end[line])
     return source[:at] + "  " + comment + source[at:]
+
+
+def rewrite_waiver(source: str, span: Span, new: str) -> str:
+    """``source`` with the waiver comment at ``span`` replaced by the directive ``new``
+    (``# regvet: waive RULE because REASON``); a further comment after it on the line is kept.
+
+    Raises :class:`EditError` when no waiver comment is at ``span`` or ``new`` is not one line."""
+    if "\n" in new or "\r" in new or not _HEAD.match(new):
+        raise EditError("the new waiver must be one line starting `# regvet: waive`")
+    lines = source.split("\n")
+    if not 1 <= span.line <= len(lines) or span.line != span.end_line:
+        raise EditError(f"line {span.line} is outside the file")
+    start = offset(source, span.line, span.col)
+    end = offset(source, span.end_line, span.end_col)
+    comment = source[start:end]
+    head = _HEAD.match(comment)
+    if head is None or "\n" in comment:
+        raise EditError("no waiver comment is there any more")
+    _, hash_, tail = comment[head.end() :].partition("#")
+    return source[:start] + new + ("  #" + tail if hash_ else "") + source[end:]
 
 
 def _backslash(lines: list[str], layout: _Layout, line: int) -> bool:
@@ -136,14 +157,20 @@ def _merge(source: str, waiver: Waiver, rule: str, reason: str) -> str:
     head = _HEAD.match(comment)
     if head is None:  # find_waivers and this module disagree on the directive: do not guess
         raise EditError("cannot read the waiver comment already there")
-    directive, hash_, tail = comment[head.end() :].partition("#")
-    rules, dashes, why = directive.partition("--")
+    body, hash_, tail = comment[head.end() :].partition("#")
+    gap = "  " if hash_ else ""
+    split = split_reason(body)
+    if split is None and waiver.intended:  # `RULE -- reason`: rewritten in the form regvet reads
+        names = [*waiver.rules, *(() if rule in waiver.rules else (rule,))]
+        body = f" {', '.join(names)} {BECAUSE} {waiver.intended}" + gap
+        return source[:start] + comment[: head.end()] + body + hash_ + tail + source[end:]
+    rules, because, why = split if split is not None else (body, "", "")
     names = rules.replace(",", " ").split()
     if rule in names and why.strip():
         return source
     listed = rules.rstrip() + ("" if rule in names else (", " if names else " ") + rule)
     if why.strip():
-        directive = listed + rules[len(rules.rstrip()) :] + dashes + why
+        body = listed + rules[len(rules.rstrip()) :] + because + why
     else:
-        directive = f"{listed} -- {reason}" + ("  " if hash_ else "")
-    return source[:start] + comment[: head.end()] + directive + hash_ + tail + source[end:]
+        body = f"{listed} {BECAUSE} {reason}" + gap
+    return source[:start] + comment[: head.end()] + body + hash_ + tail + source[end:]

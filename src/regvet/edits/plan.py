@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from functools import partial
 from typing import Any
 
-from regvet.edits.comments import add_waiver
+from regvet.edits.comments import add_waiver, rewrite_waiver
 from regvet.edits.rewrite import insert_after_statement, set_cov_type
 from regvet.edits.text import EditError
 from regvet.model.span import Span
@@ -27,6 +27,9 @@ ROBUST_COVARIANCE = "robust-covariance"
 INSERT_RESET = "insert-reset"
 INSERT_BREUSCH_PAGAN = "insert-breusch-pagan"
 WAIVER = "waiver"
+#: A waiver comment rewritten in the form regvet reads (the waiver rules' findings carry it as
+#: ``rewrite_waiver`` and ``waiver`` in their fix data); offered by the editor, never applied by ``regvet mend``.
+REWRITE_WAIVER = "rewrite-waiver"
 #: The kinds that change code (everything but a waiver), in the order ``regvet mend`` knows them.
 CODE_KINDS = (ROBUST_COVARIANCE, INSERT_RESET, INSERT_BREUSCH_PAGAN)
 
@@ -98,6 +101,10 @@ def plan(
             code = f'print("Breusch-Pagan:", {call}({result}.resid, {result}.model.exog))'
             makers.append((kind, f"Insert a Breusch-Pagan test of `{result}` after the fit", False,
                            partial(insert_after_statement, text, statement, code, imports)))  # fmt: skip
+    rewrite, waiver = fix.get("rewrite_waiver"), _span(fix.get("waiver"))
+    if isinstance(rewrite, str) and rewrite and waiver is not None:
+        title = fix.get("title") if isinstance(fix.get("title"), str) else f"Rewrite the waiver as `{rewrite}`"
+        makers.insert(0, (REWRITE_WAIVER, str(title), True, partial(rewrite_waiver, text, waiver, rewrite)))
     if waiver_line is not None:
         makers.append((WAIVER, f"Waive {rule} here (write the reason)", False,
                        lambda: add_waiver(text, waiver_line, rule, "REASON")))  # fmt: skip

@@ -106,5 +106,9 @@ def main(argv: list[str] | None = None) -> int:
 
     atexit._run_exitfuncs()
     logging.shutdown()
-    sys.stdout.flush()
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            stream.flush()
+        except (OSError, ValueError):  # `exit` closed stdout, or the client is gone
+            pass
     os._exit(server.exit_code)

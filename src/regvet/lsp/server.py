@@ -278,11 +278,16 @@ class RegvetServer(LanguageServer):
         if nb is not None:
             cells = []
             versions = []
+            seen: set[str] = set()
             for index, cell in enumerate(nb.cells):
                 doc = self.open_text(cell.document)
                 text = doc.source if doc is not None else ""
                 versions.append(doc.version if doc is not None else None)
-                cells.append(CellSnapshot(index, cell.kind, cell.document, text))
+                kind = cell.kind
+                if unquote(cell.document) in seen:  # one document listed twice: analysed (and shown) once
+                    kind, text = t.NotebookCellKind.Markup, ""
+                seen.add(unquote(cell.document))
+                cells.append(CellSnapshot(index, kind, cell.document, text))
             return NotebookSnapshot(key, (nb.version, tuple(versions)), tuple(cells))
         doc = self.open_text(key)
         if doc is None:
@@ -414,7 +419,9 @@ def build_result(ls: RegvetServer, snap: Snapshot, report: FileReport) -> Result
                 t.DiagnosticRelatedInformation(location=t.Location(uri=rel_uri, range=rel_pos.range(r.span)),
                                                message=r.message)  # fmt: skip
             )
-        diagnostics[uri].append(to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule)))
+        diagnostic = to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule))
+        if diagnostic not in diagnostics[uri]:
+            diagnostics[uri].append(diagnostic)
     return Result(snap.version, report, diagnostics, texts, cells)
 
 

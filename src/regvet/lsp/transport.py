@@ -26,7 +26,7 @@ from collections.abc import Awaitable, Callable
 from concurrent.futures import Future
 from typing import Any
 
-from lsprotocol.types import EXIT, ResponseError, ResponseErrorMessage
+from lsprotocol.types import EXIT
 from pygls.exceptions import JsonRpcException, JsonRpcInternalError
 from pygls.protocol import LanguageServerProtocol
 
@@ -138,7 +138,8 @@ class RegvetProtocol(LanguageServerProtocol):
     def send_error(self, msg_id: Any, code: int, message: str) -> None:
         if isinstance(msg_id, bool) or not isinstance(msg_id, (int, str)):
             msg_id = None
-        self._send_data(ResponseErrorMessage(id=msg_id, error=ResponseError(code=code, message=message)))
+        # a plain dict: the converter would leave out `"id": null`, which JSON-RPC requires here
+        self._send_data({"jsonrpc": "2.0", "id": msg_id, "error": {"code": code, "message": message}})
 
     def handle_body(self, body: bytes) -> None:
         """One message body: structured and handled, or answered with the error it deserves."""

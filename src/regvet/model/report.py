@@ -48,6 +48,8 @@ class FileReport:
     findings: tuple[Finding, ...] = ()
     crashes: tuple[Crash, ...] = ()
     skipped: bool = False  # nothing regression-related in the file: not analysed
+    #: The analysis stopped at its time budget: a verdict of this run's speed, not of the text (never cached).
+    over_budget: bool = False
     facts: FileFacts | None = field(default=None, compare=False, repr=False)
     cell_count: int | None = None
     cell_map: CellMap | None = field(default=None, compare=False, repr=False)

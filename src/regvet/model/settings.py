@@ -33,7 +33,7 @@ class Option:
     """One configuration key: its TOML type, default and a one-line description."""
 
     name: str
-    kind: str  # "float", "rules", "severity-map", "globs", "strings", "helpers"
+    kind: str  # "float", "rules", "severity-map", "globs", "strings", "columns", "helpers", ...
     default: object
     doc: str
 
@@ -45,6 +45,7 @@ class Option:
             "severity-map": 'a table of rule id = "error", "warning" or "info"',
             "globs": "a list of glob patterns",
             "strings": "a list of strings",
+            "columns": "a list of column names",
             "helpers": "a table of dotted function name = list of check families",
             "string": "a string",
             "int": "a positive whole number",
@@ -68,10 +69,23 @@ OPTIONS: tuple[Option, ...] = (
         "Columns (or pandas query expressions) where a structural break is suspected.",
     ),
     Option(
+        "fixed_effects",
+        "columns",
+        (),
+        "Categorical columns that are fixed effects (unit, period): their `C(...)` terms need no break test.",
+    ),
+    Option(
         "diagnostic_helpers",
         "helpers",
         (),
         "Functions regvet cannot read that run checks, e.g. {\"ourlib.check_fit\" = [\"form\", \"variance\"]}.",
+    ),
+    Option(
+        "analysis_budget",
+        "seconds",
+        20.0,
+        "Wall-clock limit for the static analysis of one file, in seconds; past it the file gets an "
+        "`incomplete-analysis` finding instead of its findings.",
     ),
     # --- runtime mode (regvet check --run) ---
     Option("python", "string", "", "Interpreter that runs the analysis in runtime mode (default: regvet's own)."),
@@ -99,7 +113,9 @@ class Settings:
     severity: tuple[tuple[str, str], ...] = ()
     exclude: tuple[str, ...] = ()
     break_candidates: tuple[str, ...] = ()
+    fixed_effects: tuple[str, ...] = ()
     diagnostic_helpers: tuple[tuple[str, tuple[str, ...]], ...] = ()
+    analysis_budget: float = 20.0
     python: str = ""
     run_timeout: float = 300.0
     run_memory_mb: int = 8192

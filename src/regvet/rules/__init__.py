@@ -10,6 +10,7 @@ from regvet.rules import (
     form_rejected,
     hc_small_sample,
     heteroskedastic_plain_se,
+    incomplete_analysis,
     mismatched_diagnostic,
     no_break_test,
     no_form_test,
@@ -20,6 +21,7 @@ from regvet.rules import (
     r2_unadjusted_compare,
     run_failed,
     serial_correlation_plain_se,
+    waiver_unknown_rule,
     waiver_without_reason,
 )
 from regvet.rules.base import QuickFix, Rule, RuleInput
@@ -33,7 +35,9 @@ ALL_RULES: tuple[Rule, ...] = (
     no_serial_test.RULE,
     no_break_test.RULE,
     waiver_without_reason.RULE,
+    waiver_unknown_rule.RULE,
     parse_error.RULE,
+    incomplete_analysis.RULE,
     # from a run's statistics (regvet check --run)
     heteroskedastic_plain_se.RULE,
     form_rejected.RULE,

@@ -8,7 +8,7 @@ from functools import lru_cache
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, fix_data, once_per_root
+from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check, once_per_root
 
 _IDENT = re.compile(r"[A-Za-z_]\w*")
 _QUERY_WORDS = frozenset({"and", "or", "not", "in", "True", "False", "None", "is"})
@@ -43,35 +43,107 @@ def check(inp: RuleInput) -> Iterator[Finding]:
     return once_per_root(inp, _judge)
 
 
+#: Calendar seasonals: a `C(month)` shift is a seasonal intercept, not a unit or a period (common practice).
+_SEASONAL = re.compile(r"(?:^|_)(?:month|months|quarter|quarters|qtr|season|seasons|weekday|dayofweek|dow)(?:_|$)",
+                       re.IGNORECASE)  # fmt: skip
+
+
+def seasonal(group: str) -> bool:
+    """Is ``C(group)`` a calendar seasonal (``month``, ``quarter``, ``season``, ``df.index.month``)?"""
+    return bool(_SEASONAL.search(group.rsplit(".", 1)[-1]))
+
+
+#: Names of a period (a time effect) and of a unit identifier (a unit effect), common practice.
+_PERIOD = re.compile(r"(?:^|_)(?:year|years|yr|date|day|week|month|quarter|qtr|period|time|wave|t)(?:_|$)",
+                     re.IGNORECASE)  # fmt: skip
+_UNIT_ID = re.compile(r"^(?:id|pid|uid|.+_id|id_.+)$", re.IGNORECASE)
+
+
+def _name(group: str) -> str:
+    return group.rsplit(".", 1)[-1]
+
+
+def fixed_effects(fit: Fit, fixed: tuple[str, ...], candidates: tuple[str, ...]) -> bool:
+    """Is the fit a fixed-effects design? Unit and period effects (two categorical terms or more, one of
+    them a period such as ``C(year)`` or a unit identifier such as ``C(firm_id)``), a single unit
+    identifier (``C(id)``), or a categorical named in the config's ``fixed_effects``. Then its ``C(...)``
+    shifts ask no break question. A configured break candidate is never counted as a fixed effect;
+    two ordinary categoricals (``C(gender) + C(occupation)``) are not fixed effects."""
+    terms = fit.categorical_terms - set(_candidate_columns(candidates))
+    if terms & set(fixed):
+        return True
+    periods = {g for g in terms if _PERIOD.search(_name(g))}
+    units = {g for g in terms if _UNIT_ID.match(_name(g))}
+    if units:
+        return True
+    return len(terms) >= 2 and bool(periods)
+
+
+def no_slopes(fit: Fit) -> bool:
+    """Is every regressor a categorical's dummy (``y ~ C(g)``, ``y ~ C(a) + C(b)``)? Then there is no
+    slope whose equality across groups a break test could question."""
+    return bool(fit.regressors) and all("C(" in term or term in fit.categorical_terms for term in fit.regressors or ())
+
+
+def break_question(fit: Fit, candidates: tuple[str, ...], fixed: tuple[str, ...]) -> bool:
+    """Does the fit's specification ask for a break test at all (intercept-only groups that are not fixed
+    effects, or a configured break candidate it uses without interacting it)?"""
+    if no_slopes(fit):
+        return False
+    if fit.shift_groups and not fixed_effects(fit, fixed, candidates):
+        return True
+    return any(_candidate_open(fit, c) for c in _candidate_columns(candidates))
+
+
+def _candidate_open(fit: Fit, column: str) -> bool:
+    """The fit uses the candidate column and does not already interact it with the regressors."""
+    return column in fit.columns and column not in fit.interacted_columns
+
+
 def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     members = inp.facts.same_residuals(fit.id)
     uses = [u for m in sorted(members) for u in inp.uses(m, ("estimate", "inference", "robust"))]
-    if not uses:
+    escapes = [e for m in sorted(members) for e in inp.escapes(m)]
+    if not uses and not escapes:
         return None
-    if inp.checks(fit.id, "breaks"):
+    if inp.checks(fit.id, "breaks") or no_slopes(fit):
         return None
-    # Every intercept-only group, and every configured candidate the fit uses, needs its own test.
+    # Every intercept-only group that is not a fixed effect, and every configured candidate the fit
+    # uses without interacting it, needs its own test.
     candidates = _candidate_columns(inp.settings.break_candidates)
-    shift = {g for g in fit.shift_groups if not _group_tested(inp, fit, {g})}
-    named = {c: e for c, e in candidates.items() if c in fit.columns and not _group_tested(inp, fit, {c})}
+    fixed = fixed_effects(fit, inp.settings.fixed_effects, inp.settings.break_candidates)
+    groups = set() if fixed else set(fit.shift_groups)
+    shift = {g for g in groups if not _group_tested(inp, fit, {g})}
+    named = {c: e for c, e in candidates.items() if _candidate_open(fit, c) and not _group_tested(inp, fit, {c})}
     if not shift and not named:
         return None
-    if shift:
-        g = sorted(shift)[0]
+    plain = sorted(g for g in shift if not seasonal(g))
+    if plain:
+        g = plain[0]
         why = (
             f"its formula lets `C({g})` shift only the intercept, so every slope is assumed equal across "
             f"the groups of `{g}`"
         )
+        what = "Test whether the slopes differ"
+    elif shift:
+        g = sorted(shift)[0]
+        why = (
+            f"its seasonal dummies `C({g})` shift only the intercept, so every slope is assumed the same in "
+            f"every {g.rsplit('.', 1)[-1]}"
+        )
+        what = "If the slopes may vary with the season, test it"
     else:
         entry = sorted(named.values())[0]
-        why = f"it uses data with a configured break candidate (`{entry}`)"
-    return RULE.fit_finding(
+        why = f"it uses data with a configured break candidate (`{entry}`) without interacting it with the regressors"
+        what = "Test whether the slopes differ"
+    return missing_check(
+        RULE,
         fit,
-        f"{describe_fit(fit)}: {why}, and no structural-break test was applied. Test whether the slopes "
-        "differ (a Chow test, or an F test of the interactions with the group, e.g. `anova_lm(restricted, "
-        "interacted)`), or run `breaks_cusumolsresid` on the residuals.",
+        f"{describe_fit(fit)}: {why}, and no structural-break test was applied. {what} (a Chow test, or an "
+        "F test of the interactions with the group, e.g. `anova_lm(restricted, interacted)`), or run "
+        "`breaks_cusumolsresid` on the residuals.",
         uses[:1],
-        fix_data(fit),
+        escapes,
     )
 
 
@@ -84,7 +156,17 @@ RULE = Rule(
         "A `C(group)` term without interactions lets each group have its own intercept but forces the same "
         "slopes on all of them: the assumption of parameter constancy across groups (or before and after an "
         "event). If the slopes differ, the pooled coefficients describe no group well.\n\n"
-        "Also fires for fits on data that use a column named in the config's `break_candidates`.\n\n"
+        "Also fires for fits on data that use a column named in the config's `break_candidates`, unless the "
+        "formula already interacts it with the regressors (`post * (fare + fuel_price)`): that model is the "
+        "unrestricted one.\n\n"
+        "Fixed effects are not a break question: unit and period effects (two categorical terms or more, one "
+        "of them a period such as `C(year)`: `C(harbour) + C(year)`), a unit identifier (`C(ship_id)`), or a "
+        "categorical named in the config's `fixed_effects`, are not flagged (period and identifier names: "
+        "common practice); nor is a model of categorical terms only, which has no slope to compare. A column "
+        "made categorical (`pd.Categorical`, `.astype(\"category\")`) and named bare in the formula counts as "
+        "`C(column)`. Calendar seasonals (`C(month)`, `C(quarter)`, `C(season)`) alone still are, worded as a "
+        "question about seasonal slopes. A formula built from literal pieces (concatenation, `.format`, "
+        "f-strings, `\" + \".join(...)`) or a design from `patsy.dmatrices` is read like a literal one.\n\n"
         "Satisfied by: a Chow test (subsample fits combined in an F statistic from their SSRs), an F test of "
         "the interactions with the group (`anova_lm`, `compare_f_test`, or `f_test` on the interacted model), "
         "or `breaks_cusumolsresid` / `breaks_hansen` / `recursive_olsresiduals` on the fit. "

@@ -12,6 +12,12 @@ def check(inp: RuleInput) -> Iterator[Finding]:
     err = inp.source_error
     if err is not None:
         yield RULE.finding(err.span, f"regvet cannot analyse this file: {err.message}. Nothing else in it was checked.")
+    for cell in inp.broken_cells:
+        yield RULE.finding(
+            cell.span,
+            f"regvet cannot analyse this notebook cell: {cell.message}. The other cells were checked without "
+            "it, as Jupyter runs each cell on its own; fits that depend on this cell may go unchecked.",
+        )
 
 
 RULE = Rule(
@@ -21,7 +27,9 @@ RULE = Rule(
     rationale=(
         "regvet reads code without running it, so a file with a syntax error (or a notebook whose JSON is "
         "broken) cannot be analysed at all: any fit in it goes unchecked. One finding is placed at the error "
-        "position and the scan goes on with the other files."
+        "position and the scan goes on with the other files. In a notebook, a code cell that does not parse "
+        "on its own gets the finding and the other cells are still checked (Jupyter runs each cell on its "
+        "own)."
     ),
     bad='''\
 import statsmodels.formula.api as smf

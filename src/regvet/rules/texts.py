@@ -7,33 +7,85 @@ rule objects.
 
 from __future__ import annotations
 
+import difflib
+import re
+
 from regvet.rules import ALL_RULES, RULES_BY_ID
+from regvet.rules.base import Rule
+from regvet.sources.waivers import directive
 
 CAUTION = (
-    "Passing regvet does not make a model right. regvet finds specification checks that are missing or "
-    "failed; it cannot judge whether the economics of a model make sense, whether the variables measure "
-    "what they should, or whether the data support causal claims. That judgement stays with the analyst, "
-    "and results that inform policy or money deserve review by a qualified statistician or econometrician "
-    "under the rules of their field or institution."
+    "Passing regvet does not make a model right: it finds specification checks that are missing or failed, "
+    "and judgement about the economics stays with the analyst. Important results deserve review by a "
+    "qualified statistician or econometrician under the rules of their field or institution."
 )
+
+#: The marker the test suite reads on an example's flagged lines (``# expect: RULE``).
+_EXPECT = re.compile(r"\s*#\s*expect:[^#\n]*$")
+#: An example's configuration line for the test suite (``# regvet config for this example: KEY = VALUE``).
+_CONFIG = re.compile(r"^\s*#\s*regvet config for this example:\s*(?P<setting>.+?)\s*$")
+#: The mark ``regvet rules`` puts on the rules that judge a run's statistics.
+RUN_MARK = "run"
 
 
 def render_rules() -> str:
-    """One line per rule, in catalogue order: id, default severity, summary."""
+    """One line per rule, in catalogue order: id, default severity, `run` for the runtime-only rules, summary;
+    then a line that says what `run` means."""
     width = max(len(r.id) for r in ALL_RULES)
-    lines = [f"{r.id:<{width}}  {r.severity.label:<7}  {r.summary}" for r in ALL_RULES]
+    mark = len(RUN_MARK)
+    lines = [f"{r.id:<{width}}  {r.severity.label:<7}  {RUN_MARK if r.needs_run else '':<{mark}}  {r.summary}"
+             for r in ALL_RULES]  # fmt: skip
+    lines += ["", f"{RUN_MARK}: judges the statistics of a run, so it is reported only by `regvet run` "
+              "(or `check --run`), which executes the code."]  # fmt: skip
     return "\n".join(lines) + "\n"
 
 
-def explain(rule_id: str) -> str:
-    """The full text for one rule (``KeyError`` for an unknown id); the language server shows the same text."""
+def find_rule(name: str) -> Rule | None:
+    """The rule called ``name`` in any letter case (``_`` for ``-`` too), or None."""
+    return RULES_BY_ID.get(name.strip().lower().replace("_", "-"))
+
+
+def nearest_rule(name: str) -> str | None:
+    """The rule id closest to a misspelt ``name``, or None when none is close."""
+    plain = name.strip().lower().replace("_", "-")
+    close = difflib.get_close_matches(plain, list(RULES_BY_ID), n=1, cutoff=0.6)
+    return close[0] if close else None
+
+
+def shown_example(code: str) -> tuple[list[str], str]:
+    """(settings, code) of an example as a person reads it: the test suite's ``# expect:`` markers
+    taken off the flagged lines, its configuration comments taken out and returned as settings."""
+    settings: list[str] = []
+    lines: list[str] = []
+    for line in code.rstrip("\n").split("\n"):
+        m = _CONFIG.match(line)
+        if m:
+            settings.append(m["setting"])
+            continue
+        lines.append(_EXPECT.sub("", line))
+    return settings, "\n".join(lines)
+
+
+def explain(rule_id: str, caution: bool = True) -> str:
+    """The full text for one rule (``KeyError`` for an unknown id); the language server shows the same text.
+
+    ``caution`` ends it with the caution; ``regvet explain`` of several rules prints it once, after the last."""
     r = RULES_BY_ID[rule_id]
-    out = [f"{r.id} ({r.severity.label} by default)", "", r.summary, "", r.rationale, ""]
-    out += ["Flagged:", "", _indent(r.bad), "", "Passes:", "", _indent(r.good), ""]
+    out = [f"{r.id} ({r.severity.label} by default{'; runtime mode only' if r.needs_run else ''})", "",
+           r.summary, "", r.rationale, ""]  # fmt: skip
+    for title, example in (("Flagged:", r.bad), ("Passes:", r.good)):
+        settings, code = shown_example(example)
+        out += [title, ""]
+        if settings:
+            out += ["With " + ", ".join(f"`{s}`" for s in settings) + " under `[tool.regvet]`:", ""]
+        out += [_indent(code), ""]
     if r.references:
         out += ["References:"] + [f"  - {ref}" for ref in r.references] + [""]
-    out += [f"Waive with `# regvet: waive {r.id} -- reason` when the check truly does not apply.", ""]
-    out += [CAUTION, ""]
+    if r.waivable:
+        waiver = directive(False, [r.id], "REASON")
+        out += [f"When the check truly does not apply, waive it with `{waiver}`.", ""]
+    if caution:
+        out += [CAUTION, ""]
     return "\n".join(out)
 
 

@@ -3,16 +3,16 @@
 Code cells are joined in order (so a test in a later cell covers a fit in an
 earlier one). IPython magics and shell escapes are replaced by ``pass`` at the
 same indentation, so no line moves and blocks stay valid; cells whose body is
-not Python (``%%bash``, ``%%sql``, ...) become blank lines.
+not Python (``%%bash``, ``%%sql``, ...) become blank lines. The work is linear in the
+cell: one scan that follows brackets, strings and continuations tells whether a line
+starts inside a statement (where a ``!`` or ``%`` is not a magic).
 """
 
 from __future__ import annotations
 
 import ast
-import io
 import json
 import re
-import tokenize
 from dataclasses import dataclass
 
 from regvet.model.cells import CellMap
@@ -20,7 +20,6 @@ from regvet.model.span import Span
 from regvet.sources.python import SourceError
 
 _LINE_MAGIC = re.compile(r"^(\s*)(?:%|!|[A-Za-z_][\w.]*\s*=\s*[!%])")  # %cmd, !cmd, x = !cmd, x = %cmd
-_HELP = re.compile(r"^(\s*)[^#\s].*?\?\??\s*$")  # obj?  obj??
 #: Cell magics whose body is ordinary Python.
 PYTHON_CELL_MAGICS = frozenset({"time", "timeit", "capture", "prun", "debug", "memit"})
 
@@ -32,14 +31,60 @@ class NotebookSource:
     cell_count: int
 
 
-def _inside_statement(prefix: str) -> bool:
-    """True when ``prefix`` ends inside brackets, a triple-quoted string or a continuation."""
-    try:
-        for _ in tokenize.generate_tokens(io.StringIO(prefix).readline):
-            pass
-        return False
-    except (tokenize.TokenError, IndentationError, SyntaxError):
-        return True
+class _Statements:
+    """Follows brackets, strings and backslash continuations over lines fed one by one."""
+
+    def __init__(self) -> None:
+        self.depth = 0  # open brackets
+        self.quote: str | None = None  # the open triple quote
+        self.continued = False  # the last line ended with a backslash
+
+    @property
+    def inside(self) -> bool:
+        """Whether the next line starts inside a statement (brackets, a triple-quoted string, a continuation)."""
+        return self.depth > 0 or self.quote is not None or self.continued
+
+    def feed(self, line: str) -> None:
+        i, n = 0, len(line)
+        self.continued = False
+        while i < n:
+            c = line[i]
+            if self.quote is not None:
+                if c == "\\":
+                    i += 2
+                    continue
+                if line.startswith(self.quote, i):
+                    self.quote = None
+                    i += 3
+                    continue
+            elif c == "#":
+                return
+            elif c in "([{":
+                self.depth += 1
+            elif c in ")]}":
+                self.depth = max(self.depth - 1, 0)
+            elif c in "'\"":
+                if line.startswith(c * 3, i):
+                    self.quote = c * 3
+                    i += 3
+                    continue
+                i += 1
+                while i < n and line[i] != c:
+                    i += 2 if line[i] == "\\" else 1
+                if i > n:  # a backslash at the end of the line continues the string
+                    self.continued = True
+            elif c == "\\" and i == n - 1:
+                self.continued = True
+            i += 1
+
+
+def _help_line(line: str) -> re.Match | None:
+    """``obj?`` or ``obj??`` (the part before the indentation's end as group 1), or None."""
+    body = line.lstrip()
+    end = body.rstrip()
+    if len(end) >= 2 and end.endswith("?") and not end.startswith("#"):
+        return re.match(r"(\s*)", line)
+    return None
 
 
 def neutralize(cell: str) -> str:
@@ -57,12 +102,13 @@ def neutralize(cell: str) -> str:
     except (SyntaxError, ValueError):
         pass
     out: list[str] = []
+    statements = _Statements()
     for line in lines:
-        m = _LINE_MAGIC.match(line) or _HELP.match(line)
-        if m and not (out and _inside_statement("\n".join(out) + "\n")):
-            out.append(m.group(1) + "pass")
-        else:
-            out.append(line)
+        m = _LINE_MAGIC.match(line) or _help_line(line)
+        if m and not statements.inside:
+            line = m.group(1) + "pass"
+        out.append(line)
+        statements.feed(line)
     return "\n".join(out)
 
 
@@ -84,7 +130,12 @@ def read_notebook(text: str) -> NotebookSource | SourceError:
         return SourceError("invalid notebook: the top level is not a JSON object", Span(1, 0, 1, 0))
     cells = nb.get("cells")
     if cells is None and isinstance(nb.get("worksheets"), list):  # nbformat 3
-        cells = [c for ws in nb["worksheets"] if isinstance(ws, dict) for c in ws.get("cells", [])]
+        cells = []
+        for number, ws in enumerate(nb["worksheets"]):
+            held = ws.get("cells", []) if isinstance(ws, dict) else None
+            if not isinstance(held, list):
+                return SourceError(f"invalid notebook: worksheet {number + 1} has no list of cells", Span(1, 0, 1, 0))
+            cells.extend(held)
     if not isinstance(cells, list):
         return SourceError("invalid notebook: no list of cells", Span(1, 0, 1, 0))
     code: list[tuple[int, str]] = []

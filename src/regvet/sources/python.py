@@ -8,6 +8,7 @@ import io
 import tokenize
 import warnings
 from dataclasses import dataclass
+from itertools import pairwise
 
 from regvet.model.span import Span
 
@@ -61,6 +62,27 @@ def _refused_encoding(name: str) -> str | None:
     if spelled != _COOKIE_PROBE:
         return "it does not write ASCII as ASCII, so the coding line itself cannot be read in it"
     return None
+
+
+def without_broken_cells(python: str, starts: tuple[int, ...]) -> tuple[str, tuple[SourceError, ...]]:
+    """A notebook's joined code with every cell that does not parse on its own blanked out (its lines kept,
+    so positions do not move), and the error of each such cell in the joined module's lines.
+
+    Jupyter compiles each cell on its own: a cell with a syntax error fails alone and the others run,
+    so the others can be analysed without it. ``starts``: the 1-based first line of each code cell.
+    """
+    lines = python.split("\n")
+    errors: list[SourceError] = []
+    bounds = [*starts, len(lines) + 1]
+    for first, after in pairwise(bounds):
+        chunk = lines[first - 1 : after - 1]
+        found = parse("\n".join(chunk))
+        if isinstance(found, SourceError):
+            span = found.span
+            errors.append(SourceError(found.message, Span(span.line + first - 1, span.col,
+                                                          span.end_line + first - 1, span.end_col)))  # fmt: skip
+            lines[first - 1 : after - 1] = [""] * len(chunk)
+    return "\n".join(lines), tuple(errors)
 
 
 def parse(text: str, filename: str = "<unknown>") -> ast.Module | SourceError:
