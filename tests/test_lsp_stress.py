@@ -263,6 +263,7 @@ def test_a_request_after_shutdown_is_refused_and_exit_ends_the_process(raw):
 
 
 def test_a_client_that_disconnects_mid_request_leaves_no_process_behind(raw, project):
+    (project / "regvet.toml").write_text("analysis_budget = 600\n")
     s = raw(options={"debounceMs": 0, "budgetMs": 600_000})
     uri = from_fs_path(str(project / "slow.py"))
     s.notify("textDocument/didOpen", {"textDocument": {"uri": uri, "languageId": "python", "version": 1, "text": long_script()}})
@@ -326,6 +327,7 @@ async def test_an_analysis_over_its_budget_is_stopped_and_says_so(project):
 
 async def test_two_long_analyses_do_not_block_the_others_nor_shutdown(project):
     slow_text = long_script()
+    (project / "regvet.toml").write_text("analysis_budget = 600\n")  # the engine's own budget out of the way
     async with session(project, init_options={"regvet": {"debounceMs": 0, "budgetMs": 600_000}}) as c:
         server = c.lsp._server
         assert server is not None
