@@ -181,3 +181,42 @@ def test_a_file_stopped_at_its_budget_is_not_cached(tmp_path, run_cli, monkeypat
     code, out, _ = run_cli("check", "--format", "json", str(tmp_path / "long.py"))
     assert "no-form-test" in {f["rule"] for f in json.loads(out)["findings"]}
     assert [p for p in cache.rglob("*") if p.is_file()]  # an analysis that finished is cached
+
+
+def test_magic_neutralisation_is_linear_and_respects_statements():
+    from regvet.sources.notebook import neutralize
+
+    cell = "!echo ferry\n" * 20_000 + "x = (\n!inside brackets\n)\ns = '''\n!inside a string\n'''\ny = 1 + \\\n!continued\ndef broken(:\n"
+    started = time.perf_counter()
+    out = neutralize(cell).split("\n")
+    assert time.perf_counter() - started < 2.0  # 20,000 magic lines: the old re-tokenising took minutes
+    assert out[:20_000] == ["pass"] * 20_000
+    assert out[20_001] == "!inside brackets" and out[20_004] == "!inside a string" and out[20_007] == "!continued"
+    assert len(out) == len(cell.split("\n"))
+
+
+def test_the_import_precheck_is_linear():
+    from regvet.analysis.providers import ModuleSource
+    from regvet.engine import mentions_fits
+
+    class Modules:
+        def find(self, name, level, importer):
+            return ModuleSource("helpers", "helpers.py", "import statsmodels.api as sm\n") if name == "helpers" else None
+
+    text = "from " + "." * 200_000 + "\n" + "import " + "a," * 100_000 + "\nfrom helpers import fit_all\n"
+    started = time.perf_counter()
+    assert mentions_fits(text, Modules())
+    assert time.perf_counter() - started < 2.0
+
+
+def test_deep_fan_out_of_calls_ends_at_the_budget():
+    """Each function calls the next three times (issue 12: seconds to minutes on a few KB); the budget bounds it."""
+    code = HEAD + "def f30(d):\n    return smf.ols('riders ~ fare', data=d).fit()\n"
+    for i in range(29, -1, -1):
+        code += f"def f{i}(d):\n    a = [f{i + 1}(d), f{i + 1}(d[0])][0]\n    c = f{i + 1}(a)\n    return a\n"
+    code += "res = f0(df)\nprint(res.summary())\n"
+    started = time.perf_counter()
+    report = analyze(code, "fan.py", budget=2.0)
+    assert time.perf_counter() - started < 10.0
+    assert report.crashes == ()
+    assert report.over_budget == ("incomplete-analysis" in {f.rule for f in report.findings})

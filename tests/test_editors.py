@@ -154,3 +154,24 @@ def test_neovim_011_with_the_shipped_lsp_config(tmp_path):
     assert got.get("pull") == "true", got["shown"]  # the server offered pull diagnostics
     assert got["diags"].get("before") == expected("nvim", ["no-form-test", "no-variance-test"]), got["shown"]
     assert got["diags"].get("after") == [], got["shown"]
+
+
+def test_emacs_flymake_config_adds_regvet_beside_the_users_backends(tmp_path):
+    """editor_configs/emacs/regvet-flymake.el: regvet is one more Flymake backend (the user's backend stays
+    and reports too), its findings arrive on the fit's line, and the user's eglot settings are untouched."""
+    need("emacs")
+    script = tmp_path / "harbour.py"
+    script.write_text(SCRIPT)
+    out = tmp_path / "report.txt"
+    env = dict(os.environ, HOME=str(tmp_path), REGVET_OUT=str(out), REGVET_FILE=str(script),
+               REGVET_CONFIG=str(Path(__file__).parents[1] / "editor_configs" / "emacs" / "regvet-flymake.el"),
+               REGVET_EXE=str(Path(sys.executable).with_name("regvet")))  # fmt: skip
+    subprocess.run(["emacs", "-Q", "--batch", "-l", str(HERE / "flymake_check.el")], env=env, cwd=tmp_path,
+                   capture_output=True, text=True, timeout=TIMEOUT, stdin=subprocess.DEVNULL)  # fmt: skip
+    report = out.read_text() if out.exists() else ""
+    assert "ERROR" not in report and "DONE" in report, report
+    assert "CONFIG-KEPT t" in report and "BACKENDS regvet user" in report, report
+    diags = [line.split()[1:] for line in report.splitlines() if line.startswith("DIAG")]
+    fit_line = next(i for i, text in enumerate(SCRIPT.splitlines(), start=1) if ".fit(" in text)
+    assert ["1", ":note", "user"] in diags, report  # the user's backend still reports
+    assert [str(fit_line), ":warning", "no-form-test"] in diags, report

@@ -11,7 +11,8 @@ deleted, duplicated and swapped, truncation at a random byte, random bytes, NUL,
 lone CR, tabs, bytes that are not UTF-8, coding cookies, huge lines, deep nesting, comments only),
 formulas from a small grammar (powers, long products, nested parentheses), and notebooks built
 as structures (nbformat 3 and 4, missing and mistyped keys, sources as strings and lists, odd
-cell types, binary outputs, many cells, magics).
+cell types, binary outputs, many cells, magics), and code cells handed over as an editor syncs them
+(``analyze_cells``).
 
 Profiles (``REGVET_FUZZ``): ``quick`` (the default, a few hundred cases in all, part of
 ``make test``) and ``long`` (``make fuzz``: at least 10,000 cases; the ``fuzz``-marked sweeps
@@ -34,7 +35,8 @@ from hypothesis import strategies as st
 
 from conftest import FIXTURES
 from regvet.analysis.formula import parse_formula
-from regvet.engine import analyze, error_report
+from regvet.analysis.providers import NoModules
+from regvet.engine import analyze, analyze_cells, error_report, mentions_fits
 from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES
@@ -77,7 +79,15 @@ def analyse_bytes(data: bytes, path: str) -> tuple[FileReport, str | None]:
         if isinstance(decoded, SourceError):
             return error_report(path, decoded), None
         text = decoded
+    _precheck(text)
     return analyze(text, path, skip_unrelated=False), text
+
+
+def _precheck(text: str) -> None:
+    """The cheap pre-check the CLI runs first (analysed above without it, so that the whole analysis runs)."""
+    started = time.perf_counter()
+    mentions_fits(text, NoModules())
+    assert time.perf_counter() - started < 2.0, "the pre-check took seconds"
 
 
 def assert_contract(report: FileReport, text: str | None, started: float) -> None:
@@ -97,6 +107,7 @@ def assert_contract(report: FileReport, text: str | None, started: float) -> Non
 
 def check_text(text: str, path: str = "fuzzed.py") -> FileReport:
     started = time.perf_counter()
+    _precheck(text)
     report = analyze(text, path, skip_unrelated=False)
     assert_contract(report, text, started)
     return report
@@ -402,6 +413,19 @@ def test_structured_notebooks(text):
         for f in report.findings:
             if f.rule != "parse-error":
                 assert f.span.cell is not None and 0 <= f.span.cell < report.cell_count
+
+
+@cases(quick=40, long=1000)
+@given(st.lists(st.lists(st.sampled_from(CELL_SOURCES), max_size=4).map("".join), max_size=12), st.integers(0, 5))
+def test_cells_as_an_editor_syncs_them(sources, extra):
+    """``analyze_cells``, the language server's way in: code cells with their indices, among other cells."""
+    code_cells = [(2 * i, src) for i, src in enumerate(sources)]
+    count = 2 * len(sources) + extra
+    started = time.perf_counter()
+    report = analyze_cells(code_cells, count, "synced.ipynb")
+    assert_contract(report, "".join(sources), started)
+    for f in report.findings:
+        assert f.span.cell in {i for i, _ in code_cells}, f
 
 
 @cases(quick=40, long=1000)

@@ -214,6 +214,34 @@ async def test_hover_shows_the_status_of_each_check_family(project):
         assert nothing is None
 
 
+async def test_hover_on_a_loop_lists_the_fits_of_the_line(project):
+    text = textwrap.dedent(
+        """\
+        import pandas as pd
+        import statsmodels.formula.api as smf
+
+        crossings = pd.read_csv("crossings.csv")
+        for formula in ["riders ~ fare", "riders ~ fare + fuel_price"]:
+            res = smf.ols(formula, data=crossings).fit()
+            print(res.summary())
+        """
+    )
+    async with session(project) as c:
+        uri = c.open(project / "loop.py", text)
+        diags = await c.diagnostics_for(uri, 1)
+        assert codes(diags) == ["no-form-test", "no-variance-test"]  # one per rule for the two fits
+        d = next(d for d in diags if d.code == "no-variance-test")
+        assert d.message.startswith("2 fits from this line: `riders ~ fare`, `riders ~ fare + fuel_price`. For both:")
+        line = text.split("\n")[5]
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(5, line.index("smf.ols") + 3))
+        )
+        value = hover.contents.value
+        assert "**regvet** · 2 fits from this line: `riders ~ fare`, `riders ~ fare + fuel_price`" in value
+        assert "`res` (OLS, formula `riders ~ fare`, nonrobust)" in value
+        assert "`res` (OLS, formula `riders ~ fare + fuel_price`, nonrobust)" in value
+
+
 async def test_client_settings_override_skip(project):
     async with session(project, settings={"skip": ["no-form-test"]}) as c:
         uri = c.open(project / "model.py", SCRIPT)

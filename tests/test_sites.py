@@ -21,6 +21,7 @@ from regvet.status import fits_at, hover_markdown
 
 VAR = "no-variance-test"
 FORM = "no-form-test"
+SERIAL = "no-serial-test"
 
 _HEAD = """\
 import pandas as pd
@@ -275,3 +276,122 @@ def test_global_fit_across_notebook_cells():
     (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
     assert (finding.span.cell, finding.span.line) == (1, 3)
     assert "`late` reports inference (`summary`, cell 4, line 1)" in finding.message
+
+
+# --- a robust or HAC version of the same specification on the same data is reported too -----------
+# (id, body, {(line in the body, rule): the robust version's name}): the ``# expect`` markers of the two
+# rules give every finding; those listed are downgraded to info because that robust version is reported.
+ROBUST = [
+    ("second-fit-hc3-beside", """
+        plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+        robust = smf.ols("riders ~ fare", data=ferries).fit(cov_type="HC3")
+        print(plain.summary(), robust.summary())
+    """, {(1, VAR): "`robust`"}),
+    ("get-robustcov-results-beside", """
+        plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+        robust = plain.get_robustcov_results(cov_type="HC1")
+        print(plain.summary())
+        print(robust.summary())
+    """, {(1, VAR): "`robust`"}),
+    ("array-api-second-fit-hc3", """
+        X = sm.add_constant(ferries[["fare", "temp"]])
+        plain = sm.OLS(ferries["riders"], X).fit()  # expect: no-variance-test
+        robust = sm.OLS(ferries["riders"], X).fit(cov_type="HC3")
+        print(plain.pvalues, robust.pvalues)
+    """, {(2, VAR): "`robust`"}),
+    ("robust-version-not-reported", """
+        plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+        robust = plain.get_robustcov_results(cov_type="HC1")
+        print(plain.summary())
+    """, {}),
+    ("robust-version-of-another-specification", """
+        plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+        robust = smf.ols("riders ~ fare + temp", data=ferries).fit(cov_type="HC3")
+        print(plain.summary(), robust.summary())
+    """, {}),
+    ("robust-version-on-other-data", """
+        plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+        robust = smf.ols("riders ~ fare", data=ferries.dropna()).fit(cov_type="HC3")
+        print(plain.summary(), robust.summary())
+    """, {}),
+    ("robust-version-after-the-data-changed", """
+        plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+        ferries = ferries[ferries.riders > 0]
+        robust = smf.ols("riders ~ fare", data=ferries).fit(cov_type="HC3")
+        print(plain.summary(), robust.summary())
+    """, {}),
+    ("robust-version-of-another-estimator", """
+        plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
+        robust = smf.wls("riders ~ fare", data=ferries).fit(cov_type="HC3")
+        print(plain.summary(), robust.summary())
+    """, {}),
+    ("hac-version-on-time-ordered-data", """
+        daily = pd.read_csv("daily.csv", parse_dates=["day"], index_col="day")
+        plain = smf.ols("riders ~ fare", data=daily).fit()  # expect: no-variance-test, no-serial-test
+        hac = smf.ols("riders ~ fare", data=daily).fit(cov_type="HAC", cov_kwds={"maxlags": 7})
+        print(plain.summary(), hac.summary())
+    """, {(2, VAR): "`hac`", (2, SERIAL): "`hac`"}),
+    ("hc3-version-does-not-answer-serial", """
+        daily = pd.read_csv("daily.csv", parse_dates=["day"], index_col="day")
+        plain = smf.ols("riders ~ fare", data=daily).fit()  # expect: no-variance-test, no-serial-test
+        robust = smf.ols("riders ~ fare", data=daily).fit(cov_type="HC3")  # expect: no-serial-test
+        print(plain.summary(), robust.summary())
+    """, {(2, VAR): "`robust`"}),
+    ("test-on-a-second-fit-counts-for-both", """
+        first = smf.ols("riders ~ rain", data=ferries).fit()
+        second = smf.ols("riders ~ rain", data=ferries).fit()
+        print(het_breuschpagan(second.resid, second.model.exog))
+        print(first.summary())
+    """, {}),
+    ("test-on-a-fit-of-another-specification-does-not", """
+        first = smf.ols("riders ~ rain", data=ferries).fit()  # expect: no-variance-test
+        second = smf.ols("riders ~ rain + fare", data=ferries).fit()
+        print(het_breuschpagan(second.resid, second.model.exog))
+        print(first.summary())
+    """, {}),
+    ("same-specification-in-two-loop-steps-is-not-the-same-data", """
+        def fit_port(frame, cov):
+            return smf.ols("riders ~ fare", data=frame).fit(cov_type=cov)
+
+        plain = fit_port(pd.read_csv("north.csv"), "nonrobust")  # expect: no-variance-test
+        robust = fit_port(pd.read_csv("south.csv"), "HC3")
+        print(plain.summary(), robust.summary())
+    """, {}),
+]
+
+
+@pytest.mark.parametrize("body, downgraded", [pytest.param(b, d, id=i) for i, b, d in ROBUST])
+def test_robust_version_reported_beside(body, downgraded):
+    code = _script(body)
+    report = analyze(code, "ferries.py", Settings())
+    rules = (VAR, SERIAL)
+    assert [f for f in found(report) if f[1] in rules] == [m for m in expected_markers(code) if m[1] in rules]
+    offset = _HEAD.count("\n")
+    for f in report.findings:
+        if f.rule not in rules:
+            continue
+        robust = downgraded.get((f.span.line - offset, f.rule))
+        if robust is None:
+            assert f.severity.label == "warning" and "version of the same specification" not in f.message
+        else:
+            assert f.severity.label == "info"
+            assert f"version of the same specification on the same data is reported too ({robust}, line " in f.message
+
+
+def test_hover_names_the_robust_version():
+    code = _script(ROBUST[0][1])
+    report = analyze(code, "ferries.py")
+    (plain,) = fits_at(report, 7, 12)
+    (text,) = hover_markdown(report, [plain])
+    assert "- variance: **missing**: an HC3 version is reported (line 8)" in text
+
+
+def test_robust_version_across_notebook_cells():
+    nb = _notebook(
+        _HEAD,
+        'plain = smf.ols("riders ~ fare", data=ferries).fit()\nprint(plain.summary())',
+        'robust = plain.get_robustcov_results(cov_type="HC3")\nrobust.summary()',
+    )
+    (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
+    assert finding.severity.label == "info" and (finding.span.cell, finding.span.line) == (1, 1)
+    assert "An HC3 version of the same specification on the same data is reported too (`robust`, cell 3, line 1)" in finding.message

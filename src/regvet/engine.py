@@ -28,7 +28,7 @@ from regvet.model.runtime import RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput
-from regvet.rules.base import one_per_site
+from regvet.rules.base import one_per_site, robust_reported
 from regvet.rules.incomplete_analysis import RULE as _INCOMPLETE
 from regvet.rules.incomplete_analysis import crash_findings
 from regvet.sources.imports import suggested_spellings
@@ -358,7 +358,7 @@ def _finish(
         if not settings.enabled(rule.id):
             continue
         try:
-            findings.extend(one_per_site(inp, rule.check(inp)))
+            findings.extend(one_per_site(inp, robust_reported(inp, rule, rule.check(inp))))
         except Exception as exc:
             if strict:
                 raise

@@ -15,7 +15,7 @@ from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, rules_for_family
-from regvet.rules.base import RuleInput, site_labels, specification
+from regvet.rules.base import RuleInput, robust_version, site_labels, specification
 from regvet.rules.no_break_test import break_question
 
 #: The check families the hover shows, by label (the rules that report each one missing say so
@@ -92,7 +92,8 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
     """One line per check family for ``fit``: done (with which function and where), missing, waived."""
     facts = report.facts
     assert facts is not None
-    members = facts.same_residuals(fit.id)
+    members = facts.same_data(fit.id)
+    inp = report.rule_input if isinstance(report.rule_input, RuleInput) else None
     settings = report.rule_input.settings if report.rule_input is not None else Settings()
     families: list[FamilyStatus] = []
     for label, family in FAMILY_LABELS.items():
@@ -114,6 +115,9 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
             families.append(FamilyStatus(label, "not needed", why))
         elif finding is not None and finding.waived:
             families.append(FamilyStatus(label, "waived", finding.reason or ""))
+        elif inp is not None and (other := robust_version(inp, fit, family)) is not None:
+            cov = (other.cov_type or "robust").upper()
+            families.append(FamilyStatus(label, "missing", f"{'an' if cov.startswith('HC') else 'a'} {cov} version is reported ({_where(report, other.site)})"))
         else:
             families.append(FamilyStatus(label, "missing"))
     families.append(_comparisons(report, fit))

@@ -235,19 +235,28 @@ class RegressionSemantics(CollectorState):
             else:
                 sources = [ModelSource(FORMULA_UNKNOWN)]
             data_values = [data_value]
+            data_nodes = [data_node]
             data_name = short_text(data_node) if data_node is not None else None
         else:
-            endog, _ = arg(0, "endog")
-            exog, _ = arg(1, "exog")
+            endog, endog_node = arg(0, "endog")
+            exog, exog_node = arg(1, "exog")
             data_values = [endog, exog]
+            data_nodes = [endog_node, exog_node]
             sources = [ModelSource(ARRAYS)]
             data_name = None
+        taken = {"formula", "data", "df"} if ctor.api == "formula" else {"endog", "exog"}
+        others = (tuple(self.same_data_key(a, None, frame) for a in node.args[2:]),
+                  tuple(sorted((k.arg or "**", self.same_data_key(k.value, None, frame)) for k in node.keywords
+                               if k.arg not in taken)))  # fmt: skip
+        data_keys = tuple(self.same_data_key(n, v, frame) for n, v in zip(data_nodes, data_values, strict=True))
         out: set[Tag] = set()
         for source in sources:
             memo = (id(node), source, frame.ctx, tuple(self.unroll))
             mid = self.model_memo.get(memo)
             if mid is None:
                 mid = self.new_model(qualname, ctor, source, data_values, data_name, loc)
+                if all(data_values):
+                    self.models[mid].spec = _spec_key(ctor, source, data_keys, others, frame, tuple(self.unroll))
                 self.model_memo[memo] = mid
             out.add(tags.model(mid))
         return Value(frozenset(out))
@@ -328,6 +337,15 @@ class RegressionSemantics(CollectorState):
                 for fid in fits:
                     self.checks[Check(fid, family, label, loc)] = None
         return mid
+
+    def same_data_key(self, node: ast.expr | None, value: Value | None, frame: Frame) -> tuple:
+        """An argument as two model calls must share it to be given the same data: the expression, with
+        the value every name in it holds now (``ferries["riders"]`` twice over one frame is the same
+        data; after ``ferries`` is rebound it is not). Without a node, its value."""
+        if node is None:
+            return ("value", value)
+        names = sorted({n.id for n in ast.walk(node) if isinstance(n, ast.Name)})
+        return (ast.dump(node), tuple((n, _bound(n, frame)) for n in names))
 
     # --- fits ------------------------------------------------------------------------------------
     def call_model_fit(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
@@ -558,8 +576,10 @@ class RegressionSemantics(CollectorState):
     # --- the facts -------------------------------------------------------------------------------
     def build_facts(self) -> FileFacts:
         fits: list[Fit] = []
+        specs: dict[tuple, int] = {}
         for record in self.fits.values():
             model = record.model
+            spec = None if model.spec is None else specs.setdefault(model.spec, len(specs))
             site = record.via[-1] if record.via else record.fit_call
             model_span = model.loc.span if model.loc.path is None else None
             shift, inter, main = _category_column_groups(model)
@@ -591,6 +611,7 @@ class RegressionSemantics(CollectorState):
                     statement=record.statement,
                     model_span=model_span,
                     formula_too_large=model.formula is not None and model.formula.too_large,
+                    spec=spec,
                 )
             )
         return FileFacts(
@@ -617,6 +638,29 @@ def design_formula(data_values: list[Value]) -> str | None:
     text = next(iter(formulas))
     from_y = {tags.design_formula(t) for t in endog.tags_of(tags.DESIGN)}
     return text if not from_y or from_y == {text} else None
+
+
+def _bound(name: str, frame: Frame) -> Value | None:
+    """What ``name`` holds in ``frame`` now, read without resolving anything (a lazy import stays one)."""
+    f: Frame | None = frame
+    if name not in frame.declared_global:
+        while f is not None:
+            if name in f.locals:
+                return f.locals[name]
+            f = f.parent
+    return frame.module.globals.get(name)
+
+
+def _spec_key(ctor: catalog.Constructor, source: ModelSource, data_keys: tuple, others: tuple,
+              frame: Frame, unroll: tuple) -> tuple | None:  # fmt: skip
+    """What two models must share to be the same specification on the same data: the estimator, the
+    formula (or the arrays), the data and every other argument (``same_data_key``), and the calling
+    context and loop step (the data of another call or iteration may differ under the same tags).
+    None when the formula is unknown."""
+    if source.how not in (FORMULA_LITERAL, ARRAYS):
+        return None
+    text = "".join((source.text or "").split())
+    return (ctor.estimator, ctor.api, text, data_keys, others, frame.ctx, unroll)
 
 
 def _evidence_order(tag: Tag) -> tuple:

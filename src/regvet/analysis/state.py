@@ -111,6 +111,9 @@ class ModelRecord:
     aux_for: dict[str, set[int]]  # family ("form", "variance", "serial", "other") -> fits it is auxiliary to
     data_tags: frozenset[tags.Tag]
     loc: Loc
+    #: What makes two models the same specification on the same data (estimator, formula or arrays,
+    #: the data's values, the other arguments, the calling context and loop step); None when unknown.
+    spec: tuple | None = None
 
 
 @dataclass(eq=False)

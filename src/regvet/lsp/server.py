@@ -50,6 +50,7 @@ from regvet.workspace import ConfigCache, Overrides, project_root, split_rule_id
 log = logging.getLogger("regvet.lsp")
 DEFAULT_DEBOUNCE_MS = 300
 CLIENT_KEYS = ("alpha", "skip", "only", "debounceMs", "budgetMs")
+BUDGET_MARGIN_S = 5.0
 STOPPED = "analysis-stopped"  #: the code of the diagnostic on a document whose analysis was given up
 
 
@@ -234,13 +235,15 @@ class RegvetServer(LanguageServer):
             self._doc_uris[rule] = from_fs_path(str(path)) if path.exists() else None
         return self._doc_uris[rule]
 
-    @property
-    def budget(self) -> float:
-        """Seconds one analysis may take before it is given up (the client's `budgetMs`)."""
+    def budget(self, settings: Settings) -> float:
+        """Seconds one analysis may take before its process is killed: the client's `budgetMs`, else
+        a few seconds past the project's `analysis_budget` (the engine then stops first, with its
+        own `incomplete-analysis` finding, and the kill is the backstop)."""
         value = self.client_settings.get("budgetMs")
         if isinstance(value, (int, float)) and not isinstance(value, bool) and 0 < value < 3_600_000:
             return float(value) / 1000.0
-        return DEFAULT_BUDGET_S
+        core = getattr(settings, "analysis_budget", None)
+        return float(core) + BUDGET_MARGIN_S if isinstance(core, (int, float)) else DEFAULT_BUDGET_S
 
     def shutdown(self) -> None:
         """Stop reading, and end every analysis process and pending task at once."""
@@ -442,7 +445,7 @@ async def analyse(ls: RegvetServer, key: str) -> Result | None:
     if snap is None:
         return None
     job = job_for(ls, snap, ls.overlay())
-    budget = ls.budget
+    budget = ls.budget(job.settings)
     report: FileReport | None = None
     try:
         report = await ls.analyses.run(job, budget)

@@ -67,6 +67,8 @@ class Fit:
     formula_too_large: bool = False  # the formula expands to too many terms to read them
     categorical_terms: frozenset[str] = frozenset()  # C(g) factors that are a term of their own
     interacted_columns: frozenset[str] = frozenset()  # identifiers read by a factor of an interaction term
+    #: Fits with the same number are the same specification fitted on the same data (None: unknown).
+    spec: int | None = None
 
 
 @dataclass(frozen=True)
@@ -161,7 +163,11 @@ class FileFacts:
             for name in by_fit:
                 for event in getattr(self, name):
                     by_fit[name].setdefault(event.fit, []).append(event)
-            self._index.update(by_id=by_id, roots=roots, siblings=siblings, **by_fit)
+            same_spec: dict[int, set[int]] = {}
+            for f in self.fits:
+                if f.spec is not None:
+                    same_spec.setdefault(f.spec, set()).add(f.id)
+            self._index.update(by_id=by_id, roots=roots, siblings=siblings, same_spec=same_spec, **by_fit)
         return self._index
 
     def fit(self, fid: int) -> Fit:
@@ -175,6 +181,28 @@ class FileFacts:
         """All fits sharing ``fid``'s residuals: itself, its root and every copy derived from the root."""
         index = self._build()
         return set(index["siblings"].get(self.root(fid), {fid}))
+
+    def fits_at_site(self, site: Loc) -> list[Fit]:
+        """The fits placed at ``site`` (a loop, a comprehension or a helper called in one makes several)."""
+        index = self._build()
+        by_site = index.get("by_site")
+        if by_site is None:
+            by_site = index["by_site"] = {}
+            for f in self.fits:
+                by_site.setdefault(f.site, []).append(f)
+        return by_site.get(site, [])
+
+    def same_data(self, fid: int) -> set[int]:
+        """The fits whose checks count for ``fid``: those sharing its residuals, and every fit of the
+        identical specification on the same data (with the fits sharing their residuals)."""
+        index = self._build()
+        out = self.same_residuals(fid)
+        for member in list(out):
+            fit = index["by_id"].get(member)
+            if fit is not None and fit.spec is not None:
+                for other in index["same_spec"].get(fit.spec, ()):
+                    out |= self.same_residuals(other)
+        return out
 
     def events_of(self, kind: str, fid: int) -> list:
         """``uses``, ``checks`` or ``escapes`` recorded for one fit."""

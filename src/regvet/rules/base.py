@@ -20,6 +20,7 @@ import enum
 from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass, field
 
+from regvet.analysis.catalog import HAC_COV, ROBUST_COV
 from regvet.model.cells import CellMap
 from regvet.model.facts import Check, Escape, FileFacts, Fit, Loc, Use
 from regvet.model.finding import Finding, Related, Severity
@@ -80,9 +81,10 @@ class RuleInput:
         )
 
     def checks(self, fid: int, family: str) -> list[Check]:
-        """Checks of ``family`` applied to the fit or to any copy sharing its residuals."""
+        """Checks of ``family`` applied to the fit, to any copy sharing its residuals, or to another fit of
+        the identical specification on the same data."""
         return [
-            c for m in sorted(self.facts.same_residuals(fid)) for c in self.facts.events_of("checks", m) if c.family == family
+            c for m in sorted(self.facts.same_data(fid)) for c in self.facts.events_of("checks", m) if c.family == family
         ]
 
     def escapes(self, fid: int) -> list[Escape]:
@@ -195,10 +197,55 @@ def site_fits(inp: RuleInput, fit: Fit) -> list[Fit]:
     if fit.site.path is not None:
         return [fit]
     out: dict[int, Fit] = {}
-    for other in inp.judged_fits():
-        if other.site == fit.site:
+    for other in inp.facts.fits_at_site(fit.site):
+        if not other.auxiliary:
             out.setdefault(inp.facts.root(other.id), other)
-    return sorted(out.values(), key=lambda f: f.id) or [fit]
+    # in the order their root fits are made: a copy's own id can depend on the order a set of
+    # fits was walked in (robust copies of several candidates), which varies with the hash seed
+    return [f for _, f in sorted(out.items())] or [fit]
+
+
+#: The covariances whose reported version of a fit answers a family's missing check (``robust_reported``).
+ROBUST_ANSWERS: dict[str, frozenset[str]] = {"variance": ROBUST_COV, "serial": HAC_COV}
+
+
+def robust_version(inp: RuleInput, fit: Fit, family: str) -> Fit | None:
+    """A version of ``fit`` whose covariance answers ``family`` (``ROBUST_ANSWERS``) and whose inference is
+    reported too: a ``get_robustcov_results`` copy of it, or a second fit of the identical specification
+    on the same data with such a ``cov_type``. None when there is none."""
+    covs = ROBUST_ANSWERS.get(family)
+    if covs is None:
+        return None
+    for fid in sorted(inp.facts.same_data(fit.id) - {fit.id}):
+        other = inp.facts.fit(fid)
+        if other.cov_type in covs and inp.uses(fid, ("inference",)):
+            return other
+    return None
+
+
+def robust_reported(inp: RuleInput, rule: Rule, findings: Iterable[Finding]) -> Iterator[Finding]:
+    """The findings of a rule reporting a variance or serial check missing, each downgraded to info when
+    a robust (HAC for serial) version of its fit, the same specification on the same data, is reported
+    too: the message says where. The engine applies it to every rule's findings."""
+    for f in findings:
+        if rule.family not in ROBUST_ANSWERS or len(f.fits) != 1:
+            yield f
+            continue
+        fit = inp.facts.fit(f.fits[0])
+        other = robust_version(inp, fit, rule.family)
+        if other is None:
+            yield f
+            continue
+        name = describe_fit(other) if other.result_name else "one"
+        cov = (other.cov_type or "robust").upper()
+        article = "An" if cov.startswith("HC") else "A"
+        yield f.with_(
+            severity=Severity.INFO,
+            message=f"{f.message} {article} {cov} version of the same "
+            f"specification on the same data is reported too ({name}, {inp.where(other.site)}), so this stays as "
+            "information: read that version's standard errors, not these.",
+            related=(*f.related, related(other.site, "the robust version is fitted here")),
+        )
 
 
 def one_per_site(inp: RuleInput, findings: Iterable[Finding]) -> list[Finding]:
