@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import time
 from dataclasses import dataclass, field
@@ -19,7 +20,7 @@ from regvet.model.span import Span
 from regvet.output.safe import printable
 from regvet.parallel import default_jobs, map_ordered
 from regvet.project import FileModules, display_path
-from regvet.sources.python import SourceError, decode
+from regvet.sources.python import SourceError, decode, parse
 from regvet.workspace import project_root
 
 #: The path that names standard input, and the name its findings are shown under.
@@ -127,7 +128,11 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     facts = None if no_cache else FactCache()
     tasks = [(file, finder.for_path(file), project_root(file.resolve(), roots, default_root)) for file in files]
     reading = progress if progress is not None else Progress(delay=2.0)
+    if running:
+        _check_interpreters(tasks)
     reports = _analyze_all(tasks, facts, jobs, reading)
+    named = {Path(p).resolve() for p in paths if Path(p).is_file()}
+    reports = [_named_syntax(task, report, named) for task, report in zip(tasks, reports, strict=True)]
     if stdin:
         file = Path(STDIN)
         settings = finder.for_path(Path.cwd() / STDIN_NAME)
@@ -158,6 +163,38 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     for shown in {id(p): p for p in (reading, progress) if p is not None}.values():
         shown.done()
     return out
+
+
+def _named_syntax(task: Task, report: FileReport, named: set[Path]) -> FileReport:
+    """A ``.py`` file named on the command line that the quick pre-check skipped (it mentions no
+    statsmodels) is still parsed: a syntax error in it is a ``parse-error``, as in any other file."""
+    file, settings, _ = task
+    if not report.skipped or file.suffix != ".py" or file.resolve() not in named:
+        return report
+    try:
+        decoded = decode(read_regular(file))
+    except OSError:
+        return report
+    tree = decoded if isinstance(decoded, SourceError) else parse(decoded, str(file))
+    return error_report(report.path, tree, settings) if isinstance(tree, SourceError) else report
+
+
+def _check_interpreters(tasks: list[Task]) -> None:
+    """Every ``python =`` the runs would start exists and is executable: one configuration error
+    (exit 2), not a ``run-failed`` finding for every file."""
+    import shutil
+
+    seen: set[str] = set()
+    for _, settings, _ in tasks:
+        python = settings.python
+        if not python or python in seen:
+            continue
+        seen.add(python)
+        found = shutil.which(python) if os.sep not in python else (python if os.access(python, os.X_OK) else None)
+        if found is None or not Path(found).is_file():
+            where = f"{settings.source}: " if settings.source else ""
+            raise UsageError(f"{where}python = {python!r}: no such interpreter (or it is not executable); "
+                             "name a Python that exists, or remove the key to use regvet's own")  # fmt: skip
 
 
 def _refuse_runtime_only(only: frozenset[str], running: bool) -> None:
