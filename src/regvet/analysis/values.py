@@ -67,7 +67,24 @@ def _cap(atoms: frozenset[Tag]) -> frozenset[Tag]:
     if len(atoms) <= MAX_TAGS:
         return atoms
     keep = tags.without_kinds(atoms, _DROPPED_FIRST)
+    if len(keep) > MAX_TAGS:  # which tags stay must not depend on the set's (hash-seeded) order
+        keep = sorted(keep, key=_stable_key)
     return frozenset(keep[:MAX_TAGS])
+
+
+def _stable_key(tag: Tag) -> tuple[str, ...]:
+    """A key for ordering tags that is the same in every run (no ids, no hash order)."""
+    out = []
+    for part in tag:
+        if isinstance(part, (str, int, float, bool)) or part is None:
+            out.append(repr(part))
+        elif hasattr(part, "lineno"):  # a syntax node: its place
+            out.append(f"node:{part.lineno}:{getattr(part, 'col_offset', 0)}")
+        elif hasattr(part, "span"):  # a Loc
+            out.append(f"loc:{getattr(part, 'path', '')}:{part.span}")
+        else:
+            out.append(type(part).__name__)
+    return tuple(out)
 
 
 def tagged(*atoms: Tag) -> Value:
