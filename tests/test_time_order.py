@@ -311,3 +311,28 @@ def test_notebook_dates_in_arithmetic_are_not_evidence():
         "res = smf.ols('tons ~ wait', data=ships).fit()\nprint(res.summary())\n",
     )
     assert _serial(analyze(nb, "harbour.ipynb", Settings())) == []
+
+
+@pytest.mark.runtime
+def test_the_run_shows_a_date_index_the_code_did_not(tmp_path):
+    # Real run: `set_axis` of a date range is no evidence the static reading counts, but the fit's
+    # rows then have a DatetimeIndex, which the probe reports.
+    from regvet.runtime.runner import RunCache
+    from regvet.runtime.session import run_and_judge
+
+    code = _script("""
+        rng = np.random.default_rng(4)
+        frame = pd.DataFrame({"cranes": rng.normal(5, 1, 80)})
+        frame["tons"] = 20 + 2 * frame["cranes"] + rng.normal(0, 1, 80)
+        frame = frame.set_axis(pd.date_range("2020-01-06", periods=80, freq="W-MON"))
+        res = smf.ols("tons ~ cranes", data=frame).fit()
+        print(res.summary())
+    """)
+    path = tmp_path / "weekly.py"
+    path.write_text(code)
+    static = analyze(code, str(path), Settings(), strict=True)
+    assert _serial(static) == []
+    judged, result = run_and_judge(static, path, Settings(), cache=RunCache(tmp_path / "cache"))
+    assert result is not None
+    (finding,) = _serial(judged)
+    assert "the run shows it" in finding.message and "DatetimeIndex" in finding.message

@@ -8,6 +8,7 @@ from regvet.analysis.catalog import HAC_COV
 from regvet.model.facts import Fit, Loc
 from regvet.model.finding import Finding, Severity
 from regvet.rules.base import Rule, RuleInput, code_name, describe_fit, missing_check, related
+from regvet.rules.evidence import runs
 
 
 def time_evidence(inp: RuleInput, fit: Fit) -> tuple[str, Loc | None] | None:
@@ -18,6 +19,10 @@ def time_evidence(inp: RuleInput, fit: Fit) -> tuple[str, Loc | None] | None:
     column = inp.settings.time_column
     if column and column in fit.columns:
         return f"the configured `time_column` {column!r} is a column of its data", None
+    for stats in runs(inp, fit.id):  # runtime mode: what the run saw of the fit's rows
+        shown = stats.get("time_ordered")
+        if shown:
+            return f"the run shows it: {shown}", None
     return None
 
 
@@ -63,7 +68,8 @@ RULE = Rule(
         "`pd.date_range`, `df.index = ...`), lags, leads or differences of its data (`shift`, `diff`, "
         "`pct_change`, `lag...` columns in the formula, `statsmodels.tsa`'s `lagmat`/`add_trend`), "
         "`asfreq`/`resample`, rows sorted by a date column, or a configured `time_column` that is one of "
-        "its columns. Dates used in arithmetic or kept as an ordinary column, and `statsmodels.tsa` used "
+        "its columns; in runtime mode also when the run shows that the fit's rows have a date or period "
+        "index the code did not show. Dates used in arithmetic or kept as an ordinary column, and `statsmodels.tsa` used "
         "elsewhere in the file, are not evidence.\n\n"
         "Satisfied by: `acorr_breusch_godfrey`, `durbin_watson`, `acorr_ljungbox` or `acorr_lm` on the fit, "
         'or inference under HAC (Newey-West) covariance (`cov_type="HAC"`).'
