@@ -23,7 +23,9 @@ REGVET = [sys.executable, "-m", "regvet"]
 def _run_with_terminal_stderr(argv: list[str], cwd: Path, timeout: float = 600) -> tuple[int, str, str]:
     """(exit code, standard output, what reached the terminal on standard error)."""
     master, slave = pty.openpty()
-    proc = subprocess.Popen(argv, cwd=cwd, stdout=subprocess.PIPE, stderr=slave, stdin=subprocess.DEVNULL)
+    # Standard output goes to a file: a pipe nobody reads while the terminal is read would fill and block.
+    sink = open(cwd / ".stdout", "w+b")  # noqa: SIM115 (closed below)
+    proc = subprocess.Popen(argv, cwd=cwd, stdout=sink, stderr=slave, stdin=subprocess.DEVNULL)
     os.close(slave)
     seen = bytearray()
     deadline = time.monotonic() + timeout
@@ -42,9 +44,12 @@ def _run_with_terminal_stderr(argv: list[str], cwd: Path, timeout: float = 600) 
         if time.monotonic() > deadline:
             proc.kill()
             raise AssertionError("timed out")
-    out = proc.stdout.read().decode() if proc.stdout else ""
+    code = proc.wait()
+    sink.seek(0)
+    out = sink.read().decode(errors="replace")
+    sink.close()
     os.close(master)
-    return proc.wait(), out, seen.decode(errors="replace")
+    return code, out, seen.decode(errors="replace")
 
 
 def _big_tree(tmp_path: Path) -> Path:
