@@ -44,6 +44,7 @@ test-fast: $(STAMP)
 # The linter and the type checker, configured in pyproject.toml ([tool.ruff], [tool.mypy]).
 check: $(STAMP)
 	$(BIN)/ruff check .
+	$(BIN)/ruff format --check .
 	$(BIN)/mypy
 
 # The long fuzzing campaign (tests/test_fuzz.py with REGVET_FUZZ=long): at least 10,000 generated and mutated inputs.

@@ -16,10 +16,14 @@ crossings = pd.read_csv("crossings.csv", parse_dates=["week"])
 def block(i: int) -> str:
     """About 30 lines of a route study. Every fifth block leaves one fit unchecked (two findings)."""
     unchecked = i % 5 == 4
-    checks = "" if unchecked else f"""print(linear_reset(log_{i}, power=3, use_f=True))
+    checks = (
+        ""
+        if unchecked
+        else f"""print(linear_reset(log_{i}, power=3, use_f=True))
 print(het_breuschpagan(log_{i}.resid, log_{i}.model.exog))
 """
-    return f'''
+    )
+    return f"""
 # --- block {i}: route r{i % 7} ---
 sub_{i} = crossings[crossings["route"] == "r{i % 7}"]
 res_{i} = smf.ols("riders ~ fare + fuel_price + wind_speed", data=sub_{i}).fit()
@@ -45,7 +49,7 @@ def helper_{i}(df):
 log_{i} = helper_{i}(sub_{i})
 {checks}print(acorr_breusch_godfrey(log_{i}, nlags=4))
 print(log_{i}.summary())
-'''
+"""
 
 
 def script(lines: int) -> str:

@@ -109,8 +109,12 @@ async def latency(root: Path, lines: int, edits: int = 25) -> dict:
         version = bench.insert(uri, last + i, f"note_{i} = {i}\n")
         samples.append(await bench.wait(uri, version) - sent)
     await bench.stop()
-    return {"lines": base.count("\n"), "median_ms": round(statistics.median(samples) * 1000, 1),
-            "max_ms": round(max(samples) * 1000, 1), "edits": edits}  # fmt: skip
+    return {
+        "lines": base.count("\n"),
+        "median_ms": round(statistics.median(samples) * 1000, 1),
+        "max_ms": round(max(samples) * 1000, 1),
+        "edits": edits,
+    }
 
 
 async def memory(root: Path, edits: int = 1000, lines: int = 2000) -> dict:

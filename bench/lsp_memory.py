@@ -53,9 +53,19 @@ class Server:
         self.answered: set[int] = set()
         self.published = 0
         threading.Thread(target=self._drain, daemon=True).start()
-        self.send({"jsonrpc": "2.0", "id": 1, "method": "initialize", "params": {
-            "processId": None, "rootUri": root.as_uri(), "capabilities": {},
-            "initializationOptions": {"regvet": {"debounceMs": 20}}}})  # fmt: skip
+        self.send(
+            {
+                "jsonrpc": "2.0",
+                "id": 1,
+                "method": "initialize",
+                "params": {
+                    "processId": None,
+                    "rootUri": root.as_uri(),
+                    "capabilities": {},
+                    "initializationOptions": {"regvet": {"debounceMs": 20}},
+                },
+            }
+        )
         self.wait_for(1)
         self.send({"jsonrpc": "2.0", "method": "initialized", "params": {}})
 
@@ -90,8 +100,14 @@ class Server:
 
     def settle(self, request_id: int) -> None:
         """A round trip (shutdown is not used: the server must stay up): a hover on nothing."""
-        self.send({"jsonrpc": "2.0", "id": request_id, "method": "textDocument/hover", "params": {
-            "textDocument": {"uri": "file:///nowhere/none.py"}, "position": {"line": 0, "character": 0}}})  # fmt: skip
+        self.send(
+            {
+                "jsonrpc": "2.0",
+                "id": request_id,
+                "method": "textDocument/hover",
+                "params": {"textDocument": {"uri": "file:///nowhere/none.py"}, "position": {"line": 0, "character": 0}},
+            }
+        )
         self.wait_for(request_id)
         time.sleep(0.5)  # let debounced analyses finish
 
@@ -106,17 +122,30 @@ def notifications(kind: str, root: Path, n: int):
     if kind in ("text", "python"):
         suffix, language = (".txt", "plaintext") if kind == "text" else (".py", "python")
         uri = (root / f"notes{suffix}").as_uri()
-        yield {"jsonrpc": "2.0", "method": "textDocument/didOpen", "params": {"textDocument": {
-            "uri": uri, "languageId": language, "version": 1, "text": SCRIPT.format(i=0)}}}  # fmt: skip
+        yield {
+            "jsonrpc": "2.0",
+            "method": "textDocument/didOpen",
+            "params": {"textDocument": {"uri": uri, "languageId": language, "version": 1, "text": SCRIPT.format(i=0)}},
+        }
         for v in range(2, n + 1):
-            yield {"jsonrpc": "2.0", "method": "textDocument/didChange", "params": {
-                "textDocument": {"uri": uri, "version": v},
-                "contentChanges": [{"text": SCRIPT.format(i=v)}]}}  # fmt: skip
+            yield {
+                "jsonrpc": "2.0",
+                "method": "textDocument/didChange",
+                "params": {
+                    "textDocument": {"uri": uri, "version": v},
+                    "contentChanges": [{"text": SCRIPT.format(i=v)}],
+                },
+            }
     else:
         for i in range(n // 2):
             uri = (root / f"harbour_{i}.py").as_uri()
-            yield {"jsonrpc": "2.0", "method": "textDocument/didOpen", "params": {"textDocument": {
-                "uri": uri, "languageId": "python", "version": 1, "text": SCRIPT.format(i=i)}}}  # fmt: skip
+            yield {
+                "jsonrpc": "2.0",
+                "method": "textDocument/didOpen",
+                "params": {
+                    "textDocument": {"uri": uri, "languageId": "python", "version": 1, "text": SCRIPT.format(i=i)}
+                },
+            }
             yield {"jsonrpc": "2.0", "method": "textDocument/didClose", "params": {"textDocument": {"uri": uri}}}
 
 
@@ -139,8 +168,14 @@ def measure(kind: str, n: int) -> dict:
         elapsed = time.perf_counter() - started
         server.stop()
     per = (end_kb - warm_kb) * 1024 / (n - WARM)
-    return {"kind": kind, "notifications": n, "rss_warm_kb": warm_kb, "rss_end_kb": end_kb,
-            "bytes_per_notification": round(per, 1), "seconds": round(elapsed, 1)}  # fmt: skip
+    return {
+        "kind": kind,
+        "notifications": n,
+        "rss_warm_kb": warm_kb,
+        "rss_end_kb": end_kb,
+        "bytes_per_notification": round(per, 1),
+        "seconds": round(elapsed, 1),
+    }
 
 
 def main(n: int = 20_000) -> dict:
@@ -149,9 +184,11 @@ def main(n: int = 20_000) -> dict:
     target = Path(__file__).parent / "results" / "lsp_memory.json"
     target.write_text(json.dumps(out, indent=2) + "\n")
     for r in results:
-        print(f"{r['kind']:<11} {r['notifications']:>6} notifications: RSS {r['rss_warm_kb'] / 1024:.1f} MB after "
-              f"{WARM}, {r['rss_end_kb'] / 1024:.1f} MB at the end: {r['bytes_per_notification']:+.1f} B each "
-              f"({r['seconds']} s)")  # fmt: skip
+        print(
+            f"{r['kind']:<11} {r['notifications']:>6} notifications: RSS {r['rss_warm_kb'] / 1024:.1f} MB after "
+            f"{WARM}, {r['rss_end_kb'] / 1024:.1f} MB at the end: {r['bytes_per_notification']:+.1f} B each "
+            f"({r['seconds']} s)"
+        )
     return out
 
 

@@ -55,15 +55,19 @@ def main() -> int:
     for row in result["language_server"]["analysis"]:
         print(f"analysis alone, {row['lines']} lines: median {row['median_ms']} ms")
     for row in result["language_server"]["latency"]:
-        print(f"didChange -> publishDiagnostics, {row['lines']} lines: median {row['median_ms']} ms "
-              f"(max {row['max_ms']} ms over {row['edits']} edits)")  # fmt: skip
+        print(
+            f"didChange -> publishDiagnostics, {row['lines']} lines: median {row['median_ms']} ms "
+            f"(max {row['max_ms']} ms over {row['edits']} edits)"
+        )
     mem = result["language_server"]["memory"]
     print(f"server RSS over 1000 edits of a {mem['lines']}-line script (MB): {mem['rss_mb_after_edits']}")
     rt = result["runtime"]
-    print(f"runtime mode, OLS n={rt['n']:,} k={rt['k']}: plain run {rt['plain_run_s']} s, under the probe "
-          f"{rt['probed_run_s']} s; statistics {rt['statistics_s']} s for a {rt['fit_s']} s fit "
-          f"(ratio {rt['statistics_over_fit']}); peak RSS {rt['plain_peak_rss_mb']} -> {rt['probed_peak_rss_mb']} MB "
-          f"(design {rt['design_mb']} MB); cached re-run {rt['cached_rerun_s']} s")  # fmt: skip
+    print(
+        f"runtime mode, OLS n={rt['n']:,} k={rt['k']}: plain run {rt['plain_run_s']} s, under the probe "
+        f"{rt['probed_run_s']} s; statistics {rt['statistics_s']} s for a {rt['fit_s']} s fit "
+        f"(ratio {rt['statistics_over_fit']}); peak RSS {rt['plain_peak_rss_mb']} -> {rt['probed_peak_rss_mb']} MB "
+        f"(design {rt['design_mb']} MB); cached re-run {rt['cached_rerun_s']} s"
+    )
     print(f"written to {out.relative_to(HERE.parent)}")
     return 0
 

@@ -48,8 +48,9 @@ print(json.dumps({{"elapsed": elapsed, "maxrss_mb": resource.getrusage(resource.
 
 
 def _measure(body: str) -> dict:
-    proc = subprocess.run([sys.executable, "-c", MEASURE.format(body=body)], capture_output=True, text=True,
-                          check=True, timeout=1800)  # fmt: skip
+    proc = subprocess.run(
+        [sys.executable, "-c", MEASURE.format(body=body)], capture_output=True, text=True, check=True, timeout=1800
+    )
     return json.loads(proc.stdout.strip().split("\n")[-1])
 
 

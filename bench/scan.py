@@ -98,8 +98,9 @@ def regvet(root: Path, *options: str) -> tuple[float, int]:
 def bench_tree(root: Path, repeats: int) -> dict:
     files = _files(root)
     lines = sum(f.read_bytes().count(b"\n") for f in files)
-    times: dict[str, list[float]] = {k: [] for k in ("ast_parse", "pyflakes", "regvet_cold_1", "regvet_cold_2",
-                                                      "regvet_warm")}  # fmt: skip
+    times: dict[str, list[float]] = {
+        k: [] for k in ("ast_parse", "pyflakes", "regvet_cold_1", "regvet_cold_2", "regvet_warm")
+    }
     findings = set()
     with tempfile.TemporaryDirectory() as cache:
         os.environ["REGVET_CACHE_DIR"] = cache
@@ -107,8 +108,11 @@ def bench_tree(root: Path, repeats: int) -> dict:
         for _ in range(repeats):
             times["ast_parse"].append(ast_parse(files))
             times["pyflakes"].append(pyflakes(files))
-            for key, opts in (("regvet_cold_1", ("--no-cache", "-j", "1")), ("regvet_cold_2", ("--no-cache", "-j", "2")),
-                              ("regvet_warm", ("-j", "2"))):  # fmt: skip
+            for key, opts in (
+                ("regvet_cold_1", ("--no-cache", "-j", "1")),
+                ("regvet_cold_2", ("--no-cache", "-j", "2")),
+                ("regvet_warm", ("-j", "2")),
+            ):
                 elapsed, n = regvet(root, *opts)
                 times[key].append(elapsed)
                 findings.add(n)
@@ -152,8 +156,13 @@ def bench_one_file(runs: int = 21) -> dict:
             for key, cmd in cmds.items():
                 times[key].append(_process_ms(cmd, SMALL.parent, env))
     med = {k: round(statistics.median(v), 1) for k, v in times.items()}
-    return {"file": f"fixtures/demo/{SMALL.name}", "lines": SMALL.read_text().count("\n"), "runs": runs,
-            "median_ms": med, "min_ms": {k: round(min(v), 1) for k, v in times.items()}}  # fmt: skip
+    return {
+        "file": f"fixtures/demo/{SMALL.name}",
+        "lines": SMALL.read_text().count("\n"),
+        "runs": runs,
+        "median_ms": med,
+        "min_ms": {k: round(min(v), 1) for k, v in times.items()},
+    }
 
 
 def run(repeats: int = 3) -> dict:
@@ -168,13 +177,17 @@ def summary(result: dict) -> list[str]:
     out = []
     for name, t in result["trees"].items():
         s, r = t["seconds"], t["ratio_to_ast_parse"]
-        out.append(f"scan of {name} ({t['files']} files, {t['lines']} lines, {t['findings']} findings): "
-                   f"ast.parse {s['ast_parse']} s, pyflakes {s['pyflakes']} s ({r['pyflakes']}x), regvet cold 1 job "
-                   f"{s['regvet_cold_1']} s ({r['regvet_cold_1']}x), 2 jobs {s['regvet_cold_2']} s "
-                   f"({r['regvet_cold_2']}x), warm {s['regvet_warm']} s ({t['warm_over_cold_1']:.1%} of cold)")  # fmt: skip
+        out.append(
+            f"scan of {name} ({t['files']} files, {t['lines']} lines, {t['findings']} findings): "
+            f"ast.parse {s['ast_parse']} s, pyflakes {s['pyflakes']} s ({r['pyflakes']}x), regvet cold 1 job "
+            f"{s['regvet_cold_1']} s ({r['regvet_cold_1']}x), 2 jobs {s['regvet_cold_2']} s "
+            f"({r['regvet_cold_2']}x), warm {s['regvet_warm']} s ({t['warm_over_cold_1']:.1%} of cold)"
+        )
     o = result["one_file"]["median_ms"]
-    out.append(f"one file as a process (median ms): python alone {o['python_alone']}, pyflakes {o['pyflakes']}, "
-               f"regvet --no-cache {o['regvet_no_cache']}, regvet cached {o['regvet_cached']}")  # fmt: skip
+    out.append(
+        f"one file as a process (median ms): python alone {o['python_alone']}, pyflakes {o['pyflakes']}, "
+        f"regvet --no-cache {o['regvet_no_cache']}, regvet cached {o['regvet_cached']}"
+    )
     return out
 
 
@@ -186,8 +199,12 @@ if __name__ == "__main__":
     print("\n".join(summary(result)))
     out = HERE / "results" / "latest.json"  # this section refreshed, the others kept
     data = json.loads(out.read_text()) if out.exists() else {}
-    data.update(python=platform.python_version(), machine=f"{platform.machine()}, {platform.system()}",
-                date=time.strftime("%Y-%m-%d"), scan=result)  # fmt: skip
+    data.update(
+        python=platform.python_version(),
+        machine=f"{platform.machine()}, {platform.system()}",
+        date=time.strftime("%Y-%m-%d"),
+        scan=result,
+    )
     data.pop("scan_statsmodels", None)  # the one-tree figure this section replaced
     tmp = out.with_suffix(".json.tmp")
     tmp.write_text(json.dumps(data, indent=2) + "\n")

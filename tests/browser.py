@@ -19,10 +19,16 @@ from dataclasses import dataclass, field
 from typing import Any
 
 FLAGS = [
-    "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-    "--disable-component-update", "--disable-sync", "--no-first-run", "--disable-default-apps",
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+    "--no-first-run",
+    "--disable-default-apps",
     "--remote-debugging-pipe",
-]  # fmt: skip
+]
 
 
 def chromium() -> str | None:
@@ -58,9 +64,14 @@ class _Pipe:
             os.dup2(to_child_r, 3)
             os.dup2(from_child_w, 4)
 
-        self.proc = subprocess.Popen([exe, *FLAGS, f"--user-data-dir={profile}", "about:blank"],
-                                     stdin=subprocess.DEVNULL, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
-                                     preexec_fn=setup, close_fds=False)  # fmt: skip
+        self.proc = subprocess.Popen(
+            [exe, *FLAGS, f"--user-data-dir={profile}", "about:blank"],
+            stdin=subprocess.DEVNULL,
+            stdout=subprocess.DEVNULL,
+            stderr=subprocess.DEVNULL,
+            preexec_fn=setup,
+            close_fds=False,
+        )
         os.close(to_child_r)
         os.close(from_child_w)
         self.buffer = b""
@@ -132,8 +143,11 @@ def load(url: str, expressions: dict[str, str], width: int = 1200, height: int =
             session = pipe.send("Target.attachToTarget", {"targetId": target, "flatten": True})["sessionId"]
             for domain in ("Page", "Runtime", "Network", "Log"):
                 pipe.send(f"{domain}.enable", session=session)
-            pipe.send("Emulation.setDeviceMetricsOverride",
-                      {"width": width, "height": height, "deviceScaleFactor": 1, "mobile": False}, session)  # fmt: skip
+            pipe.send(
+                "Emulation.setDeviceMetricsOverride",
+                {"width": width, "height": height, "deviceScaleFactor": 1, "mobile": False},
+                session,
+            )
             pipe.send("Page.navigate", {"url": url}, session)
             pipe.wait_event("Page.loadEventFired", session)
             end = time.monotonic() + settle
@@ -159,10 +173,14 @@ def load(url: str, expressions: dict[str, str], width: int = 1200, height: int =
                     page.console.append((params.get("type", ""), text))
                 elif method == "Runtime.exceptionThrown":
                     details = params.get("exceptionDetails", {})
-                    page.exceptions.append(str((details.get("exception") or {}).get("description") or details.get("text")))
+                    page.exceptions.append(
+                        str((details.get("exception") or {}).get("description") or details.get("text"))
+                    )
                 elif method == "Log.entryAdded":
                     entry = params.get("entry", {})
-                    page.console.append((entry.get("level", ""), f"{entry.get('source')}: {entry.get('text')} {entry.get('url', '')}"))
+                    page.console.append(
+                        (entry.get("level", ""), f"{entry.get('source')}: {entry.get('text')} {entry.get('url', '')}")
+                    )
             return page
         finally:
             pipe.close()

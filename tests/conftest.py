@@ -91,7 +91,11 @@ def pytest_collection_modifyitems(config, items):
     for item in items:
         name = item.nodeid.split("/")[-1]
         for prefix, marker in SLOW_GROUPS.items():
-            if name == prefix or name.startswith((prefix + "::", prefix + "[")) or ("::" in prefix and name.startswith(prefix)):
+            if (
+                name == prefix
+                or name.startswith((prefix + "::", prefix + "["))
+                or ("::" in prefix and name.startswith(prefix))
+            ):
                 item.add_marker(getattr(pytest.mark, marker))
                 break
 

@@ -22,9 +22,15 @@ from pytest_lsp.client import DEFAULT_CLIENT_FEATURES, register_lsp_features
 SERVER = [sys.executable, "-m", "regvet", "serve"]
 
 
-def capabilities(*, pull: bool = False, notebook: bool = False, configuration: bool = True,
-                 watched: bool = True, encodings: list[str] | None = None,
-                 progress: bool = False) -> t.ClientCapabilities:  # fmt: skip
+def capabilities(
+    *,
+    pull: bool = False,
+    notebook: bool = False,
+    configuration: bool = True,
+    watched: bool = True,
+    encodings: list[str] | None = None,
+    progress: bool = False,
+) -> t.ClientCapabilities:
     return t.ClientCapabilities(
         window=t.WindowClientCapabilities(work_done_progress=True) if progress else None,
         workspace=t.WorkspaceClientCapabilities(
@@ -123,9 +129,7 @@ class Client:
             t.DidChangeTextDocumentParams(
                 text_document=t.VersionedTextDocumentIdentifier(uri=uri, version=self.versions[uri]),
                 content_changes=[
-                    t.TextDocumentContentChangePartial(
-                        range=t.Range(t.Position(*start), t.Position(*end)), text=text
-                    )
+                    t.TextDocumentContentChangePartial(range=t.Range(t.Position(*start), t.Position(*end)), text=text)
                 ],
             )
         )
@@ -133,8 +137,9 @@ class Client:
 
 
 @asynccontextmanager
-async def session(root: Path, caps: t.ClientCapabilities | None = None, settings: dict | None = None,
-                  init_options: dict | None = None) -> AsyncIterator[Client]:  # fmt: skip
+async def session(
+    root: Path, caps: t.ClientCapabilities | None = None, settings: dict | None = None, init_options: dict | None = None
+) -> AsyncIterator[Client]:
     client = Client()
     if settings is not None:
         client.lsp.set_configuration(settings, section="regvet")

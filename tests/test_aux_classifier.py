@@ -42,8 +42,12 @@ FORMULA_ROWS = [
     ("not-form-name-inside-longer-name", "riders ~ fare + I(ff**2) + f", {"f": [(1, FITTED)]}, {OTHER: {1}}),
     # serial: residuals on their own lag (the left side's residuals are merely auxiliary)
     ("serial-own-lag", "e ~ e_lag", {"e": [(1, RESID)], "e_lag": [(1, RESID)]}, {SERIAL: {1}, OTHER: {1}}),
-    ("serial-with-regressors", "e ~ e_lag + fare", {"e": [(3, RESID)], "e_lag": [(3, RESID)]},
-     {SERIAL: {3}, OTHER: {3}}),
+    (
+        "serial-with-regressors",
+        "e ~ e_lag + fare",
+        {"e": [(3, RESID)], "e_lag": [(3, RESID)]},
+        {SERIAL: {3}, OTHER: {3}},
+    ),
     ("not-serial-other-fits-residuals", "e ~ e_lag", {"e": [(1, RESID)], "e_lag": [(2, RESID)]}, {OTHER: {1, 2}}),
     ("not-serial-left-is-data", "riders ~ e_lag", {"e_lag": [(1, RESID)]}, {OTHER: {1}}),
     # nothing from a fit in the columns the formula reads
@@ -52,8 +56,9 @@ FORMULA_ROWS = [
 ]
 
 
-@pytest.mark.parametrize("formula_text, columns, expected", [r[1:] for r in FORMULA_ROWS],
-                         ids=[r[0] for r in FORMULA_ROWS])  # fmt: skip
+@pytest.mark.parametrize(
+    "formula_text, columns, expected", [r[1:] for r in FORMULA_ROWS], ids=[r[0] for r in FORMULA_ROWS]
+)
 def test_formula_models(formula_text, columns, expected):
     formula = parse_formula(formula_text)
     assert formula is not None

@@ -15,7 +15,7 @@ from regvet.engine import analyze
 
 DEMO = FIXTURES / "demo"
 
-SCRIPT = '''\
+SCRIPT = """\
 import pandas as pd
 import statsmodels.formula.api as smf
 
@@ -24,7 +24,7 @@ level = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
 print(level.summary())
 weeks = len(crossings)
 print(weeks)
-'''
+"""
 
 
 def keys(text: str) -> list[tuple[str, str]]:
@@ -60,7 +60,10 @@ def test_identical_fits_are_counted_so_a_third_copy_is_new():
 
     result = split(now, Counter(e.key for e in recorded))
     assert result.known == 4 and result.gone == 0
-    assert sorted((f.rule, f.span.line) for f in result.report.findings) == [("no-form-test", 11), ("no-variance-test", 11)]
+    assert sorted((f.rule, f.span.line) for f in result.report.findings) == [
+        ("no-form-test", 11),
+        ("no-variance-test", 11),
+    ]
 
 
 @pytest.fixture
@@ -84,29 +87,42 @@ def test_adopting_regvet_on_the_demo(run_cli, demo):
     assert all(len(e["fingerprint"]) == 20 for items in data["files"].values() for e in items)
     code, out, err = run_cli("check", "--format", "lines", ".")
     assert code == 1
-    assert [line.split(": ")[1].split()[1] for line in out.splitlines() if ": warning " in line] == ["waiver-unknown-rule",
-                                                                                                "waiver-without-reason"]
+    assert [line.split(": ")[1].split()[1] for line in out.splitlines() if ": warning " in line] == [
+        "waiver-unknown-rule",
+        "waiver-without-reason",
+    ]
     assert "regvet: baseline regvet-baseline.json: 10 known findings not shown\n" in out
 
     # edits that keep every finding known: lines inserted above the fits, a variable renamed elsewhere
     weather = demo / "02_weather_effects.py"
     text = weather.read_text()
-    text = text.replace("crossings = pd.read_csv", "# Data checked on 2 December.\nROUTES = 3\n\ncrossings = pd.read_csv", 1)
+    text = text.replace(
+        "crossings = pd.read_csv", "# Data checked on 2 December.\nROUTES = 3\n\ncrossings = pd.read_csv", 1
+    )
     text = text.replace("checks = run_diagnostics(weather)", "battery = run_diagnostics(weather)")
     text = text.replace("checks.items()", "battery.items()")
     weather.write_text(text)
     code, out, err = run_cli("check", ".", "--format", "json")
-    assert [f["rule"] for f in json.loads(out)["findings"] if not f["waived"]] == ["waiver-unknown-rule",
-                                                                                  "waiver-without-reason"]
+    assert [f["rule"] for f in json.loads(out)["findings"] if not f["waived"]] == [
+        "waiver-unknown-rule",
+        "waiver-without-reason",
+    ]
     assert "10 known findings not shown" in err  # machine formats keep stdout clean
 
     # a new fit is reported
-    weather.write_text(text + 'fuel_res = smf.ols("riders ~ fuel_price", data=crossings).fit()\nprint(fuel_res.summary())\n')
+    weather.write_text(
+        text + 'fuel_res = smf.ols("riders ~ fuel_price", data=crossings).fit()\nprint(fuel_res.summary())\n'
+    )
     code, out, err = run_cli("check", ".", "--format", "json")
-    new = sorted((f["path"], f["line"], f["rule"]) for f in json.loads(out)["findings"]
-                 if not f["rule"].startswith("waiver-") and not f["waived"])  # fmt: skip
+    new = sorted(
+        (f["path"], f["line"], f["rule"])
+        for f in json.loads(out)["findings"]
+        if not f["rule"].startswith("waiver-") and not f["waived"]
+    )
     fit_line = text.count("\n") + 1
-    assert new == [("02_weather_effects.py", fit_line, r) for r in ("no-form-test", "no-serial-test", "no-variance-test")]
+    assert new == [
+        ("02_weather_effects.py", fit_line, r) for r in ("no-form-test", "no-serial-test", "no-variance-test")
+    ]
 
     # a fixed finding is "no longer found" until the baseline is refreshed; --update adds nothing new
     run_cli("mend", "03_model_choice.py")
@@ -141,7 +157,9 @@ def test_the_pre_commit_hook_honours_the_baseline(run_cli, demo, capsys):
     out = capsys.readouterr().out
     assert "regvet: baseline regvet-baseline.json: 5 known findings not shown" in out
     path = demo / "01_fare_elasticity.py"
-    path.write_text(path.read_text() + 'extra = smf.ols("riders ~ holiday", data=crossings).fit()\nprint(extra.pvalues)\n')
+    path.write_text(
+        path.read_text() + 'extra = smf.ols("riders ~ holiday", data=crossings).fit()\nprint(extra.pvalues)\n'
+    )
     assert hook(["01_fare_elasticity.py"]) == 1
     assert "01_fare_elasticity.py:63:" in capsys.readouterr().out
 
@@ -156,7 +174,12 @@ async def test_the_language_server_hides_baselined_findings(demo):
         uri = c.open(demo / "02_weather_effects.py", text)
         diags = await c.diagnostics_for(uri, 1)
         assert [str(d.code) for d in diags] == []
-        version = c.replace(uri, "# moved down\n" + text + 'fuel = smf.ols("riders ~ fuel_price", data=crossings).fit()\nprint(fuel.summary())\n')
+        version = c.replace(
+            uri,
+            "# moved down\n"
+            + text
+            + 'fuel = smf.ols("riders ~ fuel_price", data=crossings).fit()\nprint(fuel.summary())\n',
+        )
         diags = await c.diagnostics_for(uri, version)
         assert sorted(str(d.code) for d in diags) == ["no-form-test", "no-serial-test", "no-variance-test"]
         assert {d.range.start.line for d in diags} == {len(text.splitlines()) + 1}

@@ -29,13 +29,21 @@ def _load(name: str) -> ModuleType:
 
 
 def _labels(*sites: dict) -> dict:
-    return {"rules": RULES, "files": [{"repo": "harbour/ferries", "mirror": "harbour+ferries",
-                                       "path": "fares.py", "sites": list(sites)}]}
+    return {
+        "rules": RULES,
+        "files": [{"repo": "harbour/ferries", "mirror": "harbour+ferries", "path": "fares.py", "sites": list(sites)}],
+    }
 
 
 def _site(line: int, fires: dict[str, bool | None], **extra: object) -> dict:
-    return {"cell": None, "line": line, **extra, "time_ordered": True, "ts_evidence": "static",
-            "labels": {r: {"fire": fires.get(r, False), "why": "invented"} for r in RULES}}
+    return {
+        "cell": None,
+        "line": line,
+        **extra,
+        "time_ordered": True,
+        "ts_evidence": "static",
+        "labels": {r: {"fire": fires.get(r, False), "why": "invented"} for r in RULES},
+    }
 
 
 def _finding(rule: str, line: int, path: str = "harbour+ferries/fares.py") -> dict:
@@ -65,16 +73,16 @@ def test_committed_labels_are_well_formed():
 def test_matching_uses_the_fit_line_call_lines_and_counts_unmatched_findings_as_false_positives():
     score = _load("score").score
     labels = _labels(
-        _site(3, {"no-serial-test": True}, fit_line=4),       # model on line 3, .fit() on line 4
-        _site(3, {"no-serial-test": False}, fit_line=9),      # the same model fitted again on line 9
-        _site(20, {"no-form-test": True}, call_lines=[31]),   # a helper's fit surfacing at its call
-        _site(40, {"no-variance-test": None}),                # not labelled for that rule
+        _site(3, {"no-serial-test": True}, fit_line=4),  # model on line 3, .fit() on line 4
+        _site(3, {"no-serial-test": False}, fit_line=9),  # the same model fitted again on line 9
+        _site(20, {"no-form-test": True}, call_lines=[31]),  # a helper's fit surfacing at its call
+        _site(40, {"no-variance-test": None}),  # not labelled for that rule
     )
     findings = [
         _finding("no-serial-test", 4),
         _finding("no-form-test", 31),
         _finding("no-variance-test", 40),
-        _finding("no-break-test", 50),    # at no labelled site: a false positive
+        _finding("no-break-test", 50),  # at no labelled site: a false positive
         _finding("no-serial-test", 4, path="elsewhere/other.py"),  # a file not scored: ignored
     ]
     result = score(labels, findings, {"harbour+ferries/fares.py"})["rules"]
@@ -88,7 +96,11 @@ def test_matching_uses_the_fit_line_call_lines_and_counts_unmatched_findings_as_
 def test_missed_sites_are_false_negatives_and_repeated_findings_at_one_site_are_counted_apart():
     score = _load("score").score
     labels = _labels(_site(5, {"no-form-test": True}), _site(8, {"no-form-test": True}))
-    findings = [_finding("no-form-test", 5), _finding("no-form-test", 5), {**_finding("no-form-test", 8), "waived": True}]
+    findings = [
+        _finding("no-form-test", 5),
+        _finding("no-form-test", 5),
+        {**_finding("no-form-test", 8), "waived": True},
+    ]
     form = score(labels, findings, {"harbour+ferries/fares.py"})["rules"]["no-form-test"]
     assert (form["tp"], form["fn"], form["fp"]) == (1, 1, 0)
     assert form["extra_findings_at_one_site"] == 1
@@ -118,8 +130,9 @@ def test_extract_writes_the_listed_files_from_a_bare_mirror_and_refuses_the_repo
     assert done.returncode == 0, done.stderr
     assert (out / "harbour+ferries" / "fares.py").read_text(encoding="utf-8").startswith("import statsmodels")
     assert not (out / "harbour+ferries" / "unlisted.py").exists()
-    refused = subprocess.run([*extract, "--out", str(ROOT / "bench" / "corpus")], capture_output=True, text=True,
-                             check=False)  # fmt: skip
+    refused = subprocess.run(
+        [*extract, "--out", str(ROOT / "bench" / "corpus")], capture_output=True, text=True, check=False
+    )
     assert refused.returncode == 2 and "inside the regvet repository" in refused.stderr
     assert not (ROOT / "bench" / "corpus").exists()
 
@@ -128,9 +141,20 @@ def test_extract_writes_the_listed_files_from_a_bare_mirror_and_refuses_the_repo
 def test_extract_names_the_labels_file_when_it_is_unusable(tmp_path, text):
     labels = tmp_path / "labels.json"
     labels.write_text(text, encoding="utf-8")
-    done = subprocess.run([sys.executable, str(REALCODE / "extract.py"), str(tmp_path / "a+b" / "repo"),
-                           "--labels", str(labels), "--out", str(tmp_path / "out")],
-                          capture_output=True, text=True, check=False)  # fmt: skip
+    done = subprocess.run(
+        [
+            sys.executable,
+            str(REALCODE / "extract.py"),
+            str(tmp_path / "a+b" / "repo"),
+            "--labels",
+            str(labels),
+            "--out",
+            str(tmp_path / "out"),
+        ],
+        capture_output=True,
+        text=True,
+        check=False,
+    )
     assert done.returncode in (1, 2)
     assert "Traceback" not in done.stderr
     assert str(labels) in done.stderr or "no files listed" in done.stderr

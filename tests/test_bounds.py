@@ -83,7 +83,12 @@ def test_deep_parentheses_and_odd_exponents_are_refused_not_raised():
 
 
 def test_a_too_large_formula_is_reported_on_its_fit():
-    code = HEAD + 'res = smf.ols("riders ~ ' + " * ".join(f"x{i}" for i in range(20)) + '", data=df).fit()\nprint(res.params)\n'
+    code = (
+        HEAD
+        + 'res = smf.ols("riders ~ '
+        + " * ".join(f"x{i}" for i in range(20))
+        + '", data=df).fit()\nprint(res.params)\n'
+    )
     report = analyze(code, "wide.py", strict=True)
     found = [f for f in report.findings if f.rule == "incomplete-analysis"]
     assert [(f.span.line, f.severity) for f in found] == [(2, Severity.WARNING)]
@@ -91,9 +96,7 @@ def test_a_too_large_formula_is_reported_on_its_fit():
 
 
 def _script(fits: int) -> str:
-    body = "".join(
-        f"r{i} = smf.ols('riders ~ fare + x{i}', data=df).fit()\nprint(r{i}.params)\n" for i in range(fits)
-    )
+    body = "".join(f"r{i} = smf.ols('riders ~ fare + x{i}', data=df).fit()\nprint(r{i}.params)\n" for i in range(fits))
     return HEAD + body
 
 
@@ -186,7 +189,10 @@ def test_a_file_stopped_at_its_budget_is_not_cached(tmp_path, run_cli, monkeypat
 def test_magic_neutralisation_is_linear_and_respects_statements():
     from regvet.sources.notebook import neutralize
 
-    cell = "!echo ferry\n" * 20_000 + "x = (\n!inside brackets\n)\ns = '''\n!inside a string\n'''\ny = 1 + \\\n!continued\ndef broken(:\n"
+    cell = (
+        "!echo ferry\n" * 20_000
+        + "x = (\n!inside brackets\n)\ns = '''\n!inside a string\n'''\ny = 1 + \\\n!continued\ndef broken(:\n"
+    )
     started = time.perf_counter()
     out = neutralize(cell).split("\n")
     assert time.perf_counter() - started < 2.0  # 20,000 magic lines: the old re-tokenising took minutes
@@ -201,7 +207,9 @@ def test_the_import_precheck_is_linear():
 
     class Modules:
         def find(self, name, level, importer):
-            return ModuleSource("helpers", "helpers.py", "import statsmodels.api as sm\n") if name == "helpers" else None
+            return (
+                ModuleSource("helpers", "helpers.py", "import statsmodels.api as sm\n") if name == "helpers" else None
+            )
 
     text = "from " + "." * 200_000 + "\n" + "import " + "a," * 100_000 + "\nfrom helpers import fit_all\n"
     started = time.perf_counter()

@@ -40,148 +40,269 @@ _POST = Settings(break_candidates=("post_dredging",))
 #: (code after _HEAD, settings, a phrase the one finding's message must hold)
 ROWS = [
     # --- the unrestricted model: the group (or candidate) already interacted with the regressors
-    row("shift-only-flagged", """
+    row(
+        "shift-only-flagged",
+        """
         res = smf.ols("tons ~ cranes + rain + C(berth)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, wording="`C(berth)` shift only the intercept"),
-    row("star-over-every-regressor", """
+    """,
+        wording="`C(berth)` shift only the intercept",
+    ),
+    row(
+        "star-over-every-regressor",
+        """
         res = smf.ols("tons ~ C(berth) * (cranes + rain)", data=freight).fit()
         print(res.params)
-    """),
-    row("colon-only", """
+    """,
+    ),
+    row(
+        "colon-only",
+        """
         res = smf.ols("tons ~ cranes + C(berth):cranes", data=freight).fit()
         print(res.params)
-    """),
-    row("every-slope-interacted-by-hand", """
+    """,
+    ),
+    row(
+        "every-slope-interacted-by-hand",
+        """
         res = smf.ols("tons ~ C(berth) + cranes + rain + C(berth):cranes + C(berth):rain", data=freight).fit()
         print(res.params)
-    """),
-    row("candidate-used-flagged", """
+    """,
+    ),
+    row(
+        "candidate-used-flagged",
+        """
         res = smf.ols("tons ~ cranes + rain + post_dredging", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, _POST, "configured break candidate (`post_dredging`)"),
-    row("candidate-interacted-star", """
+    """,
+        _POST,
+        "configured break candidate (`post_dredging`)",
+    ),
+    row(
+        "candidate-interacted-star",
+        """
         res = smf.ols("tons ~ post_dredging * (cranes + rain)", data=freight).fit()
         print(res.params)
-    """, _POST),
-    row("candidate-interacted-colon-categorical", """
+    """,
+        _POST,
+    ),
+    row(
+        "candidate-interacted-colon-categorical",
+        """
         res = smf.ols("tons ~ cranes + rain + C(post_dredging) + C(post_dredging):cranes + C(post_dredging):rain",
                       data=freight).fit()
         print(res.params)
-    """, _POST),
-    row("candidate-query-entry-interacted", """
+    """,
+        _POST,
+    ),
+    row(
+        "candidate-query-entry-interacted",
+        """
         res = smf.ols("tons ~ post_dredging * cranes", data=freight).fit()
         print(res.params)
-    """, Settings(break_candidates=("post_dredging == 1",))),
+    """,
+        Settings(break_candidates=("post_dredging == 1",)),
+    ),
     # --- fixed effects are not a break question
-    row("two-way-fixed-effects", """
+    row(
+        "two-way-fixed-effects",
+        """
         res = smf.ols("tons ~ cranes + rain + C(harbour) + C(year)", data=freight).fit()
         print(res.summary())
-    """),
-    row("three-categoricals", """
+    """,
+    ),
+    row(
+        "three-categoricals",
+        """
         res = smf.ols("tons ~ cranes + C(harbour) + C(year) + C(berth)", data=freight).fit()
         print(res.params)
-    """),
-    row("unit-fixed-effect-configured", """
+    """,
+    ),
+    row(
+        "unit-fixed-effect-configured",
+        """
         res = smf.ols("tons ~ cranes + rain + C(harbour)", data=freight).fit()
         print(res.params)
-    """, _FE),
-    row("unit-dummies-unconfigured-flagged", """
+    """,
+        _FE,
+    ),
+    row(
+        "unit-dummies-unconfigured-flagged",
+        """
         res = smf.ols("tons ~ cranes + rain + C(harbour)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, wording="`C(harbour)`"),
-    row("fixed-effects-config-leaves-other-groups", """
+    """,
+        wording="`C(harbour)`",
+    ),
+    row(
+        "fixed-effects-config-leaves-other-groups",
+        """
         res = smf.ols("tons ~ cranes + rain + C(berth)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, _FE, "`C(berth)`"),
-    row("fixed-effects-with-candidate-still-flagged", """
+    """,
+        _FE,
+        "`C(berth)`",
+    ),
+    row(
+        "fixed-effects-with-candidate-still-flagged",
+        """
         res = smf.ols("tons ~ cranes + post_dredging + C(harbour) + C(year)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, _POST, "`post_dredging`"),
-    row("candidate-categorical-is-no-fixed-effect", """
+    """,
+        _POST,
+        "`post_dredging`",
+    ),
+    row(
+        "candidate-categorical-is-no-fixed-effect",
+        """
         res = smf.ols("tons ~ cranes + C(harbour) + C(post_dredging)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, _POST),
-    row("one-way-anova-has-no-slope", """
+    """,
+        _POST,
+    ),
+    row(
+        "one-way-anova-has-no-slope",
+        """
         res = smf.ols("tons ~ C(berth)", data=freight).fit()
         print(res.summary())
-    """),
-    row("factorial-cell-means-have-no-slope", """
+    """,
+    ),
+    row(
+        "factorial-cell-means-have-no-slope",
+        """
         res = smf.ols("tons ~ C(berth) + C(berth):C(crew)", data=freight).fit()
         print(res.summary())
-    """),
-    row("ancova-has-a-slope", """
+    """,
+    ),
+    row(
+        "ancova-has-a-slope",
+        """
         res = smf.ols("tons ~ C(berth) + cranes", data=freight).fit()  # expect: no-break-test
         print(res.summary())
-    """, wording="`C(berth)`"),
+    """,
+        wording="`C(berth)`",
+    ),
     # --- calendar seasonals: still asked, about seasonal slopes
-    row("month-seasonal", """
+    row(
+        "month-seasonal",
+        """
         res = smf.ols("tons ~ cranes + rain + C(month)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, wording="seasonal dummies `C(month)`"),
-    row("quarter-seasonal", """
+    """,
+        wording="seasonal dummies `C(month)`",
+    ),
+    row(
+        "quarter-seasonal",
+        """
         res = smf.ols("tons ~ cranes + C(quarter)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, wording="the same in every quarter"),
-    row("season-seasonal", """
+    """,
+        wording="the same in every quarter",
+    ),
+    row(
+        "season-seasonal",
+        """
         res = smf.ols("tons ~ cranes + C(season)", data=freight).fit()  # expect: no-break-test
         print(res.params)
-    """, wording="seasonal dummies `C(season)`"),
-    row("seasonal-with-unit-is-fixed-effects", """
+    """,
+        wording="seasonal dummies `C(season)`",
+    ),
+    row(
+        "seasonal-with-unit-is-fixed-effects",
+        """
         res = smf.ols("tons ~ cranes + C(harbour) + C(month)", data=freight).fit()
         print(res.params)
-    """),
-    row("season-interacted", """
+    """,
+    ),
+    row(
+        "season-interacted",
+        """
         res = smf.ols("tons ~ C(quarter) * cranes", data=freight).fit()
         print(res.params)
-    """),
-    row("f-string-in-a-loop-over-groups", """
+    """,
+    ),
+    row(
+        "f-string-in-a-loop-over-groups",
+        """
         for group in ["berth", "crew"]:
             res = smf.ols(f"tons ~ cranes + C({group})", data=freight).fit()  # expect: no-break-test
             print(res.params)
-    """, wording="2 fits from this line"),
-    row("f-string-in-a-loop-over-fixed-effects", """
+    """,
+        wording="2 fits from this line",
+    ),
+    row(
+        "f-string-in-a-loop-over-fixed-effects",
+        """
         for unit in ["harbour", "berth"]:
             res = smf.ols(f"tons ~ cranes + C({unit}) + C(year)", data=freight).fit()
             print(res.params)
-    """),
+    """,
+    ),
     # --- however the result is used
-    row("only-in-a-summary-table", """
+    row(
+        "only-in-a-summary-table",
+        """
         from statsmodels.iolib.summary2 import summary_col
 
         res = smf.ols("tons ~ cranes + C(berth)", data=freight).fit()  # expect: no-break-test
         print(summary_col([res]))
-    """),
-    row("only-handed-to-a-table-package", """
+    """,
+    ),
+    row(
+        "only-handed-to-a-table-package",
+        """
         from stargazer.stargazer import Stargazer
 
         res = smf.ols("tons ~ cranes + C(berth)", data=freight).fit()  # expect: no-break-test
         print(Stargazer([res]).render_html())
-    """, wording="`Stargazer`"),
-    row("only-predictions", """
+    """,
+        wording="`Stargazer`",
+    ),
+    row(
+        "only-predictions",
+        """
         res = smf.ols("tons ~ cranes + C(berth)", data=freight).fit()  # expect: no-break-test
         freight["expected"] = res.predict(freight)
-    """),
-    row("never-used", """
+    """,
+    ),
+    row(
+        "never-used",
+        """
         res = smf.ols("tons ~ cranes + C(berth)", data=freight).fit()
-    """),
-    row("tested-by-anova", """
+    """,
+    ),
+    row(
+        "tested-by-anova",
+        """
         from statsmodels.stats.anova import anova_lm
 
         res = smf.ols("tons ~ cranes + C(berth)", data=freight).fit()
         full = smf.ols("tons ~ cranes * C(berth)", data=freight).fit()
         print(anova_lm(res, full), res.params)
-    """),
+    """,
+    ),
 ]
 
 
 def _notebook(head: str, body: str) -> str:
     cells = [head, body]
-    return json.dumps({
-        "cells": [{"cell_type": "code", "metadata": {}, "execution_count": None, "outputs": [],
-                   "source": c.splitlines(keepends=True)} for c in cells],
-        "metadata": {"language_info": {"name": "python"}}, "nbformat": 4, "nbformat_minor": 5,
-    })  # fmt: skip
+    return json.dumps(
+        {
+            "cells": [
+                {
+                    "cell_type": "code",
+                    "metadata": {},
+                    "execution_count": None,
+                    "outputs": [],
+                    "source": c.splitlines(keepends=True),
+                }
+                for c in cells
+            ],
+            "metadata": {"language_info": {"name": "python"}},
+            "nbformat": 4,
+            "nbformat_minor": 5,
+        }
+    )
 
 
 def _messages(report) -> list[str]:
@@ -221,14 +342,17 @@ def test_hover_says_fixed_effects_need_no_break_test():
 
 
 # --- the fixed_effects key ------------------------------------------------------------------
-@pytest.mark.parametrize("table, fragment", [
-    ({"fixed_effects": "harbour"}, "expected a list of column names"),
-    ({"fixed_effects": ["harbour", 3]}, "expected a list of column names"),
-    ({"fixed_effects": ["harbour == 1"]}, "is not a column name"),
-    ({"fixed_effects": [""]}, "is not a column name"),
-    ({"fixed_effects": ["year", "year"]}, "`year` is listed twice"),
-    ({"fixed_effects": ["harbour"], "break_candidates": ["harbour"]}, "both a fixed effect and a break candidate"),
-])  # fmt: skip
+@pytest.mark.parametrize(
+    "table, fragment",
+    [
+        ({"fixed_effects": "harbour"}, "expected a list of column names"),
+        ({"fixed_effects": ["harbour", 3]}, "expected a list of column names"),
+        ({"fixed_effects": ["harbour == 1"]}, "is not a column name"),
+        ({"fixed_effects": [""]}, "is not a column name"),
+        ({"fixed_effects": ["year", "year"]}, "`year` is listed twice"),
+        ({"fixed_effects": ["harbour"], "break_candidates": ["harbour"]}, "both a fixed effect and a break candidate"),
+    ],
+)
 def test_fixed_effects_key_is_validated(table, fragment):
     with pytest.raises(ConfigError) as err:
         settings_from_table(table, "regvet.toml")
@@ -255,118 +379,272 @@ def built(row_id: str, code: str, formula: str | None, base: str | None, groups:
 
 #: (code after _BUILT_HEAD, the formula read (None: not read), the outcome's base, shift groups, rule fires)
 BUILT = [
-    built("concatenation", """
+    built(
+        "concatenation",
+        """
         res = smf.ols("tons ~ cranes + " + "C(berth)", data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
-    built("concatenation-of-names", """
+    """,
+        "tons ~ cranes + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "concatenation-of-names",
+        """
         outcome = "tons"
         rhs = "cranes + rain + C(berth)"
         formula = outcome + " ~ " + rhs
         res = smf.ols(formula, data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
-    built("augmented-assignment", """
+    """,
+        "tons ~ cranes + rain + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "augmented-assignment",
+        """
         formula = "tons ~ cranes"
         formula += " + C(berth)"
         res = smf.ols(formula, data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
-    built("join-of-a-list-name", """
+    """,
+        "tons ~ cranes + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "join-of-a-list-name",
+        """
         regressors = ["cranes", "rain", "C(berth)"]
         res = smf.ols("tons ~ " + " + ".join(regressors), data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
-    built("join-inside-interaction", """
+    """,
+        "tons ~ cranes + rain + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "join-inside-interaction",
+        """
         slopes = ("cranes", "rain")
         res = smf.ols("tons ~ C(berth) * (" + " + ".join(slopes) + ")", data=freight).fit()
         print(res.params)
-    """, "tons ~ C(berth) * (cranes + rain)", "tons", set(), False),
-    built("format-positional", """
+    """,
+        "tons ~ C(berth) * (cranes + rain)",
+        "tons",
+        set(),
+        False,
+    ),
+    built(
+        "format-positional",
+        """
         res = smf.ols("{} ~ {} + C(berth)".format("tons", "cranes"), data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
-    built("format-numbered-and-keywords", """
+    """,
+        "tons ~ cranes + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "format-numbered-and-keywords",
+        """
         group = "berth"
         res = smf.ols("{0} ~ {x} + C({g})".format("tons", x="cranes", g=group), data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
-    built("f-string-of-names", """
+    """,
+        "tons ~ cranes + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "f-string-of-names",
+        """
         y, x, g = "tons", "cranes + rain", "berth"
         res = smf.ols(f"{y} ~ {x} + C({g})", data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
-    built("f-string-with-a-number", """
+    """,
+        "tons ~ cranes + rain + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "f-string-with-a-number",
+        """
         power = 2
         res = smf.ols(f"tons ~ cranes + I(cranes**{power}) + C(berth)", data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + I(cranes**2) + C(berth)", "tons", {"berth"}, True),
-    built("percent-format", """
+    """,
+        "tons ~ cranes + I(cranes**2) + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "percent-format",
+        """
         res = smf.ols("%s ~ cranes + C(%s)" % ("tons", "berth"), data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
-    built("built-two-way-fixed-effects", """
+    """,
+        "tons ~ cranes + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "built-two-way-fixed-effects",
+        """
         effects = ["C(harbour)", "C(year)"]
         res = smf.ols("tons ~ cranes + " + " + ".join(effects), data=freight).fit()
         print(res.params)
-    """, "tons ~ cranes + C(harbour) + C(year)", "tons", {"harbour", "year"}, False),
-    built("dmatrices", """
+    """,
+        "tons ~ cranes + C(harbour) + C(year)",
+        "tons",
+        {"harbour", "year"},
+        False,
+    ),
+    built(
+        "dmatrices",
+        """
         y, X = patsy.dmatrices("tons ~ cranes + C(berth)", freight)
         res = sm.OLS(y, X).fit()
         print(res.params)
-    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
-    built("dmatrices-dataframe-from-import", """
+    """,
+        "tons ~ cranes + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "dmatrices-dataframe-from-import",
+        """
         from patsy import dmatrices
 
         y, X = dmatrices("tons ~ cranes + rain + C(berth)", data=freight, return_type="dataframe")
         res = sm.OLS(y, X).fit()
         print(res.summary())
-    """, "tons ~ cranes + rain + C(berth)", "tons", {"berth"}, True),
-    built("dmatrices-of-a-built-formula", """
+    """,
+        "tons ~ cranes + rain + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "dmatrices-of-a-built-formula",
+        """
         outcome = "tons"
         y, X = patsy.dmatrices(f"{outcome} ~ cranes + C(berth)", freight, return_type="dataframe")
         res = sm.OLS(y, X).fit()
         print(res.params)
-    """, "tons ~ cranes + C(berth)", "tons", {"berth"}, True),
-    built("dmatrices-fixed-effects", """
+    """,
+        "tons ~ cranes + C(berth)",
+        "tons",
+        {"berth"},
+        True,
+    ),
+    built(
+        "dmatrices-fixed-effects",
+        """
         y, X = patsy.dmatrices("tons ~ cranes + C(harbour) + C(year)", freight)
         res = sm.OLS(y, X).fit()
         print(res.params)
-    """, "tons ~ cranes + C(harbour) + C(year)", "tons", {"harbour", "year"}, False),
-    built("dmatrices-by-position", """
+    """,
+        "tons ~ cranes + C(harbour) + C(year)",
+        "tons",
+        {"harbour", "year"},
+        False,
+    ),
+    built(
+        "dmatrices-by-position",
+        """
         design = patsy.dmatrices("tons ~ rain + C(month)", freight)
         res = sm.OLS(design[0], design[1]).fit()
         print(res.params)
-    """, "tons ~ rain + C(month)", "tons", {"month"}, True),
+    """,
+        "tons ~ rain + C(month)",
+        "tons",
+        {"month"},
+        True,
+    ),
     # --- not every piece a literal: not read as a formula (the fixed start still names the outcome)
-    built("piece-from-input", """
+    built(
+        "piece-from-input",
+        """
         extra = input()
         res = smf.ols("tons ~ cranes + " + extra, data=freight).fit()
         print(res.params)
-    """, None, "tons", set(), False),
-    built("join-of-data-columns", """
+    """,
+        None,
+        "tons",
+        set(),
+        False,
+    ),
+    built(
+        "join-of-data-columns",
+        """
         res = smf.ols("tons ~ " + " + ".join(freight.columns[1:]), data=freight).fit()
         print(res.params)
-    """, None, "tons", set(), False),
-    built("format-with-a-spec", """
+    """,
+        None,
+        "tons",
+        set(),
+        False,
+    ),
+    built(
+        "format-with-a-spec",
+        """
         res = smf.ols("tons ~ cranes + C(berth) + {:>8}".format("rain"), data=freight).fit()
         print(res.params)
-    """, None, "tons", set(), False),
-    built("f-string-of-a-call", """
+    """,
+        None,
+        "tons",
+        set(),
+        False,
+    ),
+    built(
+        "f-string-of-a-call",
+        """
         res = smf.ols(f"tons ~ {input()} + C(berth)", data=freight).fit()
         print(res.params)
-    """, None, "tons", set(), False),
-    built("dmatrices-of-an-unknown-formula", """
+    """,
+        None,
+        "tons",
+        set(),
+        False,
+    ),
+    built(
+        "dmatrices-of-an-unknown-formula",
+        """
         y, X = patsy.dmatrices(input(), freight)
         res = sm.OLS(y, X).fit()
         print(res.params)
-    """, None, None, set(), False),
-    built("ols-on-another-design", """
+    """,
+        None,
+        None,
+        set(),
+        False,
+    ),
+    built(
+        "ols-on-another-design",
+        """
         y, X = patsy.dmatrices("tons ~ cranes + C(berth)", freight)
         _, Z = patsy.dmatrices("crew ~ rain", freight)
         res = sm.OLS(y, Z).fit()
         print(res.params)
-    """, None, None, set(), False),
+    """,
+        None,
+        None,
+        set(),
+        False,
+    ),
 ]
 
 
@@ -396,9 +674,11 @@ def test_built_formula_in_a_notebook(code, formula, base, groups, fires):
 
 
 def test_built_formula_across_notebook_cells():
-    nb = _notebook(_BUILT_HEAD + 'outcome = "tons"\nslopes = ["cranes", "rain"]\n',
-                   'res = smf.ols(f"{outcome} ~ " + " + ".join(slopes) + " + C(berth)", data=freight).fit()\n'
-                   "print(res.params)\n")  # fmt: skip
+    nb = _notebook(
+        _BUILT_HEAD + 'outcome = "tons"\nslopes = ["cranes", "rain"]\n',
+        'res = smf.ols(f"{outcome} ~ " + " + ".join(slopes) + " + C(berth)", data=freight).fit()\n'
+        "print(res.params)\n",
+    )
     report = analyze(nb, "freight.ipynb", Settings(), strict=True)
     assert _one_fit(report).formula == "tons ~ cranes + rain + C(berth)"
     assert found(report, BREAK) == [(1, BREAK)]

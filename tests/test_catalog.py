@@ -39,9 +39,7 @@ def test_constructor_path_exists(qualname):
     assert obj is target or getattr(obj, "__self__", None) is target or obj == target.from_formula
 
 
-@pytest.mark.parametrize(
-    "qualname", sorted(cat.SUMMARY_TABLES | cat.ANOVA | cat.ADD_CONSTANT), ids=str
-)
+@pytest.mark.parametrize("qualname", sorted(cat.SUMMARY_TABLES | cat.ANOVA | cat.ADD_CONSTANT), ids=str)
 def test_helper_path_exists(qualname):
     assert callable(_resolve(qualname))
 

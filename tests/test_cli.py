@@ -101,7 +101,9 @@ def test_exit_3_when_a_rule_crashes_and_other_rules_still_report(project, run_cl
     assert code == 3
     assert "dirty.py: regvet failed in rule broken-rule: RuntimeError: deliberate test failure" in err
     assert "clean.py: regvet failed in rule broken-rule" in err
-    assert "dirty.py:5:7: res (riders ~ fare + fuel_price)\n  warning no-form-test: " in out  # the other rules' findings are kept
+    assert (
+        "dirty.py:5:7: res (riders ~ fare + fuel_price)\n  warning no-form-test: " in out
+    )  # the other rules' findings are kept
 
 
 def test_unreadable_and_undecodable_files_are_parse_errors(project, run_cli):
@@ -127,18 +129,40 @@ def test_syntax_error_position_and_scan_continues(project, run_cli):
 def test_json_shape(project, run_cli):
     sub = project / "analysis"
     sub.mkdir()
-    (sub / "dirty.py").write_text(UNCHECKED.replace("fit()", "fit()  # regvet: waive no-form-test because fare is linear by design"))
+    (sub / "dirty.py").write_text(
+        UNCHECKED.replace("fit()", "fit()  # regvet: waive no-form-test because fare is linear by design")
+    )
     code, out, _ = run_cli("check", "analysis", "--format", "json")
     data = json.loads(out)
     assert data["version"] == 1
     by_rule = {f["rule"]: f for f in data["findings"]}
     f = by_rule["no-variance-test"]
-    assert set(f) == {"rule", "severity", "path", "line", "column", "end_line", "end_column", "cell", "message",
-                      "related", "waived", "reason", "stats"}  # fmt: skip
+    assert set(f) == {
+        "rule",
+        "severity",
+        "path",
+        "line",
+        "column",
+        "end_line",
+        "end_column",
+        "cell",
+        "message",
+        "related",
+        "waived",
+        "reason",
+        "stats",
+    }
     assert f["path"] == "analysis/dirty.py" and (f["line"], f["column"]) == (5, 7) and f["cell"] is None
     assert f["end_line"] == 5 and f["end_column"] == 66
-    assert f["related"] == [{"path": "analysis/dirty.py", "line": 6, "column": 7, "cell": None,
-                             "message": "inference used here (`summary`)"}]  # fmt: skip
+    assert f["related"] == [
+        {
+            "path": "analysis/dirty.py",
+            "line": 6,
+            "column": 7,
+            "cell": None,
+            "message": "inference used here (`summary`)",
+        }
+    ]
     assert f["waived"] is False and f["reason"] is None and f["stats"] is None
     w = by_rule["no-form-test"]
     assert w["waived"] is True and w["reason"] == "fare is linear by design"
@@ -175,8 +199,15 @@ def test_explain_accepts_any_letter_case(run_cli, spelt):
     assert code == 0 and err == "" and out.startswith("no-form-test (warning by default)")
 
 
-@pytest.mark.parametrize("typo,meant", [("no-from-test", "no-form-test"), ("No-Varience-Test", "no-variance-test"),
-                                        ("waiver-unkown-rule", "waiver-unknown-rule"), ("brake-rejected", "break-rejected")])
+@pytest.mark.parametrize(
+    "typo,meant",
+    [
+        ("no-from-test", "no-form-test"),
+        ("No-Varience-Test", "no-variance-test"),
+        ("waiver-unkown-rule", "waiver-unknown-rule"),
+        ("brake-rejected", "break-rejected"),
+    ],
+)
 def test_explain_suggests_the_nearest_rule_on_a_typo(run_cli, typo, meant):
     code, out, err = run_cli("explain", typo)
     assert code == 2 and out == ""
@@ -211,9 +242,12 @@ def test_explain_prints_the_caution_once_at_the_end(run_cli):
         assert out.count(" (warning by default") + out.count(" (error by default") == len(rules)
     # shorter than before (it was 453 characters) and it keeps its four points
     assert len(CAUTION) < 300
-    for point in ("Passing regvet does not make a model right", "missing or failed",
-                  "judgement about the economics stays with the analyst",
-                  "qualified statistician or econometrician under the rules of their field or institution"):
+    for point in (
+        "Passing regvet does not make a model right",
+        "missing or failed",
+        "judgement about the economics stays with the analyst",
+        "qualified statistician or econometrician under the rules of their field or institution",
+    ):
         assert point in CAUTION
 
 
@@ -248,9 +282,15 @@ def test_check_runs_without_numpy_pandas_statsmodels_libcst_pygls(project):
     assert proc.returncode == 11, proc.stderr
     assert "no-form-test" in proc.stdout
     loaded = subprocess.run(
-        [sys.executable, "-c", "import sys; from regvet.cli import main; main(['check', 'dirty.py']); "
-         "print(sorted(m for m in sys.modules if m.split('.')[0] in ('numpy','pandas','statsmodels','libcst','pygls')))"],  # fmt: skip
-        cwd=project, capture_output=True, text=True,
+        [
+            sys.executable,
+            "-c",
+            "import sys; from regvet.cli import main; main(['check', 'dirty.py']); "
+            "print(sorted(m for m in sys.modules if m.split('.')[0] in ('numpy','pandas','statsmodels','libcst','pygls')))",
+        ],
+        cwd=project,
+        capture_output=True,
+        text=True,
     )
     assert loaded.stdout.strip().split("\n")[-1] == "[]"
 
@@ -260,6 +300,11 @@ def test_console_script_and_module_entry_points(project):
     exe = Path(sys.executable).with_name("regvet")
     proc = subprocess.run([str(exe), "check", "dirty.py"], cwd=project, capture_output=True, text=True)
     assert proc.returncode == 1 and "dirty.py:5:7:" in proc.stdout
-    proc = subprocess.run([sys.executable, "-m", "regvet", "check", "dirty.py", "--format", "json"], cwd=project,
-                          capture_output=True, text=True, env={**os.environ, "NO_COLOR": "1"})  # fmt: skip
+    proc = subprocess.run(
+        [sys.executable, "-m", "regvet", "check", "dirty.py", "--format", "json"],
+        cwd=project,
+        capture_output=True,
+        text=True,
+        env={**os.environ, "NO_COLOR": "1"},
+    )
     assert proc.returncode == 1 and json.loads(proc.stdout)["version"] == 1

@@ -37,8 +37,10 @@ def test_quiet_prints_the_summary_only(demo, run_cli):
     assert quiet.splitlines() == [full.splitlines()[-1]]
     shown = [f for f in _json(run_cli, ".") if not f["waived"]]
     by = Counter(f["severity"] for f in shown)
-    assert quiet.startswith(f"regvet: {len(shown)} findings ({by['error']} errors, {by['warning']} warnings, "
-                            f"{by['info']} info) in 4 of 6 files")  # fmt: skip
+    assert quiet.startswith(
+        f"regvet: {len(shown)} findings ({by['error']} errors, {by['warning']} warnings, "
+        f"{by['info']} info) in 4 of 6 files"
+    )
     code, lines_q, _ = run_cli("check", ".", "-q", "--format", "lines")
     assert lines_q == quiet
 
@@ -75,8 +77,15 @@ def test_text_options_are_refused_with_a_machine_format(demo, run_cli):
 def _regvet(*args: str, stdin: str | None = None, cwd) -> subprocess.CompletedProcess:
     env = {k: v for k, v in os.environ.items() if k != "COLUMNS"}
     env["REGVET_CACHE_DIR"] = str(cwd / ".cache")
-    return subprocess.run([sys.executable, "-m", "regvet", *args], input=stdin, capture_output=True, text=True,
-                          cwd=cwd, env=env, timeout=300)  # fmt: skip
+    return subprocess.run(
+        [sys.executable, "-m", "regvet", *args],
+        input=stdin,
+        capture_output=True,
+        text=True,
+        cwd=cwd,
+        env=env,
+        timeout=300,
+    )
 
 
 def test_a_script_on_standard_input(tmp_path):
@@ -88,7 +97,8 @@ def test_a_script_on_standard_input(tmp_path):
     findings = json.loads(piped.stdout)["findings"]
     assert {f["path"] for f in findings} == {"<stdin>"}
     assert [(f["rule"], f["line"], f["message"]) for f in findings] == [
-        (f["rule"], f["line"], f["message"]) for f in json.loads(named.stdout)["findings"]]  # fmt: skip
+        (f["rule"], f["line"], f["message"]) for f in json.loads(named.stdout)["findings"]
+    ]
     text = _regvet("check", "-", stdin=TWO_FITS, cwd=tmp_path)
     assert text.stdout.startswith("<stdin>:5:6: m1 (riders ~ fare)\n")
     refused = _regvet("check", "--run", "-", stdin=TWO_FITS, cwd=tmp_path)
@@ -99,8 +109,10 @@ def test_options_before_the_command(demo, run_cli):
     code, expected, _ = run_cli("check", ".", "--format", "json")
     assert run_cli("--format", "json", ".")[1] == expected  # no command: check
     assert run_cli("--format", "json", "check", ".")[1] == expected  # moved after the command
-    assert run_cli("--only", "no-form-test", "--format", "json")[1] == run_cli("check", "--only", "no-form-test",
-                                                                               "--format", "json")[1]  # fmt: skip
+    assert (
+        run_cli("--only", "no-form-test", "--format", "json")[1]
+        == run_cli("check", "--only", "no-form-test", "--format", "json")[1]
+    )
     code, out, err = run_cli("--output", "audit.html", ".")  # an option of another command
     assert code == 2 and "the command comes first" in err and "regvet check --format json fixtures/demo" in err
 
@@ -117,8 +129,11 @@ def _actions(parser: argparse.ArgumentParser, name: str = "regvet"):
 def test_every_option_has_help_text(capsys):
     from regvet.cli import _parser
 
-    missing = [f"{name} {action.option_strings or action.dest}" for name, action in _actions(_parser())
-               if not action.help or action.help == argparse.SUPPRESS]  # fmt: skip
+    missing = [
+        f"{name} {action.option_strings or action.dest}"
+        for name, action in _actions(_parser())
+        if not action.help or action.help == argparse.SUPPRESS
+    ]
     assert missing == []
     from regvet.cli.info import _serve
 
@@ -126,7 +141,7 @@ def test_every_option_has_help_text(capsys):
     out = capsys.readouterr().out
     for option in ("--tcp", "--port", "--log-file"):
         line = next(line for line in out.splitlines() if line.strip().startswith(option))
-        rest = line.strip()[len(option):].split(None, 1)
+        rest = line.strip()[len(option) :].split(None, 1)
         assert rest and any(word.isalpha() and word.islower() for word in " ".join(rest).split()), line
 
 

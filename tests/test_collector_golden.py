@@ -27,21 +27,36 @@ def _row(f: dict, root: str) -> list:
 
     related = [[rel(r["path"]), r["line"], r["column"], r["message"]] for r in f["related"]]
     digest = hashlib.sha256(json.dumps([f["message"], related]).encode()).hexdigest()[:20]
-    return [rel(f["path"]), f["line"], f["column"], f["end_line"], f["end_column"], f["rule"], f["severity"],
-            f["waived"], digest]  # fmt: skip
+    return [
+        rel(f["path"]),
+        f["line"],
+        f["column"],
+        f["end_line"],
+        f["end_column"],
+        f["rule"],
+        f["severity"],
+        f["waived"],
+        digest,
+    ]
 
 
 def test_statsmodels_findings_are_unchanged():
     import statsmodels
 
     root = Path(statsmodels.__file__).parent.resolve()
-    proc = subprocess.run([sys.executable, "-m", "regvet", "check", str(root), "--format", "json", "--no-config",
-                           "--no-cache"], capture_output=True, text=True, timeout=900)  # fmt: skip
+    proc = subprocess.run(
+        [sys.executable, "-m", "regvet", "check", str(root), "--format", "json", "--no-config", "--no-cache"],
+        capture_output=True,
+        text=True,
+        timeout=900,
+    )
     assert proc.returncode in (0, 1), proc.stderr
     rows = [_row(f, str(root)) for f in json.loads(proc.stdout)["findings"]]
     if os.environ.get("REGVET_UPDATE_GOLDEN") == "1":
         head = json.dumps(statsmodels.__version__)
-        RECORD.write_text(f'{{"statsmodels": {head}, "findings": [\n' + ",\n".join(json.dumps(r) for r in rows) + "\n]}\n")
+        RECORD.write_text(
+            f'{{"statsmodels": {head}, "findings": [\n' + ",\n".join(json.dumps(r) for r in rows) + "\n]}\n"
+        )
     record = json.loads(RECORD.read_text())
     if record["statsmodels"] != statsmodels.__version__:
         pytest.skip(f"recorded on statsmodels {record['statsmodels']}, installed {statsmodels.__version__}")
@@ -53,7 +68,7 @@ def test_statsmodels_findings_are_unchanged():
 
 QUIET_SNIPPETS = {
     # each: a module whose uncalled functions must not be skipped, or whose skipping changes nothing
-    "self-attribute-read-later": '''import statsmodels.api as sm
+    "self-attribute-read-later": """import statsmodels.api as sm
 
 class Harbour:
     def setup(self):
@@ -62,8 +77,8 @@ class Harbour:
     def fit(self, y, X):
         res = sm.OLS(y, X).fit(cov_type=self.cov)
         return res.summary()
-''',
-    "global-list-grown-by-a-helper": '''import numpy as np
+""",
+    "global-list-grown-by-a-helper": """import numpy as np
 import statsmodels.api as sm
 
 fits = []
@@ -74,8 +89,8 @@ def keep(x):
 res = sm.OLS(np.ones(5), np.ones(5)).fit()
 keep(res)
 print(fits[0].summary())
-''',
-    "global-rebound": '''import numpy as np
+""",
+    "global-rebound": """import numpy as np
 import statsmodels.api as sm
 
 res = sm.OLS(np.ones(5), np.ones(5)).fit()
@@ -89,8 +104,8 @@ def reset():
 
 def show_again():
     print(res.summary())
-''',
-    "numpy-only-helpers-and-a-fit": '''import numpy as np
+""",
+    "numpy-only-helpers-and-a-fit": """import numpy as np
 import statsmodels.api as sm
 
 def scale(x):
@@ -102,7 +117,7 @@ def fit_it(y, x):
 def report(y, x):
     res = fit_it(y, x)
     print(res.bse)
-''',
+""",
 }
 
 

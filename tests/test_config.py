@@ -36,7 +36,7 @@ def test_nearest_config_wins_and_pyproject_without_table_is_skipped(tmp_path):
     assert find_config(sub / "model.py") is None  # the pyproject.toml marks the project root
     (sub / "pyproject.toml").unlink()
     assert find_config(sub / "model.py") == (tmp_path / "regvet.toml").resolve()
-    write(sub / "pyproject.toml", '[tool.regvet]\nalpha = 0.01\n')
+    write(sub / "pyproject.toml", "[tool.regvet]\nalpha = 0.01\n")
     assert find_config(sub / "model.py") == (sub / "pyproject.toml").resolve()
     assert load_settings(sub / "pyproject.toml").alpha == 0.01
 
@@ -59,12 +59,18 @@ def test_search_stops_at_the_repository_root(tmp_path):
         ('skip = ["no-such-rule"]', "skip", "`no-such-rule` is not a rule id"),
         ('severity = { no-form-test = "fatal" }', "severity.no-form-test", "expected one of error, warning, info"),
         ("exclude = [1, 2]", "exclude", "expected a list of glob patterns, got a list with non-string items"),
-        ('diagnostic_helpers = { "lib.check" = ["form", "magic"] }', "diagnostic_helpers.lib.check",
-         "`magic` is not a check family"),
-        ('diagnostic_helpers = { "lib.check" = "form" }', "diagnostic_helpers.lib.check",
-         "expected a list of check families"),
+        (
+            'diagnostic_helpers = { "lib.check" = ["form", "magic"] }',
+            "diagnostic_helpers.lib.check",
+            "`magic` is not a check family",
+        ),
+        (
+            'diagnostic_helpers = { "lib.check" = "form" }',
+            "diagnostic_helpers.lib.check",
+            "expected a list of check families",
+        ),
     ],
-)  # fmt: skip
+)
 def test_bad_values_name_file_key_and_expectation(tmp_path, run_cli, body, key, expected):
     cfg = write(tmp_path / "regvet.toml", body + "\n")
     script = write(tmp_path / "model.py", FIT)
@@ -88,7 +94,10 @@ def test_invalid_toml_is_a_configuration_error(tmp_path, run_cli):
 
 def test_severity_only_skip_and_no_config(tmp_path, run_cli):
     (tmp_path / ".git").mkdir()
-    write(tmp_path / "pyproject.toml", '[tool.regvet]\nseverity = { no-variance-test = "error" }\nskip = ["no-form-test"]\n')
+    write(
+        tmp_path / "pyproject.toml",
+        '[tool.regvet]\nseverity = { no-variance-test = "error" }\nskip = ["no-form-test"]\n',
+    )
     script = write(tmp_path / "model.py", FIT)
     code, out, _ = run_cli("check", str(script), "--format", "json")
     import json
@@ -107,8 +116,17 @@ def test_severity_only_skip_and_no_config(tmp_path, run_cli):
 def test_exclude_globs_and_default_excludes(tmp_path, run_cli):
     (tmp_path / ".git").mkdir()
     write(tmp_path / "regvet.toml", 'exclude = ["scratch", "old/*.py"]\n')
-    for rel in ("keep.py", "scratch/a.py", "old/b.py", ".venv/lib/c.py", "node_modules/d.py", "build/e.py",
-                "site-packages/f.py", "venv/g.py", "nested/.ipynb_checkpoints/h.py"):  # fmt: skip
+    for rel in (
+        "keep.py",
+        "scratch/a.py",
+        "old/b.py",
+        ".venv/lib/c.py",
+        "node_modules/d.py",
+        "build/e.py",
+        "site-packages/f.py",
+        "venv/g.py",
+        "nested/.ipynb_checkpoints/h.py",
+    ):
         write(tmp_path / rel, FIT)
     code, out, _ = run_cli("check", str(tmp_path), "--format", "json")
     import json
@@ -132,7 +150,7 @@ def test_break_candidates_reach_the_rule(tmp_path, run_cli):
     )
     code, out, _ = run_cli("check", str(script), "--only", "no-break-test")
     assert code == 0 and "no-break-test" not in out
-    write(tmp_path / "regvet.toml", "break_candidates = [\"post_timetable == 1\"]\n")
+    write(tmp_path / "regvet.toml", 'break_candidates = ["post_timetable == 1"]\n')
     code, out, _ = run_cli("check", str(script), "--only", "no-break-test", "--fail-on", "info")
     assert code == 1 and "no-break-test" in out and "post_timetable == 1" in out
 

@@ -46,7 +46,9 @@ def test_toml_nested_too_deep_is_a_configuration_error_naming_the_file(project, 
 
 
 def test_deep_nesting_in_a_pyproject_that_mentions_regvet(project, run_cli):
-    (project / "pyproject.toml").write_text("[tool.regvet]\nalpha = 0.01\n[tool.other]\nx = " + "[" * 3000 + "]" * 3000 + "\n")
+    (project / "pyproject.toml").write_text(
+        "[tool.regvet]\nalpha = 0.01\n[tool.other]\nx = " + "[" * 3000 + "]" * 3000 + "\n"
+    )
     _config_error(run_cli, "pyproject.toml: invalid TOML: arrays or inline tables nest too deeply")
 
 
@@ -73,7 +75,11 @@ def test_a_byte_order_mark_is_accepted(project, run_cli, name, table):
         ("regvet.toml", "[tool.regvet]\nalpha = 0.01\n", "a regvet.toml holds the options at the top level"),
         ("regvet.toml", "severity = 5\n", "key `severity`: expected a table of rule id"),
         ("regvet.toml", "[alpha]\nvalue = 0.01\n", "key `alpha`: expected a number between 0 and 1, got a table"),
-        ("regvet.toml", "[diagnostic_helpers]\n'lib.check' = 5\n", "key `diagnostic_helpers.lib.check`: expected a list"),
+        (
+            "regvet.toml",
+            "[diagnostic_helpers]\n'lib.check' = 5\n",
+            "key `diagnostic_helpers.lib.check`: expected a list",
+        ),
     ],
 )
 def test_misplaced_and_mistyped_tables_are_reported(project, run_cli, name, text, expected):
@@ -92,14 +98,25 @@ def test_a_pyproject_without_regvet_is_still_not_regvets_business(project, run_c
 @pytest.mark.parametrize(
     "key, value",
     [
-        ("run_timeout", "nan"), ("run_timeout", "inf"), ("run_timeout", "-inf"), ("run_timeout", "-5"),
-        ("run_timeout", "0"), ("run_timeout", str(MAX_SECONDS + 1)), ("run_timeout", "1e300"),
-        ("run_timeout", "true"), ("run_timeout", '"300"'),
-        ("run_memory_mb", "-1"), ("run_memory_mb", "0"), ("run_memory_mb", str(MIN_MEGABYTES - 1)),
-        ("run_memory_mb", str(MAX_MEGABYTES + 1)), ("run_memory_mb", "99999999999999999999999"),
-        ("run_memory_mb", "8192.5"), ("run_memory_mb", "nan"), ("run_memory_mb", "inf"),
+        ("run_timeout", "nan"),
+        ("run_timeout", "inf"),
+        ("run_timeout", "-inf"),
+        ("run_timeout", "-5"),
+        ("run_timeout", "0"),
+        ("run_timeout", str(MAX_SECONDS + 1)),
+        ("run_timeout", "1e300"),
+        ("run_timeout", "true"),
+        ("run_timeout", '"300"'),
+        ("run_memory_mb", "-1"),
+        ("run_memory_mb", "0"),
+        ("run_memory_mb", str(MIN_MEGABYTES - 1)),
+        ("run_memory_mb", str(MAX_MEGABYTES + 1)),
+        ("run_memory_mb", "99999999999999999999999"),
+        ("run_memory_mb", "8192.5"),
+        ("run_memory_mb", "nan"),
+        ("run_memory_mb", "inf"),
     ],
-)  # fmt: skip
+)
 def test_runtime_limits_must_be_finite_and_sane(project, run_cli, key, value):
     (project / "regvet.toml").write_text(f"{key} = {value}\n")
     _config_error(run_cli, f"regvet.toml: key `{key}`: expected ")
@@ -108,9 +125,15 @@ def test_runtime_limits_must_be_finite_and_sane(project, run_cli, key, value):
     assert info.value.key == key and info.value.line == 1  # an editor can underline it
 
 
-@pytest.mark.parametrize("key, value, read", [("run_timeout", "0.5", 0.5), ("run_timeout", str(MAX_SECONDS), MAX_SECONDS),
-                                              ("run_memory_mb", str(MIN_MEGABYTES), MIN_MEGABYTES),
-                                              ("run_memory_mb", "32768", 32768)])  # fmt: skip
+@pytest.mark.parametrize(
+    "key, value, read",
+    [
+        ("run_timeout", "0.5", 0.5),
+        ("run_timeout", str(MAX_SECONDS), MAX_SECONDS),
+        ("run_memory_mb", str(MIN_MEGABYTES), MIN_MEGABYTES),
+        ("run_memory_mb", "32768", 32768),
+    ],
+)
 def test_sane_runtime_limits_are_kept(project, key, value, read):
     (project / "regvet.toml").write_text(f"{key} = {value}\n")
     got = getattr(load_settings(project / "regvet.toml"), key)

@@ -38,7 +38,7 @@ def error_of(path: Path, text: str) -> ConfigError:
         ('[tool.regvet.diagnostic_helpers]\n"lib.check" = ["form", "magic"]', "diagnostic_helpers.lib.check", 9, 0),
         ('diagnostic_helpers = { "lib.check" = "form" }', "diagnostic_helpers.lib.check", 8, 23),
     ],
-)  # fmt: skip
+)
 def test_a_bad_key_carries_the_line_and_column_where_it_is_written(tmp_path, body, key, line, column):
     err = error_of(tmp_path / "pyproject.toml", PYPROJECT.format(body=body))
     assert err.key == key and (err.line, err.column) == (line, column)

@@ -26,7 +26,9 @@ def documented(section: str) -> list[tuple[str, int | None, int, str]]:
     for line in body.splitlines():
         m = _ROW.match(line.strip())
         if m:
-            rows.append((m.group(1), int(m.group(2)) - 1 if m.group(2) else None, int(m.group(3)), m.group(4)))  # JSON's cell counts from 0
+            rows.append(
+                (m.group(1), int(m.group(2)) - 1 if m.group(2) else None, int(m.group(3)), m.group(4))
+            )  # JSON's cell counts from 0
     assert rows, f"no rows in the README's {section} table"
     return sorted(rows, key=str)
 
@@ -60,11 +62,23 @@ def test_demo_run_gives_the_documented_findings_from_the_numbers(run_cli, monkey
     code, out, err = run_cli("run", ".", "--format", "json")
     assert code == 1 and err == ""
     findings = json.loads(out)["findings"]
-    from_numbers = sorted(((f["path"], f["cell"], f["line"], f["rule"]) for f in findings
-                           if RULES_BY_ID[f["rule"]].needs_run and not f["waived"]), key=str)  # fmt: skip
+    from_numbers = sorted(
+        (
+            (f["path"], f["cell"], f["line"], f["rule"])
+            for f in findings
+            if RULES_BY_ID[f["rule"]].needs_run and not f["waived"]
+        ),
+        key=str,
+    )
     assert from_numbers == documented("Findings with --run")
-    static = sorted(((f["path"], f["cell"], f["line"], f["rule"]) for f in findings
-                     if not RULES_BY_ID[f["rule"]].needs_run and not f["waived"]), key=str)  # fmt: skip
+    static = sorted(
+        (
+            (f["path"], f["cell"], f["line"], f["rule"])
+            for f in findings
+            if not RULES_BY_ID[f["rule"]].needs_run and not f["waived"]
+        ),
+        key=str,
+    )
     assert static == documented("Expected findings")  # running adds findings, it never loses one
     assert all(f["stats"] for f in findings if f["rule"] in ("no-form-test", "no-variance-test"))
 
@@ -78,9 +92,13 @@ def test_demo_data_regenerates_byte_for_byte(tmp_path):
 @pytest.mark.parametrize("script", sorted(p.name for p in DEMO.glob("0*.py")))
 def test_demo_scripts_run(script):
     proc = subprocess.run(
-        [sys.executable, script], cwd=DEMO, capture_output=True, text=True, timeout=300,
+        [sys.executable, script],
+        cwd=DEMO,
+        capture_output=True,
+        text=True,
+        timeout=300,
         env={"MPLBACKEND": "Agg", "PATH": "/usr/bin:/bin"},
-    )  # fmt: skip
+    )
     assert proc.returncode == 0, proc.stderr[-2000:]
 
 

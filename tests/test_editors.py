@@ -33,8 +33,17 @@ print(res.summary())
 """
 
 EDITORS = {
-    "nvim": lambda exe: [exe, "--headless", "-u", "NONE", "-i", "NONE", "-n",
-                         "-c", f"luafile {HERE / 'nvim_check.lua'}"],  # fmt: skip
+    "nvim": lambda exe: [
+        exe,
+        "--headless",
+        "-u",
+        "NONE",
+        "-i",
+        "NONE",
+        "-n",
+        "-c",
+        f"luafile {HERE / 'nvim_check.lua'}",
+    ],
     "emacs": lambda exe: [exe, "-Q", "--batch", "-l", str(HERE / "eglot_check.el")],
 }
 EGLOT_PROBE = (
@@ -56,14 +65,16 @@ def need(editor: str) -> None:
     if shutil.which(editor) is None:
         missing(editor)
     if editor == "emacs":  # eglot: built in from Emacs 29, Debian's elpa-eglot before that
-        probe = subprocess.run(["emacs", "-Q", "--batch", "--eval", EGLOT_PROBE],
-                               capture_output=True, text=True, timeout=TIMEOUT)  # fmt: skip
+        probe = subprocess.run(
+            ["emacs", "-Q", "--batch", "--eval", EGLOT_PROBE], capture_output=True, text=True, timeout=TIMEOUT
+        )
         if probe.stdout.strip() != "ok":
             missing("eglot (Debian package elpa-eglot)")
 
 
-def run_editor(editor: str, tmp_path: Path, settings: dict, expect: int, exe: str | None = None,
-               extra_env: dict | None = None) -> dict:  # fmt: skip
+def run_editor(
+    editor: str, tmp_path: Path, settings: dict, expect: int, exe: str | None = None, extra_env: dict | None = None
+) -> dict:
     if exe is None:
         need(editor)
     script = tmp_path / "ferry_fit.py"
@@ -87,17 +98,27 @@ def run_editor(editor: str, tmp_path: Path, settings: dict, expect: int, exe: st
     env.update(extra_env or {})
     started = time.monotonic()
     try:
-        proc = subprocess.run(EDITORS[editor](exe or editor), cwd=tmp_path, env=env, capture_output=True, text=True,
-                              timeout=TIMEOUT, stdin=subprocess.DEVNULL)  # fmt: skip
+        proc = subprocess.run(
+            EDITORS[editor](exe or editor),
+            cwd=tmp_path,
+            env=env,
+            capture_output=True,
+            text=True,
+            timeout=TIMEOUT,
+            stdin=subprocess.DEVNULL,
+        )
         rc, out, err = proc.returncode, proc.stdout, proc.stderr
     except subprocess.TimeoutExpired as exc:
         rc, out, err = "timeout", exc.stdout or "", exc.stderr or ""
     took = time.monotonic() - started
     text = report.read_text(encoding="utf-8") if report.exists() else ""
-    logs = "".join(f"\n--- {p.relative_to(home)} ---\n{p.read_text(errors='replace')[-6000:]}"
-                   for p in sorted(home.rglob("*.log")))  # fmt: skip
-    shown = (f"{editor} exit={rc} after {took:.1f}s\n--- report ---\n{text}\n--- stdout ---\n{out}\n"
-             f"--- stderr ---\n{err}{logs}")  # fmt: skip
+    logs = "".join(
+        f"\n--- {p.relative_to(home)} ---\n{p.read_text(errors='replace')[-6000:]}" for p in sorted(home.rglob("*.log"))
+    )
+    shown = (
+        f"{editor} exit={rc} after {took:.1f}s\n--- report ---\n{text}\n--- stdout ---\n{out}\n"
+        f"--- stderr ---\n{err}{logs}"
+    )
     print(shown)  # pytest shows it when the test fails
     phases: dict = {"rc": rc, "took": took, "shown": shown, "diags": {}}
     current = None
@@ -148,8 +169,9 @@ def test_neovim_011_with_the_shipped_lsp_config(tmp_path):
     version = subprocess.run([exe, "--version"], capture_output=True, text=True, timeout=TIMEOUT).stdout
     if not re.match(r"NVIM v0\.(1[1-9]|[2-9]\d)", version):
         pytest.skip(f"REGVET_NVIM is not 0.11+: {version.splitlines()[:1]}")
-    got = run_editor("nvim", tmp_path, {"debounceMs": 50}, expect=2, exe=exe,
-                     extra_env={"REGVET_NVIM_CONFIG": str(NVIM_CONFIG)})  # fmt: skip
+    got = run_editor(
+        "nvim", tmp_path, {"debounceMs": 50}, expect=2, exe=exe, extra_env={"REGVET_NVIM_CONFIG": str(NVIM_CONFIG)}
+    )
     assert got["rc"] == 0, got["shown"]
     assert got.get("pull") == "true", got["shown"]  # the server offered pull diagnostics
     assert got["diags"].get("before") == expected("nvim", ["no-form-test", "no-variance-test"]), got["shown"]
@@ -163,11 +185,23 @@ def test_emacs_flymake_config_adds_regvet_beside_the_users_backends(tmp_path):
     script = tmp_path / "harbour.py"
     script.write_text(SCRIPT)
     out = tmp_path / "report.txt"
-    env = dict(os.environ, HOME=str(tmp_path), REGVET_OUT=str(out), REGVET_FILE=str(script),
-               REGVET_CONFIG=str(Path(__file__).parents[1] / "editor_configs" / "emacs" / "regvet-flymake.el"),
-               REGVET_EXE=str(Path(sys.executable).with_name("regvet")))  # fmt: skip
-    subprocess.run(["emacs", "-Q", "--batch", "-l", str(HERE / "flymake_check.el")], env=env, cwd=tmp_path,
-                   capture_output=True, text=True, timeout=TIMEOUT, stdin=subprocess.DEVNULL)  # fmt: skip
+    env = dict(
+        os.environ,
+        HOME=str(tmp_path),
+        REGVET_OUT=str(out),
+        REGVET_FILE=str(script),
+        REGVET_CONFIG=str(Path(__file__).parents[1] / "editor_configs" / "emacs" / "regvet-flymake.el"),
+        REGVET_EXE=str(Path(sys.executable).with_name("regvet")),
+    )
+    subprocess.run(
+        ["emacs", "-Q", "--batch", "-l", str(HERE / "flymake_check.el")],
+        env=env,
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+        timeout=TIMEOUT,
+        stdin=subprocess.DEVNULL,
+    )
     report = out.read_text() if out.exists() else ""
     assert "ERROR" not in report and "DONE" in report, report
     assert "CONFIG-KEPT t" in report and "BACKENDS regvet user" in report, report

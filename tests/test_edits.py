@@ -30,8 +30,10 @@ CASES = {
         "res = model.fit()\n"
         "print(res.summary())\n"
     ),
-    "nonrobust": HEAD + 'res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="nonrobust")\nprint(res.pvalues)\n',
-    "multiline": HEAD + 'res = smf.ols("riders ~ fare", data=crossings).fit(\n    method="qr",\n)\nprint(res.pvalues)\n',
+    "nonrobust": HEAD
+    + 'res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="nonrobust")\nprint(res.pvalues)\n',
+    "multiline": HEAD
+    + 'res = smf.ols("riders ~ fare", data=crossings).fit(\n    method="qr",\n)\nprint(res.pvalues)\n',
     "function": (
         "import statsmodels.formula.api as smf\n\n\n"
         "def ridership(crossings):\n"
@@ -46,9 +48,9 @@ CASES = {
     "non_ascii": HEAD.replace("\n\n", "\n\n# Überfahrten je Fähre – ferry crossings 🚢\n")
     + 'tag = "⛴ 🚢"; r_ü = smf.ols("riders ~ fare", data=crossings).fit()  # Fährpreis\n'
     + "print(r_ü.summary())\n",
-    "crlf": (HEAD + 'res = smf.ols("riders ~ fare", data=crossings).fit(\n    method="qr",\n)  \nprint(res.pvalues)\n').replace(
-        "\n", "\r\n"
-    ),
+    "crlf": (
+        HEAD + 'res = smf.ols("riders ~ fare", data=crossings).fit(\n    method="qr",\n)  \nprint(res.pvalues)\n'
+    ).replace("\n", "\r\n"),
     "docstring_future": (
         '"""Ferry ridership against fares."""\n\nfrom __future__ import annotations\n\n'
         + HEAD
@@ -151,7 +153,7 @@ def test_waivers_waive_both_findings_in_one_comment(name):
     for rule in ("no-form-test", "no-variance-test"):
         (f,) = [f for f in analyze(twice, "ferry.py").findings if f.rule == rule]
         assert f.waived and f.reason == "REASON"
-    (removed, added), = changes(old, twice)
+    ((removed, added),) = changes(old, twice)
     assert removed == "" and added.strip() == "# regvet: waive no-form-test, no-variance-test because REASON"
 
 
@@ -183,9 +185,15 @@ def test_libcst_positions_are_code_points_with_exclusive_end_and_no_parentheses(
         ('m.fit(method="qr",)', 'm.fit(method="qr", cov_type="HC3",)'),
         ('m.fit(\n    method="qr",\n)', 'm.fit(\n    method="qr",\n    cov_type="HC3",\n)'),
         ('m.fit(\n    method="qr"\n)', 'm.fit(\n    method="qr",\n    cov_type="HC3"\n)'),
-        ('m.fit(  # options\n    method="qr",  # solver\n)', 'm.fit(  # options\n    method="qr",  # solver\n    cov_type="HC3",\n)'),
+        (
+            'm.fit(  # options\n    method="qr",  # solver\n)',
+            'm.fit(  # options\n    method="qr",  # solver\n    cov_type="HC3",\n)',
+        ),
         ('m.fit(\n    method="qr"  # solver\n)', 'm.fit(\n    method="qr",  # solver\n    cov_type="HC3"\n)'),
-        ('m.fit(\n    method="qr",\n\n    disp=0,\n)', 'm.fit(\n    method="qr",\n\n    disp=0,\n    cov_type="HC3",\n)'),
+        (
+            'm.fit(\n    method="qr",\n\n    disp=0,\n)',
+            'm.fit(\n    method="qr",\n\n    disp=0,\n    cov_type="HC3",\n)',
+        ),
         ('m.fit(method="qr",\n      disp=0)', 'm.fit(method="qr",\n      disp=0,\n      cov_type="HC3")'),
         ("m.fit(cov_type='nonrobust')", "m.fit(cov_type='HC3')"),
         ('m.fit(cov_type="HC1", use_t=True)', 'm.fit(cov_type="HC3", use_t=True)'),
@@ -274,7 +282,10 @@ def test_import_goes_after_the_last_import_before_the_fit():
 def test_import_goes_after_docstring_and_future_import():
     old = '"""Ferry ridership."""\nfrom __future__ import annotations\n\n# the model\nres = m.fit()\n'
     new = insert_after_statement(old, Span(5, 0, 5, 13), "check(res)", (("pkg", "check"),))
-    assert new == '"""Ferry ridership."""\nfrom __future__ import annotations\nfrom pkg import check\n\n# the model\nres = m.fit()\ncheck(res)\n'
+    assert (
+        new
+        == '"""Ferry ridership."""\nfrom __future__ import annotations\nfrom pkg import check\n\n# the model\nres = m.fit()\ncheck(res)\n'
+    )
 
 
 def test_import_goes_after_the_docstring_or_below_leading_comments_when_there_is_no_import():
@@ -290,8 +301,14 @@ def test_import_goes_after_the_docstring_or_below_leading_comments_when_there_is
 @pytest.mark.parametrize(
     "imports, expected",
     [
-        ("from statsmodels.stats.diagnostic import het_white\n", "from statsmodels.stats.diagnostic import het_white, linear_reset\n"),
-        ("from statsmodels.stats.diagnostic import (het_white)\n", "from statsmodels.stats.diagnostic import (het_white, linear_reset)\n"),
+        (
+            "from statsmodels.stats.diagnostic import het_white\n",
+            "from statsmodels.stats.diagnostic import het_white, linear_reset\n",
+        ),
+        (
+            "from statsmodels.stats.diagnostic import (het_white)\n",
+            "from statsmodels.stats.diagnostic import (het_white, linear_reset)\n",
+        ),
         (
             "from statsmodels.stats.diagnostic import (\n    het_white,\n)\n",
             "from statsmodels.stats.diagnostic import (\n    het_white,\n    linear_reset,\n)\n",
@@ -328,7 +345,9 @@ def test_a_name_already_bound_by_an_import_is_not_imported_again(imports):
 def test_two_imports_from_one_module():
     old = "import statsmodels.api as sm\nres = m.fit()\n"
     new = insert_after_statement(old, Span(2, 0, 2, 13), "check(res)", (RESET_IMPORT, BP_IMPORT))
-    assert new.startswith("import statsmodels.api as sm\nfrom statsmodels.stats.diagnostic import linear_reset, het_breuschpagan\n")
+    assert new.startswith(
+        "import statsmodels.api as sm\nfrom statsmodels.stats.diagnostic import linear_reset, het_breuschpagan\n"
+    )
 
 
 # --- add_waiver -------------------------------------------------------------------------------
@@ -341,7 +360,10 @@ def test_waiver_goes_above_the_statement_at_its_indentation():
     assert new.index("regvet") > new.index("# fit it")
 
 
-MULTI = HEAD + 'results = {\n    "fare": smf.ols("riders ~ fare", data=crossings).fit(),  # first\n}\nprint(results["fare"].summary())\n'
+MULTI = (
+    HEAD
+    + 'results = {\n    "fare": smf.ols("riders ~ fare", data=crossings).fit(),  # first\n}\nprint(results["fare"].summary())\n'
+)
 
 
 def test_waiver_inside_a_multiline_statement_is_a_trailing_comment_and_waives():
@@ -363,7 +385,10 @@ def test_waiver_inside_a_multiline_statement_is_a_trailing_comment_and_waives():
 
 def test_trailing_waiver_without_a_comment_and_with_trailing_spaces_and_crlf():
     old = "x = f(\r\n    m.fit(),   \r\n)\r\n"
-    assert add_waiver(old, 2, "no-form-test") == "x = f(\r\n    m.fit(),  # regvet: waive no-form-test because REASON   \r\n)\r\n"
+    assert (
+        add_waiver(old, 2, "no-form-test")
+        == "x = f(\r\n    m.fit(),  # regvet: waive no-form-test because REASON   \r\n)\r\n"
+    )
 
 
 @pytest.mark.parametrize(
@@ -394,7 +419,7 @@ def test_a_waiver_placed_above_a_line_inside_brackets_is_honoured():
 
 
 def test_no_waiver_where_no_line_can_hold_one():
-    old = "x = 1 + \\\n    f(\"\"\"a\n    b\"\"\") + m.fit()\n"
+    old = 'x = 1 + \\\n    f("""a\n    b""") + m.fit()\n'
     with pytest.raises(EditError):
         add_waiver(old, 2, "no-form-test")
 
@@ -410,7 +435,10 @@ def test_no_waiver_where_no_line_can_hold_one():
             "res = m.fit()  # regvet: waive no-form-test because fixed fares\n",
             "res = m.fit()  # regvet: waive no-form-test, no-variance-test because fixed fares\n",
         ),
-        ("# regvet:waive no-form-test\nres = m.fit()\n", "# regvet:waive no-form-test, no-variance-test because REASON\n"),
+        (
+            "# regvet:waive no-form-test\nres = m.fit()\n",
+            "# regvet:waive no-form-test, no-variance-test because REASON\n",
+        ),
         (
             "# regvet: waive no-form-test  # expect: x\nres = m.fit()\n",
             "# regvet: waive no-form-test, no-variance-test because REASON  # expect: x\n",
@@ -427,12 +455,18 @@ def test_an_existing_waiver_gets_the_rule(old, expected):
     "old, expected",
     [
         # an existing waiver in the old ` -- reason` form is rewritten with `because` as the rule is added
-        ("# regvet: waive no-form-test -- fixed fares\nres = m.fit()\n",
-         "# regvet: waive no-form-test, no-variance-test because fixed fares\n"),
-        ("res = m.fit()  # regvet: waive no-form-test: fixed fares  # expect: x\n",
-         "res = m.fit()  # regvet: waive no-form-test, no-variance-test because fixed fares  # expect: x\n"),
-        ("# regvet: waive no-variance-test -- fixed fares\nres = m.fit()\n",
-         "# regvet: waive no-variance-test because fixed fares\n"),
+        (
+            "# regvet: waive no-form-test -- fixed fares\nres = m.fit()\n",
+            "# regvet: waive no-form-test, no-variance-test because fixed fares\n",
+        ),
+        (
+            "res = m.fit()  # regvet: waive no-form-test: fixed fares  # expect: x\n",
+            "res = m.fit()  # regvet: waive no-form-test, no-variance-test because fixed fares  # expect: x\n",
+        ),
+        (
+            "# regvet: waive no-variance-test -- fixed fares\nres = m.fit()\n",
+            "# regvet: waive no-variance-test because fixed fares\n",
+        ),
     ],
 )
 def test_an_existing_waiver_in_another_form_is_rewritten_when_the_rule_is_added(old, expected):
@@ -470,7 +504,9 @@ def test_a_file_wide_waiver_or_a_waiver_two_lines_up_is_not_merged():
     assert add_waiver(old, 3, "no-variance-test").count("regvet:") == 2
 
 
-@pytest.mark.parametrize("rule, reason", [("No Form", "r"), ("no-form-test", "a # b"), ("no-form-test", "a\nb"), ("no-form-test", " ")])
+@pytest.mark.parametrize(
+    "rule, reason", [("No Form", "r"), ("no-form-test", "a # b"), ("no-form-test", "a\nb"), ("no-form-test", " ")]
+)
 def test_add_waiver_refuses_what_a_waiver_cannot_hold(rule, reason):
     with pytest.raises(EditError):
         add_waiver("res = m.fit()\n", 1, rule, reason)

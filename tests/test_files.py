@@ -36,9 +36,12 @@ RAW_NAME = b"harb\xe9our.py"
 def _regvet(*args: str, cwd: Path, timeout: float = 60) -> subprocess.CompletedProcess[bytes]:
     """A real ``regvet`` process; a hang fails the test through the timeout instead of stalling it."""
     return subprocess.run(
-        [sys.executable, "-m", "regvet", *args], cwd=cwd, capture_output=True, timeout=timeout,
+        [sys.executable, "-m", "regvet", *args],
+        cwd=cwd,
+        capture_output=True,
+        timeout=timeout,
         env={**os.environ, "PYTHONIOENCODING": "utf-8"},
-    )  # fmt: skip
+    )
 
 
 @pytest.fixture
@@ -81,8 +84,12 @@ def test_a_scan_of_the_hostile_folder_finishes_with_notes_and_the_good_files_fin
     err = proc.stderr.decode()
     assert "Traceback" not in err
     assert proc.returncode == 1, err  # the good file's findings, not a crash (3) or a usage error (2)
-    for name, why in [("pipe.py", "a named pipe (FIFO)"), ("loop_a.py", "a symbolic link loop"),
-                      ("null.py", "a character device"), ("broken.py", "a broken symbolic link")]:  # fmt: skip
+    for name, why in [
+        ("pipe.py", "a named pipe (FIFO)"),
+        ("loop_a.py", "a symbolic link loop"),
+        ("null.py", "a character device"),
+        ("broken.py", "a broken symbolic link"),
+    ]:
         assert f"regvet: skipped src/{name}: {why}" in err
     assert b"ferries.py" in proc.stdout
     if fmt in ("json", "sarif"):
@@ -349,9 +356,12 @@ def test_an_ascii_locale_does_not_break_any_format(tmp_path, fmt):
     (tmp_path / ".git").mkdir()
     (tmp_path / "Ålesund.py").write_text(FIT)
     proc = subprocess.run(
-        [sys.executable, "-m", "regvet", "check", ".", "--format", fmt, "--no-cache"], cwd=tmp_path,
-        capture_output=True, timeout=60, env={**os.environ, "PYTHONIOENCODING": "ascii"},
-    )  # fmt: skip
+        [sys.executable, "-m", "regvet", "check", ".", "--format", fmt, "--no-cache"],
+        cwd=tmp_path,
+        capture_output=True,
+        timeout=60,
+        env={**os.environ, "PYTHONIOENCODING": "ascii"},
+    )
     assert proc.returncode == 1, proc.stderr
     if fmt in ("json", "sarif"):  # UTF-8 by definition, whatever the locale
         json.loads(proc.stdout.decode("utf-8"))

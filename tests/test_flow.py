@@ -50,36 +50,55 @@ def _check(report, code: str, rules: tuple[str, ...]) -> None:
 
 # --- containers and loops --------------------------------------------------------------------
 CONTAINERS = [
-    case("list-loop-checks-each", """
+    case(
+        "list-loop-checks-each",
+        """
         small = smf.ols("riders ~ fare", data=crossings).fit()
         large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         for res in [small, large]:
             print(het_breuschpagan(res.resid, res.model.exog))
         print(small.summary(), large.summary())
-    """, VAR),
-    case("list-loop-checks-one-only", """
+    """,
+        VAR,
+    ),
+    case(
+        "list-loop-checks-one-only",
+        """
         small = smf.ols("riders ~ fare", data=crossings).fit()
         large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test
         for res in [small]:
             print(het_breuschpagan(res.resid, res.model.exog))
         print(small.summary(), large.summary())
-    """, VAR),
-    case("list-built-by-append", """
+    """,
+        VAR,
+    ),
+    case(
+        "list-built-by-append",
+        """
         fits = []
         for formula in ["riders ~ fare", "riders ~ fare + wind_speed"]:
             fits.append(smf.ols(formula, data=crossings).fit())
         for res in fits:
             print(linear_reset(res, power=3, use_f=True), het_white(res.resid, res.model.exog))
             print(res.summary())
-    """, VAR, FORM),
-    case("tuple-unpacked", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "tuple-unpacked",
+        """
         pair = (smf.ols("riders ~ fare", data=crossings).fit(), smf.ols("riders ~ wind_speed", data=crossings).fit())
         first, second = pair
         het_breuschpagan(first.resid, first.model.exog)
         het_white(second.resid, second.model.exog)
         print(first.summary(), second.summary())
-    """, VAR),
-    case("tuple-unpacked-unchecked-second", """
+    """,
+        VAR,
+    ),
+    case(
+        "tuple-unpacked-unchecked-second",
+        """
         pair = (
             smf.ols("riders ~ fare", data=crossings).fit(),
             smf.ols("riders ~ wind_speed", data=crossings).fit(),  # expect: no-variance-test
@@ -87,8 +106,12 @@ CONTAINERS = [
         first, second = pair
         het_breuschpagan(first.resid, first.model.exog)
         print(first.summary(), second.summary())
-    """, VAR),
-    case("dict-items-loop", """
+    """,
+        VAR,
+    ),
+    case(
+        "dict-items-loop",
+        """
         fits = {
             "fare": smf.ols("riders ~ fare", data=crossings).fit(),
             "weather": smf.ols("riders ~ fare + wind_speed", data=crossings).fit(),
@@ -97,96 +120,152 @@ CONTAINERS = [
             print(name, het_white(res.resid, res.model.exog))
         for res in fits.values():
             print(res.summary())
-    """, VAR),
-    case("dict-items-loop-no-check", """
+    """,
+        VAR,
+    ),
+    case(
+        "dict-items-loop-no-check",
+        """
         fits = {
             "fare": smf.ols("riders ~ fare", data=crossings).fit(),  # expect: no-variance-test
             "weather": smf.ols("riders ~ fare + wind_speed", data=crossings).fit(),  # expect: no-variance-test
         }
         for name, res in fits.items():
             print(name, res.summary())
-    """, VAR),
-    case("dict-values-loop", """
+    """,
+        VAR,
+    ),
+    case(
+        "dict-values-loop",
+        """
         fits = {"fare": smf.ols("riders ~ fare", data=crossings).fit()}
         fits["weather"] = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()
         for res in fits.values():
             linear_reset(res, power=2)
         print(fits["fare"].params, fits["weather"].params)
-    """, FORM),
-    case("dict-subscript-checked-one", """
+    """,
+        FORM,
+    ),
+    case(
+        "dict-subscript-checked-one",
+        """
         fits = {"fare": smf.ols("riders ~ fare", data=crossings).fit()}
         fits["weather"] = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()  # expect: no-form-test
         linear_reset(fits["fare"], power=2)
         print(fits["weather"].params)
-    """, FORM),
-    case("zip-labels-and-fits", """
+    """,
+        FORM,
+    ),
+    case(
+        "zip-labels-and-fits",
+        """
         small = smf.ols("riders ~ fare", data=crossings).fit()
         large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         for label, res in zip(["small", "large"], [small, large]):
             print(label, het_breuschpagan(res.resid, res.model.exog))
         print(small.summary(), large.summary())
-    """, VAR),
-    case("enumerate-fits", """
+    """,
+        VAR,
+    ),
+    case(
+        "enumerate-fits",
+        """
         models = [smf.ols("riders ~ fare", data=crossings).fit(), smf.ols("riders ~ wind_speed", data=crossings).fit()]
         for i, res in enumerate(models):
             print(i, linear_reset(res, power=3), res.params)
-    """, FORM),
-    case("enumerate-wrong-position", """
+    """,
+        FORM,
+    ),
+    case(
+        "enumerate-wrong-position",
+        """
         models = [smf.ols("riders ~ fare", data=crossings).fit()]  # expect: no-form-test
         for i, res in enumerate(models):
             print(i, res.params)
-    """, FORM),
-    case("list-comprehension-of-diagnostics", """
+    """,
+        FORM,
+    ),
+    case(
+        "list-comprehension-of-diagnostics",
+        """
         small = smf.ols("riders ~ fare", data=crossings).fit()
         large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         tests = [het_breuschpagan(r.resid, r.model.exog) for r in (small, large)]
         print(small.summary(), large.summary())
-    """, VAR),
-    case("comprehension-of-fits-then-loop", """
+    """,
+        VAR,
+    ),
+    case(
+        "comprehension-of-fits-then-loop",
+        """
         formulas = ["riders ~ fare", "riders ~ fare + fuel_price"]
         fits = [smf.ols(f, data=crossings).fit() for f in formulas]
         for res in fits:
             het_breuschpagan(res.resid, res.model.exog)
             print(res.pvalues)
-    """, VAR),
-    case("comprehension-of-fits-unchecked", """
+    """,
+        VAR,
+    ),
+    case(
+        "comprehension-of-fits-unchecked",
+        """
         formulas = ["riders ~ fare", "riders ~ fare + fuel_price"]
         fits = [smf.ols(f, data=crossings).fit() for f in formulas]  # expect: no-variance-test
         for res in fits:
             print(res.pvalues)
-    """, VAR),
-    case("dict-comprehension-of-diagnostics", """
+    """,
+        VAR,
+    ),
+    case(
+        "dict-comprehension-of-diagnostics",
+        """
         fits = {
             "fare": smf.ols("riders ~ fare", data=crossings).fit(),
             "fuel": smf.ols("riders ~ fuel_price", data=crossings).fit(),
         }
         resets = {name: linear_reset(r, power=2, use_f=True) for name, r in fits.items()}
         print({name: r.params for name, r in fits.items()})
-    """, FORM),
-    case("generator-into-list", """
+    """,
+        FORM,
+    ),
+    case(
+        "generator-into-list",
+        """
         small = smf.ols("riders ~ fare", data=crossings).fit()
         large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         results = list(het_white(r.resid, r.model.exog) for r in [small, large])
         print(small.bse, large.bse)
-    """, VAR),
-    case("attribute-of-result-bound-then-checked", """
+    """,
+        VAR,
+    ),
+    case(
+        "attribute-of-result-bound-then-checked",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         resid, exog = res.resid, res.model.exog
         print(het_breuschpagan(resid, exog))
         print(res.summary())
-    """, VAR),
-    case("reassigned-name", """
+    """,
+        VAR,
+    ),
+    case(
+        "reassigned-name",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         final = res
         het_breuschpagan(final.resid, final.model.exog)
         print(res.summary())
-    """, VAR),
+    """,
+        VAR,
+    ),
 ]
 
 
 # --- functions in the same file ---------------------------------------------------------------
 FUNCTIONS = [
-    case("function-fits-and-returns", """
+    case(
+        "function-fits-and-returns",
+        """
         def fit_riders(formula):
             return smf.ols(formula, data=crossings).fit()
 
@@ -194,8 +273,12 @@ FUNCTIONS = [
         a = fit_riders("riders ~ fare")  # expect: no-variance-test
         b = fit_riders("riders ~ fare + fuel_price")  # expect: no-variance-test
         print(a.summary(), b.summary())
-    """, VAR),
-    case("function-fits-and-returns-checked-at-one-site", """
+    """,
+        VAR,
+    ),
+    case(
+        "function-fits-and-returns-checked-at-one-site",
+        """
         def fit_riders(formula):
             return smf.ols(formula, data=crossings).fit()
 
@@ -204,8 +287,12 @@ FUNCTIONS = [
         b = fit_riders("riders ~ fare + fuel_price")  # expect: no-variance-test
         het_breuschpagan(a.resid, a.model.exog)
         print(a.summary(), b.summary())
-    """, VAR),
-    case("function-runs-diagnostic-on-argument", """
+    """,
+        VAR,
+    ),
+    case(
+        "function-runs-diagnostic-on-argument",
+        """
         def check_variance(res):
             return het_breuschpagan(res.resid, res.model.exog)
 
@@ -213,16 +300,24 @@ FUNCTIONS = [
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         check_variance(res)
         print(res.summary())
-    """, VAR),
-    case("function-reads-argument-without-checking", """
+    """,
+        VAR,
+    ),
+    case(
+        "function-reads-argument-without-checking",
+        """
         def report(res):
             print(res.rsquared, res.summary())
 
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test
         report(res)
-    """, VAR),
-    case("nested-helper-runs-diagnostic", """
+    """,
+        VAR,
+    ),
+    case(
+        "nested-helper-runs-diagnostic",
+        """
         def _bp(model_result):
             return het_breuschpagan(model_result.resid, model_result.model.exog)
 
@@ -234,8 +329,13 @@ FUNCTIONS = [
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         run_checks(res)
         print(res.summary())
-    """, VAR, FORM),
-    case("nested-helper-fits", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "nested-helper-fits",
+        """
         def _fit(formula):
             return smf.ols(formula, data=crossings).fit()
 
@@ -247,8 +347,12 @@ FUNCTIONS = [
 
         res = fit_one("riders ~ fare + wind_speed")  # expect: no-form-test
         print(res.params)
-    """, FORM),
-    case("function-fits-and-checks-inside", """
+    """,
+        FORM,
+    ),
+    case(
+        "function-fits-and-checks-inside",
+        """
         def fit_checked(formula):
             res = smf.ols(formula, data=crossings).fit()
             print(het_breuschpagan(res.resid, res.model.exog))
@@ -257,8 +361,12 @@ FUNCTIONS = [
 
         res = fit_checked("riders ~ fare + fuel_price")
         print(res.summary())
-    """, VAR),
-    case("function-returns-tuple-of-fits", """
+    """,
+        VAR,
+    ),
+    case(
+        "function-returns-tuple-of-fits",
+        """
         def fit_pair():
             small = smf.ols("riders ~ fare", data=crossings).fit()
             large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
@@ -268,8 +376,12 @@ FUNCTIONS = [
         small, large = fit_pair()  # expect: no-variance-test
         het_breuschpagan(small.resid, small.model.exog)
         print(small.summary(), large.summary())
-    """, VAR),
-    case("function-applied-in-loop", """
+    """,
+        VAR,
+    ),
+    case(
+        "function-applied-in-loop",
+        """
         def check_variance(res):
             return het_white(res.resid, res.model.exog)
 
@@ -278,8 +390,12 @@ FUNCTIONS = [
         for res in fits:
             check_variance(res)
         print([r.summary() for r in fits])
-    """, VAR),
-    case("map-with-diagnostic-helper", """
+    """,
+        VAR,
+    ),
+    case(
+        "map-with-diagnostic-helper",
+        """
         def check_form(res):
             return linear_reset(res, power=3, use_f=True)
 
@@ -287,8 +403,12 @@ FUNCTIONS = [
         fits = [smf.ols("riders ~ fare", data=crossings).fit(), smf.ols("riders ~ fuel_price", data=crossings).fit()]
         resets = list(map(check_form, fits))
         print([r.params for r in fits])
-    """, FORM),
-    case("fit-function-in-comprehension", """
+    """,
+        FORM,
+    ),
+    case(
+        "fit-function-in-comprehension",
+        """
         def fit_riders(formula):
             return smf.ols(formula, data=crossings).fit()
 
@@ -296,8 +416,12 @@ FUNCTIONS = [
         formulas = ("riders ~ fare", "riders ~ fare + fuel_price")
         fits = [fit_riders(f) for f in formulas]  # expect: no-form-test
         print([r.params for r in fits])
-    """, FORM),
-    case("fit-function-in-loop-checked", """
+    """,
+        FORM,
+    ),
+    case(
+        "fit-function-in-loop-checked",
+        """
         def fit_riders(formula):
             return smf.ols(formula, data=crossings).fit()
 
@@ -305,14 +429,22 @@ FUNCTIONS = [
         for formula in ("riders ~ fare", "riders ~ fare + fuel_price"):
             res = fit_riders(formula)
             print(linear_reset(res, power=3), res.params)
-    """, FORM),
-    case("check-on-robust-copy-counts-for-original", """
+    """,
+        FORM,
+    ),
+    case(
+        "check-on-robust-copy-counts-for-original",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         robust = res.get_robustcov_results(cov_type="HC3")
         het_breuschpagan(robust.resid, robust.model.exog)
         print(res.summary())
-    """, VAR),
-    case("function-appends-to-global-list", """
+    """,
+        VAR,
+    ),
+    case(
+        "function-appends-to-global-list",
+        """
         results = []
 
 
@@ -325,9 +457,13 @@ FUNCTIONS = [
         for res in results:
             het_breuschpagan(res.resid, res.model.exog)
             print(res.summary())
-    """, VAR),
+    """,
+        VAR,
+    ),
     # not returned: the fit stays at its `.fit` inside the function
-    case("function-appends-to-global-list-unchecked", """
+    case(
+        "function-appends-to-global-list-unchecked",
+        """
         results = []
 
 
@@ -338,8 +474,12 @@ FUNCTIONS = [
         run("riders ~ fare")
         for res in results:
             print(res.summary())
-    """, VAR),
-    case("method-of-a-class", """
+    """,
+        VAR,
+    ),
+    case(
+        "method-of-a-class",
+        """
         class RidershipModel:
             def __init__(self, formula):
                 self.res = smf.ols(formula, data=crossings).fit()
@@ -351,7 +491,9 @@ FUNCTIONS = [
         m = RidershipModel("riders ~ fare + fuel_price")
         m.check()
         print(m.res.summary())
-    """, VAR),
+    """,
+        VAR,
+    ),
 ]
 
 
@@ -410,7 +552,7 @@ def test_fit_returned_through_two_functions_names_each_hop():
 
 
 # --- project modules --------------------------------------------------------------------------
-_HELPERS = '''\
+_HELPERS = """\
 from statsmodels.stats.diagnostic import het_breuschpagan
 
 
@@ -431,8 +573,8 @@ def publish(res):
     from stargazer.stargazer import Stargazer
 
     return Stargazer([res]).render_html()
-'''
-_PKG_MOD = '''\
+"""
+_PKG_MOD = """\
 import statsmodels.formula.api as smf
 
 from .diag import white_test
@@ -450,21 +592,21 @@ def fit_and_check(formula, data):
     res = smf.ols(formula, data=data).fit()
     white_test(res)
     return res
-'''
-_PKG_DIAG = '''\
+"""
+_PKG_DIAG = """\
 from statsmodels.stats.diagnostic import het_white
 
 
 def white_test(res):
     return het_white(res.resid, res.model.exog)
-'''
-_ROOT_LIB = '''\
+"""
+_ROOT_LIB = """\
 from statsmodels.stats.diagnostic import linear_reset
 
 
 def reset(res):
     return linear_reset(res, power=3, use_f=True)
-'''
+"""
 
 
 @pytest.fixture
@@ -491,78 +633,129 @@ def project(tmp_path: Path):
 
 _MAIN_HEAD = 'import pandas as pd\n\ncrossings = pd.read_csv("crossings.csv")\n'
 MODULE_CASES = [
-    pytest.param("""
+    pytest.param(
+        """
         import statsmodels.formula.api as smf
         from helpers import check_variance
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         check_variance(res)
         print(res.summary())
-    """, "main.py", (VAR,), id="from-helpers-import-diagnostic"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="from-helpers-import-diagnostic",
+    ),
+    pytest.param(
+        """
         import statsmodels.formula.api as smf
         from helpers import describe
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test
         describe(res)
         print(res.summary())
-    """, "main.py", (VAR,), id="helper-without-diagnostic"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="helper-without-diagnostic",
+    ),
+    pytest.param(
+        """
         import statsmodels.formula.api as smf
         import helpers
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         helpers.check_variance(res)
         print(res.summary())
-    """, "main.py", (VAR,), id="import-helpers-attribute-call"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="import-helpers-attribute-call",
+    ),
+    pytest.param(
+        """
         import statsmodels.formula.api as smf
         from .helpers import check_variance
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         check_variance(res)
         print(res.summary())
-    """, "main.py", (VAR,), id="relative-import-from-main"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="relative-import-from-main",
+    ),
+    pytest.param(
+        """
         from pkg.mod import fit_riders
 
         res = fit_riders("riders ~ fare + fuel_price", crossings)  # expect: no-variance-test, no-form-test
         print(res.summary())
-    """, "main.py", (VAR, FORM), id="fit-made-in-package-module"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR, FORM),
+        id="fit-made-in-package-module",
+    ),
+    pytest.param(
+        """
         import pkg.mod
 
         res = pkg.mod.fit_riders("riders ~ fare + fuel_price", crossings)  # expect: no-variance-test
         print(res.summary())
-    """, "main.py", (VAR,), id="import-pkg.mod-attribute-call"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="import-pkg.mod-attribute-call",
+    ),
+    pytest.param(
+        """
         from pkg import mod
 
         res = mod.fit_riders("riders ~ fare", crossings)  # expect: no-variance-test
         print(res.summary())
-    """, "main.py", (VAR,), id="from-pkg-import-mod"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="from-pkg-import-mod",
+    ),
+    pytest.param(
+        """
         import statsmodels.api as sm
         from pkg import mod
 
         res = mod.fit_riders("riders ~ fare", crossings)  # expect: no-variance-test
         print(res.summary(), sm.__name__)
-    """, "main.py", (VAR,), id="from-pkg-import-mod-statsmodels-in-main"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="from-pkg-import-mod-statsmodels-in-main",
+    ),
+    pytest.param(
+        """
         from helpers import check_variance
         from pkg.mod import fit_riders
 
         res = fit_riders("riders ~ fare + fuel_price", crossings)
         check_variance(res)
         print(res.summary())
-    """, "main.py", (VAR,), id="fit-in-one-module-checked-in-another"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="fit-in-one-module-checked-in-another",
+    ),
+    pytest.param(
+        """
         from pkg.mod import fit_and_check
 
         res = fit_and_check("riders ~ fare + fuel_price", crossings)  # expect: no-form-test
         print(res.summary())
-    """, "main.py", (VAR, FORM), id="relative-import-inside-package"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR, FORM),
+        id="relative-import-inside-package",
+    ),
+    pytest.param(
+        """
         import statsmodels.formula.api as smf
         from ferrylib import reset
         from local_checks import check_variance
@@ -571,8 +764,13 @@ MODULE_CASES = [
         reset(res)
         check_variance(res)
         print(res.summary())
-    """, "scripts/main.py", (VAR, FORM), id="script-folder-and-scanned-root"),
-    pytest.param("""
+    """,
+        "scripts/main.py",
+        (VAR, FORM),
+        id="script-folder-and-scanned-root",
+    ),
+    pytest.param(
+        """
         import statsmodels.formula.api as smf
         from helpers import check_all
 
@@ -580,8 +778,13 @@ MODULE_CASES = [
         large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         check_all([small, large])
         print(small.summary(), large.summary())
-    """, "main.py", (VAR,), id="helper-loops-over-list-argument"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR,),
+        id="helper-loops-over-list-argument",
+    ),
+    pytest.param(
+        """
         from helpers import check_variance
         from pkg.mod import fit_all
 
@@ -589,15 +792,24 @@ MODULE_CASES = [
         for name, res in fits.items():
             check_variance(res)
             print(name, res.summary())
-    """, "main.py", (VAR, FORM), id="module-returns-dict-of-fits"),
-    pytest.param("""
+    """,
+        "main.py",
+        (VAR, FORM),
+        id="module-returns-dict-of-fits",
+    ),
+    pytest.param(
+        """
         import statsmodels.formula.api as smf
         from ferry_unknown_lib import check_variance
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test
         check_variance(res)
         print(res.summary())
-    """, "main.py", (VAR,), id="module-not-in-project"),
+    """,
+        "main.py",
+        (VAR,),
+        id="module-not-in-project",
+    ),
 ]
 
 
@@ -661,26 +873,43 @@ def test_fit_made_in_package_module_points_into_it(project):
 
 # --- escapes and diagnostic_helpers -----------------------------------------------------------
 ESCAPES = [
-    case("third-party-table", """
+    case(
+        "third-party-table",
+        """
         from stargazer.stargazer import Stargazer
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         html = Stargazer([res]).render_html()
-    """, VAR, FORM),
-    case("callable-from-unknown-registry", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "callable-from-unknown-registry",
+        """
         from ferry_checks import CHECKS
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         for check in CHECKS:
             check(res)
-    """, VAR, FORM),
-    case("getattr-on-unknown-module", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "getattr-on-unknown-module",
+        """
         import ferry_reports
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         getattr(ferry_reports, "publish")(res)
-    """, VAR, FORM),
-    case("callable-parameter", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "callable-parameter",
+        """
         from ferry_reports import load_reporter
 
 
@@ -690,14 +919,22 @@ ESCAPES = [
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         apply(load_reporter("html"), res)
-    """, VAR, FORM),
-    case("method-of-dynamically-imported-module", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "method-of-dynamically-imported-module",
+        """
         import importlib
 
         reports = importlib.import_module("ferry_reports")
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         reports.publish(res)
-    """, VAR, FORM),
+    """,
+        VAR,
+        FORM,
+    ),
 ]
 
 
@@ -732,50 +969,86 @@ def test_finding_without_escape_does_not_mention_diagnostic_helpers():
 
 _OURLIB = Settings(diagnostic_helpers=(("ourlib.check_fit", ("form", "variance")),))
 HELPERS = [
-    case("configured-helper-from-import", """
+    case(
+        "configured-helper-from-import",
+        """
         from ourlib import check_fit
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         check_fit(res)
         print(res.summary())
-    """, VAR, FORM, settings=_OURLIB),
-    case("configured-helper-module-alias", """
+    """,
+        VAR,
+        FORM,
+        settings=_OURLIB,
+    ),
+    case(
+        "configured-helper-module-alias",
+        """
         import ourlib as ol
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         ol.check_fit(res)
         print(res.summary())
-    """, VAR, FORM, settings=_OURLIB),
-    case("configured-helper-in-loop", """
+    """,
+        VAR,
+        FORM,
+        settings=_OURLIB,
+    ),
+    case(
+        "configured-helper-in-loop",
+        """
         from ourlib import check_fit
 
         fits = [smf.ols("riders ~ fare", data=crossings).fit(), smf.ols("riders ~ wind_speed", data=crossings).fit()]
         for res in fits:
             check_fit(res)
             print(res.summary())
-    """, VAR, FORM, settings=_OURLIB),
-    case("configured-helper-covers-only-its-families", """
+    """,
+        VAR,
+        FORM,
+        settings=_OURLIB,
+    ),
+    case(
+        "configured-helper-covers-only-its-families",
+        """
         from ourlib import check_fit
 
         weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
         res = smf.ols("riders ~ fare + fuel_price", data=weekly).fit()  # expect: no-serial-test
         check_fit(res)
         print(res.summary())
-    """, VAR, FORM, SERIAL, settings=_OURLIB),
-    case("helper-not-configured", """
+    """,
+        VAR,
+        FORM,
+        SERIAL,
+        settings=_OURLIB,
+    ),
+    case(
+        "helper-not-configured",
+        """
         from ourlib import check_fit
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         check_fit(res)
         print(res.summary())
-    """, VAR, FORM),
-    case("other-function-of-configured-module", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "other-function-of-configured-module",
+        """
         from ourlib import plot_fit
 
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test, no-form-test
         plot_fit(res)
         print(res.summary())
-    """, VAR, FORM, settings=_OURLIB),
+    """,
+        VAR,
+        FORM,
+        settings=_OURLIB,
+    ),
 ]
 
 
@@ -790,33 +1063,59 @@ _TWO_ARRAY_FITS = """
     X2 = sm.add_constant(crossings[["fare", "fuel_price"]])
 """
 MISMATCHES = [
-    case("resid-of-one-exog-of-other", _TWO_ARRAY_FITS + """
+    case(
+        "resid-of-one-exog-of-other",
+        _TWO_ARRAY_FITS
+        + """
     res1 = sm.OLS(crossings["riders"], X1).fit()  # expect: no-variance-test
     res2 = sm.OLS(crossings["riders"], X2).fit()  # expect: no-variance-test
     print(het_breuschpagan(res2.resid, res1.model.exog))  # expect: mismatched-diagnostic
     print(res1.summary(), res2.summary())
-    """, MISMATCH, VAR),
-    case("resid-of-one-design-matrix-of-other", _TWO_ARRAY_FITS + """
+    """,
+        MISMATCH,
+        VAR,
+    ),
+    case(
+        "resid-of-one-design-matrix-of-other",
+        _TWO_ARRAY_FITS
+        + """
     res1 = sm.OLS(crossings["riders"], X1).fit()
     res2 = sm.OLS(crossings["riders"], X2).fit()  # expect: no-variance-test
     print(het_white(res2.resid, X1))  # expect: mismatched-diagnostic
     het_breuschpagan(res1.resid, X1)
     print(res1.summary(), res2.summary())
-    """, MISMATCH, VAR),
-    case("same-fit-resid-and-design", _TWO_ARRAY_FITS + """
+    """,
+        MISMATCH,
+        VAR,
+    ),
+    case(
+        "same-fit-resid-and-design",
+        _TWO_ARRAY_FITS
+        + """
     res1 = sm.OLS(crossings["riders"], X1).fit()
     res2 = sm.OLS(crossings["riders"], X2).fit()
     het_breuschpagan(res1.resid, res1.model.exog)
     het_breuschpagan(res2.resid, X2)
     print(res1.summary(), res2.summary())
-    """, MISMATCH, VAR),
-    case("robust-copy-shares-residuals", """
+    """,
+        MISMATCH,
+        VAR,
+    ),
+    case(
+        "robust-copy-shares-residuals",
+        """
     res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
     robust = res.get_robustcov_results(cov_type="HC1")
     het_breuschpagan(robust.resid, res.model.exog)
     print(res.summary())
-    """, MISMATCH, VAR),
-    case("mismatch-inside-helper", _TWO_ARRAY_FITS + """
+    """,
+        MISMATCH,
+        VAR,
+    ),
+    case(
+        "mismatch-inside-helper",
+        _TWO_ARRAY_FITS
+        + """
     def bp(resid, exog):
         return het_breuschpagan(resid, exog)  # expect: mismatched-diagnostic
 
@@ -824,20 +1123,33 @@ MISMATCHES = [
     res1 = sm.OLS(crossings["riders"], X1).fit()
     res2 = sm.OLS(crossings["riders"], X2).fit()
     bp(res2.resid, res1.model.exog)
-    """, MISMATCH),
-    case("formula-fits-mismatched", """
+    """,
+        MISMATCH,
+    ),
+    case(
+        "formula-fits-mismatched",
+        """
     level = smf.ols("riders ~ fare", data=crossings).fit()  # expect: no-variance-test
     weather = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()  # expect: no-variance-test
     het_white(level.resid, weather.model.exog)  # expect: mismatched-diagnostic
     print(level.summary(), weather.summary())
-    """, MISMATCH, VAR),
-    case("mismatch-paired-by-zip", _TWO_ARRAY_FITS + """
+    """,
+        MISMATCH,
+        VAR,
+    ),
+    case(
+        "mismatch-paired-by-zip",
+        _TWO_ARRAY_FITS
+        + """
     res1 = sm.OLS(crossings["riders"], X1).fit()  # expect: no-variance-test
     res2 = sm.OLS(crossings["riders"], X2).fit()  # expect: no-variance-test
     for r, other in zip([res1, res2], [res2, res1]):
         het_white(r.resid, other.model.exog)  # expect: mismatched-diagnostic
     print(res1.summary(), res2.summary())
-    """, MISMATCH, VAR),
+    """,
+        MISMATCH,
+        VAR,
+    ),
 ]
 
 
@@ -848,51 +1160,87 @@ def test_mismatched_diagnostics(code, rules, settings):
 
 # --- robust covariance ------------------------------------------------------------------------
 ROBUST = [
-    case("default-covariance-flagged", """
+    case(
+        "default-covariance-flagged",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test
         print(res.summary())
-    """, VAR),
-    case("explicit-nonrobust-flagged", """
+    """,
+        VAR,
+    ),
+    case(
+        "explicit-nonrobust-flagged",
+        """
         model = smf.ols("riders ~ fare + fuel_price", data=crossings)
         res = model.fit(cov_type="nonrobust")  # expect: no-variance-test
         print(res.summary())
-    """, VAR),
-    case("cov_type-HC3", """
+    """,
+        VAR,
+    ),
+    case(
+        "cov_type-HC3",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit(cov_type="HC3")
         print(res.summary())
-    """, VAR),
-    case("cov_type-cluster", """
+    """,
+        VAR,
+    ),
+    case(
+        "cov_type-cluster",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit(
             cov_type="cluster", cov_kwds={"groups": crossings["route"]}
         )
         print(res.summary())
-    """, VAR),
-    case("get_robustcov_results-HC1", """
+    """,
+        VAR,
+    ),
+    case(
+        "get_robustcov_results-HC1",
+        """
         base = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         robust = base.get_robustcov_results(cov_type="HC1")
         print(robust.summary())
-    """, VAR),
-    case("get_robustcov_results-positional", """
+    """,
+        VAR,
+    ),
+    case(
+        "get_robustcov_results-positional",
+        """
         X = sm.add_constant(crossings[["fare", "wind_speed"]])
         robust = sm.OLS(crossings["riders"], X).fit().get_robustcov_results("HC3")
         print(robust.pvalues)
-    """, VAR),
-    case("bse-read", """
+    """,
+        VAR,
+    ),
+    case(
+        "bse-read",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test
         print(res.params / res.bse)
-    """, VAR),
-    case("HC3_se-read", """
+    """,
+        VAR,
+    ),
+    case(
+        "HC3_se-read",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.params / res.HC3_se)
-    """, VAR),
-    case("robust-fit-in-function", """
+    """,
+        VAR,
+    ),
+    case(
+        "robust-fit-in-function",
+        """
         def fit_robust(formula):
             return smf.ols(formula, data=crossings).fit(cov_type="HC3")
 
 
         res = fit_robust("riders ~ fare + fuel_price")
         print(res.summary())
-    """, VAR),
+    """,
+        VAR,
+    ),
 ]
 
 
@@ -903,94 +1251,158 @@ def test_robust_covariance(code, rules, settings):
 
 # --- time-ordered data ------------------------------------------------------------------------
 TIME = [
-    case("parse_dates", """
+    case(
+        "parse_dates",
+        """
         weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
         res = smf.ols("riders ~ fare + fuel_price", data=weekly).fit()  # expect: no-serial-test
         print(res.summary())
-    """, SERIAL),
-    case("shift-column", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "shift-column",
+        """
         crossings["riders_prev"] = crossings["riders"].shift(1)
         res = smf.ols("riders ~ fare + riders_prev", data=crossings.dropna()).fit()  # expect: no-serial-test
         print(res.summary())
-    """, SERIAL),
-    case("diff-column", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "diff-column",
+        """
         crossings["fare_change"] = crossings["fare"].diff()
         res = smf.ols("riders ~ fare_change + wind_speed", data=crossings).fit()  # expect: no-serial-test
         print(res.pvalues)
-    """, SERIAL),
-    case("lag-column-in-formula", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "lag-column-in-formula",
+        """
         res = smf.ols("riders ~ fare + lag_riders", data=crossings).fit()  # expect: no-serial-test
         print(res.summary())
-    """, SERIAL),
-    case("tsa-import-elsewhere-is-not-evidence", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "tsa-import-elsewhere-is-not-evidence",
+        """
         import statsmodels.tsa.api as tsa
 
         print(tsa.adfuller(crossings["riders"]))
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.summary())
-    """, SERIAL),
-    case("time-data-array-api", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "time-data-array-api",
+        """
         weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
         X = sm.add_constant(weekly[["fare", "fuel_price"]])
         res = sm.OLS(weekly["riders"], X).fit()  # expect: no-serial-test
         print(res.summary())
-    """, SERIAL),
-    case("to_datetime-then-set_index", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "to_datetime-then-set_index",
+        """
         crossings["date"] = pd.to_datetime(crossings["date"])
         daily = crossings.set_index("date")
         res = smf.ols("riders ~ fare + wind_speed", data=daily).fit()  # expect: no-serial-test
         print(res.summary())
-    """, SERIAL),
-    case("sm.tsa-attribute-elsewhere-is-not-evidence", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "sm.tsa-attribute-elsewhere-is-not-evidence",
+        """
         print(sm.tsa.acf(crossings["riders"], nlags=4))
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.summary())
-    """, SERIAL),
-    case("from-tsa-import-elsewhere-is-not-evidence", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "from-tsa-import-elsewhere-is-not-evidence",
+        """
         from statsmodels.tsa.stattools import adfuller
 
         print(adfuller(crossings["riders"]))
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.summary())
-    """, SERIAL),
-    case("time-data-estimates-only", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "time-data-estimates-only",
+        """
         weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
         res = smf.ols("riders ~ fare + fuel_price", data=weekly).fit()
         print(res.params)
-    """, SERIAL),
-    case("cross-section-not-flagged", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "cross-section-not-flagged",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.summary())
-    """, SERIAL),
-    case("HAC-covariance", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "HAC-covariance",
+        """
         weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
         res = smf.ols("riders ~ fare + fuel_price", data=weekly).fit(cov_type="HAC", cov_kwds={"maxlags": 4})
         print(res.summary())
-    """, SERIAL),
-    case("HC3-is-not-HAC", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "HC3-is-not-HAC",
+        """
         weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
         res = smf.ols("riders ~ fare + fuel_price", data=weekly).fit(cov_type="HC3")  # expect: no-serial-test
         print(res.summary())
-    """, SERIAL),
-    case("breusch-godfrey", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "breusch-godfrey",
+        """
         crossings["riders_prev"] = crossings["riders"].shift(1)
         res = smf.ols("riders ~ fare + riders_prev", data=crossings.dropna()).fit()
         print(acorr_breusch_godfrey(res, nlags=4))
         print(res.summary())
-    """, SERIAL),
-    case("durbin-watson", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "durbin-watson",
+        """
         from statsmodels.stats.stattools import durbin_watson
 
         res = smf.ols("riders ~ fare + lag_riders", data=crossings).fit()
         print(durbin_watson(res.resid))
         print(res.summary())
-    """, SERIAL),
-    case("HAC-robust-copy", """
+    """,
+        SERIAL,
+    ),
+    case(
+        "HAC-robust-copy",
+        """
         weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
         base = smf.ols("riders ~ fare + fuel_price", data=weekly).fit()
         hac = base.get_robustcov_results(cov_type="HAC", maxlags=4)
         print(hac.summary())
-    """, SERIAL),
+    """,
+        SERIAL,
+    ),
 ]
 
 
@@ -1002,39 +1414,65 @@ def test_time_ordered_data(code, rules, settings):
 # --- structural breaks ------------------------------------------------------------------------
 _SEASON = 'restricted = smf.ols("riders ~ fare + fuel_price + C(season)", data=crossings).fit()'
 BREAKS = [
-    case("intercept-shift-untested", f"""
+    case(
+        "intercept-shift-untested",
+        f"""
         {_SEASON}  # expect: no-break-test
         print(restricted.params)
-    """, BREAK),
-    case("no-group-no-finding", """
+    """,
+        BREAK,
+    ),
+    case(
+        "no-group-no-finding",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(res.params)
-    """, BREAK),
-    case("interacted-model-not-flagged", """
+    """,
+        BREAK,
+    ),
+    case(
+        "interacted-model-not-flagged",
+        """
         res = smf.ols("riders ~ (fare + fuel_price) * C(season)", data=crossings).fit()
         print(res.params)
-    """, BREAK),
-    case("anova_lm-restricted-interacted", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "anova_lm-restricted-interacted",
+        f"""
         from statsmodels.stats.anova import anova_lm
 
         {_SEASON}
         interacted = smf.ols("riders ~ (fare + fuel_price) * C(season)", data=crossings).fit()
         print(anova_lm(restricted, interacted))
         print(restricted.params)
-    """, BREAK),
-    case("sm.stats.anova_lm", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "sm.stats.anova_lm",
+        f"""
         {_SEASON}
         interacted = smf.ols("riders ~ (fare + fuel_price) * C(season)", data=crossings).fit()
         print(sm.stats.anova_lm(restricted, interacted))
         print(restricted.params)
-    """, BREAK),
-    case("compare_f_test", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "compare_f_test",
+        f"""
         {_SEASON}
         interacted = smf.ols("riders ~ fare * C(season) + fuel_price * C(season)", data=crossings).fit()
         f_value, p_value, df_diff = interacted.compare_f_test(restricted)
         print(restricted.params)
-    """, BREAK),
-    case("anova_lm-of-unrelated-models", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "anova_lm-of-unrelated-models",
+        f"""
         from statsmodels.stats.anova import anova_lm
 
         {_SEASON}  # expect: no-break-test
@@ -1042,8 +1480,12 @@ BREAKS = [
         large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         print(anova_lm(small, large))
         print(restricted.params)
-    """, BREAK),
-    case("hand-made-chow", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "hand-made-chow",
+        f"""
         {_SEASON}
         summer = smf.ols("riders ~ fare + fuel_price", data=crossings[crossings["season"] == "summer"]).fit()
         winter = smf.ols("riders ~ fare + fuel_price", data=crossings[crossings["season"] != "summer"]).fit()
@@ -1052,16 +1494,24 @@ BREAKS = [
         n = len(crossings)
         chow = ((pooled.ssr - (a.ssr + b.ssr)) / k) / ((a.ssr + b.ssr) / (n - 2 * k))
         print(chow, restricted.params)
-    """, BREAK),
-    case("hand-made-chow-with-sum", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "hand-made-chow-with-sum",
+        f"""
         {_SEASON}
         parts = [smf.ols("riders ~ fare + fuel_price", data=g).fit() for _, g in crossings.groupby("season")]
         k = 3
         unrestricted = sum(r.ssr for r in parts)
         chow = ((restricted.ssr - unrestricted) / k) / (unrestricted / (len(crossings) - 2 * k))
         print(chow, restricted.params)
-    """, BREAK),
-    case("hand-made-chow-with-sum-of-list", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "hand-made-chow-with-sum-of-list",
+        f"""
         {_SEASON}
         summer = smf.ols("riders ~ fare + fuel_price", data=crossings[crossings["season"] == "summer"]).fit()
         winter = smf.ols("riders ~ fare + fuel_price", data=crossings[crossings["season"] != "summer"]).fit()
@@ -1069,20 +1519,30 @@ BREAKS = [
         unrestricted = sum([summer.ssr, winter.ssr])
         chow = ((restricted.ssr - unrestricted) / k) / (unrestricted / (n - 2 * k))
         print(chow, restricted.params)
-    """, BREAK),
-    case("f_test-on-interacted-model", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "f_test-on-interacted-model",
+        f"""
         {_SEASON}
         interacted = smf.ols("riders ~ fare * C(season) + fuel_price", data=crossings).fit()
         print(interacted.f_test("fare:C(season)[T.winter] = 0"))
         print(restricted.params)
-    """, BREAK),
-    case("breaks_cusumolsresid", f"""
+    """,
+        BREAK,
+    ),
+    case(
+        "breaks_cusumolsresid",
+        f"""
         from statsmodels.stats.diagnostic import breaks_cusumolsresid
 
         {_SEASON}
         print(breaks_cusumolsresid(restricted.resid, ddof=int(restricted.df_model) + 1))
         print(restricted.params)
-    """, BREAK),
+    """,
+        BREAK,
+    ),
 ]
 
 
@@ -1093,57 +1553,90 @@ def test_structural_breaks(code, rules, settings):
 
 # --- hand-made tests --------------------------------------------------------------------------
 HAND_MADE = [
-    case("reset-by-auxiliary-formula", """
+    case(
+        "reset-by-auxiliary-formula",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         crossings["yhat"] = res.fittedvalues
         aux = smf.ols("riders ~ fare + fuel_price + I(yhat**2) + I(yhat**3)", data=crossings).fit()
         print(aux.f_test("I(yhat ** 2) = 0, I(yhat ** 3) = 0"))
         print(res.params)
-    """, FORM),
-    case("reset-by-column_stack", """
+    """,
+        FORM,
+    ),
+    case(
+        "reset-by-column_stack",
+        """
         X = sm.add_constant(crossings[["fare", "fuel_price"]])
         res = sm.OLS(crossings["riders"], X).fit()
         X_aux = np.column_stack([X, res.fittedvalues**2, res.fittedvalues**3])
         aux = sm.OLS(crossings["riders"], X_aux).fit()
         print(aux.compare_f_test(res))
         print(res.params)
-    """, FORM),
-    case("fitted-values-without-powers-is-not-reset", """
+    """,
+        FORM,
+    ),
+    case(
+        "fitted-values-without-powers-is-not-reset",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-form-test
         crossings["yhat"] = res.fittedvalues
         aux = smf.ols("riders ~ yhat", data=crossings).fit()
         print(res.params)
-    """, FORM),
-    case("variance-by-squared-residuals", """
+    """,
+        FORM,
+    ),
+    case(
+        "variance-by-squared-residuals",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         crossings["u2"] = res.resid**2
         aux = smf.ols("u2 ~ fare", data=crossings).fit()
         print(aux.fvalue, aux.f_pvalue)
         print(res.summary())
-    """, VAR),
-    case("auxiliary-regression-not-judged", """
+    """,
+        VAR,
+    ),
+    case(
+        "auxiliary-regression-not-judged",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit(cov_type="HC3")
         crossings["u2"] = res.resid**2
         aux = smf.ols("u2 ~ fare + fuel_price", data=crossings).fit()
         print(aux.summary())
-    """, VAR, FORM),
-    case("variance-by-np.power", """
+    """,
+        VAR,
+        FORM,
+    ),
+    case(
+        "variance-by-np.power",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         crossings["u2"] = np.power(res.resid, 2)
         aux = smf.ols("u2 ~ fare + fuel_price + I(fare**2)", data=crossings).fit()
         print(aux.f_pvalue, res.summary())
-    """, VAR),
-    case("residuals-unsquared-are-not-a-variance-test", """
+    """,
+        VAR,
+    ),
+    case(
+        "residuals-unsquared-are-not-a-variance-test",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-variance-test
         crossings["u"] = res.resid
         aux = smf.ols("u ~ wind_speed", data=crossings).fit()
         print(aux.params, res.summary())
-    """, VAR),
-    case("variance-by-assign", """
+    """,
+        VAR,
+    ),
+    case(
+        "variance-by-assign",
+        """
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         aux = smf.ols("u2 ~ fare + fuel_price", data=crossings.assign(u2=res.resid**2)).fit()
         print(aux.f_pvalue, res.summary())
-    """, VAR),
+    """,
+        VAR,
+    ),
 ]
 
 
@@ -1162,76 +1655,169 @@ _SMALL_LARGE = """
     large = smf.ols("riders ~ fare + fuel_price + wind_speed", data=crossings).fit()
 """
 COMPARES = [
-    case("max-key-rsquared-log-vs-level", _LEVEL_LOG + """
+    case(
+        "max-key-rsquared-log-vs-level",
+        _LEVEL_LOG
+        + """
     best = max([level, logged], key=lambda r: r.rsquared)  # expect: compare-across-outcomes
-    """, ACROSS, R2),
-    case("sorted-key-aic-log-vs-level", _LEVEL_LOG + """
+    """,
+        ACROSS,
+        R2,
+    ),
+    case(
+        "sorted-key-aic-log-vs-level",
+        _LEVEL_LOG
+        + """
     ranked = sorted([level, logged], key=lambda r: r.aic)  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("min-dict-get-aic", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "min-dict-get-aic",
+        _LEVEL_LOG
+        + """
     aics = {"level": level.aic, "log": logged.aic}
     best = min(aics, key=aics.get)  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("aic-difference", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "aic-difference",
+        _LEVEL_LOG
+        + """
     gain = level.aic - logged.aic  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("llf-ratio", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "llf-ratio",
+        _LEVEL_LOG
+        + """
     ratio = level.llf / logged.llf  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("comparison-operator", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "comparison-operator",
+        _LEVEL_LOG
+        + """
     if logged.rsquared_adj > level.rsquared_adj:  # expect: compare-across-outcomes
         print("log model")
-    """, ACROSS),
-    case("dict-of-fits-keyed", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "dict-of-fits-keyed",
+        _LEVEL_LOG
+        + """
     fits = {"level": level, "log": logged}
     best = max(fits, key=lambda name: fits[name].bic)  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("measure-through-function", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "measure-through-function",
+        _LEVEL_LOG
+        + """
     def score(res):
         return res.bic
 
 
     better = score(level) < score(logged)  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("sorted-dict-items-by-aic", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "sorted-dict-items-by-aic",
+        _LEVEL_LOG
+        + """
     fits = {"level": level, "log": logged}
     ranked = sorted(fits.items(), key=lambda kv: kv[1].aic)  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("max-dict-values-by-rsquared", _LEVEL_LOG + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "max-dict-values-by-rsquared",
+        _LEVEL_LOG
+        + """
     fits = {"level": level, "log": logged}
     best = max(fits.values(), key=lambda r: r.rsquared)  # expect: compare-across-outcomes
-    """, ACROSS),
-    case("same-outcome-aic-fine", _SMALL_LARGE + """
+    """,
+        ACROSS,
+    ),
+    case(
+        "same-outcome-aic-fine",
+        _SMALL_LARGE
+        + """
     best = min([small, large], key=lambda r: r.aic)
     gain = small.aic - large.aic
-    """, ACROSS, R2),
-    case("max-key-rsquared-nested", _SMALL_LARGE + """
+    """,
+        ACROSS,
+        R2,
+    ),
+    case(
+        "max-key-rsquared-nested",
+        _SMALL_LARGE
+        + """
     best = max([small, large], key=lambda r: r.rsquared)  # expect: r2-unadjusted-compare
-    """, ACROSS, R2),
-    case("sorted-key-rsquared-nested", _SMALL_LARGE + """
+    """,
+        ACROSS,
+        R2,
+    ),
+    case(
+        "sorted-key-rsquared-nested",
+        _SMALL_LARGE
+        + """
     ranked = sorted([small, large], key=lambda r: r.rsquared, reverse=True)  # expect: r2-unadjusted-compare
-    """, R2),
-    case("rsquared-operator-nested", _SMALL_LARGE + """
+    """,
+        R2,
+    ),
+    case(
+        "rsquared-operator-nested",
+        _SMALL_LARGE
+        + """
     if large.rsquared > small.rsquared:  # expect: r2-unadjusted-compare
         print("large wins")
-    """, R2),
-    case("rsquared-difference-nested", _SMALL_LARGE + """
+    """,
+        R2,
+    ),
+    case(
+        "rsquared-difference-nested",
+        _SMALL_LARGE
+        + """
     gain = large.rsquared - small.rsquared  # expect: r2-unadjusted-compare
-    """, R2),
-    case("rsquared_adj-fine", _SMALL_LARGE + """
+    """,
+        R2,
+    ),
+    case(
+        "rsquared_adj-fine",
+        _SMALL_LARGE
+        + """
     best = max([small, large], key=lambda r: r.rsquared_adj)
-    """, R2),
-    case("rsquared-same-size-fine", """
+    """,
+        R2,
+    ),
+    case(
+        "rsquared-same-size-fine",
+        """
     fare = smf.ols("riders ~ fare", data=crossings).fit()
     wind = smf.ols("riders ~ wind_speed", data=crossings).fit()
     best = max([fare, wind], key=lambda r: r.rsquared)
-    """, R2, ACROSS),
-    case("rsquared-in-loop-over-fits", _SMALL_LARGE + """
+    """,
+        R2,
+        ACROSS,
+    ),
+    case(
+        "rsquared-in-loop-over-fits",
+        _SMALL_LARGE
+        + """
     best = small
     for res in [small, large]:
         if res.rsquared > best.rsquared:  # expect: r2-unadjusted-compare
             best = res
-    """, R2),
+    """,
+        R2,
+    ),
 ]
 
 
@@ -1244,13 +1830,20 @@ def test_comparisons(code, rules, settings):
 # Each of these is a real false negative of the static analysis, kept as a strict xfail so that
 # fixing one is noticed (the test then passes and must lose its mark).
 BLIND_SPOTS = [
-    case("measures-compared-inside-a-dataframe", """
+    case(
+        "measures-compared-inside-a-dataframe",
+        """
         level = smf.ols("riders ~ fare", data=crossings).fit()
         logged = smf.ols("np.log(riders) ~ fare", data=crossings).fit()
         table = pd.DataFrame({"r2": [level.rsquared, logged.rsquared]}, index=["level", "log"])
         best = table["r2"].idxmax()  # expect: compare-across-outcomes
-    """, ACROSS, xfail="pandas operations on a table of fit measures are opaque to the collector"),
-    case("attribute-set-in-a-later-method", """
+    """,
+        ACROSS,
+        xfail="pandas operations on a table of fit measures are opaque to the collector",
+    ),
+    case(
+        "attribute-set-in-a-later-method",
+        """
         class Study:
             def report(self):
                 print(self.res.summary())
@@ -1262,8 +1855,11 @@ BLIND_SPOTS = [
         study = Study()
         study.fit()
         study.report()
-    """, VAR, xfail="methods are analysed in definition order, so `self.res` is unknown in `report`, "
-                    "which comes first; calls through instances are not followed"),
+    """,
+        VAR,
+        xfail="methods are analysed in definition order, so `self.res` is unknown in `report`, "
+        "which comes first; calls through instances are not followed",
+    ),
 ]
 
 

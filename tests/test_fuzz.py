@@ -179,7 +179,9 @@ DEEP = {
     "attributes": lambda n: b"x = a" + b".b" * n + b"\n",
     # Indented blocks: Python allows 100 levels; deeper ones are cut at 500 (the input grows as depth squared).
     "blocks": lambda n: b"".join(b" " * k + b"if x:\n" for k in range(min(n, 500))) + b" " * min(n, 500) + b"pass\n",
-    "defs": lambda n: b"".join(b" " * k + b"def f():\n" for k in range(min(n, 500))) + b" " * min(n, 500) + b"return 1\n",
+    "defs": lambda n: b"".join(b" " * k + b"def f():\n" for k in range(min(n, 500)))
+    + b" " * min(n, 500)
+    + b"return 1\n",
     "lambdas": lambda n: b"f = " + b"lambda: " * n + b"1\n",
     "dicts": lambda n: b"x = " + b"{1: " * n + b"1" + b"}" * n + b"\n",
     "subscripts": lambda n: b"x = a" + b"[0]" * n + b"\n",
@@ -187,7 +189,17 @@ DEEP = {
     "comparisons": lambda n: b"x = " + b" < ".join([b"a"] * n) + b"\n",
     "dots": lambda n: b"from " + b"." * n + b" import x\n",
 }
-COOKIES = [b"latin-1", b"utf-8", b"utf-16", b"rot13", b"undefined", b"euc-jp", b"no-such-codec", b"utf-8-sig", b"cp1252"]
+COOKIES = [
+    b"latin-1",
+    b"utf-8",
+    b"utf-16",
+    b"rot13",
+    b"undefined",
+    b"euc-jp",
+    b"no-such-codec",
+    b"utf-8-sig",
+    b"cp1252",
+]
 NOT_UTF8 = [b"\xff", b"\xfe", b"\xc3", b"\xe2\x82", b"\xed\xa0\x80", b"\x80", b"\xc0\xaf", b"\xf4\x90\x80\x80"]
 
 
@@ -224,9 +236,17 @@ def mutate(data: bytes, rnd: random.Random, how: str) -> bytes:
         return line + data if rnd.random() < 0.7 else b"#!/usr/bin/env python\n" + line + data
     if how == "huge-line":
         size = rnd.choice([10_000, 100_000, 400_000])
-        line = rnd.choice([b"x = '" + b"a" * size + b"'\n", b"#" + b"z" * size + b"\n", b"x = " + b"1+" * (size // 2) + b"1\n",
-                           b"y = [" + b"0," * (size // 2) + b"]\n", b"x = 1  # regvet: waive no-form-test" + b" " * size + b"x\n",
-                           b"x = 1" + b" " * size + b"# spaces\n", b"\t" * size + b"\n"])  # fmt: skip
+        line = rnd.choice(
+            [
+                b"x = '" + b"a" * size + b"'\n",
+                b"#" + b"z" * size + b"\n",
+                b"x = " + b"1+" * (size // 2) + b"1\n",
+                b"y = [" + b"0," * (size // 2) + b"]\n",
+                b"x = 1  # regvet: waive no-form-test" + b" " * size + b"x\n",
+                b"x = 1" + b" " * size + b"# spaces\n",
+                b"\t" * size + b"\n",
+            ]
+        )
         return data[:at] + b"\n" + line + data[at:]
     if how == "deep":
         kind = rnd.choice(sorted(DEEP))
@@ -242,10 +262,28 @@ def mutate(data: bytes, rnd: random.Random, how: str) -> bytes:
 
 
 MUTATIONS = [
-    "delete-token", "duplicate-token", "swap-tokens", "delete-line", "duplicate-line", "swap-lines", "truncate",
-    "random-bytes", "nul", "bom", "crlf", "lone-cr", "mixed-newlines", "tabs", "mixed-tabs", "not-utf8", "cookie",
-    "huge-line", "deep", "comments-only", "empty",
-]  # fmt: skip
+    "delete-token",
+    "duplicate-token",
+    "swap-tokens",
+    "delete-line",
+    "duplicate-line",
+    "swap-lines",
+    "truncate",
+    "random-bytes",
+    "nul",
+    "bom",
+    "crlf",
+    "lone-cr",
+    "mixed-newlines",
+    "tabs",
+    "mixed-tabs",
+    "not-utf8",
+    "cookie",
+    "huge-line",
+    "deep",
+    "comments-only",
+    "empty",
+]
 
 
 @st.composite
@@ -295,7 +333,21 @@ def test_generated_programs_from_nodes(program):
 
 
 # --- formulas --------------------------------------------------------------------------------
-NAMES = ["fare", "fuel", "C(port)", "np.log(wind)", "I(fare ** 2)", "Q('odd name')", "a", "b", "x1", "l1_lag", "0", "1", "-1"]
+NAMES = [
+    "fare",
+    "fuel",
+    "C(port)",
+    "np.log(wind)",
+    "I(fare ** 2)",
+    "Q('odd name')",
+    "a",
+    "b",
+    "x1",
+    "l1_lag",
+    "0",
+    "1",
+    "-1",
+]
 
 
 def formula_strategy():
@@ -330,11 +382,26 @@ def test_formulas_are_read_or_refused_in_bounded_time(formula):
 CELL_SOURCES = [
     "import statsmodels.formula.api as smf\n",
     "res = smf.ols('riders ~ fare', data=df).fit()\nprint(res.summary())\n",
-    "%matplotlib inline\n", "!pip install statsmodels\n", "files = !ls\n", "x = %time f()\n", "res?\n", "smf.ols??\n",
-    "%%bash\necho hi\n", "%%time\nres = smf.ols('y ~ x', data=df).fit()\n", "%%capture\nprint(1)\n",
-    "for i in range(3):\n    !echo $i\n", "def f(\n%ls\n):\n  pass\n", "x = (\n!ls\n)\n", "%load_ext autoreload\n",
-    "'''\n!inside a string\n'''\n", "print('unclosed\n", "\x00", "\ufeffx = 1\n", "a = 1\r\nb = 2\r", "\t x = 1\n",
-]  # fmt: skip
+    "%matplotlib inline\n",
+    "!pip install statsmodels\n",
+    "files = !ls\n",
+    "x = %time f()\n",
+    "res?\n",
+    "smf.ols??\n",
+    "%%bash\necho hi\n",
+    "%%time\nres = smf.ols('y ~ x', data=df).fit()\n",
+    "%%capture\nprint(1)\n",
+    "for i in range(3):\n    !echo $i\n",
+    "def f(\n%ls\n):\n  pass\n",
+    "x = (\n!ls\n)\n",
+    "%load_ext autoreload\n",
+    "'''\n!inside a string\n'''\n",
+    "print('unclosed\n",
+    "\x00",
+    "\ufeffx = 1\n",
+    "a = 1\r\nb = 2\r",
+    "\t x = 1\n",
+]
 CELL_TYPES = ["code", "code", "code", "markdown", "raw", "heading", "CODE", "", None, 3, ["code"]]
 
 

@@ -32,8 +32,9 @@ def _regvet(*args: str, cache: Path, columns: int | None = None) -> subprocess.C
     env["REGVET_CACHE_DIR"] = str(cache)
     if columns is not None:
         env["COLUMNS"] = str(columns)
-    return subprocess.run([sys.executable, "-m", "regvet", *args], cwd=DEMO, capture_output=True, text=True,
-                          env=env, timeout=900)  # fmt: skip
+    return subprocess.run(
+        [sys.executable, "-m", "regvet", *args], cwd=DEMO, capture_output=True, text=True, env=env, timeout=900
+    )
 
 
 def _compare(name: str, proc: subprocess.CompletedProcess) -> None:
@@ -92,7 +93,9 @@ def test_demo_run_text_matches_the_golden_file(tmp_path):
 def test_the_readme_example_is_the_demo_output():
     """Each line of the README's text example is a line (or the start of one, before `...`) of the golden file."""
     readme = (Path(__file__).resolve().parents[1] / "README.md").read_text()
-    block = readme.split("Example from the demo (`regvet check .` in `fixtures/demo`):\n\n```text\n", 1)[1].split("```", 1)[0]
+    block = readme.split("Example from the demo (`regvet check .` in `fixtures/demo`):\n\n```text\n", 1)[1].split(
+        "```", 1
+    )[0]
     golden = (GOLDEN / "demo_check.txt").read_text().splitlines()
     shown = [line for line in block.splitlines() if line.strip()]
     assert len(shown) >= 7

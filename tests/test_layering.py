@@ -30,15 +30,49 @@ ALLOWED = {
     "output": {"model", "rules", "engine", "output", "__init__", "audit"},
     "project": {"model", "sources", "analysis", "project", "discovery"},
     "discovery": {"discovery"},
-    "cli": {"model", "sources", "analysis", "rules", "engine", "config", "output", "project", "cli", "lsp", "runtime",
-            "workspace", "__init__", "baseline", "mend", "audit", "plots", "factcache", "parallel", "discovery"},
+    "cli": {
+        "model",
+        "sources",
+        "analysis",
+        "rules",
+        "engine",
+        "config",
+        "output",
+        "project",
+        "cli",
+        "lsp",
+        "runtime",
+        "workspace",
+        "__init__",
+        "baseline",
+        "mend",
+        "audit",
+        "plots",
+        "factcache",
+        "parallel",
+        "discovery",
+    },
     "factcache": {"model", "analysis", "factcache", "__init__"},
     "parallel": {"parallel"},
     "precommit": {"cli", "precommit"},
     "status": {"model", "analysis", "rules", "engine", "status"},
     "edits": {"model", "sources", "edits"},
-    "lsp": {"model", "sources", "analysis", "rules", "engine", "config", "project", "status", "edits", "lsp", "runtime",
-            "workspace", "__init__", "baseline"},
+    "lsp": {
+        "model",
+        "sources",
+        "analysis",
+        "rules",
+        "engine",
+        "config",
+        "project",
+        "status",
+        "edits",
+        "lsp",
+        "runtime",
+        "workspace",
+        "__init__",
+        "baseline",
+    },
     "runtime": {"model", "sources", "rules", "engine", "runtime"},
     "baseline": {"model", "rules", "config", "baseline"},
     "mend": {"model", "sources", "rules", "engine", "edits", "baseline", "mend"},
@@ -109,7 +143,15 @@ def test_the_static_core_never_imports_the_runtime_mode():
 def test_the_probe_needs_only_the_standard_library_numpy_scipy_and_statsmodels(path):
     """The probe runs in the user's interpreter, where regvet may not be installed."""
     allowed = set(sys.stdlib_module_names) | {"numpy", "scipy", "statsmodels", "pandas"}
-    allowed |= {"regvet_probe", "regvet_stats", "regvet_linalg", "regvet_align", "regvet_points", "regvet_fit", "regvet_passes"}  # the probe's own modules
+    allowed |= {
+        "regvet_probe",
+        "regvet_stats",
+        "regvet_linalg",
+        "regvet_align",
+        "regvet_points",
+        "regvet_fit",
+        "regvet_passes",
+    }  # the probe's own modules
     for name in _imports(path):
         assert name.split(".")[0] in allowed, f"{path.name} imports {name}"
 
@@ -213,9 +255,13 @@ def test_the_import_graph_has_no_cycle_between_layers():
                 layers.setdefault(a, set()).add(b)
                 why.setdefault((a, b), f"{module} imports {target}")
     cycle = find_cycle(layers)
-    assert cycle is None, "layers import each other: " + " -> ".join(cycle) + " (" + "; ".join(
-        why[(a, b)] for a, b in itertools.pairwise(cycle)
-    ) + ")"
+    assert cycle is None, (
+        "layers import each other: "
+        + " -> ".join(cycle)
+        + " ("
+        + "; ".join(why[(a, b)] for a, b in itertools.pairwise(cycle))
+        + ")"
+    )
 
 
 def test_the_import_graph_of_modules_has_no_cycle():

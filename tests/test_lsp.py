@@ -135,8 +135,9 @@ async def test_pull_diagnostics_when_the_client_offers_them(project):
         )
         assert codes(report.items) == ["no-form-test", "no-variance-test"]
         again = await c.lsp.text_document_diagnostic_async(
-            t.DocumentDiagnosticParams(text_document=t.TextDocumentIdentifier(uri=uri),
-                                       previous_result_id=report.result_id)  # fmt: skip
+            t.DocumentDiagnosticParams(
+                text_document=t.TextDocumentIdentifier(uri=uri), previous_result_id=report.result_id
+            )
         )
         assert again.kind == "unchanged"
         c.edit(uri, (7, 0), (7, 0), CHECKS)
@@ -158,17 +159,35 @@ async def test_notebook_findings_are_published_on_their_cells(project):
     cell = _notebook_cells(nb_path)
     async with session(project, capabilities(notebook=True)) as c:
         assert c.server_capabilities.notebook_document_sync is not None
-        c.lsp.notebook_document_did_open(t.DidOpenNotebookDocumentParams(
-            notebook_document=t.NotebookDocument(uri=nb_uri, notebook_type="jupyter-notebook", version=0, cells=[
-                t.NotebookCell(kind=t.NotebookCellKind.Markup, document=cell(0)),
-                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1)),
-                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(2))]),
-            cell_text_documents=[
-                t.TextDocumentItem(uri=cell(0), language_id="markdown", version=1, text="# Weekly riders\n"),
-                t.TextDocumentItem(uri=cell(1), language_id="python", version=1,
-                                   text="%matplotlib inline\nimport statsmodels.formula.api as smf\n"),
-                t.TextDocumentItem(uri=cell(2), language_id="python", version=1,
-                                   text="res = smf.ols('riders ~ fare', data=df).fit()\nres.summary()\n")]))  # fmt: skip
+        c.lsp.notebook_document_did_open(
+            t.DidOpenNotebookDocumentParams(
+                notebook_document=t.NotebookDocument(
+                    uri=nb_uri,
+                    notebook_type="jupyter-notebook",
+                    version=0,
+                    cells=[
+                        t.NotebookCell(kind=t.NotebookCellKind.Markup, document=cell(0)),
+                        t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1)),
+                        t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(2)),
+                    ],
+                ),
+                cell_text_documents=[
+                    t.TextDocumentItem(uri=cell(0), language_id="markdown", version=1, text="# Weekly riders\n"),
+                    t.TextDocumentItem(
+                        uri=cell(1),
+                        language_id="python",
+                        version=1,
+                        text="%matplotlib inline\nimport statsmodels.formula.api as smf\n",
+                    ),
+                    t.TextDocumentItem(
+                        uri=cell(2),
+                        language_id="python",
+                        version=1,
+                        text="res = smf.ols('riders ~ fare', data=df).fit()\nres.summary()\n",
+                    ),
+                ],
+            )
+        )
         await c.until(lambda: c.lsp.diagnostics.get(cell(2)))
         diags = c.lsp.diagnostics[cell(2)]
         assert codes(diags) == ["no-form-test", "no-variance-test"]
@@ -176,24 +195,44 @@ async def test_notebook_findings_are_published_on_their_cells(project):
         assert len(c.lsp.diagnostics[cell(1)]) == 0
         assert diags[0].related_information[0].location.uri == cell(2)
         # a check added in a new last cell clears them
-        c.lsp.notebook_document_did_change(t.DidChangeNotebookDocumentParams(
-            notebook_document=t.VersionedNotebookDocumentIdentifier(version=1, uri=nb_uri),
-            change=t.NotebookDocumentChangeEvent(cells=t.NotebookDocumentCellChanges(text_content=[
-                t.NotebookDocumentCellContentChanges(
-                    document=t.VersionedTextDocumentIdentifier(uri=cell(2), version=2),
-                    changes=[t.TextDocumentContentChangePartial(range=t.Range(t.Position(2, 0), t.Position(2, 0)),
-                             text="from statsmodels.stats.api import het_breuschpagan, linear_reset\n"
-                                  "linear_reset(res, power=3, use_f=True)\nhet_breuschpagan(res.resid, res.model.exog)\n")])]))))  # fmt: skip
+        c.lsp.notebook_document_did_change(
+            t.DidChangeNotebookDocumentParams(
+                notebook_document=t.VersionedNotebookDocumentIdentifier(version=1, uri=nb_uri),
+                change=t.NotebookDocumentChangeEvent(
+                    cells=t.NotebookDocumentCellChanges(
+                        text_content=[
+                            t.NotebookDocumentCellContentChanges(
+                                document=t.VersionedTextDocumentIdentifier(uri=cell(2), version=2),
+                                changes=[
+                                    t.TextDocumentContentChangePartial(
+                                        range=t.Range(t.Position(2, 0), t.Position(2, 0)),
+                                        text="from statsmodels.stats.api import het_breuschpagan, linear_reset\n"
+                                        "linear_reset(res, power=3, use_f=True)\nhet_breuschpagan(res.resid, res.model.exog)\n",
+                                    )
+                                ],
+                            )
+                        ]
+                    )
+                ),
+            )
+        )
         await c.until(lambda: c.published[-1].uri in (cell(1), cell(2)) and len(c.lsp.diagnostics[cell(2)]) == 0)
-        hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=cell(2)),
-                                                                    t.Position(0, 8)))  # fmt: skip
-        assert "functional form: **done**" in hover.contents.value and "(cell 3, line 4)" in hover.contents.value  # cells counted from 1 for people
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=cell(2)), t.Position(0, 8))
+        )
+        assert (
+            "functional form: **done**" in hover.contents.value and "(cell 3, line 4)" in hover.contents.value
+        )  # cells counted from 1 for people
 
 
 async def test_hover_shows_the_status_of_each_check_family(project):
     text = SCRIPT + "print(linear_reset(res, power=3, use_f=True))  # regvet: waive no-variance-test because x\n"
-    text = text.replace("import pandas as pd\n", "import pandas as pd\nfrom statsmodels.stats.diagnostic import linear_reset\n")
-    text = text.replace(".fit()\n", ".fit()  # regvet: waive no-variance-test because volumes are pooled over equal-size routes\n", 1)
+    text = text.replace(
+        "import pandas as pd\n", "import pandas as pd\nfrom statsmodels.stats.diagnostic import linear_reset\n"
+    )
+    text = text.replace(
+        ".fit()\n", ".fit()  # regvet: waive no-variance-test because volumes are pooled over equal-size routes\n", 1
+    )
     async with session(project) as c:
         uri = c.open(project / "model.py", text)
         await c.diagnostics_for(uri, 1)
@@ -261,15 +300,18 @@ async def test_config_file_is_read_and_reloaded_when_it_changes(project):
         assert codes(await c.diagnostics_for(uri, 1)) == ["no-form-test"]
         cfg.write_text('skip = ["no-form-test"]\n')
         count = len(c.published)
-        c.lsp.workspace_did_change_watched_files(t.DidChangeWatchedFilesParams(
-            changes=[t.FileEvent(uri=from_fs_path(str(cfg)), type=t.FileChangeType.Changed)]))  # fmt: skip
+        c.lsp.workspace_did_change_watched_files(
+            t.DidChangeWatchedFilesParams(
+                changes=[t.FileEvent(uri=from_fs_path(str(cfg)), type=t.FileChangeType.Changed)]
+            )
+        )
         await c.until(lambda: len(c.published) > count and c.published[-1].uri == uri)
         assert codes(c.published[-1].diagnostics) == ["no-variance-test"]
 
 
 async def test_broken_config_gets_one_diagnostic_and_the_server_uses_defaults(project):
     cfg = project / "pyproject.toml"
-    cfg.write_text("[tool.regvet]\nskip = [\"no-variance-test\"]\nalpah = 0.05\n")
+    cfg.write_text('[tool.regvet]\nskip = ["no-variance-test"]\nalpah = 0.05\n')
     cfg_uri = from_fs_path(str(cfg))
     async with session(project) as c:
         uri = c.open(project / "model.py", SCRIPT)
@@ -277,9 +319,10 @@ async def test_broken_config_gets_one_diagnostic_and_the_server_uses_defaults(pr
         await c.until(lambda: c.lsp.diagnostics.get(cfg_uri))
         [d] = c.lsp.diagnostics[cfg_uri]
         assert "alpah" in d.message and "did you mean `alpha`" in d.message and d.range.start.line == 2
-        cfg.write_text("[tool.regvet]\nskip = [\"no-variance-test\"]\n")
-        c.lsp.workspace_did_change_watched_files(t.DidChangeWatchedFilesParams(
-            changes=[t.FileEvent(uri=cfg_uri, type=t.FileChangeType.Changed)]))  # fmt: skip
+        cfg.write_text('[tool.regvet]\nskip = ["no-variance-test"]\n')
+        c.lsp.workspace_did_change_watched_files(
+            t.DidChangeWatchedFilesParams(changes=[t.FileEvent(uri=cfg_uri, type=t.FileChangeType.Changed)])
+        )
         await c.until(lambda: len(c.lsp.diagnostics.get(cfg_uri, ())) == 0)
         await c.until(lambda: codes(c.lsp.diagnostics[uri]) == ["no-form-test"])
 
@@ -360,8 +403,10 @@ def test_diagnostic_data_is_plain_json():
         def item(self):
             return 3
 
-    assert json.dumps(json_safe({"a": float("nan"), "b": float("inf"), "c": Scalar(), "d": (1, 2.5)}),
-                      allow_nan=False) == '{"a": null, "b": null, "c": 3, "d": [1, 2.5]}'  # fmt: skip
+    assert (
+        json.dumps(json_safe({"a": float("nan"), "b": float("inf"), "c": Scalar(), "d": (1, 2.5)}), allow_nan=False)
+        == '{"a": null, "b": null, "c": 3, "d": [1, 2.5]}'
+    )
 
 
 def apply_text_edit(text: str, edit: t.TextEdit) -> str:
@@ -375,7 +420,7 @@ def apply_text_edit(text: str, edit: t.TextEdit) -> str:
         line, col = pos.from_client(p)
         return sum(len(x) + 1 for x in lines[: line - 1]) + col
 
-    return text[: offset(edit.range.start)] + edit.new_text + text[offset(edit.range.end):]
+    return text[: offset(edit.range.start)] + edit.new_text + text[offset(edit.range.end) :]
 
 
 @pytest.mark.parametrize(
@@ -393,9 +438,13 @@ async def test_each_quick_fix_clears_the_finding_it_targets(project, rule, title
         uri = c.open(project / "model.py", SCRIPT)
         diags = await c.diagnostics_for(uri, 1)
         target = next(d for d in diags if d.code == rule)
-        actions = await c.lsp.text_document_code_action_async(t.CodeActionParams(
-            text_document=t.TextDocumentIdentifier(uri=uri), range=target.range,
-            context=t.CodeActionContext(diagnostics=[target])))  # fmt: skip
+        actions = await c.lsp.text_document_code_action_async(
+            t.CodeActionParams(
+                text_document=t.TextDocumentIdentifier(uri=uri),
+                range=target.range,
+                context=t.CodeActionContext(diagnostics=[target]),
+            )
+        )
         action = next(a for a in actions if a.title.startswith(title_start))
         assert action.kind == t.CodeActionKind.QuickFix and list(action.diagnostics) == [target]
         [change] = action.edit.document_changes
@@ -409,7 +458,7 @@ async def test_each_quick_fix_clears_the_finding_it_targets(project, rule, title
         start = len("\n".join(SCRIPT.split("\n")[: edit.range.start.line]))
         assert new[:start] == SCRIPT[:start]
         tail = len(SCRIPT) - len("\n".join(SCRIPT.split("\n")[: edit.range.end.line + 1]))
-        assert new.endswith(SCRIPT[len(SCRIPT) - tail:])
+        assert new.endswith(SCRIPT[len(SCRIPT) - tail :])
         version = c.replace(uri, new)
         after = await c.diagnostics_for(uri, version)
         assert rule not in codes(after)
@@ -422,25 +471,36 @@ async def test_each_quick_fix_clears_the_finding_it_targets(project, rule, title
 @pytest.mark.parametrize(
     "comment,title,written,waived",
     [
-        ("# regvet: waive no-form-test -- fares are fixed by contract",
-         "Rewrite the waiver as `# regvet: waive no-form-test because fares are fixed by contract`",
-         "# regvet: waive no-form-test because fares are fixed by contract", "no-form-test"),
-        ("# regvet: waive no-frm-test because fares are fixed by contract",
-         "Correct the waiver: `no-frm-test` to `no-form-test`",
-         "# regvet: waive no-form-test because fares are fixed by contract", "no-form-test"),
+        (
+            "# regvet: waive no-form-test -- fares are fixed by contract",
+            "Rewrite the waiver as `# regvet: waive no-form-test because fares are fixed by contract`",
+            "# regvet: waive no-form-test because fares are fixed by contract",
+            "no-form-test",
+        ),
+        (
+            "# regvet: waive no-frm-test because fares are fixed by contract",
+            "Correct the waiver: `no-frm-test` to `no-form-test`",
+            "# regvet: waive no-form-test because fares are fixed by contract",
+            "no-form-test",
+        ),
     ],
 )
-async def test_a_waiver_in_another_form_or_misspelt_is_rewritten_by_its_quick_fix(project, comment, title, written,
-                                                                                waived):
+async def test_a_waiver_in_another_form_or_misspelt_is_rewritten_by_its_quick_fix(
+    project, comment, title, written, waived
+):
     text = SCRIPT.replace(".fit()\n", f".fit()  {comment}\n", 1)
     async with session(project) as c:
         uri = c.open(project / "model.py", text)
         diags = await c.diagnostics_for(uri, 1)
         target = next(d for d in diags if d.code in ("waiver-without-reason", "waiver-unknown-rule"))
         assert waived in codes(diags)  # the waiver does not take effect yet
-        actions = await c.lsp.text_document_code_action_async(t.CodeActionParams(
-            text_document=t.TextDocumentIdentifier(uri=uri), range=target.range,
-            context=t.CodeActionContext(diagnostics=[target])))  # fmt: skip
+        actions = await c.lsp.text_document_code_action_async(
+            t.CodeActionParams(
+                text_document=t.TextDocumentIdentifier(uri=uri),
+                range=target.range,
+                context=t.CodeActionContext(diagnostics=[target]),
+            )
+        )
         assert [a.title for a in actions] == [title]  # no waiver of a waiver finding is offered
         [change] = actions[0].edit.document_changes
         [edit] = change.edits
@@ -458,24 +518,38 @@ async def test_quick_fixes_in_a_notebook_cell_edit_that_cell(project):
     code1 = "import statsmodels.formula.api as smf\nfrom statsmodels.stats.diagnostic import linear_reset\n"
     code2 = "res = smf.ols('riders ~ fare', data=df).fit()\nres.summary()\n"
     async with session(project, capabilities(notebook=True)) as c:
-        c.lsp.notebook_document_did_open(t.DidOpenNotebookDocumentParams(
-            notebook_document=t.NotebookDocument(uri=nb_uri, notebook_type="jupyter-notebook", version=0, cells=[
-                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
-                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1))]),
-            cell_text_documents=[
-                t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=code1),
-                t.TextDocumentItem(uri=cell(1), language_id="python", version=1, text=code2)]))  # fmt: skip
+        c.lsp.notebook_document_did_open(
+            t.DidOpenNotebookDocumentParams(
+                notebook_document=t.NotebookDocument(
+                    uri=nb_uri,
+                    notebook_type="jupyter-notebook",
+                    version=0,
+                    cells=[
+                        t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
+                        t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1)),
+                    ],
+                ),
+                cell_text_documents=[
+                    t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=code1),
+                    t.TextDocumentItem(uri=cell(1), language_id="python", version=1, text=code2),
+                ],
+            )
+        )
         await c.until(lambda: c.lsp.diagnostics.get(cell(1)))
         target = next(d for d in c.lsp.diagnostics[cell(1)] if d.code == "no-form-test")
-        actions = await c.lsp.text_document_code_action_async(t.CodeActionParams(
-            text_document=t.TextDocumentIdentifier(uri=cell(1)), range=target.range,
-            context=t.CodeActionContext(diagnostics=[target])))  # fmt: skip
+        actions = await c.lsp.text_document_code_action_async(
+            t.CodeActionParams(
+                text_document=t.TextDocumentIdentifier(uri=cell(1)),
+                range=target.range,
+                context=t.CodeActionContext(diagnostics=[target]),
+            )
+        )
         action = next(a for a in actions if a.title.startswith("Insert a RESET test"))
         [change] = action.edit.document_changes
         assert change.text_document.uri == cell(1)
         new = apply_text_edit(code2, change.edits[0])
         # linear_reset is already imported in cell 0: no second import in this cell
-        assert new == code2.replace(".fit()\n", ".fit()\nprint(\"RESET:\", linear_reset(res, power=3, use_f=True))\n", 1)
+        assert new == code2.replace(".fit()\n", '.fit()\nprint("RESET:", linear_reset(res, power=3, use_f=True))\n', 1)
 
 
 async def test_editor_skip_adds_to_the_projects_skip_and_empty_lists_change_nothing(project):
@@ -513,7 +587,8 @@ async def test_run_fits_command_reports_progress_and_attaches_statistics(project
         assert codes(before) == ["no-form-test", "no-variance-test"]  # typing never runs the code
         count = len(c.published)
         answer = await c.lsp.workspace_execute_command_async(
-            t.ExecuteCommandParams(command="regvet.runFits", arguments=[uri]))  # fmt: skip
+            t.ExecuteCommandParams(command="regvet.runFits", arguments=[uri])
+        )
         assert answer["ran"] is True and answer["fits"] == 1 and answer["failed"] is None
         await c.until(lambda: len(c.published) > count)
         diags = c.lsp.diagnostics[uri]
@@ -524,7 +599,9 @@ async def test_run_fits_command_reports_progress_and_attaches_statistics(project
         assert "[run: n=200, BP p < 0.001" in variance.message
         [reports] = list(c.lsp.progress_reports.values())
         assert reports[0].kind == "begin" and reports[0].cancellable and reports[-1].kind == "end"
-        hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(7, 8)))
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(7, 8))
+        )
         assert "- last run: **statistics**: n=200, BP p < 0.001" in hover.contents.value
         # an edit makes the statistics stale: they are dropped until the next run
         version = c.edit(uri, (9, 0), (9, 0), "# edited\n")
@@ -537,8 +614,9 @@ async def test_run_fits_can_be_cancelled(project, monkeypatch):
     async with session(project, capabilities(progress=True)) as c:
         uri = c.open(project / "model.py", slow)
         await c.diagnostics_for(uri, 1)
-        request = asyncio.ensure_future(c.lsp.workspace_execute_command_async(
-            t.ExecuteCommandParams(command="regvet.runFits", arguments=[uri])))  # fmt: skip
+        request = asyncio.ensure_future(
+            c.lsp.workspace_execute_command_async(t.ExecuteCommandParams(command="regvet.runFits", arguments=[uri]))
+        )
         await c.until(lambda: c.lsp.progress_reports)
         [token] = list(c.lsp.progress_reports)
         started = time.monotonic()
@@ -546,5 +624,7 @@ async def test_run_fits_can_be_cancelled(project, monkeypatch):
         answer = await asyncio.wait_for(request, 30)
         assert answer == {"ran": False, "reason": "cancelled"} and time.monotonic() - started < 20
         assert c.lsp.progress_reports[token][-1].kind == "end"
-        hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(7, 8)))
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(7, 8))
+        )
         assert hover is not None  # the server still answers

@@ -35,10 +35,19 @@ def test_each_server_from_the_factory_is_independent_and_fully_wired():
     assert isinstance(a, RegvetServer) and a is not b
     for server in (a, b):
         features = server.protocol.fm.features
-        for method in (t.INITIALIZE, t.INITIALIZED, t.TEXT_DOCUMENT_DID_OPEN, t.TEXT_DOCUMENT_DID_CHANGE,
-                       t.TEXT_DOCUMENT_DID_SAVE, t.TEXT_DOCUMENT_DID_CLOSE, t.NOTEBOOK_DOCUMENT_DID_CHANGE,
-                       t.TEXT_DOCUMENT_HOVER, t.TEXT_DOCUMENT_CODE_ACTION, t.WORKSPACE_DID_CHANGE_WATCHED_FILES,
-                       t.WORKSPACE_DID_CHANGE_CONFIGURATION):  # fmt: skip
+        for method in (
+            t.INITIALIZE,
+            t.INITIALIZED,
+            t.TEXT_DOCUMENT_DID_OPEN,
+            t.TEXT_DOCUMENT_DID_CHANGE,
+            t.TEXT_DOCUMENT_DID_SAVE,
+            t.TEXT_DOCUMENT_DID_CLOSE,
+            t.NOTEBOOK_DOCUMENT_DID_CHANGE,
+            t.TEXT_DOCUMENT_HOVER,
+            t.TEXT_DOCUMENT_CODE_ACTION,
+            t.WORKSPACE_DID_CHANGE_WATCHED_FILES,
+            t.WORKSPACE_DID_CHANGE_CONFIGURATION,
+        ):
             assert method in features, method
         assert t.TEXT_DOCUMENT_DIAGNOSTIC not in features  # only added in `initialize`, for pulling clients
         assert list(server.protocol.fm.commands) == [RUN_FITS]
@@ -78,8 +87,9 @@ async def test_a_config_error_is_marked_from_where_the_config_error_says_in_clie
         # tomllib: column 12 counted from 1 in code points; the ship is two UTF-16 units
         assert "invalid TOML" in d.message and (d.range.start.line, d.range.start.character) == (1, 12)
         cfg.write_text('[tool.regvet]\nseverity = { no-form-test = "warning", no-variance-test = "fatal" }\n')
-        c.lsp.workspace_did_change_watched_files(t.DidChangeWatchedFilesParams(
-            changes=[t.FileEvent(uri=cfg_uri, type=t.FileChangeType.Changed)]))  # fmt: skip
+        c.lsp.workspace_did_change_watched_files(
+            t.DidChangeWatchedFilesParams(changes=[t.FileEvent(uri=cfg_uri, type=t.FileChangeType.Changed)])
+        )
         await c.until(lambda: "fatal" in c.lsp.diagnostics[cfg_uri][0].message)
         [d] = c.lsp.diagnostics[cfg_uri]
         assert (d.range.start.line, d.range.start.character) == (1, 39) and d.range.end.line == 1

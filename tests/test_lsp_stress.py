@@ -27,8 +27,10 @@ from regvet.engine import analyze
 from regvet.model.settings import Settings
 
 FIT = 'import pandas as pd\nimport statsmodels.formula.api as smf\n\nharbour = pd.read_csv("berths.csv")\n'
-CHECKS = ("from statsmodels.stats.diagnostic import het_breuschpagan, linear_reset\n"
-          "print(linear_reset(res, power=3, use_f=True))\nprint(het_breuschpagan(res.resid, res.model.exog))\n")  # fmt: skip
+CHECKS = (
+    "from statsmodels.stats.diagnostic import het_breuschpagan, linear_reset\n"
+    "print(linear_reset(res, power=3, use_f=True))\nprint(het_breuschpagan(res.resid, res.model.exog))\n"
+)
 NORMAL = FIT + 'res = smf.ols("berths ~ tide + wind", data=harbour).fit()\nprint(res.summary())\n'
 #: A formula whose power the analyser once expanded term by term (its analysis never ended before
 #: issue 12 bounded it): now an `incomplete-analysis` finding at once, and still no hang.
@@ -43,6 +45,7 @@ def long_script(lines: int = 40_000) -> str:
     from generate import script
 
     return script(lines)
+
 
 @pytest.fixture
 def project(tmp_path):
@@ -93,8 +96,16 @@ class Raw:
             self._in, self._out = pipes
         threading.Thread(target=self._read, daemon=True).start()
         if initialize:
-            self.request(1, "initialize", {"processId": None, "rootUri": root.as_uri(), "capabilities": {},
-                         "initializationOptions": {"regvet": options or {"debounceMs": 20}}})  # fmt: skip
+            self.request(
+                1,
+                "initialize",
+                {
+                    "processId": None,
+                    "rootUri": root.as_uri(),
+                    "capabilities": {},
+                    "initializationOptions": {"regvet": options or {"debounceMs": 20}},
+                },
+            )
             self.answer(1)
             self.notify("initialized", {})
 
@@ -140,8 +151,11 @@ class Raw:
 
     def alive_check(self, msg_id: int) -> None:
         """A request that must be answered: the server is still reading and in step."""
-        self.request(msg_id, "textDocument/hover", {"textDocument": {"uri": "file:///nowhere/x.py"},
-                                                    "position": {"line": 0, "character": 0}})  # fmt: skip
+        self.request(
+            msg_id,
+            "textDocument/hover",
+            {"textDocument": {"uri": "file:///nowhere/x.py"}, "position": {"line": 0, "character": 0}},
+        )
         assert self.answer(msg_id)["result"] is None
 
     def stop(self) -> int:
@@ -178,7 +192,12 @@ def test_text_that_is_not_json_gets_a_parse_error_and_the_server_reads_on(raw):
     s.write(frame(b'{"jsonrpc": "2.0", "id": 5, "method": "textDocument/hover", "params": {'))
     error = s.wait(lambda m: m.get("error", {}).get("code") == -32700)
     assert error["id"] is None  # JSON-RPC 2.0: the id could not be read
-    for body in (b"[1, 2, 3]", b"42", b'{"id": 6, "method": "shutdown"}', b'{"jsonrpc": "1.0", "id": 7, "method": "x"}'):
+    for body in (
+        b"[1, 2, 3]",
+        b"42",
+        b'{"id": 6, "method": "shutdown"}',
+        b'{"jsonrpc": "1.0", "id": 7, "method": "x"}',
+    ):
         s.write(frame(body))
     invalid = lambda: [m for m in s.messages if m.get("error", {}).get("code") == -32600]  # noqa: E731
     s.wait(lambda m: len(invalid()) == 4)
@@ -203,7 +222,9 @@ def test_a_request_with_invalid_params_gets_an_invalid_params_error_with_its_id(
     s.notify("textDocument/didOpen", {"textDocument": {"uri": 3}})
     s.alive_check(23)
     uri = from_fs_path(str(project / "berths.py"))
-    s.notify("textDocument/didOpen", {"textDocument": {"uri": uri, "languageId": "python", "version": 1, "text": NORMAL}})
+    s.notify(
+        "textDocument/didOpen", {"textDocument": {"uri": uri, "languageId": "python", "version": 1, "text": NORMAL}}
+    )
     published = s.wait(lambda m: m.get("method") == "textDocument/publishDiagnostics" and m["params"]["uri"] == uri)
     assert sorted(d["code"] for d in published["params"]["diagnostics"]) == expected_codes(NORMAL)
     assert not [m for m in s.messages if "id" in m and m["id"] not in (1, 20, 21, 22, 23) and "method" not in m]
@@ -212,8 +233,14 @@ def test_a_request_with_invalid_params_gets_an_invalid_params_error_with_its_id(
 
 def test_wrong_content_lengths_lose_only_their_own_message(raw):
     s = raw()
-    good = json.dumps({"jsonrpc": "2.0", "id": 30, "method": "textDocument/hover",
-                       "params": {"textDocument": {"uri": "file:///a.py"}, "position": {"line": 0, "character": 0}}})  # fmt: skip
+    good = json.dumps(
+        {
+            "jsonrpc": "2.0",
+            "id": 30,
+            "method": "textDocument/hover",
+            "params": {"textDocument": {"uri": "file:///a.py"}, "position": {"line": 0, "character": 0}},
+        }
+    )
     # too short: the body is cut, its tail then stands before the next header
     s.write(b"Content-Length: %d\r\n\r\n%s" % (len(good) - 10, good.encode()))
     s.alive_check(31)
@@ -256,7 +283,9 @@ def test_a_request_after_shutdown_is_refused_and_exit_ends_the_process(raw):
     s = raw()
     s.request(50, "shutdown")
     assert s.answer(50)["result"] is None
-    s.request(51, "textDocument/hover", {"textDocument": {"uri": "file:///a.py"}, "position": {"line": 0, "character": 0}})
+    s.request(
+        51, "textDocument/hover", {"textDocument": {"uri": "file:///a.py"}, "position": {"line": 0, "character": 0}}
+    )
     assert s.answer(51)["error"]["code"] == -32600
     s.notify("exit", {})
     assert s.proc.wait(20) == 0
@@ -266,7 +295,10 @@ def test_a_client_that_disconnects_mid_request_leaves_no_process_behind(raw, pro
     (project / "regvet.toml").write_text("analysis_budget = 600\n")
     s = raw(options={"debounceMs": 0, "budgetMs": 600_000})
     uri = from_fs_path(str(project / "slow.py"))
-    s.notify("textDocument/didOpen", {"textDocument": {"uri": uri, "languageId": "python", "version": 1, "text": long_script()}})
+    s.notify(
+        "textDocument/didOpen",
+        {"textDocument": {"uri": uri, "languageId": "python", "version": 1, "text": long_script()}},
+    )
     s.request(60, "textDocument/hover", {"textDocument": {"uri": uri}, "position": {"line": 5, "character": 8}})
     deadline = time.monotonic() + 20
     while not children(s.proc.pid) and time.monotonic() < deadline:
@@ -299,13 +331,17 @@ async def test_a_thousand_rapid_edits_end_with_the_diagnostics_of_the_final_text
                 lines += 1
         final = c.versions[uri]
         diags = await c.diagnostics_for(uri, final, timeout=60)
-        text = NORMAL + "".join(f"# {i}\n" for i in range(500)) + CHECKS + "".join(f"# {i}\n" for i in range(501, 1_000))
+        text = (
+            NORMAL + "".join(f"# {i}\n" for i in range(500)) + CHECKS + "".join(f"# {i}\n" for i in range(501, 1_000))
+        )
         assert codes(diags) == expected_codes(text) == []
         assert codes(await c.diagnostics_for(uri, 1)) == expected_codes(NORMAL) != []
         ours = [p.version for p in c.published if p.uri == uri]
         assert ours == sorted(ours) and ours[-1] == final  # never an older version after a newer one
         assert len(ours) < 200  # debounced: far fewer analyses than edits
-        hover = await c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(4, 8)))
+        hover = await c.lsp.text_document_hover_async(
+            t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(4, 8))
+        )
         assert hover is not None and "**done**" in hover.contents.value
 
 
@@ -338,7 +374,8 @@ async def test_two_long_analyses_do_not_block_the_others_nor_shutdown(project):
         normal = c.open(project / "berths.py", NORMAL)
         assert codes(await c.diagnostics_for(normal, 1, timeout=15)) == expected_codes(NORMAL)
         hover = await asyncio.wait_for(
-            c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=normal), t.Position(4, 8))), 15)
+            c.lsp.text_document_hover_async(t.HoverParams(t.TextDocumentIdentifier(uri=normal), t.Position(4, 8))), 15
+        )
         assert hover is not None and "functional form" in hover.contents.value
         assert time.monotonic() - started < 15
         # a newer version of a long document replaces its stale analysis
@@ -357,8 +394,9 @@ def test_closed_documents_leave_no_state_behind(project):
 
     ls = create_server()
     to_server, from_server = os.pipe(), os.pipe()
-    thread = threading.Thread(target=ls.start_io, daemon=True,
-                              args=(os.fdopen(to_server[0], "rb"), os.fdopen(from_server[1], "wb")))  # fmt: skip
+    thread = threading.Thread(
+        target=ls.start_io, daemon=True, args=(os.fdopen(to_server[0], "rb"), os.fdopen(from_server[1], "wb"))
+    )
     thread.start()
     s = Raw(project, pipes=(os.fdopen(to_server[1], "wb"), os.fdopen(from_server[0], "rb")))
     uris = []
@@ -366,15 +404,32 @@ def test_closed_documents_leave_no_state_behind(project):
         suffix, language = (".py", "python") if i % 3 else (".txt", "plaintext")
         uri = from_fs_path(str(project / f"quay_{i}{suffix}"))
         uris.append(uri)
-        s.notify("textDocument/didOpen", {"textDocument": {"uri": uri, "languageId": language, "version": 1, "text": NORMAL}})
-        s.notify("textDocument/didChange", {"textDocument": {"uri": uri, "version": 2}, "contentChanges": [{"text": NORMAL + CHECKS}]})
+        s.notify(
+            "textDocument/didOpen", {"textDocument": {"uri": uri, "languageId": language, "version": 1, "text": NORMAL}}
+        )
+        s.notify(
+            "textDocument/didChange",
+            {"textDocument": {"uri": uri, "version": 2}, "contentChanges": [{"text": NORMAL + CHECKS}]},
+        )
     nb = from_fs_path(str(project / "tides.ipynb"))
     cell = f"vscode-notebook-cell:{project.as_posix()}/tides.ipynb#W0"
-    s.notify("notebookDocument/didOpen", {"notebookDocument": {"uri": nb, "notebookType": "jupyter-notebook", "version": 0,
-             "cells": [{"kind": 2, "document": cell}]},
-             "cellTextDocuments": [{"uri": cell, "languageId": "python", "version": 1, "text": NORMAL}]})  # fmt: skip
-    s.wait(lambda m: m.get("method") == "textDocument/publishDiagnostics" and m["params"]["uri"] == uris[-1]
-           and m["params"]["version"] == 2)  # fmt: skip
+    s.notify(
+        "notebookDocument/didOpen",
+        {
+            "notebookDocument": {
+                "uri": nb,
+                "notebookType": "jupyter-notebook",
+                "version": 0,
+                "cells": [{"kind": 2, "document": cell}],
+            },
+            "cellTextDocuments": [{"uri": cell, "languageId": "python", "version": 1, "text": NORMAL}],
+        },
+    )
+    s.wait(
+        lambda m: m.get("method") == "textDocument/publishDiagnostics"
+        and m["params"]["uri"] == uris[-1]
+        and m["params"]["version"] == 2
+    )
     assert ls.results  # analysed and kept while open
     for uri in uris:
         s.notify("textDocument/didClose", {"textDocument": {"uri": uri}})
@@ -398,15 +453,25 @@ async def test_a_cell_document_listed_twice_in_a_notebook_is_analysed_and_shown_
     nb_uri = from_fs_path(str(project / "tides.ipynb"))
     cell = lambda i: f"vscode-notebook-cell:{project.as_posix()}/tides.ipynb#W{i}"  # noqa: E731
     async with session(project, capabilities(notebook=True)) as c:
-        c.lsp.notebook_document_did_open(t.DidOpenNotebookDocumentParams(
-            notebook_document=t.NotebookDocument(uri=nb_uri, notebook_type="jupyter-notebook", version=0, cells=[
-                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
-                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
-                t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1))]),
-            cell_text_documents=[
-                t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
-                t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
-                t.TextDocumentItem(uri=cell(1), language_id="python", version=1, text="print(res.params)\n")]))  # fmt: skip
+        c.lsp.notebook_document_did_open(
+            t.DidOpenNotebookDocumentParams(
+                notebook_document=t.NotebookDocument(
+                    uri=nb_uri,
+                    notebook_type="jupyter-notebook",
+                    version=0,
+                    cells=[
+                        t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
+                        t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(0)),
+                        t.NotebookCell(kind=t.NotebookCellKind.Code, document=cell(1)),
+                    ],
+                ),
+                cell_text_documents=[
+                    t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
+                    t.TextDocumentItem(uri=cell(0), language_id="python", version=1, text=NORMAL),
+                    t.TextDocumentItem(uri=cell(1), language_id="python", version=1, text="print(res.params)\n"),
+                ],
+            )
+        )
         await c.until(lambda: c.lsp.diagnostics.get(cell(0)) and cell(1) in c.lsp.diagnostics)
         diags = c.lsp.diagnostics[cell(0)]
         assert codes(diags) == expected_codes(NORMAL) != []  # once, not once per listing

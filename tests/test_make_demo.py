@@ -21,12 +21,21 @@ pytestmark = pytest.mark.precommit  # builds a Python environment, like the pre-
 @pytest.mark.skipif(shutil.which("make") is None, reason="make is not installed")
 def test_make_demo_installs_regvet_alone_and_scans_the_demo(tmp_path):
     venv = tmp_path / "venv"
-    proc = subprocess.run(["make", "demo", f"VENV={venv}", f"PYTHON={sys.executable}"], cwd=ROOT,
-                          capture_output=True, text=True, timeout=900)  # fmt: skip
+    proc = subprocess.run(
+        ["make", "demo", f"VENV={venv}", f"PYTHON={sys.executable}"],
+        cwd=ROOT,
+        capture_output=True,
+        text=True,
+        timeout=900,
+    )
     assert proc.returncode == 0, proc.stdout[-3000:] + proc.stderr[-3000:]
     assert "no-form-test" in proc.stdout  # the demo's findings were printed
-    listed = subprocess.run([str(venv / "bin" / "python"), "-m", "pip", "list", "--format=freeze"],
-                            capture_output=True, text=True, timeout=120).stdout.lower()  # fmt: skip
+    listed = subprocess.run(
+        [str(venv / "bin" / "python"), "-m", "pip", "list", "--format=freeze"],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    ).stdout.lower()
     assert "regvet==" in listed
     for heavy in ("numpy", "pandas", "statsmodels", "scipy", "pytest"):  # the demo runs none of them
         assert f"{heavy}==" not in listed, f"make demo installed {heavy}"

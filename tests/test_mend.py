@@ -53,13 +53,18 @@ def assert_only_fixes(old: str, new: str) -> None:
         rest = "".join(line for line in lines_of(added) if not inserted.match(line))
         if removed:  # a changed call: the same text with `cov_type="HC3"` added
             assert 'cov_type="HC3"' in rest, (removed, added)
-            assert re.sub(r',?\s*cov_type="HC3"', "", rest).replace(" ", "") == removed.replace(" ", ""), (removed, added)
+            assert re.sub(r',?\s*cov_type="HC3"', "", rest).replace(" ", "") == removed.replace(" ", ""), (
+                removed,
+                added,
+            )
         else:
             assert rest == "", added
 
 
 def findings(path: Path, rules=FIX_RULES):
-    return [f for f in analyze(path.read_text(encoding="utf-8"), path.name).findings if f.rule in rules and not f.waived]
+    return [
+        f for f in analyze(path.read_text(encoding="utf-8"), path.name).findings if f.rule in rules and not f.waived
+    ]
 
 
 @pytest.fixture
@@ -85,7 +90,10 @@ def test_mend_on_the_demo_fixes_what_it_can_keeps_every_other_byte_and_is_idempo
     for name in ("02_weather_effects.py", "03_model_choice.py"):
         assert_only_fixes(before[name].decode(), after[name].decode())
         ast.parse(after[name].decode())
-    assert 'rain_res = smf.ols("riders ~ fare + rain_mm", data=crossings).fit(cov_type="HC3")' in after["02_weather_effects.py"].decode()
+    assert (
+        'rain_res = smf.ols("riders ~ fare + rain_mm", data=crossings).fit(cov_type="HC3")'
+        in after["02_weather_effects.py"].decode()
+    )
     # the fit is called `quick` and linear_reset is already imported: no new import, its own name
     assert 'print("RESET:", linear_reset(quick, power=3, use_f=True))' in after["03_model_choice.py"].decode()
     assert after["03_model_choice.py"].decode().count("import") == before["03_model_choice.py"].decode().count("import")
@@ -144,8 +152,12 @@ def test_preview_prints_the_diff_and_writes_nothing(run_cli, demo):
     previewed = [line[1:] for line in out.splitlines() if line.startswith("+") and not line.startswith("+++")]
     run_cli("mend", ".")
     after = snapshot(demo)
-    written = [line for name in before for _, added in changed_runs(before[name].decode(), after[name].decode())
-               for line in added.splitlines()]  # fmt: skip
+    written = [
+        line
+        for name in before
+        for _, added in changed_runs(before[name].decode(), after[name].decode())
+        for line in added.splitlines()
+    ]
     assert len(previewed) == len(written) == 3
 
 
@@ -244,8 +256,13 @@ def mend_process(folder: Path, name: str, pause: float | None = None) -> subproc
     env.pop("REGVET_TEST_WRITE_PAUSE", None)
     if pause is not None:
         env["REGVET_TEST_WRITE_PAUSE"] = str(pause)
-    return subprocess.Popen([sys.executable, "-m", "regvet", "mend", "--no-config", "--only", "no-variance-test", name],
-                            cwd=folder, env=env, stdout=subprocess.PIPE, stderr=subprocess.PIPE)  # fmt: skip
+    return subprocess.Popen(
+        [sys.executable, "-m", "regvet", "mend", "--no-config", "--only", "no-variance-test", name],
+        cwd=folder,
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+    )
 
 
 def temporaries(folder: Path) -> list[Path]:

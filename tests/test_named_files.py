@@ -40,7 +40,8 @@ def test_a_named_file_that_parses_and_has_no_fits_gives_nothing(tmp_path):
 def test_a_bad_interpreter_is_one_configuration_error(tmp_path):
     for name in ("a.py", "b.py"):
         (tmp_path / name).write_text(
-            "import statsmodels.formula.api as smf\nres = smf.ols('y ~ x', data=d).fit()\nprint(res.params)\n")
+            "import statsmodels.formula.api as smf\nres = smf.ols('y ~ x', data=d).fit()\nprint(res.params)\n"
+        )
     (tmp_path / "regvet.toml").write_text('python = "/nonexistent/bin/python3"\n')
     proc = _run("run", ".", cwd=tmp_path)
     assert proc.returncode == 2

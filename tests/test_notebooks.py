@@ -15,22 +15,29 @@ def notebook(*cells: tuple[str, str]) -> str:
     return json.dumps(
         {
             "cells": [
-                {"cell_type": kind, "metadata": {}, "source": src.splitlines(keepends=True),
-                 **({"outputs": [], "execution_count": None} if kind == "code" else {})}
+                {
+                    "cell_type": kind,
+                    "metadata": {},
+                    "source": src.splitlines(keepends=True),
+                    **({"outputs": [], "execution_count": None} if kind == "code" else {}),
+                }
                 for kind, src in cells
             ],
             "metadata": {"kernelspec": {"name": "python3", "display_name": "Python 3", "language": "python"}},
             "nbformat": 4,
             "nbformat_minor": 5,
         }
-    )  # fmt: skip
+    )
 
 
 def test_findings_carry_cell_index_and_cell_line():
     nb = notebook(
         ("markdown", "# Weekly riders\n"),
         ("code", "%matplotlib inline\nimport pandas as pd\nimport statsmodels.formula.api as smf\n"),
-        ("code", "crossings = pd.read_csv('crossings.csv')\n!ls data\nres = smf.ols('riders ~ fare', data=crossings).fit()"),
+        (
+            "code",
+            "crossings = pd.read_csv('crossings.csv')\n!ls data\nres = smf.ols('riders ~ fare', data=crossings).fit()",
+        ),
         ("markdown", "Results:"),
         ("code", "res.summary()"),
     )
@@ -43,7 +50,10 @@ def test_findings_carry_cell_index_and_cell_line():
 
 def test_a_test_in_a_later_cell_covers_an_earlier_fit():
     nb = notebook(
-        ("code", "import statsmodels.api as sm\nfrom statsmodels.stats.diagnostic import het_breuschpagan, linear_reset"),
+        (
+            "code",
+            "import statsmodels.api as sm\nfrom statsmodels.stats.diagnostic import het_breuschpagan, linear_reset",
+        ),
         ("code", "res = sm.OLS(y, X).fit()"),
         ("code", "print(res.summary())"),
         ("code", "het_breuschpagan(res.resid, res.model.exog)\nlinear_reset(res, power=3, use_f=True)"),
@@ -54,7 +64,10 @@ def test_a_test_in_a_later_cell_covers_an_earlier_fit():
 def test_waivers_in_notebook_cells():
     nb = notebook(
         ("code", "import statsmodels.api as sm"),
-        ("code", "# regvet: waive no-form-test, no-variance-test because exploratory cell, not reported\nres = sm.OLS(y, X).fit()\nres.summary()"),
+        (
+            "code",
+            "# regvet: waive no-form-test, no-variance-test because exploratory cell, not reported\nres = sm.OLS(y, X).fit()\nres.summary()",
+        ),
     )
     report = analyze(nb, "nb.ipynb", strict=True)
     assert report.findings and all(f.waived for f in report.findings)
@@ -111,7 +124,21 @@ def test_valid_python_cells_are_left_alone():
 
 
 def test_nbformat_3_worksheets():
-    nb = json.dumps({"worksheets": [{"cells": [{"cell_type": "code", "input": "import statsmodels.api as sm\nres = sm.OLS(y, X).fit()\nres.params"}]}], "nbformat": 3})
+    nb = json.dumps(
+        {
+            "worksheets": [
+                {
+                    "cells": [
+                        {
+                            "cell_type": "code",
+                            "input": "import statsmodels.api as sm\nres = sm.OLS(y, X).fit()\nres.params",
+                        }
+                    ]
+                }
+            ],
+            "nbformat": 3,
+        }
+    )
     src = read_notebook(nb)
     assert "sm.OLS" in src.python
     assert [f.rule for f in analyze(nb, "old.ipynb", strict=True).findings] == ["no-form-test"]
@@ -119,11 +146,16 @@ def test_nbformat_3_worksheets():
 
 def test_nbformat_written_notebook_roundtrip(tmp_path):
     import nbformat
-    nb = nbformat.v4.new_notebook(cells=[
-        nbformat.v4.new_markdown_cell("# Model"),
-        nbformat.v4.new_code_cell("import statsmodels.formula.api as smf\nres = smf.ols('riders ~ fare', data=df).fit()"),
-        nbformat.v4.new_code_cell("res.params"),
-    ])  # fmt: skip
+
+    nb = nbformat.v4.new_notebook(
+        cells=[
+            nbformat.v4.new_markdown_cell("# Model"),
+            nbformat.v4.new_code_cell(
+                "import statsmodels.formula.api as smf\nres = smf.ols('riders ~ fare', data=df).fit()"
+            ),
+            nbformat.v4.new_code_cell("res.params"),
+        ]
+    )
     path = tmp_path / "nb.ipynb"
     nbformat.write(nb, str(path))
     report = analyze(path.read_text(), "nb.ipynb", strict=True)

@@ -51,14 +51,14 @@ def test_spelling_counts_only_imports_before_the_line_and_survives_broken_code()
     assert spelling("def (:\n", "linear_reset", MODULES) is None
 
 
-SCRIPT = '''\
+SCRIPT = """\
 import pandas as pd
 import statsmodels.formula.api as smf
 {imports}
 crossings = pd.read_csv("crossings.csv")
 m1 = smf.ols("riders ~ fare", data=crossings).fit()
 print(m1.summary())
-'''
+"""
 
 
 def _finding(text: str, rule: str):
@@ -89,7 +89,7 @@ def test_breusch_pagan_insertion_uses_the_module_alias():
     kinds = [k.value for k in next(r for r in ALL_RULES if r.id == f.rule).quick_fixes]
     edits = plan(text, f.rule, kinds, f.fix, waiver_line=f.span.line)
     assert [e.kind for e in edits] == [ROBUST_COVARIANCE, INSERT_BREUSCH_PAGAN, WAIVER]
-    assert 'sms.het_breuschpagan(m1.resid, m1.model.exog)' in edits[1].text
+    assert "sms.het_breuschpagan(m1.resid, m1.model.exog)" in edits[1].text
     assert 'cov_type="HC3"' in edits[0].text and edits[0].preferred and not edits[1].preferred
 
 
@@ -118,14 +118,26 @@ print(m1.params)
 @pytest.mark.parametrize(
     "comment,rule,written",
     [
-        ("# regvet: waive no-form-test -- fares are set by contract", "waiver-without-reason",
-         "# regvet: waive no-form-test because fares are set by contract"),
-        ("# regvet: waive-file no-form-test: fares are set by contract", "waiver-without-reason",
-         "# regvet: waive-file no-form-test because fares are set by contract"),
-        ("# regvet: waive no-form-test fares are set by contract", "waiver-without-reason",
-         "# regvet: waive no-form-test because fares are set by contract"),
-        ("# regvet: waive No_Form_Test because fares are set by contract", "waiver-unknown-rule",
-         "# regvet: waive no-form-test because fares are set by contract"),
+        (
+            "# regvet: waive no-form-test -- fares are set by contract",
+            "waiver-without-reason",
+            "# regvet: waive no-form-test because fares are set by contract",
+        ),
+        (
+            "# regvet: waive-file no-form-test: fares are set by contract",
+            "waiver-without-reason",
+            "# regvet: waive-file no-form-test because fares are set by contract",
+        ),
+        (
+            "# regvet: waive no-form-test fares are set by contract",
+            "waiver-without-reason",
+            "# regvet: waive no-form-test because fares are set by contract",
+        ),
+        (
+            "# regvet: waive No_Form_Test because fares are set by contract",
+            "waiver-unknown-rule",
+            "# regvet: waive no-form-test because fares are set by contract",
+        ),
     ],
 )
 def test_a_waiver_finding_plans_the_waiver_rewritten_and_the_rewrite_takes_effect(comment, rule, written):

@@ -39,9 +39,19 @@ CLEAN = DIRTY.replace(
 
 
 def git(repo: Path, *args: str) -> None:
-    subprocess.run(["git", *args], cwd=repo, check=True, capture_output=True,
-                   env={**os.environ, "GIT_AUTHOR_NAME": "t", "GIT_AUTHOR_EMAIL": "t@example.invalid",
-                        "GIT_COMMITTER_NAME": "t", "GIT_COMMITTER_EMAIL": "t@example.invalid"})  # fmt: skip
+    subprocess.run(
+        ["git", *args],
+        cwd=repo,
+        check=True,
+        capture_output=True,
+        env={
+            **os.environ,
+            "GIT_AUTHOR_NAME": "t",
+            "GIT_AUTHOR_EMAIL": "t@example.invalid",
+            "GIT_COMMITTER_NAME": "t",
+            "GIT_COMMITTER_EMAIL": "t@example.invalid",
+        },
+    )
 
 
 @pytest.fixture(scope="module")
@@ -55,8 +65,12 @@ def try_repo(repo: Path, home: Path, *files: str) -> subprocess.CompletedProcess
     env.pop("VIRTUAL_ENV", None)
     return subprocess.run(
         [str(PRE_COMMIT), "try-repo", str(ROOT), "regvet", "--files", *files],
-        cwd=repo, capture_output=True, text=True, env=env, timeout=900,
-    )  # fmt: skip
+        cwd=repo,
+        capture_output=True,
+        text=True,
+        env=env,
+        timeout=900,
+    )
 
 
 @pytest.mark.skipif(shutil.which("git") is None, reason="git is needed for pre-commit")
@@ -80,8 +94,9 @@ def test_hook_fails_a_commit_with_a_finding_and_passes_a_clean_one(tmp_path, hoo
 
 
 def test_hook_manifest_is_valid():
-    proc = subprocess.run([str(PRE_COMMIT), "validate-manifest", str(ROOT / ".pre-commit-hooks.yaml")],
-                          capture_output=True, text=True)  # fmt: skip
+    proc = subprocess.run(
+        [str(PRE_COMMIT), "validate-manifest", str(ROOT / ".pre-commit-hooks.yaml")], capture_output=True, text=True
+    )
     assert proc.returncode == 0, proc.stdout + proc.stderr
 
 

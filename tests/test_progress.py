@@ -62,8 +62,9 @@ def _big_tree(tmp_path: Path) -> Path:
 @pytest.mark.scan
 def test_check_on_a_big_tree_shows_a_progress_line_after_two_seconds(tmp_path):
     tree = _big_tree(tmp_path)
-    code, out, err = _run_with_terminal_stderr([*REGVET, "check", str(tree), "--no-cache", "--jobs", "1",
-                                                "--no-config"], tmp_path)  # fmt: skip
+    code, out, err = _run_with_terminal_stderr(
+        [*REGVET, "check", str(tree), "--no-cache", "--jobs", "1", "--no-config"], tmp_path
+    )
     assert code in (0, 1), err
     assert "regvet: read " in err and " files, last " in err, err[-500:]
     assert err.rstrip().endswith("\x1b[K") or "\r\x1b[K" in err  # the line is cleared at the end
@@ -73,15 +74,22 @@ def test_check_on_a_big_tree_shows_a_progress_line_after_two_seconds(tmp_path):
 @pytest.mark.scan
 def test_no_progress_when_standard_error_is_not_a_terminal(tmp_path):
     tree = _big_tree(tmp_path)
-    proc = subprocess.run([*REGVET, "check", str(tree), "--no-cache", "--jobs", "1", "--no-config"], cwd=tmp_path,
-                          capture_output=True, text=True, timeout=600)  # fmt: skip
+    proc = subprocess.run(
+        [*REGVET, "check", str(tree), "--no-cache", "--jobs", "1", "--no-config"],
+        cwd=tmp_path,
+        capture_output=True,
+        text=True,
+        timeout=600,
+    )
     assert proc.returncode in (0, 1)
     assert "regvet: read" not in proc.stderr and "\r" not in proc.stderr
 
 
 def test_a_small_check_shows_no_progress_line(tmp_path):
     script = tmp_path / "one.py"
-    script.write_text("import statsmodels.formula.api as smf\nres = smf.ols('y ~ x', data=d).fit()\nprint(res.params)\n")
+    script.write_text(
+        "import statsmodels.formula.api as smf\nres = smf.ols('y ~ x', data=d).fit()\nprint(res.params)\n"
+    )
     code, _, err = _run_with_terminal_stderr([*REGVET, "check", str(script), "--no-config"], tmp_path)
     assert code in (0, 1) and "regvet: read" not in err
 

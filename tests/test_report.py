@@ -29,7 +29,7 @@ NS = {"h": "http://www.w3.org/1999/xhtml"}
 
 #: An invented analysis whose wind coefficient is significant at 5 % with the usual standard errors
 #: and not with HC3 (seed found by trying seeds with statsmodels: usual p = 0.018, HC3 p = 0.076).
-FLIP = '''\
+FLIP = """\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -45,7 +45,7 @@ print(linear_reset(gusty, power=3, use_f=True))
 print(gusty.summary())
 calm = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
 print(calm.summary())
-'''
+"""
 
 
 def scan_demo(run: bool = False):
@@ -76,18 +76,37 @@ def test_every_fit_of_the_demo_is_in_the_audit_in_source_order(in_demo):
         assert fa.path == report.path
         if report.facts is None:
             continue
-        judged = {(report.cell_map.span(f.site.span) if report.cell_map else f.site.span, A.fit_name(f))
-                  for f in report.rule_input.judged_fits()}  # fmt: skip
+        judged = {
+            (report.cell_map.span(f.site.span) if report.cell_map else f.site.span, A.fit_name(f))
+            for f in report.rule_input.judged_fits()
+        }
         shown = [(fit.span, fit.name) for fit in fa.fits]
         assert sorted(shown, key=lambda x: x[0].sort_key()) == shown  # in source order
         assert set(shown) == judged and len(shown) == len(judged)  # every fit, each place and name once
     names = {fit.name for f in audit.files for fit in f.fits}
-    assert {"level", "loglog", "by_route", "naive", "wind_res", "rain_res", "final", "seasonal", "quick",
-            "pooled", "pooled_hc3", "interacted", "res"} <= names  # fmt: skip
+    assert {
+        "level",
+        "loglog",
+        "by_route",
+        "naive",
+        "wind_res",
+        "rain_res",
+        "final",
+        "seasonal",
+        "quick",
+        "pooled",
+        "pooled_hc3",
+        "interacted",
+        "res",
+    } <= names
     assert audit.fit_count == sum(len(f.fits) for f in audit.files)
     # the summary counts are those of `regvet check`
     findings = [f for r in result.reports for f in r.findings]
-    assert audit.counts == {"error": 2, "warning": 8, "info": 2}  # 8: the demo's misspelt waiver (waiver-unknown-rule) counts too
+    assert audit.counts == {
+        "error": 2,
+        "warning": 8,
+        "info": 2,
+    }  # 8: the demo's misspelt waiver (waiver-unknown-rule) counts too
     assert len(audit.waivers) == sum(1 for f in findings if f.waived) == 3
     assert all(w.reason for w in audit.waivers)
 
@@ -95,9 +114,15 @@ def test_every_fit_of_the_demo_is_in_the_audit_in_source_order(in_demo):
 def test_the_state_of_every_check_family_of_key_demo_fits(in_demo):
     fits = by_place(A.build(scan_demo().reports))
     rain = fits[("02_weather_effects.py", "line 34")]
-    assert states(rain) == {"form": A.DONE, "variance": A.MISSING, "normality": A.NOT_APPLICABLE, "serial": A.DONE,
-                            "breaks": A.NOT_APPLICABLE, "collinearity": A.NOT_APPLICABLE,
-                            "comparison": A.NOT_APPLICABLE}  # fmt: skip
+    assert states(rain) == {
+        "form": A.DONE,
+        "variance": A.MISSING,
+        "normality": A.NOT_APPLICABLE,
+        "serial": A.DONE,
+        "breaks": A.NOT_APPLICABLE,
+        "collinearity": A.NOT_APPLICABLE,
+        "comparison": A.NOT_APPLICABLE,
+    }
     assert next(r.how for r in rain.checks if r.family == "form") == "`linear_reset` at line 37"
     helper = fits[("02_weather_effects.py", "line 28")]  # fitted in ferry_helpers with HC3
     assert states(helper)["form"] == A.MISSING and states(helper)["breaks"] == A.MISSING
@@ -152,7 +177,9 @@ def test_every_state_of_every_demo_fit(in_demo):
     got = []
     for f in A.build(scan_demo().reports).files:
         for fit in f.fits:
-            got.append(f"{fit.path} {fit.where} {fit.name.replace(' ', '')} " + " ".join(letter[r.state] for r in fit.checks))
+            got.append(
+                f"{fit.path} {fit.where} {fit.name.replace(' ', '')} " + " ".join(letter[r.state] for r in fit.checks)
+            )
     assert got == [line.replace("OLS fit", "OLSfit") for line in DEMO_STATES.strip().splitlines()]
 
 
@@ -162,7 +189,9 @@ def test_static_ranking_puts_invalid_comparisons_then_missing_checks_first(in_de
     assert keys == sorted(keys)
     order = [(fit.path, fit.where) for fit in audit.ranked]
     assert order[:2] == [("01_fare_elasticity.py", "line 17"), ("01_fare_elasticity.py", "line 29")]
-    missing_first = [p for p, fit in zip(order, audit.ranked, strict=False) if fit.risk.rejected == 0 and fit.risk.missing]
+    missing_first = [
+        p for p, fit in zip(order, audit.ranked, strict=False) if fit.risk.rejected == 0 and fit.risk.missing
+    ]
     assert missing_first[0] == ("02_weather_effects.py", "line 28")  # two missing checks
     assert audit.ranked[-1].risk.describe() == "no missing or failed check found"
 
@@ -232,7 +261,7 @@ def test_static_html_report_of_the_demo(run_cli, in_demo, tmp_path):
     text = out.read_text(encoding="utf-8")
     check_html(text)
     assert "<svg" not in text  # no plots without --run
-    assert text.count("<table class=\"checks\">") == 20
+    assert text.count('<table class="checks">') == 20
     assert "Passing regvet does not make a model right" in text
     for state in A.STATES:  # the states are explained in words
         assert f'<dt><span class="state {report_html.STATE_STYLE[state][0]}">{state}</span></dt>' in text
@@ -240,12 +269,19 @@ def test_static_html_report_of_the_demo(run_cli, in_demo, tmp_path):
 
 
 def test_html_checker_catches_what_it_should():
-    good = '<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>t</title><style>body { color: #1a1a1a; background: #ffffff; }' + "".join(f" .c{i} {{ color: #1a1a1a; }}" for i in range(10)) + '</style></head><body><h1>a</h1><h2>b</h2><table><caption>c</caption><thead><tr><th>x</th></tr></thead></table></body></html>'
+    good = (
+        '<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>t</title><style>body { color: #1a1a1a; background: #ffffff; }'
+        + "".join(f" .c{i} {{ color: #1a1a1a; }}" for i in range(10))
+        + "</style></head><body><h1>a</h1><h2>b</h2><table><caption>c</caption><thead><tr><th>x</th></tr></thead></table></body></html>"
+    )
     check_html(good)
-    for bad in (good.replace("<h2>b</h2>", "<h3>b</h3>"), good.replace("<h2>b</h2>", "<h1>b</h1>"),
-                good.replace("<thead><tr><th>x</th></tr></thead>", "<tbody><tr><td>x</td></tr></tbody>"),
-                good.replace(".c0 { color: #1a1a1a; }", ".c0 { color: #999999; }"),
-                good.replace("<h2>b</h2>", '<h2>b</h2><img src="https://example.org/x.png" alt="x">')):  # fmt: skip
+    for bad in (
+        good.replace("<h2>b</h2>", "<h3>b</h3>"),
+        good.replace("<h2>b</h2>", "<h1>b</h1>"),
+        good.replace("<thead><tr><th>x</th></tr></thead>", "<tbody><tr><td>x</td></tr></tbody>"),
+        good.replace(".c0 { color: #1a1a1a; }", ".c0 { color: #999999; }"),
+        good.replace("<h2>b</h2>", '<h2>b</h2><img src="https://example.org/x.png" alt="x">'),
+    ):
         with pytest.raises(AssertionError):
             check_html(bad)
 
@@ -298,8 +334,14 @@ def ran(tmp_path_factory):
     (folder / "demo" / "05_gusty_weeks.py").write_text(FLIP, encoding="utf-8")
     env = {**os.environ, "REGVET_CACHE_DIR": str(folder / "cache")}
     for name in ("audit.html", "audit.md"):
-        proc = subprocess.run([sys.executable, "-m", "regvet", "report", "--run", ".", "-o", str(folder / name)],
-                              cwd=folder / "demo", env=env, capture_output=True, text=True, timeout=600)  # fmt: skip
+        proc = subprocess.run(
+            [sys.executable, "-m", "regvet", "report", "--run", ".", "-o", str(folder / name)],
+            cwd=folder / "demo",
+            env=env,
+            capture_output=True,
+            text=True,
+            timeout=600,
+        )
         assert proc.returncode == 0, proc.stderr
         assert proc.stderr == ""  # not a terminal: no progress line
     return folder
@@ -308,7 +350,7 @@ def ran(tmp_path_factory):
 def test_run_report_has_statistics_coefficients_and_plots(ran):
     text = (ran / "audit.html").read_text(encoding="utf-8")
     check_html(text)
-    assert text.count("<table class=\"checks\">") == 22
+    assert text.count('<table class="checks">') == 22
     assert "done, passed" in text and "done, rejected" in text
     assert "F(2, 539) = 106.7" in text  # RESET of the helper-made weather model, as the probe computed it
     assert "Koenker studentized LM" in text
@@ -355,8 +397,13 @@ def test_progress_line_on_a_terminal_only(tmp_path):
     (tmp_path / "gusty.py").write_text(FLIP, encoding="utf-8")
     env = {**os.environ, "REGVET_CACHE_DIR": str(tmp_path / "cache")}
     leader, follower = pty.openpty()
-    proc = subprocess.Popen([sys.executable, "-m", "regvet", "report", "--run", "--no-cache", "gusty.py", "-o", "a.html"],
-                            cwd=tmp_path, env=env, stdout=subprocess.PIPE, stderr=follower)  # fmt: skip
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "regvet", "report", "--run", "--no-cache", "gusty.py", "-o", "a.html"],
+        cwd=tmp_path,
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=follower,
+    )
     os.close(follower)
     seen = b""
     while True:
@@ -423,13 +470,17 @@ def test_the_browser_check_fails_on_a_broken_page(tmp_path):
     from browser import load
 
     broken = tmp_path / "broken.html"
-    broken.write_text('<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>x</title></head><body>'
-                      '<h1>x</h1><img src="http://127.0.0.1:9/pixel.png" alt="pixel">'
-                      '<script>console.error("broken on purpose"); undefined_function();</script></body></html>')  # fmt: skip
+    broken.write_text(
+        '<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>x</title></head><body>'
+        '<h1>x</h1><img src="http://127.0.0.1:9/pixel.png" alt="pixel">'
+        '<script>console.error("broken on purpose"); undefined_function();</script></body></html>'
+    )
     page = load(broken.as_uri(), {"h1": "document.querySelector('h1').textContent"})
     assert any("broken on purpose" in e for e in page.errors)
     assert any("undefined_function" in e for e in page.exceptions)
     assert "http://127.0.0.1:9/pixel.png" in page.requests
     blank = tmp_path / "blank.html"
-    blank.write_text('<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>x</title></head><body></body></html>')
+    blank.write_text(
+        '<!DOCTYPE html><html lang="en"><head><meta charset="utf-8"><title>x</title></head><body></body></html>'
+    )
     assert _non_blank(load(blank.as_uri(), {}).screenshot) == 0.0

@@ -54,22 +54,30 @@ def test_statistics_are_attached_to_static_findings(tmp_path):
 
 
 FAULTS = {
-    "raises": ("res = smf.ols('riders ~ fare', data=crossings).fit()\nraise ValueError('no timetable for route 4')\n",
-               "ValueError: no timetable for route 4", 9),
+    "raises": (
+        "res = smf.ols('riders ~ fare', data=crossings).fit()\nraise ValueError('no timetable for route 4')\n",
+        "ValueError: no timetable for route 4",
+        9,
+    ),
     "exits": ("res = smf.ols('riders ~ fare', data=crossings).fit()\nimport sys\nsys.exit(3)\n", "sys.exit(3)", 10),
-    "sleeps": ("res = smf.ols('riders ~ fare', data=crossings).fit()\nimport time\ntime.sleep(60)\n",
-               "more than 10 s (`run_timeout`)", 1),
-    "allocates": ("res = smf.ols('riders ~ fare', data=crossings).fit()\nballast = bytearray(6 * 1024**3)\n",
-                  "ran out of memory", 9),
-    "reads-stdin": ("res = smf.ols('riders ~ fare', data=crossings).fit()\nanswer = input('route? ')\n",
-                    "EOFError", 9),
-}  # fmt: skip
+    "sleeps": (
+        "res = smf.ols('riders ~ fare', data=crossings).fit()\nimport time\ntime.sleep(60)\n",
+        "more than 10 s (`run_timeout`)",
+        1,
+    ),
+    "allocates": (
+        "res = smf.ols('riders ~ fare', data=crossings).fit()\nballast = bytearray(6 * 1024**3)\n",
+        "ran out of memory",
+        9,
+    ),
+    "reads-stdin": ("res = smf.ols('riders ~ fare', data=crossings).fit()\nanswer = input('route? ')\n", "EOFError", 9),
+}
 
 
 @pytest.mark.parametrize("fault", sorted(FAULTS))
 def test_faults_give_run_failed_and_keep_completed_fits(tmp_path, fault):
     body, needle, line = FAULTS[fault]
-    code = FIT.replace("res = smf.ols(\"riders ~ fare\", data=crossings).fit()\nprint(res.summary())\n", body)
+    code = FIT.replace('res = smf.ols("riders ~ fare", data=crossings).fit()\nprint(res.summary())\n', body)
     # 10 s: importing pandas and statsmodels alone takes over 3 s on a loaded two-core machine.
     settings = Settings(run_timeout=10 if fault == "sleeps" else 60, run_memory_mb=1500)
     report, result = judge(tmp_path, code, settings=settings)
@@ -89,7 +97,9 @@ def test_the_scan_goes_on_after_a_failing_file(tmp_path, monkeypatch, run_cli):
     (tmp_path / "b_fine.py").write_text(FIT)
     code, out, err = run_cli("run", ".", "--format", "json")
     findings = json.loads(out)["findings"]
-    assert {(Path(f["path"]).name, f["rule"]) for f in findings if f["rule"] == "run-failed"} == {("a_fails.py", "run-failed")}
+    assert {(Path(f["path"]).name, f["rule"]) for f in findings if f["rule"] == "run-failed"} == {
+        ("a_fails.py", "run-failed")
+    }
     assert any(f["path"] == "b_fine.py" and f["stats"] for f in findings)
     assert code == 1
 
@@ -129,18 +139,38 @@ def test_notebook_cells_run_in_order_with_cell_positions(tmp_path):
     nb = {
         "cells": [
             {"cell_type": "markdown", "metadata": {}, "source": ["# Riders\n"]},
-            {"cell_type": "code", "metadata": {}, "outputs": [], "execution_count": None,
-             "source": ["%matplotlib inline\n", "import numpy as np, pandas as pd\n",
-                        "import statsmodels.formula.api as smf\n", "import matplotlib.pyplot as plt\n"]},
-            {"cell_type": "code", "metadata": {}, "outputs": [], "execution_count": None,
-             "source": ["rng = np.random.default_rng(3)\n",
-                        "crossings = pd.DataFrame({'fare': rng.uniform(2, 9, 90)})\n",
-                        "crossings['riders'] = 300 - 10 * crossings['fare'] + rng.normal(0, 5, 90)\n",
-                        "!ls\n", "res = smf.ols('riders ~ fare', data=crossings).fit()\n",
-                        "plt.plot([1, 2]); plt.show()\n", "res.summary()"]},
+            {
+                "cell_type": "code",
+                "metadata": {},
+                "outputs": [],
+                "execution_count": None,
+                "source": [
+                    "%matplotlib inline\n",
+                    "import numpy as np, pandas as pd\n",
+                    "import statsmodels.formula.api as smf\n",
+                    "import matplotlib.pyplot as plt\n",
+                ],
+            },
+            {
+                "cell_type": "code",
+                "metadata": {},
+                "outputs": [],
+                "execution_count": None,
+                "source": [
+                    "rng = np.random.default_rng(3)\n",
+                    "crossings = pd.DataFrame({'fare': rng.uniform(2, 9, 90)})\n",
+                    "crossings['riders'] = 300 - 10 * crossings['fare'] + rng.normal(0, 5, 90)\n",
+                    "!ls\n",
+                    "res = smf.ols('riders ~ fare', data=crossings).fit()\n",
+                    "plt.plot([1, 2]); plt.show()\n",
+                    "res.summary()",
+                ],
+            },
         ],
-        "metadata": {}, "nbformat": 4, "nbformat_minor": 5,
-    }  # fmt: skip
+        "metadata": {},
+        "nbformat": 4,
+        "nbformat_minor": 5,
+    }
     text = json.dumps(nb)
     report, result = judge(tmp_path, text, name="study.ipynb")
     assert result.completed, result.end
@@ -150,16 +180,22 @@ def test_notebook_cells_run_in_order_with_cell_positions(tmp_path):
 
 
 def test_fit_made_in_a_helper_function_is_matched_at_the_call_site(tmp_path):
-    (tmp_path / "ferry_fits.py").write_text(textwrap.dedent(
-        """\
+    (tmp_path / "ferry_fits.py").write_text(
+        textwrap.dedent(
+            """\
         import statsmodels.formula.api as smf
 
 
         def fit_riders(data):
             return smf.ols("riders ~ fare", data=data).fit()
-        """))  # fmt: skip
+        """
+        )
+    )
     code = FIT.replace('res = smf.ols("riders ~ fare", data=crossings).fit()', "res = fit_riders(crossings)")
-    code = code.replace("import statsmodels.formula.api as smf\n", "import statsmodels.formula.api as smf\nfrom ferry_fits import fit_riders\n")
+    code = code.replace(
+        "import statsmodels.formula.api as smf\n",
+        "import statsmodels.formula.api as smf\nfrom ferry_fits import fit_riders\n",
+    )
     path = tmp_path / "model.py"
     path.write_text(code)
     from regvet.project import FileModules
@@ -172,7 +208,10 @@ def test_fit_made_in_a_helper_function_is_matched_at_the_call_site(tmp_path):
 
 
 def test_statsmodels_internal_fits_are_not_recorded(tmp_path):
-    code = FIT + "from statsmodels.stats.diagnostic import linear_reset, het_white\nlinear_reset(res, power=3, use_f=True)\nhet_white(res.resid, res.model.exog)\n"
+    code = (
+        FIT
+        + "from statsmodels.stats.diagnostic import linear_reset, het_white\nlinear_reset(res, power=3, use_f=True)\nhet_white(res.resid, res.model.exog)\n"
+    )
     _, result = judge(tmp_path, code)
     assert [f["frames"][0][1] for f in result.fits] == [8]
 
@@ -190,10 +229,24 @@ def test_nist_longley_certified_values_through_the_probe(tmp_path):
     )
     _, result = judge(tmp_path, code)
     stats = result.fits[0]["stats"]
-    certified_b = (-3482258.63459582, 15.0618722713733, -0.358191792925910e-01, -2.02022980381683,
-                   -1.03322686717359, -0.511041056535807e-01, 1829.15146461355)  # fmt: skip
-    certified_se = (890420.383607373, 84.9149257747669, 0.334910077722432e-01, 0.488399681651699,
-                    0.214274163161675, 0.226073200069370, 455.478499142212)  # fmt: skip
+    certified_b = (
+        -3482258.63459582,
+        15.0618722713733,
+        -0.358191792925910e-01,
+        -2.02022980381683,
+        -1.03322686717359,
+        -0.511041056535807e-01,
+        1829.15146461355,
+    )
+    certified_se = (
+        890420.383607373,
+        84.9149257747669,
+        0.334910077722432e-01,
+        0.488399681651699,
+        0.214274163161675,
+        0.226073200069370,
+        455.478499142212,
+    )
     coefs = stats["coefficients"]
     assert [c["estimate"] for c in coefs] == pytest.approx(certified_b, rel=1e-7)
     assert [c["se"] for c in coefs] == pytest.approx(certified_se, rel=1e-7)

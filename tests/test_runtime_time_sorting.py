@@ -55,8 +55,7 @@ def test_unsorted_date_index_gives_the_sorted_series_values(chunk: int) -> None:
     assert out["breusch_godfrey"]["lags"] == 12
     np.testing.assert_allclose(out["durbin_watson"], durbin_watson(sorted_fit.resid), rtol=1e-9)
     ref = acorr_breusch_godfrey(sorted_fit, nlags=12)
-    np.testing.assert_allclose([out["breusch_godfrey"]["lm"], out["breusch_godfrey"]["lm_pvalue"]], ref[:2],
-                               rtol=1e-8)  # fmt: skip
+    np.testing.assert_allclose([out["breusch_godfrey"]["lm"], out["breusch_godfrey"]["lm_pvalue"]], ref[:2], rtol=1e-8)
     # and the row order alone would have hidden the autocorrelation (DW near 2 on shuffled rows)
     assert durbin_watson(shuffled_fit.resid) > 1.5 > out["durbin_watson"]
 
@@ -116,10 +115,13 @@ def test_serial_test_within_units_matches_statsmodels_cluster_regression(rho: fl
     resid["u_prev"] = resid.groupby("berth")["u"].shift(1)
     pairs = resid.dropna(subset=["u_prev"])
     ref = sm.OLS(pairs["u"], sm.add_constant(pairs["u_prev"])).fit(
-        cov_type="cluster", cov_kwds={"groups": pd.factorize(pairs["berth"])[0]}, use_t=True)
-    np.testing.assert_allclose([within["rho"], within["se"], within["t"], within["pvalue"]],
-                               [ref.params["u_prev"], ref.bse["u_prev"], ref.tvalues["u_prev"],
-                                ref.pvalues["u_prev"]], rtol=1e-9)  # fmt: skip
+        cov_type="cluster", cov_kwds={"groups": pd.factorize(pairs["berth"])[0]}, use_t=True
+    )
+    np.testing.assert_allclose(
+        [within["rho"], within["se"], within["t"], within["pvalue"]],
+        [ref.params["u_prev"], ref.bse["u_prev"], ref.tvalues["u_prev"], ref.pvalues["u_prev"]],
+        rtol=1e-9,
+    )
     assert (within["units"], within["pairs"], within["df"]) == (4, 4 * 49, 3)
     if rho:
         assert within["pvalue"] < 0.01

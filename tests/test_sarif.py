@@ -51,12 +51,22 @@ def test_sarif_is_schema_valid_with_waivers_related_locations_and_notebooks(tmp_
     nb = {
         "cells": [
             {"cell_type": "markdown", "metadata": {}, "source": ["# Notes\n"]},
-            {"cell_type": "code", "metadata": {}, "execution_count": None, "outputs": [],
-             "source": ["import statsmodels.formula.api as smf\n", "res = smf.ols('riders ~ fare', data=df).fit()\n",
-                        "res.pvalues"]},
+            {
+                "cell_type": "code",
+                "metadata": {},
+                "execution_count": None,
+                "outputs": [],
+                "source": [
+                    "import statsmodels.formula.api as smf\n",
+                    "res = smf.ols('riders ~ fare', data=df).fit()\n",
+                    "res.pvalues",
+                ],
+            },
         ],
-        "metadata": {}, "nbformat": 4, "nbformat_minor": 5,
-    }  # fmt: skip
+        "metadata": {},
+        "nbformat": 4,
+        "nbformat_minor": 5,
+    }
     (tmp_path / "study.ipynb").write_text(json.dumps(nb))
     (tmp_path / "broken.py").write_text("import statsmodels\nx = (\n")
     code, log = _sarif(run_cli, ".")
@@ -79,7 +89,9 @@ def test_sarif_is_schema_valid_with_waivers_related_locations_and_notebooks(tmp_
     assert waived[0]["suppressions"] == [
         {"kind": "inSource", "status": "accepted", "justification": "fare is linear by design"}
     ]
-    variance = next(r for r in results if r["ruleId"] == "no-variance-test" and "model.py" in json.dumps(r["locations"]))
+    variance = next(
+        r for r in results if r["ruleId"] == "no-variance-test" and "model.py" in json.dumps(r["locations"])
+    )
     region = variance["locations"][0]["physicalLocation"]["region"]
     # r_ü = smf.ols(...): the fit call starts at code point 7 (1-based), after the non-ASCII name.
     assert region["startLine"] == 6 and region["startColumn"] == 7

@@ -28,8 +28,9 @@ def regvet(*args: str, cache: Path | None, cwd: Path, env: dict | None = None) -
     full_env = {**os.environ, **(env or {})}
     if cache is not None:
         full_env["REGVET_CACHE_DIR"] = str(cache)
-    return subprocess.run([sys.executable, "-m", "regvet", *args], cwd=cwd, env=full_env, capture_output=True,
-                          text=True, timeout=600)  # fmt: skip
+    return subprocess.run(
+        [sys.executable, "-m", "regvet", *args], cwd=cwd, env=full_env, capture_output=True, text=True, timeout=600
+    )
 
 
 def _statsmodels_copies(dest: Path, count: int = 20) -> Path:
@@ -73,22 +74,22 @@ def test_warm_run_reads_the_cache_and_gives_the_same_output(copies, tmp_path):
     assert [e.stat().st_mtime_ns for e in sorted(cache.rglob("*.pickle"))] == stamps  # read, not rewritten
 
 
-HELPER = '''import statsmodels.formula.api as smf
+HELPER = """import statsmodels.formula.api as smf
 
 
 def fit_lifts(df):
     return smf.ols("lifts ~ wind + shift_hours", data=df).fit()
-'''
+"""
 CHECKED_HELPER = HELPER.replace(
     "    return smf.ols(", "    from statsmodels.stats.diagnostic import linear_reset\n\n    res = smf.ols("
 ).replace(".fit()\n", ".fit()\n    linear_reset(res, power=3, use_f=True)\n    return res\n")
-MAIN = '''import pandas as pd
+MAIN = """import pandas as pd
 from crane_helpers import fit_lifts
 
 df = pd.read_csv("cranes.csv")
 res = fit_lifts(df)
 print(res.params)
-'''
+"""
 
 
 def _rules(proc: subprocess.CompletedProcess) -> list[str]:
@@ -123,7 +124,14 @@ def test_a_new_module_that_an_import_now_finds_re_analyses_the_file(tmp_path):
 
 def test_settings_change_the_key_and_the_key_is_stable_across_processes(tmp_path):
     cache = tmp_path / "cache"
-    args = ("check", "02_weather_effects.py", "--format", "json", "--only", "no-form-test,no-variance-test,no-break-test")
+    args = (
+        "check",
+        "02_weather_effects.py",
+        "--format",
+        "json",
+        "--only",
+        "no-form-test,no-variance-test,no-break-test",
+    )
     a = regvet(*args, cache=cache, cwd=DEMO, env={"PYTHONHASHSEED": "1"})
     n = len(list(cache.rglob("*.pickle")))
     b = regvet(*args, cache=cache, cwd=DEMO, env={"PYTHONHASHSEED": "2"})  # sets hash in another order
@@ -137,9 +145,16 @@ def test_concurrent_runs_share_one_cache_safely(copies, tmp_path):
     cache = tmp_path / "cache"
     expected = regvet("check", ".", "--format", "json", "--no-config", "--no-cache", cache=None, cwd=copies).stdout
     env = {**os.environ, "REGVET_CACHE_DIR": str(cache)}
-    procs = [subprocess.Popen([sys.executable, "-m", "regvet", "check", ".", "--format", "json", "--no-config",
-                               "-j", "1"], cwd=copies, env=env, stdout=subprocess.PIPE, text=True)
-             for _ in range(2)]  # fmt: skip
+    procs = [
+        subprocess.Popen(
+            [sys.executable, "-m", "regvet", "check", ".", "--format", "json", "--no-config", "-j", "1"],
+            cwd=copies,
+            env=env,
+            stdout=subprocess.PIPE,
+            text=True,
+        )
+        for _ in range(2)
+    ]
     outs = [p.communicate(timeout=600)[0] for p in procs]
     assert outs == [expected, expected]
     warm = regvet("check", ".", "--format", "json", "--no-config", cache=cache, cwd=copies)
@@ -149,8 +164,13 @@ def test_concurrent_runs_share_one_cache_safely(copies, tmp_path):
 def test_a_killed_run_leaves_no_partial_entry(copies, tmp_path):
     cache = tmp_path / "cache"
     env = {**os.environ, "REGVET_CACHE_DIR": str(cache)}
-    proc = subprocess.Popen([sys.executable, "-m", "regvet", "check", ".", "--no-config", "-j", "2"], cwd=copies,
-                            env=env, stdout=subprocess.DEVNULL, start_new_session=True)  # fmt: skip
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "regvet", "check", ".", "--no-config", "-j", "2"],
+        cwd=copies,
+        env=env,
+        stdout=subprocess.DEVNULL,
+        start_new_session=True,
+    )
     deadline = time.monotonic() + 120
     while time.monotonic() < deadline and len(list(cache.rglob("*.pickle"))) < 3:
         time.sleep(0.02)
@@ -189,7 +209,9 @@ def test_a_dead_worker_costs_only_its_own_item():
     out = map_ordered(_doubler, ("boom",), items, 2, _lost)
     assert out[17] == "lost boom: the worker process analysing it was killed (SIGKILL)"
     assert out[4].startswith("lost raise: the worker process failed: ValueError: refused")
-    assert [o for i, o in enumerate(out) if i not in (4, 17)] == [x * 2 for i, x in enumerate(items) if i not in (4, 17)]
+    assert [o for i, o in enumerate(out) if i not in (4, 17)] == [
+        x * 2 for i, x in enumerate(items) if i not in (4, 17)
+    ]
 
 
 def test_one_job_runs_in_this_process():
@@ -198,7 +220,7 @@ def test_one_job_runs_in_this_process():
 
 
 # --- regvet run --jobs ------------------------------------------------------------------------------
-CRANE = '''import time
+CRANE = """import time
 
 import numpy as np
 import statsmodels.api as sm
@@ -209,7 +231,7 @@ wind = rng.normal(8, 2, {n})
 lifts = 30 - 1.2 * wind + rng.normal(0, 1, {n})
 res = sm.OLS(lifts, sm.add_constant(wind)).fit()
 print(res.params)
-'''
+"""
 
 
 def _crane_scripts(folder: Path, sizes: list[int], pause: float = 0) -> None:
@@ -239,8 +261,13 @@ def test_a_killed_parallel_run_leaves_no_partial_run_entry(tmp_path):
     project, cache = tmp_path / "cranes", tmp_path / "cache"
     _crane_scripts(project, [40, 45, 50, 55, 60, 65], pause=2)
     env = {**os.environ, "REGVET_CACHE_DIR": str(cache)}
-    proc = subprocess.Popen([sys.executable, "-m", "regvet", "run", ".", "-j", "2"], cwd=project, env=env,
-                            stdout=subprocess.DEVNULL, start_new_session=True)  # fmt: skip
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "regvet", "run", ".", "-j", "2"],
+        cwd=project,
+        env=env,
+        stdout=subprocess.DEVNULL,
+        start_new_session=True,
+    )
     deadline = time.monotonic() + 120
     while time.monotonic() < deadline and not list(cache.glob("*.json")):
         time.sleep(0.02)

@@ -51,11 +51,14 @@ async def test_tcp_without_a_port_picks_a_free_one_and_prints_it():
         proc.wait(5)
 
 
-@pytest.mark.parametrize("argv, message", [
-    (["--port", "4100"], "--port needs --tcp"),
-    (["--tcp", "--port", "0"], "--port must be between 1 and 65535"),
-    (["--tcp", "--port", "70000"], "--port must be between 1 and 65535"),
-])  # fmt: skip
+@pytest.mark.parametrize(
+    "argv, message",
+    [
+        (["--port", "4100"], "--port needs --tcp"),
+        (["--tcp", "--port", "0"], "--port must be between 1 and 65535"),
+        (["--tcp", "--port", "70000"], "--port must be between 1 and 65535"),
+    ],
+)
 def test_bad_port_options_are_refused_with_a_message(argv, message):
     proc = subprocess.run([*SERVER, *argv], capture_output=True, text=True, timeout=60)
     assert proc.returncode == 2

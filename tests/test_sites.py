@@ -43,45 +43,71 @@ def _script(body: str) -> str:
 
 # (id, body, {rule: (every specification at the site, the flagged ones)})
 CASES = [
-    ("loop-over-three-formulas", """
+    (
+        "loop-over-three-formulas",
+        """
         for formula in ["riders ~ fare", "riders ~ fare + temp", "riders ~ fare + temp + wind"]:
             res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test, no-variance-test
             print(res.summary())
-    """, {FORM: (THREE, THREE), VAR: (THREE, THREE)}),
-    ("comprehension-one-checked", """
+    """,
+        {FORM: (THREE, THREE), VAR: (THREE, THREE)},
+    ),
+    (
+        "comprehension-one-checked",
+        """
         fits = [smf.ols(f, data=ferries).fit() for f in ["riders ~ fare", "riders ~ temp", "riders ~ wind"]]  # expect: no-form-test, no-variance-test
         print(het_breuschpagan(fits[1].resid, fits[1].model.exog))
         for r in fits:
             print(r.pvalues)
-    """, {VAR: (SPREAD, ["`riders ~ fare`", "`riders ~ wind`"]), FORM: (SPREAD, SPREAD)}),
-    ("comprehension-only-one-unchecked", """
+    """,
+        {VAR: (SPREAD, ["`riders ~ fare`", "`riders ~ wind`"]), FORM: (SPREAD, SPREAD)},
+    ),
+    (
+        "comprehension-only-one-unchecked",
+        """
         fits = [smf.ols(f, data=ferries).fit() for f in ["riders ~ fare", "riders ~ temp"]]  # expect: no-form-test
         print(linear_reset(fits[0], power=3, use_f=True))
         for r in fits:
             print(r.params)
-    """, {FORM: (["`riders ~ fare`", "`riders ~ temp`"], ["`riders ~ temp`"])}),
-    ("helper-called-in-a-loop", """
+    """,
+        {FORM: (["`riders ~ fare`", "`riders ~ temp`"], ["`riders ~ temp`"])},
+    ),
+    (
+        "helper-called-in-a-loop",
+        """
         def fit_one(cols):
             return sm.OLS(ferries["riders"], sm.add_constant(ferries[cols])).fit()
 
         for cols in (["fare"], ["fare", "temp"]):
             print(fit_one(cols).summary())  # expect: no-form-test, no-variance-test
-    """, {r: (["`riders` on `fare`", "`riders` on `fare + temp`"],) * 2 for r in (VAR, FORM)}),
-    ("same-formula-on-two-harbours", """
+    """,
+        {r: (["`riders` on `fare`", "`riders` on `fare + temp`"],) * 2 for r in (VAR, FORM)},
+    ),
+    (
+        "same-formula-on-two-harbours",
+        """
         def fit_port(frame):
             return smf.ols("riders ~ fare", data=frame).fit()
 
         for name in ["north.csv", "south.csv"]:
             print(fit_port(pd.read_csv(name)).summary())  # expect: no-form-test, no-variance-test
-    """, {r: (["fit 1 (`riders ~ fare`)", "fit 2 (`riders ~ fare`)"],) * 2 for r in (VAR, FORM)}),
-    ("check-applied-conditionally-in-the-loop", """
+    """,
+        {r: (["fit 1 (`riders ~ fare`)", "fit 2 (`riders ~ fare`)"],) * 2 for r in (VAR, FORM)},
+    ),
+    (
+        "check-applied-conditionally-in-the-loop",
+        """
         for formula in ["riders ~ fare", "riders ~ fare + temp", "riders ~ fare + temp + wind"]:
             res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test, no-variance-test
             if "temp" in formula:
                 print(het_breuschpagan(res.resid, res.model.exog))
             print(res.pvalues)
-    """, {VAR: (THREE, ["`riders ~ fare`"]), FORM: (THREE, THREE)}),
-    ("check-on-the-first-step-of-enumerate", """
+    """,
+        {VAR: (THREE, ["`riders ~ fare`"]), FORM: (THREE, THREE)},
+    ),
+    (
+        "check-on-the-first-step-of-enumerate",
+        """
         for i, formula in enumerate(["riders ~ fare", "riders ~ temp"]):
             res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test, no-variance-test
             if i == 0:
@@ -89,27 +115,40 @@ CASES = [
             else:
                 print(res.bse)
             print(res.pvalues)
-    """, {VAR: (TWO, ["`riders ~ temp`"]), FORM: (TWO, TWO)}),
-    ("check-under-a-condition-on-data-is-credited-to-each", """
+    """,
+        {VAR: (TWO, ["`riders ~ temp`"]), FORM: (TWO, TWO)},
+    ),
+    (
+        "check-under-a-condition-on-data-is-credited-to-each",
+        """
         for formula in ["riders ~ fare", "riders ~ fare + temp"]:
             res = smf.ols(formula, data=ferries).fit()  # expect: no-form-test
             if res.nobs > 30:
                 print(het_breuschpagan(res.resid, res.model.exog))
             print(res.pvalues)
-    """, {FORM: (THREE[:2], THREE[:2])}),
-    ("loop-all-checked", """
+    """,
+        {FORM: (THREE[:2], THREE[:2])},
+    ),
+    (
+        "loop-all-checked",
+        """
         for formula in ["riders ~ fare", "riders ~ fare + temp"]:
             res = smf.ols(formula, data=ferries).fit()
             print(het_breuschpagan(res.resid, res.model.exog), linear_reset(res, power=3, use_f=True))
             print(res.summary())
-    """, {}),
-    ("two-lines-two-findings", """
+    """,
+        {},
+    ),
+    (
+        "two-lines-two-findings",
+        """
         small = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-form-test, no-variance-test
         large = smf.ols("riders ~ fare + temp", data=ferries).fit()  # expect: no-form-test, no-variance-test
         print(small.summary(), large.summary())
-    """, {}),
+    """,
+        {},
+    ),
 ]
-
 
 
 @pytest.mark.parametrize("body, sites", [pytest.param(b, s, id=i) for i, b, s in CASES])
@@ -167,15 +206,29 @@ def test_hover_lists_the_fits_of_the_site():
     assert parts[0] == "**regvet** · 3 fits from this line: `riders ~ fare`, `riders ~ temp`, `riders ~ wind`"
     assert len(parts) == 4
     # the checked fit is done for variance; the others are missing
-    assert "variance: **done**" in parts[2] and "variance: **missing**" in parts[1] and "variance: **missing**" in parts[3]
+    assert (
+        "variance: **done**" in parts[2] and "variance: **missing**" in parts[1] and "variance: **missing**" in parts[3]
+    )
 
 
 def _notebook(*cells: str) -> str:
-    return json.dumps({
-        "nbformat": 4, "nbformat_minor": 5, "metadata": {},
-        "cells": [{"cell_type": "code", "metadata": {}, "execution_count": None, "outputs": [],
-                   "source": textwrap.dedent(c).strip("\n")} for c in cells],
-    })  # fmt: skip
+    return json.dumps(
+        {
+            "nbformat": 4,
+            "nbformat_minor": 5,
+            "metadata": {},
+            "cells": [
+                {
+                    "cell_type": "code",
+                    "metadata": {},
+                    "execution_count": None,
+                    "outputs": [],
+                    "source": textwrap.dedent(c).strip("\n"),
+                }
+                for c in cells
+            ],
+        }
+    )
 
 
 def test_notebook_loop_gives_one_finding_in_its_cell():
@@ -202,15 +255,20 @@ def test_notebook_loop_gives_one_finding_in_its_cell():
 # --- a fit bound to a `global` (or `nonlocal`) name inside a function ------------------------------
 # (id, body): the ``# expect`` markers are the findings of the two rules; none means neither fires.
 GLOBALS = [
-    ("global-used-after-the-call", """
+    (
+        "global-used-after-the-call",
+        """
         def fit_riders():
             global late
             late = smf.ols("riders ~ temp", data=ferries).fit()  # expect: no-variance-test
 
         fit_riders()
         print(late.pvalues)
-    """),
-    ("global-bound-first-at-module-level", """
+    """,
+    ),
+    (
+        "global-bound-first-at-module-level",
+        """
         res = None
 
         def refit(frame):
@@ -219,16 +277,22 @@ GLOBALS = [
 
         refit(ferries)
         print(res.summary().tables[1])
-    """),
-    ("global-used-inside-the-function", """
+    """,
+    ),
+    (
+        "global-used-inside-the-function",
+        """
         def refit():
             global res
             res = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
             print(res.bse)
 
         refit()
-    """),
-    ("global-checked-after-the-call", """
+    """,
+    ),
+    (
+        "global-checked-after-the-call",
+        """
         def fit_riders():
             global late
             late = smf.ols("riders ~ temp", data=ferries).fit()
@@ -236,15 +300,21 @@ GLOBALS = [
         fit_riders()
         print(het_breuschpagan(late.resid, late.model.exog))
         print(late.pvalues)
-    """),
-    ("global-fit-never-used", """
+    """,
+    ),
+    (
+        "global-fit-never-used",
+        """
         def fit_riders():
             global late
             late = smf.ols("riders ~ temp", data=ferries).fit()
 
         fit_riders()
-    """),
-    ("global-in-a-loop-of-calls", """
+    """,
+    ),
+    (
+        "global-in-a-loop-of-calls",
+        """
         def fit_riders(formula):
             global last
             last = smf.ols(formula, data=ferries).fit()  # expect: no-variance-test
@@ -252,8 +322,11 @@ GLOBALS = [
         for formula in ["riders ~ fare", "riders ~ temp"]:
             fit_riders(formula)
             print(last.pvalues)
-    """),
-    ("nonlocal-in-a-closure", """
+    """,
+    ),
+    (
+        "nonlocal-in-a-closure",
+        """
         def study():
             res = None
 
@@ -265,8 +338,11 @@ GLOBALS = [
             print(res.pvalues)
 
         study()
-    """),
-    ("local-of-the-same-name-is-not-the-global", """
+    """,
+    ),
+    (
+        "local-of-the-same-name-is-not-the-global",
+        """
         late = None
 
         def fit_riders():
@@ -275,7 +351,8 @@ GLOBALS = [
 
         fit_riders()
         print(late)
-    """),
+    """,
+    ),
 ]
 
 
@@ -306,81 +383,133 @@ def test_global_fit_across_notebook_cells():
 # (id, body, {(line in the body, rule): the robust version's name}): the ``# expect`` markers of the two
 # rules give every finding; those listed are downgraded to info because that robust version is reported.
 ROBUST = [
-    ("second-fit-hc3-beside", """
+    (
+        "second-fit-hc3-beside",
+        """
         plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
         robust = smf.ols("riders ~ fare", data=ferries).fit(cov_type="HC3")
         print(plain.summary(), robust.summary())
-    """, {(1, VAR): "`robust`"}),
-    ("get-robustcov-results-beside", """
+    """,
+        {(1, VAR): "`robust`"},
+    ),
+    (
+        "get-robustcov-results-beside",
+        """
         plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
         robust = plain.get_robustcov_results(cov_type="HC1")
         print(plain.summary())
         print(robust.summary())
-    """, {(1, VAR): "`robust`"}),
-    ("array-api-second-fit-hc3", """
+    """,
+        {(1, VAR): "`robust`"},
+    ),
+    (
+        "array-api-second-fit-hc3",
+        """
         X = sm.add_constant(ferries[["fare", "temp"]])
         plain = sm.OLS(ferries["riders"], X).fit()  # expect: no-variance-test
         robust = sm.OLS(ferries["riders"], X).fit(cov_type="HC3")
         print(plain.pvalues, robust.pvalues)
-    """, {(2, VAR): "`robust`"}),
-    ("robust-version-not-reported", """
+    """,
+        {(2, VAR): "`robust`"},
+    ),
+    (
+        "robust-version-not-reported",
+        """
         plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
         robust = plain.get_robustcov_results(cov_type="HC1")
         print(plain.summary())
-    """, {}),
-    ("robust-version-of-another-specification", """
+    """,
+        {},
+    ),
+    (
+        "robust-version-of-another-specification",
+        """
         plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
         robust = smf.ols("riders ~ fare + temp", data=ferries).fit(cov_type="HC3")
         print(plain.summary(), robust.summary())
-    """, {}),
-    ("robust-version-on-other-data", """
+    """,
+        {},
+    ),
+    (
+        "robust-version-on-other-data",
+        """
         plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
         robust = smf.ols("riders ~ fare", data=ferries.dropna()).fit(cov_type="HC3")
         print(plain.summary(), robust.summary())
-    """, {}),
-    ("robust-version-after-the-data-changed", """
+    """,
+        {},
+    ),
+    (
+        "robust-version-after-the-data-changed",
+        """
         plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
         ferries = ferries[ferries.riders > 0]
         robust = smf.ols("riders ~ fare", data=ferries).fit(cov_type="HC3")
         print(plain.summary(), robust.summary())
-    """, {}),
-    ("robust-version-of-another-estimator", """
+    """,
+        {},
+    ),
+    (
+        "robust-version-of-another-estimator",
+        """
         plain = smf.ols("riders ~ fare", data=ferries).fit()  # expect: no-variance-test
         robust = smf.wls("riders ~ fare", data=ferries).fit(cov_type="HC3")
         print(plain.summary(), robust.summary())
-    """, {}),
-    ("hac-version-on-time-ordered-data", """
+    """,
+        {},
+    ),
+    (
+        "hac-version-on-time-ordered-data",
+        """
         daily = pd.read_csv("daily.csv", parse_dates=["day"], index_col="day")
         plain = smf.ols("riders ~ fare", data=daily).fit()  # expect: no-variance-test, no-serial-test
         hac = smf.ols("riders ~ fare", data=daily).fit(cov_type="HAC", cov_kwds={"maxlags": 7})
         print(plain.summary(), hac.summary())
-    """, {(2, VAR): "`hac`", (2, SERIAL): "`hac`"}),
-    ("hc3-version-does-not-answer-serial", """
+    """,
+        {(2, VAR): "`hac`", (2, SERIAL): "`hac`"},
+    ),
+    (
+        "hc3-version-does-not-answer-serial",
+        """
         daily = pd.read_csv("daily.csv", parse_dates=["day"], index_col="day")
         plain = smf.ols("riders ~ fare", data=daily).fit()  # expect: no-variance-test, no-serial-test
         robust = smf.ols("riders ~ fare", data=daily).fit(cov_type="HC3")  # expect: no-serial-test
         print(plain.summary(), robust.summary())
-    """, {(2, VAR): "`robust`"}),
-    ("test-on-a-second-fit-counts-for-both", """
+    """,
+        {(2, VAR): "`robust`"},
+    ),
+    (
+        "test-on-a-second-fit-counts-for-both",
+        """
         first = smf.ols("riders ~ rain", data=ferries).fit()
         second = smf.ols("riders ~ rain", data=ferries).fit()
         print(het_breuschpagan(second.resid, second.model.exog))
         print(first.summary())
-    """, {}),
-    ("test-on-a-fit-of-another-specification-does-not", """
+    """,
+        {},
+    ),
+    (
+        "test-on-a-fit-of-another-specification-does-not",
+        """
         first = smf.ols("riders ~ rain", data=ferries).fit()  # expect: no-variance-test
         second = smf.ols("riders ~ rain + fare", data=ferries).fit()
         print(het_breuschpagan(second.resid, second.model.exog))
         print(first.summary())
-    """, {}),
-    ("same-specification-in-two-loop-steps-is-not-the-same-data", """
+    """,
+        {},
+    ),
+    (
+        "same-specification-in-two-loop-steps-is-not-the-same-data",
+        """
         def fit_port(frame, cov):
             return smf.ols("riders ~ fare", data=frame).fit(cov_type=cov)
 
         plain = fit_port(pd.read_csv("north.csv"), "nonrobust")  # expect: no-variance-test
         robust = fit_port(pd.read_csv("south.csv"), "HC3")
         print(plain.summary(), robust.summary())
-    """, {}),
+    """,
+        {},
+    ),
 ]
 
 
@@ -418,4 +547,7 @@ def test_robust_version_across_notebook_cells():
     )
     (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
     assert finding.severity.label == "info" and (finding.span.cell, finding.span.line) == (1, 1)
-    assert "An HC3 version of the same specification on the same data is reported too (`robust`, cell 3, line 1)" in finding.message
+    assert (
+        "An HC3 version of the same specification on the same data is reported too (`robust`, cell 3, line 1)"
+        in finding.message
+    )

@@ -57,8 +57,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + fuel_price",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "smf.wls-weights",
@@ -66,8 +75,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.wls("riders ~ fare + wind_speed", data=crossings, weights=1.0 / crossings["fare"]).fit()
         """,
-        dict(api="formula", estimator="WLS", formula="riders ~ fare + wind_speed", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = smf.wls"),
+        dict(
+            api="formula",
+            estimator="WLS",
+            formula="riders ~ fare + wind_speed",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.wls",
+        ),
     ),
     (
         "from-formula-api-import-ols",
@@ -75,8 +93,17 @@ FIT_SPELLINGS = [
         from statsmodels.formula.api import ols
         res = ols("riders ~ fare", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = ols",
+        ),
     ),
     (
         "from-formula-api-import-wls-as-alias",
@@ -84,8 +111,17 @@ FIT_SPELLINGS = [
         from statsmodels.formula.api import wls as weighted
         res = weighted("riders ~ fare + fuel_price", crossings, weights=crossings["crossings"]).fit()
         """,
-        dict(api="formula", estimator="WLS", formula="riders ~ fare + fuel_price", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = weighted"),
+        dict(
+            api="formula",
+            estimator="WLS",
+            formula="riders ~ fare + fuel_price",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = weighted",
+        ),
     ),
     (
         "formula-api-odd-alias",
@@ -93,8 +129,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as ferry_models
         res = ferry_models.ols("riders ~ fare + fuel_price + wind_speed", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price + wind_speed", base="riders",
-             transform=None, n_regressors=3, cov_type="nonrobust", data_name="crossings", fit_line="res = ferry"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + fuel_price + wind_speed",
+            base="riders",
+            transform=None,
+            n_regressors=3,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = ferry",
+        ),
     ),
     (
         "from-statsmodels.formula-import-api",
@@ -102,8 +147,17 @@ FIT_SPELLINGS = [
         from statsmodels.formula import api as fapi
         res = fapi.ols("riders ~ fare", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = fapi"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = fapi",
+        ),
     ),
     (
         "formula-api-fully-qualified",
@@ -111,8 +165,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api
         res = statsmodels.formula.api.ols("riders ~ fare", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = statsmodels"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = statsmodels",
+        ),
     ),
     (
         "from-statsmodels.api-import-formula",
@@ -120,8 +183,17 @@ FIT_SPELLINGS = [
         from statsmodels.api import formula as smf
         res = smf.ols("riders ~ fare", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = smf"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf",
+        ),
     ),
     (
         "from-statsmodels-import-api",
@@ -129,8 +201,17 @@ FIT_SPELLINGS = [
         from statsmodels import api as stm
         res = stm.OLS(crossings["riders"], stm.add_constant(crossings[["fare"]])).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name=None, fit_line="res = stm"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = stm",
+        ),
     ),
     (
         "sm.formula.ols",
@@ -138,8 +219,17 @@ FIT_SPELLINGS = [
         import statsmodels.api as sm
         res = sm.formula.ols("riders ~ fare", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = sm.formula"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = sm.formula",
+        ),
     ),
     (
         "sm.formula.wls",
@@ -147,8 +237,17 @@ FIT_SPELLINGS = [
         import statsmodels.api as sm
         res = sm.formula.wls("riders ~ fare", data=crossings, weights=crossings["crossings"]).fit()
         """,
-        dict(api="formula", estimator="WLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = sm.formula"),
+        dict(
+            api="formula",
+            estimator="WLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = sm.formula",
+        ),
     ),
     (
         "sm.OLS-arrays-column-list",
@@ -157,8 +256,17 @@ FIT_SPELLINGS = [
         X = sm.add_constant(crossings[["fare", "fuel_price"]])
         res = sm.OLS(crossings["riders"], X).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name=None, fit_line="res = sm.OLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.OLS",
+        ),
     ),
     (
         "sm.OLS-y-traced-through-assignments",
@@ -170,8 +278,17 @@ FIT_SPELLINGS = [
         X = sm.add_constant(crossings[cols])
         res = sm.OLS(y, X).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=3, cov_type="nonrobust", data_name=None, fit_line="res = sm.OLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=3,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.OLS",
+        ),
     ),
     (
         "sm.OLS-log-outcome",
@@ -181,8 +298,17 @@ FIT_SPELLINGS = [
         X = sm.add_constant(crossings[["fare"]])
         res = sm.OLS(y, X).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform="log",
-             n_regressors=1, cov_type="nonrobust", data_name=None, fit_line="res = sm.OLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform="log",
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.OLS",
+        ),
     ),
     (
         "sm.OLS-keywords",
@@ -191,8 +317,17 @@ FIT_SPELLINGS = [
         X = sm.add_constant(crossings[["fare", "wind_speed"]])
         res = sm.OLS(endog=crossings["riders"], exog=X).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name=None, fit_line="res = sm.OLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.OLS",
+        ),
     ),
     (
         "sm.OLS-unknown-design",
@@ -201,8 +336,17 @@ FIT_SPELLINGS = [
         X = np.asarray(crossings.select_dtypes("number").drop(columns="riders"))
         res = sm.OLS(crossings["riders"], X).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=None, cov_type="nonrobust", data_name=None, fit_line="res = sm.OLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=None,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.OLS",
+        ),
     ),
     (
         "sm.WLS",
@@ -211,8 +355,17 @@ FIT_SPELLINGS = [
         X = sm.add_constant(crossings[["fare", "fuel_price"]])
         res = sm.WLS(crossings["riders"], X, weights=crossings["crossings"]).fit()
         """,
-        dict(api="array", estimator="WLS", formula=None, base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name=None, fit_line="res = sm.WLS"),
+        dict(
+            api="array",
+            estimator="WLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.WLS",
+        ),
     ),
     (
         "sm.OLS.from_formula",
@@ -220,8 +373,17 @@ FIT_SPELLINGS = [
         import statsmodels.api as sm
         res = sm.OLS.from_formula("riders ~ fare + C(season)", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + C(season)", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = sm.OLS"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + C(season)",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = sm.OLS",
+        ),
     ),
     (
         "sm.WLS.from_formula",
@@ -229,8 +391,17 @@ FIT_SPELLINGS = [
         import statsmodels.api as sm
         res = sm.WLS.from_formula("riders ~ fare", data=crossings, weights=crossings["crossings"]).fit()
         """,
-        dict(api="formula", estimator="WLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = sm.WLS"),
+        dict(
+            api="formula",
+            estimator="WLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = sm.WLS",
+        ),
     ),
     (
         "linear_model.OLS-from-import",
@@ -239,8 +410,17 @@ FIT_SPELLINGS = [
         from statsmodels.tools import add_constant
         res = OLS(crossings["riders"], add_constant(crossings[["fare", "fuel_price"]])).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name=None, fit_line="res = OLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = OLS",
+        ),
     ),
     (
         "linear_model-module-alias",
@@ -248,8 +428,17 @@ FIT_SPELLINGS = [
         import statsmodels.regression.linear_model as lm
         res = lm.WLS(crossings["riders"], crossings[["fare"]], weights=crossings["crossings"]).fit()
         """,
-        dict(api="array", estimator="WLS", formula=None, base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name=None, fit_line="res = lm.WLS"),
+        dict(
+            api="array",
+            estimator="WLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = lm.WLS",
+        ),
     ),
     (
         "linear_model.OLS-fully-qualified",
@@ -257,8 +446,17 @@ FIT_SPELLINGS = [
         import statsmodels.regression.linear_model
         res = statsmodels.regression.linear_model.OLS(crossings["riders"], crossings[["fare"]]).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name=None, fit_line="res = statsmodels"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = statsmodels",
+        ),
     ),
     (
         "linear_model.OLS.from_formula",
@@ -266,8 +464,17 @@ FIT_SPELLINGS = [
         from statsmodels.regression.linear_model import OLS as LinearModel
         res = LinearModel.from_formula("riders ~ fare + wind_speed", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + wind_speed", base="riders",
-             transform=None, n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = Linear"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + wind_speed",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = Linear",
+        ),
     ),
     (
         "sm.regression.linear_model.OLS",
@@ -275,8 +482,17 @@ FIT_SPELLINGS = [
         import statsmodels.api as sm
         res = sm.regression.linear_model.OLS(crossings["riders"], crossings[["fare"]]).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name=None, fit_line="res = sm.regression"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.regression",
+        ),
     ),
     (
         "from-statsmodels-api-import-OLS-as-alias",
@@ -284,8 +500,17 @@ FIT_SPELLINGS = [
         from statsmodels.api import OLS as FerryOLS, add_constant
         res = FerryOLS(crossings["riders"], add_constant(crossings[["fare"]])).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name=None, fit_line="res = FerryOLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = FerryOLS",
+        ),
     ),
     (
         "statsmodels.api-fully-qualified",
@@ -293,8 +518,17 @@ FIT_SPELLINGS = [
         import statsmodels.api
         res = statsmodels.api.OLS(crossings["riders"], crossings[["fare", "fuel_price"]]).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name=None, fit_line="res = statsmodels"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = statsmodels",
+        ),
     ),
     (
         "model-variable-then-fit",
@@ -303,8 +537,17 @@ FIT_SPELLINGS = [
         model = smf.ols("riders ~ fare + fuel_price", data=crossings)
         res = model.fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = model.fit()"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + fuel_price",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = model.fit()",
+        ),
     ),
     (
         "formula-bound-to-a-name",
@@ -313,8 +556,17 @@ FIT_SPELLINGS = [
         FORMULA = "riders ~ fare * wind_speed"
         res = smf.ols(FORMULA, data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare * wind_speed", base="riders", transform=None,
-             n_regressors=3, cov_type="nonrobust", data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare * wind_speed",
+            base="riders",
+            transform=None,
+            n_regressors=3,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "formula-keyword",
@@ -322,8 +574,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols(formula="riders ~ fare + fuel_price", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + fuel_price",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "formula-log-outcome",
@@ -331,9 +592,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols("np.log(riders) ~ fare + fuel_price + C(season)", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="np.log(riders) ~ fare + fuel_price + C(season)",
-             base="riders", transform="log", n_regressors=3, cov_type="nonrobust", data_name="crossings",
-             fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="np.log(riders) ~ fare + fuel_price + C(season)",
+            base="riders",
+            transform="log",
+            n_regressors=3,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "formula-sqrt-outcome",
@@ -341,8 +610,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols("np.sqrt(riders) ~ fare", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="np.sqrt(riders) ~ fare", base="riders", transform="sqrt",
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="np.sqrt(riders) ~ fare",
+            base="riders",
+            transform="sqrt",
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "formula-data-positional-subset",
@@ -351,8 +629,17 @@ FIT_SPELLINGS = [
         summer = crossings[crossings["season"] == "summer"]
         res = smf.ols("riders ~ fare", summer).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="summer", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="summer",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "sm.OLS-attribute-column-values",
@@ -361,8 +648,17 @@ FIT_SPELLINGS = [
         y = crossings.riders.values
         res = sm.OLS(y, sm.add_constant(crossings[["fare", "wind_speed"]]).values).fit()
         """,
-        dict(api="array", estimator="OLS", formula=None, base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name=None, fit_line="res = sm.OLS"),
+        dict(
+            api="array",
+            estimator="OLS",
+            formula=None,
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name=None,
+            fit_line="res = sm.OLS",
+        ),
     ),
     (
         "formula-Q-outcome",
@@ -370,9 +666,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols('Q("riders total") ~ fare + fuel_price', data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula='Q("riders total") ~ fare + fuel_price',
-             base="riders total", transform=None, n_regressors=2, cov_type="nonrobust", data_name="crossings",
-             fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula='Q("riders total") ~ fare + fuel_price',
+            base="riders total",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "formula-log1p-outcome-power-term",
@@ -380,9 +684,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols("np.log1p(riders) ~ fare + I(fare**2) + C(season)", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="np.log1p(riders) ~ fare + I(fare**2) + C(season)",
-             base="riders", transform="log1p", n_regressors=3, cov_type="nonrobust", data_name="crossings",
-             fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="np.log1p(riders) ~ fare + I(fare**2) + C(season)",
+            base="riders",
+            transform="log1p",
+            n_regressors=3,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "formula-without-intercept",
@@ -390,8 +702,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols("riders ~ fare + fuel_price - 1", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price - 1", base="riders",
-             transform=None, n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + fuel_price - 1",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "alias-by-assignment",
@@ -400,8 +721,17 @@ FIT_SPELLINGS = [
         fit_ols = smf.ols
         res = fit_ols("riders ~ fare + wind_speed", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + wind_speed", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line="res = fit_ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + wind_speed",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = fit_ols",
+        ),
     ),
     (
         "star-import",
@@ -409,8 +739,17 @@ FIT_SPELLINGS = [
         from statsmodels.formula.api import *
         res = ols("riders ~ fare", data=crossings).fit()
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="res = ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="res = ols",
+        ),
     ),
     (
         "lambda-fitter",
@@ -419,9 +758,18 @@ FIT_SPELLINGS = [
         fitter = lambda formula: smf.ols(formula, data=crossings).fit()
         res = fitter("riders ~ fare")
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="nonrobust", data_name="crossings", fit_line="fitter = lambda",
-             site_line="res = fitter"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line="fitter = lambda",
+            site_line="res = fitter",
+        ),
     ),
     (
         "cov_type-HC3",
@@ -429,8 +777,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit(cov_type="HC3")
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price", base="riders", transform=None,
-             n_regressors=2, cov_type="hc3", data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + fuel_price",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="hc3",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "cov_type-HAC-bound-name",
@@ -439,8 +796,17 @@ FIT_SPELLINGS = [
         COV = "HAC"
         res = smf.ols("riders ~ fare", data=crossings).fit(cov_type=COV, cov_kwds={"maxlags": 4})
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type="hac", data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type="hac",
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "cov_type-not-a-literal",
@@ -449,8 +815,17 @@ FIT_SPELLINGS = [
         import statsmodels.formula.api as smf
         res = smf.ols("riders ~ fare", data=crossings).fit(cov_type=os.environ["COV"])
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare", base="riders", transform=None,
-             n_regressors=1, cov_type=None, data_name="crossings", fit_line="res = smf.ols"),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare",
+            base="riders",
+            transform=None,
+            n_regressors=1,
+            cov_type=None,
+            data_name="crossings",
+            fit_line="res = smf.ols",
+        ),
     ),
     (
         "fit-call-on-its-own-line",
@@ -461,8 +836,17 @@ FIT_SPELLINGS = [
             .fit()
         )
         """,
-        dict(api="formula", estimator="OLS", formula="riders ~ fare + fuel_price", base="riders", transform=None,
-             n_regressors=2, cov_type="nonrobust", data_name="crossings", fit_line='smf.ols("riders'),
+        dict(
+            api="formula",
+            estimator="OLS",
+            formula="riders ~ fare + fuel_price",
+            base="riders",
+            transform=None,
+            n_regressors=2,
+            cov_type="nonrobust",
+            data_name="crossings",
+            fit_line='smf.ols("riders',
+        ),
     ),
 ]
 
@@ -591,7 +975,9 @@ DIAGNOSTICS = {
     "acorr_ljungbox": ("serial", "{f}(res.resid, lags=[4])", (_DIAG, _API)),
     "breaks_cusumolsresid": ("breaks", "{f}(res.resid, ddof=int(res.df_model) + 1)", (_DIAG, _API)),
     "variance_inflation_factor": (
-        "collinearity", "[{f}(res.model.exog, i) for i in range(1, res.model.exog.shape[1])]", (_OI,)
+        "collinearity",
+        "[{f}(res.model.exog, i) for i in range(1, res.model.exog.shape[1])]",
+        (_OI,),
     ),
 }
 
@@ -666,7 +1052,8 @@ OTHER_CHECKS = [
         res = sm.OLS(crossings["riders"], X).fit()
         print(res.condition_number)
         """,
-        "collinearity", "res.condition_number",
+        "collinearity",
+        "res.condition_number",
     ),
     (
         "hand-made-RESET-formula",
@@ -676,7 +1063,8 @@ OTHER_CHECKS = [
         crossings["yhat"] = res.fittedvalues
         aux = smf.ols("riders ~ fare + fuel_price + I(yhat**2) + I(yhat**3)", data=crossings).fit()
         """,
-        "form", "aux = smf.ols",
+        "form",
+        "aux = smf.ols",
     ),
     (
         "hand-made-RESET-column_stack",
@@ -687,7 +1075,8 @@ OTHER_CHECKS = [
         X_aux = np.column_stack([X, res.fittedvalues**2, res.fittedvalues**3])
         aux = sm.OLS(crossings["riders"], X_aux).fit()
         """,
-        "form", "aux = sm.OLS",
+        "form",
+        "aux = sm.OLS",
     ),
     (
         "hand-made-RESET-assign",
@@ -697,7 +1086,8 @@ OTHER_CHECKS = [
         augmented = crossings.assign(yhat=res.fittedvalues)
         aux = smf.ols("riders ~ fare + fuel_price + I(yhat**2)", data=augmented).fit()
         """,
-        "form", "aux = smf.ols",
+        "form",
+        "aux = smf.ols",
     ),
     (
         "het_breuschpagan-keywords",
@@ -707,7 +1097,8 @@ OTHER_CHECKS = [
         res = sm.OLS(crossings["riders"], X).fit()
         bp = sm.stats.diagnostic.het_breuschpagan(resid=res.resid, exog_het=X)
         """,
-        "variance", "bp = sm.stats",
+        "variance",
+        "bp = sm.stats",
     ),
     (
         "hand-made-variance-test",
@@ -717,7 +1108,8 @@ OTHER_CHECKS = [
         crossings["u2"] = res.resid**2
         aux = smf.ols("u2 ~ fare + fuel_price", data=crossings).fit()
         """,
-        "variance", "aux = smf.ols",
+        "variance",
+        "aux = smf.ols",
     ),
     (
         "hand-made-variance-test-np.square-array",
@@ -727,7 +1119,8 @@ OTHER_CHECKS = [
         res = sm.OLS(crossings["riders"], X).fit()
         aux = sm.OLS(np.square(res.resid), X).fit()
         """,
-        "variance", "aux = sm.OLS",
+        "variance",
+        "aux = sm.OLS",
     ),
 ]
 
@@ -748,8 +1141,11 @@ USES = [
     ("params", "print(res.params)", {("estimate", "params")}),
     ("params-via-name", "coefs = res.params\nprint(coefs['fare'])", {("estimate", "params")}),
     ("predict", "crossings['pred'] = res.predict(crossings)", {("estimate", "predict")}),
-    ("get_prediction", "frame = res.get_prediction(crossings).summary_frame(alpha=0.05)",
-     {("inference", "get_prediction")}),
+    (
+        "get_prediction",
+        "frame = res.get_prediction(crossings).summary_frame(alpha=0.05)",
+        {("inference", "get_prediction")},
+    ),
     ("summary", "print(res.summary())", {("inference", "summary")}),
     ("summary-bound-then-printed", "table = res.summary()\nprint(table)", {("inference", "summary")}),
     ("summary2", "print(res.summary2())", {("inference", "summary2")}),
@@ -764,10 +1160,16 @@ USES = [
     ("f_test", "print(res.f_test('fare = 0, fuel_price = 0'))", {("inference", "f_test")}),
     ("wald_test", "print(res.wald_test('fare = 0', scalar=True))", {("inference", "wald_test")}),
     ("cov_params", "print(res.cov_params())", {("inference", "cov_params")}),
-    ("summary_col", "from statsmodels.iolib.summary2 import summary_col\nprint(summary_col([res], stars=True))",
-     {("inference", "summary_col")}),
-    ("sm.iolib-summary_col", "import statsmodels.api as sm\nprint(sm.iolib.summary2.summary_col([res]))",
-     {("inference", "summary_col")}),
+    (
+        "summary_col",
+        "from statsmodels.iolib.summary2 import summary_col\nprint(summary_col([res], stars=True))",
+        {("inference", "summary_col")},
+    ),
+    (
+        "sm.iolib-summary_col",
+        "import statsmodels.api as sm\nprint(sm.iolib.summary2.summary_col([res]))",
+        {("inference", "summary_col")},
+    ),
     ("display-summary", "from IPython.display import display\ndisplay(res.summary())", {("inference", "summary")}),
     ("resid-alone", "print(res.resid.mean())", set()),
     ("fittedvalues-alone", "crossings['yhat'] = res.fittedvalues", set()),
@@ -798,8 +1200,12 @@ COMPARISONS = [
     ("max-key-lambda", "best = max([a, b], key=lambda r: r.rsquared)", "max", "rsquared"),
     ("min-key-lambda", "best = min((a, b), key=lambda r: r.aic)", "min", "aic"),
     ("sorted-key-lambda", "ranked = sorted([a, b], key=lambda r: r.bic)", "sorted", "bic"),
-    ("sorted-key-attrgetter", "from operator import attrgetter\nranked = sorted([a, b], key=attrgetter('bic'))",
-     "sorted", "bic"),
+    (
+        "sorted-key-attrgetter",
+        "from operator import attrgetter\nranked = sorted([a, b], key=attrgetter('bic'))",
+        "sorted",
+        "bic",
+    ),
     ("min-dict-get", "aics = {'small': a.aic, 'large': b.aic}\nbest = min(aics, key=aics.get)", "min", "aic"),
     ("max-of-two-measures", "top = max(a.rsquared, b.rsquared)", "max", "rsquared"),
     ("difference-aic", "gain = a.aic - b.aic", "difference", "aic"),

@@ -119,7 +119,10 @@ def _cases() -> dict[str, tuple[Any, dict[str, Any]]]:
             smf.ols("riders ~ fare + wind", data=df).fit(cov_type="HC3"),
             {"break_candidates": ["post", "fare > 5", "no_such_column"], "cv": True},
         ),
-        "ols, arrays, HAC copy": (sm.OLS(flat["riders"].to_numpy(), X).fit().get_robustcov_results("HAC", maxlags=2), {}),
+        "ols, arrays, HAC copy": (
+            sm.OLS(flat["riders"].to_numpy(), X).fit().get_robustcov_results("HAC", maxlags=2),
+            {},
+        ),
         "wls, arrays, cv, break on a design column": (
             sm.WLS(flat["riders"].to_numpy(), X, weights=weights).fit(),
             {"cv": True, "break_candidates": ["x1"]},
@@ -127,10 +130,12 @@ def _cases() -> dict[str, tuple[Any, dict[str, Any]]]:
         "collinear design": (sm.OLS(flat["riders"].to_numpy(), collinear).fit(), {}),
         "constant only": (sm.OLS(flat["riders"].to_numpy(), np.ones((n, 1))).fit(), {}),
         "panel of two routes, unit_column": (
-            smf.ols("riders ~ fare", data=flat.assign(month=np.tile(months[: n // 2], 2),
-                                                     route=np.repeat(["north", "south"], n // 2))).fit(),
+            smf.ols(
+                "riders ~ fare",
+                data=flat.assign(month=np.tile(months[: n // 2], 2), route=np.repeat(["north", "south"], n // 2)),
+            ).fit(),
             {"time_column": "month", "unit_column": "route"},
-        ),  # fmt: skip
+        ),
     }
 
 

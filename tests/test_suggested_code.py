@@ -27,39 +27,61 @@ tons["tons"] = 30 + 2 * tons["cranes"] + _rng.normal(0, 1, 60)
 """
 
 CASES = [
-    ("aliases-and-name", """
+    (
+        "aliases-and-name",
+        """
         import statsmodels.formula.api as smf
         import statsmodels.stats.api as sms
         from statsmodels.stats.diagnostic import linear_reset as lr
 
         m1 = smf.ols("tons ~ cranes", data=tons).fit()
         print(m1.summary())
-    """, {"no-form-test": "lr(m1, power=3, use_f=True)",
-          "no-variance-test": "sms.het_breuschpagan(m1.resid, m1.model.exog)",
-          "no-serial-test": "sms.acorr_breusch_godfrey(m1, nlags=...)"}),
-    ("module-alias", """
+    """,
+        {
+            "no-form-test": "lr(m1, power=3, use_f=True)",
+            "no-variance-test": "sms.het_breuschpagan(m1.resid, m1.model.exog)",
+            "no-serial-test": "sms.acorr_breusch_godfrey(m1, nlags=...)",
+        },
+    ),
+    (
+        "module-alias",
+        """
         import statsmodels.formula.api as smf
         import statsmodels.stats.diagnostic as dg
 
         freight = smf.ols("tons ~ cranes", data=tons).fit()
         print(freight.summary())
-    """, {"no-form-test": "dg.linear_reset(freight, power=3, use_f=True)",
-          "no-variance-test": "dg.het_breuschpagan(freight.resid, freight.model.exog)",
-          "no-serial-test": "dg.acorr_breusch_godfrey(freight, nlags=...)"}),
-    ("nothing-imported-yet", """
+    """,
+        {
+            "no-form-test": "dg.linear_reset(freight, power=3, use_f=True)",
+            "no-variance-test": "dg.het_breuschpagan(freight.resid, freight.model.exog)",
+            "no-serial-test": "dg.acorr_breusch_godfrey(freight, nlags=...)",
+        },
+    ),
+    (
+        "nothing-imported-yet",
+        """
         import statsmodels.formula.api as smf
 
         fit_a = smf.ols("tons ~ cranes", data=tons).fit()
         print(fit_a.summary())
-    """, {"no-form-test": "linear_reset(fit_a, power=3, use_f=True)",
-          "no-variance-test": "het_breuschpagan(fit_a.resid, fit_a.model.exog)",
-          "no-serial-test": "acorr_breusch_godfrey(fit_a, nlags=...)"}),
-    ("no-simple-name", """
+    """,
+        {
+            "no-form-test": "linear_reset(fit_a, power=3, use_f=True)",
+            "no-variance-test": "het_breuschpagan(fit_a.resid, fit_a.model.exog)",
+            "no-serial-test": "acorr_breusch_godfrey(fit_a, nlags=...)",
+        },
+    ),
+    (
+        "no-simple-name",
+        """
         import statsmodels.formula.api as smf
 
         fits = {"all": smf.ols("tons ~ cranes", data=tons).fit()}
         print(fits["all"].summary())
-    """, {"no-form-test": "linear_reset(res, power=3, use_f=True)"}),
+    """,
+        {"no-form-test": "linear_reset(res, power=3, use_f=True)"},
+    ),
 ]
 
 

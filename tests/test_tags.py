@@ -24,16 +24,25 @@ _WHERE = Loc(Span(3, 0, 3, 20))
 ROUNDTRIPS = [
     (tags.qualified("statsmodels.api.OLS"), tags.QUALIFIED, [(tags.qualname, "statsmodels.api.OLS")]),
     (tags.project_module("helpers.fits"), tags.PROJECT_MODULE, [(tags.module_key, "helpers.fits")]),
-    (tags.lazy_import("helpers", "fit_all", None), tags.LAZY_IMPORT,
-     [(tags.lazy_import_parts, ("helpers", "fit_all", None))]),
+    (
+        tags.lazy_import("helpers", "fit_all", None),
+        tags.LAZY_IMPORT,
+        [(tags.lazy_import_parts, ("helpers", "fit_all", None))],
+    ),
     (tags.function(4), tags.FUNCTION, [(tags.function_key, 4)]),
     (tags.literal("riders ~ fare"), tags.LITERAL, [(tags.literal_value, "riders ~ fare")]),
     (tags.literal(3), tags.LITERAL, [(tags.literal_value, 3)]),
     (tags.fstring_prefix("riders ~ "), tags.PREFIX, [(tags.prefix_text, "riders ~ ")]),
-    (tags.string_method(" + ", "join"), tags.STRING_METHOD,
-     [(tags.string_method_text, " + "), (tags.string_method_name, "join")]),
-    (tags.design("tons ~ cranes", tags.EXOG), tags.DESIGN,
-     [(tags.design_formula, "tons ~ cranes"), (tags.design_side, tags.EXOG)]),
+    (
+        tags.string_method(" + ", "join"),
+        tags.STRING_METHOD,
+        [(tags.string_method_text, " + "), (tags.string_method_name, "join")],
+    ),
+    (
+        tags.design("tons ~ cranes", tags.EXOG),
+        tags.DESIGN,
+        [(tags.design_formula, "tons ~ cranes"), (tags.design_side, tags.EXOG)],
+    ),
     (tags.model(5), tags.MODEL, [(tags.model_id, 5)]),
     (tags.model_fit(5), tags.MODEL_FIT, [(tags.model_id, 5)]),
     (tags.model_part(5, tags.EXOG), tags.MODEL_PART, [(tags.model_id, 5), (tags.part_name, tags.EXOG)]),
@@ -44,10 +53,16 @@ ROUNDTRIPS = [
     (tags.ssr_sum(frozenset({1, 2})), tags.SSR_SUM, [(tags.summed_fits, frozenset({1, 2}))]),
     (tags.passing_method(_RECEIVER), tags.PASSING_METHOD, [(tags.receiver, _RECEIVER)]),
     (tags.time_method(_RECEIVER), tags.TIME_METHOD, [(tags.receiver, _RECEIVER)]),
-    (tags.data_method(tags.opaque_call(_NODE), "assign"), tags.DATA_METHOD,
-     [(tags.receiver, tags.opaque_call(_NODE)), (tags.method_name, "assign")]),
-    (tags.container_method("items", EMPTY), tags.CONTAINER_METHOD,
-     [(tags.container_method_name, "items"), (tags.container_method_base, EMPTY)]),
+    (
+        tags.data_method(tags.opaque_call(_NODE), "assign"),
+        tags.DATA_METHOD,
+        [(tags.receiver, tags.opaque_call(_NODE)), (tags.method_name, "assign")],
+    ),
+    (
+        tags.container_method("items", EMPTY),
+        tags.CONTAINER_METHOD,
+        [(tags.container_method_name, "items"), (tags.container_method_base, EMPTY)],
+    ),
     (tags.attr_getter("bic"), tags.GETTER, [(tags.getter_name, "bic")]),
     (tags.outcome(_RIDERS), tags.OUTCOME, [(tags.outcome_of, _RIDERS)]),
     (tags.columns(("fare", "wind")), tags.COLUMNS, [(tags.column_names, ("fare", "wind"))]),
@@ -55,10 +70,16 @@ ROUNDTRIPS = [
     (tags.column_value("e", _RECEIVER), tags.COLUMN_VALUE, [(tags.column, "e"), (tags.column_source, _RECEIVER)]),
     (tags.time_order("dates"), tags.TIMED, [(tags.time_reason, "dates"), (tags.time_where, None)]),
     (tags.time_order("dates", _WHERE), tags.TIMED, [(tags.time_reason, "dates"), (tags.time_where, _WHERE)]),
-    (tags.dates("`pd.to_datetime`", _WHERE), tags.DATES,
-     [(tags.dates_what, "`pd.to_datetime`"), (tags.dates_where, _WHERE)]),
-    (tags.date_column("week", "`parse_dates`", _WHERE), tags.DATE_COLUMN,
-     [(tags.date_column_name, "week"), (tags.date_column_what, "`parse_dates`"), (tags.date_column_where, _WHERE)]),
+    (
+        tags.dates("`pd.to_datetime`", _WHERE),
+        tags.DATES,
+        [(tags.dates_what, "`pd.to_datetime`"), (tags.dates_where, _WHERE)],
+    ),
+    (
+        tags.date_column("week", "`parse_dates`", _WHERE),
+        tags.DATE_COLUMN,
+        [(tags.date_column_name, "week"), (tags.date_column_what, "`parse_dates`"), (tags.date_column_where, _WHERE)],
+    ),
     (tags.categories("`pd.Categorical`"), tags.CATEGORIES, []),
     (tags.category_column("chain"), tags.CATEGORY_COLUMN, [(tags.category_column_name, "chain")]),
 ]
@@ -80,8 +101,13 @@ def test_every_kind_is_constructed_and_kinds_are_distinct():
 
 def test_opaque_data_is_told_apart_by_node_and_by_how_it_was_made():
     other = ast.parse("y").body[0]
-    made = [tags.opaque_call(_NODE), tags.opaque_attribute(_NODE), tags.opaque_subscript(_NODE),
-            tags.opaque_class(_NODE), tags.opaque_call(other)]  # fmt: skip
+    made = [
+        tags.opaque_call(_NODE),
+        tags.opaque_attribute(_NODE),
+        tags.opaque_subscript(_NODE),
+        tags.opaque_class(_NODE),
+        tags.opaque_call(other),
+    ]
     assert len(set(made)) == len(made)
     assert all(tags.kind(t) == tags.DATA for t in made)
 

@@ -42,7 +42,9 @@ def test_each_fit_has_one_header_and_its_findings_below(project, run_cli):
     assert headers[:2] == ["two.py:5:6: m1 (riders ~ fare)", "two.py:6:6: m2 (riders ~ fare + fuel_price)"]
     m1 = lines[lines.index(headers[0]) + 1 : lines.index(headers[1])]
     assert [line.split(":")[0] for line in m1 if not line.startswith("    ")] == [
-        "  warning no-form-test", "  warning no-variance-test"]  # fmt: skip
+        "  warning no-form-test",
+        "  warning no-variance-test",
+    ]
     # a comparison of two fits belongs to neither: it stands on its own line with its place
     assert headers[2].startswith("two.py:9:7: warning r2-unadjusted-compare: This compares plain R²")
     assert lines[-1] == "regvet: 4 findings (0 errors, 4 warnings, 0 info) in 1 of 1 file"
@@ -58,8 +60,9 @@ def test_text_wraps_to_the_width_and_lines_keep_one_finding_per_line(project, ru
     assert " ".join(narrow.split()) == " ".join(wide.split())
     code, lines, _ = run_cli("check", "two.py", "--format", "lines")
     findings = lines.splitlines()[:-1]
-    assert len(findings) == 4 and all(f.startswith(("two.py:5:6: warning ", "two.py:6:6: warning ", "two.py:9:7: warning "))
-                                      for f in findings)  # fmt: skip
+    assert len(findings) == 4 and all(
+        f.startswith(("two.py:5:6: warning ", "two.py:6:6: warning ", "two.py:9:7: warning ")) for f in findings
+    )
     assert max(map(len, findings)) > 120  # unwrapped
 
 

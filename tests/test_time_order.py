@@ -36,156 +36,258 @@ def _script(body: str) -> str:
 # (id, body, settings)
 CASES = [
     # --- a date or period index -----------------------------------------------------------------
-    ("read-index_col-parsed", """
+    (
+        "read-index_col-parsed",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["day"], index_col="day")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("read-index_col-0-parse_dates-true", """
+    """,
+        None,
+    ),
+    (
+        "read-index_col-0-parse_dates-true",
+        """
         tons = pd.read_csv("tons.csv", index_col=0, parse_dates=True)
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("read-index_col-date-like-name", """
+    """,
+        None,
+    ),
+    (
+        "read-index_col-date-like-name",
+        """
         tons = pd.read_excel("tons.xlsx", index_col="Month")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.pvalues)
-    """, None),
-    ("read-index_col-not-date-like", """
+    """,
+        None,
+    ),
+    (
+        "read-index_col-not-date-like",
+        """
         tons = pd.read_csv("tons.csv", index_col="berth")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()
         print(res.summary())
-    """, None),
-    ("read-parse_dates-only-is-an-ordinary-column", """
+    """,
+        None,
+    ),
+    (
+        "read-parse_dates-only-is-an-ordinary-column",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["arrived"])
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()
         print(res.summary())
-    """, None),
-    ("set_index-of-parsed-date-column", """
+    """,
+        None,
+    ),
+    (
+        "set_index-of-parsed-date-column",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["day"])
         daily = tons.set_index("day")
         res = smf.ols("tons ~ cranes + rain", data=daily).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("set_index-of-to_datetime-column", """
+    """,
+        None,
+    ),
+    (
+        "set_index-of-to_datetime-column",
+        """
         tons = pd.read_csv("tons.csv")
         tons["day"] = pd.to_datetime(tons["day"], format="%Y-%m-%d")
         tons = tons.dropna().set_index("day")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("set_index-of-to_datetime-call", """
+    """,
+        None,
+    ),
+    (
+        "set_index-of-to_datetime-call",
+        """
         tons = pd.read_csv("tons.csv")
         tons = tons.set_index(pd.to_datetime(tons["stamp"]))
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("set_index-of-a-date-like-name", """
+    """,
+        None,
+    ),
+    (
+        "set_index-of-a-date-like-name",
+        """
         tons = pd.read_csv("tons.csv").set_index("quarter")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("set_index-of-another-column", """
+    """,
+        None,
+    ),
+    (
+        "set_index-of-another-column",
+        """
         tons = pd.read_csv("tons.csv").set_index("berth")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()
         print(res.summary())
-    """, None),
-    ("index-assigned-dates", """
+    """,
+        None,
+    ),
+    (
+        "index-assigned-dates",
+        """
         tons = pd.read_csv("tons.csv")
         tons.index = pd.PeriodIndex(tons["q"], freq="Q")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("date_range-as-index", """
+    """,
+        None,
+    ),
+    (
+        "date_range-as-index",
+        """
         rng = np.random.default_rng(5)
         frame = pd.DataFrame({"tons": rng.normal(size=60), "cranes": rng.normal(size=60)},
                              index=pd.date_range("2021-01-01", periods=60, freq="W"))
         res = smf.ols("tons ~ cranes", data=frame).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("frame-built-from-time-ordered-columns", """
+    """,
+        None,
+    ),
+    (
+        "frame-built-from-time-ordered-columns",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["day"], index_col="day")
         both = pd.DataFrame({"tons": tons["tons"], "cranes": tons["cranes"]})
         res = smf.ols("tons ~ cranes", data=both).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("concat-of-time-ordered-frames", """
+    """,
+        None,
+    ),
+    (
+        "concat-of-time-ordered-frames",
+        """
         north = pd.read_csv("north.csv", parse_dates=["day"], index_col="day")
         south = pd.read_csv("south.csv", parse_dates=["day"], index_col="day")
         both = pd.concat([north, south])
         res = smf.ols("tons ~ cranes", data=both).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("asfreq", """
+    """,
+        None,
+    ),
+    (
+        "asfreq",
+        """
         tons = pd.read_csv("tons.csv").asfreq("D")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("resample", """
+    """,
+        None,
+    ),
+    (
+        "resample",
+        """
         tons = pd.read_csv("tons.csv").resample("M").sum()
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("sorted-by-date-column", """
+    """,
+        None,
+    ),
+    (
+        "sorted-by-date-column",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["day"])
         tons = tons.sort_values(["berth", "day"])
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("sorted-by-another-column", """
+    """,
+        None,
+    ),
+    (
+        "sorted-by-another-column",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["day"])
         tons = tons.sort_values("berth")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()
         print(res.summary())
-    """, None),
+    """,
+        None,
+    ),
     # --- lags, leads and differences of its own data ---------------------------------------------
-    ("groupby-shift", """
+    (
+        "groupby-shift",
+        """
         tons = pd.read_csv("tons.csv")
         tons["tons_prev"] = tons.groupby("berth")["tons"].shift(1)
         res = smf.ols("tons ~ tons_prev + rain", data=tons.dropna()).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("pct_change", """
+    """,
+        None,
+    ),
+    (
+        "pct_change",
+        """
         tons = pd.read_csv("tons.csv")
         growth = tons[["tons", "cranes"]].pct_change().dropna()
         res = smf.ols("tons ~ cranes", data=growth).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("diff-in-formula", """
+    """,
+        None,
+    ),
+    (
+        "diff-in-formula",
+        """
         tons = pd.read_csv("tons.csv")
         res = smf.ols("tons.diff() ~ cranes", data=tons).fit()
         print(res.summary())
-    """, None),
-    ("lagmat-arrays", """
+    """,
+        None,
+    ),
+    (
+        "lagmat-arrays",
+        """
         from statsmodels.tsa.tsatools import lagmat
 
         tons = pd.read_csv("tons.csv")
         lags = lagmat(tons["tons"].to_numpy(), maxlag=2, trim="both")
         res = sm.OLS(tons["tons"].to_numpy()[2:], sm.add_constant(lags)).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("add_trend", """
+    """,
+        None,
+    ),
+    (
+        "add_trend",
+        """
         from statsmodels.tsa.tsatools import add_trend
 
         tons = pd.read_csv("tons.csv")
         X = add_trend(tons[["cranes", "rain"]], trend="ct")
         res = sm.OLS(tons["tons"], X).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
+    """,
+        None,
+    ),
     # --- not evidence ---------------------------------------------------------------------------------
-    ("dates-in-arithmetic", """
+    (
+        "dates-in-arithmetic",
+        """
         tons = pd.read_csv("tons.csv")
         tons["days_waiting"] = (pd.to_datetime(tons["left"]) - pd.to_datetime(tons["arrived"])).dt.days
         res = smf.ols("tons ~ days_waiting + cranes", data=tons).fit()
         print(res.summary())
-    """, None),
-    ("dates-as-ordinary-column", """
+    """,
+        None,
+    ),
+    (
+        "dates-as-ordinary-column",
+        """
         tons = pd.read_csv("tons.csv")
         tons["arrived"] = pd.to_datetime(tons["arrived"])
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()
         print(res.summary())
-    """, None),
-    ("time-series-elsewhere-in-the-file", """
+    """,
+        None,
+    ),
+    (
+        "time-series-elsewhere-in-the-file",
+        """
         from statsmodels.tsa.stattools import adfuller
 
         daily = pd.read_csv("daily.csv", parse_dates=["day"], index_col="day")
@@ -193,32 +295,52 @@ CASES = [
         ships = pd.read_csv("ships.csv")
         res = smf.ols("tons ~ length + draught", data=ships).fit()
         print(res.summary())
-    """, None),
-    ("another-frame-is-time-ordered", """
+    """,
+        None,
+    ),
+    (
+        "another-frame-is-time-ordered",
+        """
         daily = pd.read_csv("daily.csv", parse_dates=["day"], index_col="day")
         print(daily.describe())
         ships = pd.read_csv("ships.csv")
         res = smf.ols("tons ~ length + draught", data=ships).fit()
         print(res.summary())
-    """, None),
+    """,
+        None,
+    ),
     # --- the configured time column ------------------------------------------------------------------
-    ("time_column-is-a-column-of-its-data", """
+    (
+        "time_column-is-a-column-of-its-data",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["day"])
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, Settings(time_column="day")),
-    ("time_column-in-the-formula", """
+    """,
+        Settings(time_column="day"),
+    ),
+    (
+        "time_column-in-the-formula",
+        """
         tons = pd.read_csv("tons.csv")
         res = smf.ols("tons ~ cranes + rain + day", data=tons).fit()  # expect: no-serial-test
         print(res.summary())
-    """, Settings(time_column="day")),
-    ("time_column-not-a-column-of-its-data", """
+    """,
+        Settings(time_column="day"),
+    ),
+    (
+        "time_column-not-a-column-of-its-data",
+        """
         tons = pd.read_csv("tons.csv")
         res = smf.ols("tons ~ cranes + rain", data=tons).fit()
         print(res.summary())
-    """, Settings(time_column="day")),
+    """,
+        Settings(time_column="day"),
+    ),
     # --- flow: helpers, copies, selections -------------------------------------------------------------
-    ("helper-function-returns-indexed-frame", """
+    (
+        "helper-function-returns-indexed-frame",
+        """
         def load(path):
             frame = pd.read_csv(path, parse_dates=["day"])
             return frame.set_index("day").sort_index()
@@ -227,14 +349,20 @@ CASES = [
         sub = tons.loc[tons["rain"] > 0].copy()
         res = smf.ols("tons ~ cranes", data=sub).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
-    ("query-and-column-selection", """
+    """,
+        None,
+    ),
+    (
+        "query-and-column-selection",
+        """
         tons = pd.read_csv("tons.csv", parse_dates=["day"], index_col="day")
         sub = tons.query("cranes > 2")[["tons", "cranes", "rain"]]
         X = sm.add_constant(sub[["cranes", "rain"]])
         res = sm.OLS(sub["tons"], X).fit()  # expect: no-serial-test
         print(res.summary())
-    """, None),
+    """,
+        None,
+    ),
 ]
 
 
@@ -285,11 +413,23 @@ def test_a_project_module_helper_gives_its_frame_time_order(tmp_path):
 
 
 def _notebook(*cells: str) -> str:
-    return json.dumps({
-        "nbformat": 4, "nbformat_minor": 5, "metadata": {},
-        "cells": [{"cell_type": "code", "metadata": {}, "execution_count": None, "outputs": [],
-                   "source": textwrap.dedent(c).strip("\n").splitlines(keepends=True)} for c in cells],
-    })
+    return json.dumps(
+        {
+            "nbformat": 4,
+            "nbformat_minor": 5,
+            "metadata": {},
+            "cells": [
+                {
+                    "cell_type": "code",
+                    "metadata": {},
+                    "execution_count": None,
+                    "outputs": [],
+                    "source": textwrap.dedent(c).strip("\n").splitlines(keepends=True),
+                }
+                for c in cells
+            ],
+        }
+    )
 
 
 def test_notebook_evidence_across_cells():

@@ -21,19 +21,27 @@ def states(report):
 
 
 def test_trailing_waiver_on_the_finding_line():
-    r = run("res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-form-test because linear by design\nres.params\n")
+    r = run(
+        "res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-form-test because linear by design\nres.params\n"
+    )
     assert states(r) == [(2, "no-form-test", True, "linear by design")]
 
 
 def test_waiver_alone_on_the_line_above():
-    r = run("# regvet: waive no-form-test because linear by design\nres = smf.ols('riders ~ fare', data=df).fit()\nres.params\n")
+    r = run(
+        "# regvet: waive no-form-test because linear by design\nres = smf.ols('riders ~ fare', data=df).fit()\nres.params\n"
+    )
     assert states(r) == [(3, "no-form-test", True, "linear by design")]
 
 
 def test_waiver_two_lines_above_or_after_code_does_not_apply():
-    r = run("# regvet: waive no-form-test because too far\n\nres = smf.ols('riders ~ fare', data=df).fit()\nres.params\n")
+    r = run(
+        "# regvet: waive no-form-test because too far\n\nres = smf.ols('riders ~ fare', data=df).fit()\nres.params\n"
+    )
     assert states(r) == [(4, "no-form-test", False, None)]
-    r = run("x = 1  # regvet: waive no-form-test because trailing on another statement\nres = smf.ols('riders ~ fare', data=df).fit()\nres.params\n")
+    r = run(
+        "x = 1  # regvet: waive no-form-test because trailing on another statement\nres = smf.ols('riders ~ fare', data=df).fit()\nres.params\n"
+    )
     assert states(r) == [(3, "no-form-test", False, None)]
 
 
@@ -68,22 +76,41 @@ def test_waiver_without_reason_does_not_take_effect():
 @pytest.mark.parametrize(
     "comment,needle",
     [
-        ("# regvet: waive because no rule given", "names no rule, so it takes no effect. Write it as "
-         "`# regvet: waive RULE because no rule given`"),
+        (
+            "# regvet: waive because no rule given",
+            "names no rule, so it takes no effect. Write it as " "`# regvet: waive RULE because no rule given`",
+        ),
         ("# regvet: waive -- no rule given", "names no rule and separates its reason with ` -- `"),
         # the old separator and other habits: the message shows the waiver in the form regvet reads
-        ("# regvet: waive no-form-test -- linear by design", "separates its reason with ` -- ` instead of the word "
-         "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`"),
-        ("# regvet: waive no-form-test: linear by design", "separates its reason with `:` instead of the word "
-         "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`"),
-        ("# regvet: waive no-form-test - linear by design", "separates its reason with ` - ` instead of the word "
-         "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`"),
-        ("# regvet: waive no-form-test, no-variance-test -- pilot", "`# regvet: waive no-form-test, "
-         "no-variance-test because pilot`"),
-        ("# regvet: waive no-form-test linear by design", "gives its reason without the word `because`, so it takes "
-         "no effect. Write it as `# regvet: waive no-form-test because linear by design`"),
-        ("# regvet: waive no-form-test", "gives no reason, so it takes no effect. Say why the check does not apply: "
-         "`# regvet: waive no-form-test because REASON`"),
+        (
+            "# regvet: waive no-form-test -- linear by design",
+            "separates its reason with ` -- ` instead of the word "
+            "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`",
+        ),
+        (
+            "# regvet: waive no-form-test: linear by design",
+            "separates its reason with `:` instead of the word "
+            "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`",
+        ),
+        (
+            "# regvet: waive no-form-test - linear by design",
+            "separates its reason with ` - ` instead of the word "
+            "`because`, so it takes no effect. Write it as `# regvet: waive no-form-test because linear by design`",
+        ),
+        (
+            "# regvet: waive no-form-test, no-variance-test -- pilot",
+            "`# regvet: waive no-form-test, " "no-variance-test because pilot`",
+        ),
+        (
+            "# regvet: waive no-form-test linear by design",
+            "gives its reason without the word `because`, so it takes "
+            "no effect. Write it as `# regvet: waive no-form-test because linear by design`",
+        ),
+        (
+            "# regvet: waive no-form-test",
+            "gives no reason, so it takes no effect. Say why the check does not apply: "
+            "`# regvet: waive no-form-test because REASON`",
+        ),
     ],
 )
 def test_malformed_waivers_say_the_expected_form(comment, needle):
@@ -98,7 +125,9 @@ def test_the_written_form_the_message_suggests_is_read_as_a_waiver():
     """Pasting the form the message shows waives the finding (the message is a working fix)."""
     import re
 
-    r = run("res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-form-test -- linear by design\nres.params\n")
+    r = run(
+        "res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-form-test -- linear by design\nres.params\n"
+    )
     (message,) = [f.message for f in r.findings if f.rule == "waiver-without-reason"]
     suggested = re.search(r"Write it as `([^`]+)`", message)[1]
     r = run(f"res = smf.ols('riders ~ fare', data=df).fit()  {suggested}\nres.params\n")
@@ -108,15 +137,24 @@ def test_the_written_form_the_message_suggests_is_read_as_a_waiver():
 @pytest.mark.parametrize(
     "comment,needle",
     [
-        ("# regvet: waive no-frm-test because typo", "`no-frm-test`, which is not a regvet rule, so it waives nothing "
-         "for that name; did you mean `no-form-test`?"),
+        (
+            "# regvet: waive no-frm-test because typo",
+            "`no-frm-test`, which is not a regvet rule, so it waives nothing "
+            "for that name; did you mean `no-form-test`?",
+        ),
         ("# regvet: waive No_Form_Test because other case", "did you mean `no-form-test`?"),
         ("# regvet: waive NO-FORM-TEST because capitals", "did you mean `no-form-test`?"),
-        ("# regvet: waive no-varience-test, no-from-test because two typos", "`no-varience-test` and `no-from-test`, "
-         "which are not regvet rules, so it waives nothing for them; did you mean `no-variance-test` for "
-         "`no-varience-test`, `no-form-test` for `no-from-test`?"),
-        ("# regvet: waive ferry-schedule because nothing close", "`ferry-schedule`, which is not a regvet rule, so it "
-         "waives nothing for that name; `regvet rules` lists the rules."),
+        (
+            "# regvet: waive no-varience-test, no-from-test because two typos",
+            "`no-varience-test` and `no-from-test`, "
+            "which are not regvet rules, so it waives nothing for them; did you mean `no-variance-test` for "
+            "`no-varience-test`, `no-form-test` for `no-from-test`?",
+        ),
+        (
+            "# regvet: waive ferry-schedule because nothing close",
+            "`ferry-schedule`, which is not a regvet rule, so it "
+            "waives nothing for that name; `regvet rules` lists the rules.",
+        ),
     ],
 )
 def test_unknown_rule_gets_its_own_finding_with_the_nearest_rule(comment, needle):
@@ -128,10 +166,15 @@ def test_unknown_rule_gets_its_own_finding_with_the_nearest_rule(comment, needle
 
 
 def test_known_rules_beside_an_unknown_one_are_still_waived():
-    r = run("res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-frm-test, no-variance-test because pilot"
-            "\nres.summary()\n")
-    assert states(r) == [(2, "no-form-test", False, None), (2, "no-variance-test", True, "pilot"),
-                         (2, "waiver-unknown-rule", False, None)]
+    r = run(
+        "res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-frm-test, no-variance-test because pilot"
+        "\nres.summary()\n"
+    )
+    assert states(r) == [
+        (2, "no-form-test", False, None),
+        (2, "no-variance-test", True, "pilot"),
+        (2, "waiver-unknown-rule", False, None),
+    ]
 
 
 def test_unknown_rule_and_no_reason_are_both_reported():
@@ -141,8 +184,10 @@ def test_unknown_rule_and_no_reason_are_both_reported():
 
 
 def test_waiver_findings_cannot_be_waived():
-    r = run("# regvet: waive-file waiver-unknown-rule, waiver-without-reason because quiet please\n"
-            "res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-frm-test because x\nres.params\n")
+    r = run(
+        "# regvet: waive-file waiver-unknown-rule, waiver-without-reason because quiet please\n"
+        "res = smf.ols('riders ~ fare', data=df).fit()  # regvet: waive no-frm-test because x\nres.params\n"
+    )
     assert ("waiver-unknown-rule", False) in [(f.rule, f.waived) for f in r.findings]
 
 
@@ -150,11 +195,22 @@ def test_waiver_findings_cannot_be_waived():
     "comment,rules,reason",
     [
         ("# regvet: waive no-form-test because fare is fixed", ("no-form-test",), "fare is fixed"),
-        ("#regvet:waive no-form-test,no-variance-test because   pilot  ", ("no-form-test", "no-variance-test"), "pilot"),
-        ("# regvet: waive no-form-test because the word because is fine here", ("no-form-test",),
-         "the word because is fine here"),
+        (
+            "#regvet:waive no-form-test,no-variance-test because   pilot  ",
+            ("no-form-test", "no-variance-test"),
+            "pilot",
+        ),
+        (
+            "# regvet: waive no-form-test because the word because is fine here",
+            ("no-form-test",),
+            "the word because is fine here",
+        ),
         ("# regvet: waive no-form-test because -- dashes in a reason", ("no-form-test",), "-- dashes in a reason"),
-        ("# regvet: waive no-form-test because fares: fixed  # expect: no-form-test", ("no-form-test",), "fares: fixed"),
+        (
+            "# regvet: waive no-form-test because fares: fixed  # expect: no-form-test",
+            ("no-form-test",),
+            "fares: fixed",
+        ),
         ("# regvet: waive no-form-test because", ("no-form-test",), None),
         ("# regvet: waive no-form-test -- because fares are fixed", ("no-form-test",), "fares are fixed"),
         ("# regvet: waive no-form-test: because fares are fixed", ("no-form-test",), "fares are fixed"),

@@ -82,7 +82,9 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
             continue
         for site in entry["sites"]:
             lines = {site.get("fit_line", site["line"]), *site.get("call_lines", [])}
-            place = f"{path}" + (f", cell {site['cell']}" if site["cell"] is not None else "") + f", line {site['line']}"
+            place = (
+                f"{path}" + (f", cell {site['cell']}" if site["cell"] is not None else "") + f", line {site['line']}"
+            )
             for rule in rules:
                 hits = [f for ln in lines for f in by_place.get((rule, path, site["cell"], ln), [])]
                 used.update(id(f) for f in hits)
@@ -99,8 +101,9 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
                 if key == "fp" and rule == "no-serial-test" and not site.get("time_ordered"):
                     serial_fp_untimed += 1
                 if key == "fp":
-                    s["false_positives"].append({"site": place, "why_not": site["labels"][rule]["why"],
-                                                 "message": hits[0]["message"][:300]})
+                    s["false_positives"].append(
+                        {"site": place, "why_not": site["labels"][rule]["why"], "message": hits[0]["message"][:300]}
+                    )
                 elif key == "fn":
                     s["false_negatives"].append({"site": place, "why": site["labels"][rule]["why"]})
                 if rule == "no-serial-test" and truth and site.get("ts_evidence") == "static":
@@ -109,8 +112,15 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
     for f in findings:
         if f["rule"] in rules and not f.get("waived") and id(f) not in used and f["path"] in present:
             stats[f["rule"]]["fp"] += 1
-            unmatched.append({"rule": f["rule"], "path": f["path"], "cell": f.get("cell"), "line": f["line"],
-                              "message": f["message"][:300]})
+            unmatched.append(
+                {
+                    "rule": f["rule"],
+                    "path": f["path"],
+                    "cell": f.get("cell"),
+                    "line": f["line"],
+                    "message": f["message"][:300],
+                }
+            )
     for rule, s in stats.items():
         s["extra_findings_at_one_site"] = extra[rule]
         s["precision"] = _ratio(s["tp"], s["tp"] + s["fp"])
@@ -149,8 +159,10 @@ def main(argv: list[str] | None = None) -> int:
     present = {p for p in wanted if (args.corpus / p).is_file()}
     missing = sorted(set(wanted) - present)
     if missing:
-        print(f"score: {len(missing)} labelled files are not under {args.corpus} (run extract.py); left out:",
-              file=sys.stderr)
+        print(
+            f"score: {len(missing)} labelled files are not under {args.corpus} (run extract.py); left out:",
+            file=sys.stderr,
+        )
         for p in missing:
             print(f"  {p}", file=sys.stderr)
     if not present:
@@ -163,12 +175,20 @@ def main(argv: list[str] | None = None) -> int:
     scored = [s for e in labels["files"] if f"{e['mirror']}/{e['path']}" in present for s in e["sites"]]
     sites = len(scored)
     timed = sum(1 for s in scored if s.get("time_ordered"))
-    commit = subprocess.run(["git", "-C", str(ROOT), "rev-parse", "--short", "HEAD"], capture_output=True,
-                            text=True, check=False).stdout.strip()
+    commit = subprocess.run(
+        ["git", "-C", str(ROOT), "rev-parse", "--short", "HEAD"], capture_output=True, text=True, check=False
+    ).stdout.strip()
     dirty = subprocess.run(["git", "-C", str(ROOT), "diff", "--quiet", "HEAD", "--", "src"], check=False).returncode
     commit += "+uncommitted src changes" if dirty else ""
-    report = {"date": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%MZ"), "regvet_commit": commit,
-              "files": len(present), "sites": sites, "time_ordered_sites": timed, "missing_files": missing, **result}
+    report = {
+        "date": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%MZ"),
+        "regvet_commit": commit,
+        "files": len(present),
+        "sites": sites,
+        "time_ordered_sites": timed,
+        "missing_files": missing,
+        **result,
+    }
     print(f"{len(present)} files, {sites} labelled fit sites ({timed} on time-ordered data), regvet at {commit}")
     print(f"{'rule':18} {'TP':>4} {'FP':>4} {'FN':>4} {'TN':>4} {'prec':>6} {'recall':>6}")
     for rule, s in result["rules"].items():
@@ -176,12 +196,16 @@ def main(argv: list[str] | None = None) -> int:
         rec = "-" if s["recall"] is None else f"{s['recall']:.3f}"
         print(f"{rule:18} {s['tp']:4} {s['fp']:4} {s['fn']:4} {s['tn']:4} {prec:>6} {rec:>6}")
     serial = result["rules"]["no-serial-test"]
-    print(f"no-serial-test recall over the {serial['static_evidence_positives']} positives with static evidence: "
-          f"{serial['recall_static_evidence']}; false positives on data without time order: "
-          f"{serial['false_positives_on_untimed_data']}")
+    print(
+        f"no-serial-test recall over the {serial['static_evidence_positives']} positives with static evidence: "
+        f"{serial['recall_static_evidence']}; false positives on data without time order: "
+        f"{serial['false_positives_on_untimed_data']}"
+    )
     for kind, c in serial["by_repository_kind"].items():
-        print(f"  no-serial-test in {kind or '?'} repositories: TP {c['tp']} FP {c['fp']} FN {c['fn']} TN {c['tn']}, "
-              f"precision {c['precision']}, recall {c['recall']}")
+        print(
+            f"  no-serial-test in {kind or '?'} repositories: TP {c['tp']} FP {c['fp']} FN {c['fn']} TN {c['tn']}, "
+            f"precision {c['precision']}, recall {c['recall']}"
+        )
     args.out.parent.mkdir(parents=True, exist_ok=True)
     args.out.write_text(json.dumps(report, indent=1) + "\n", encoding="utf-8")
     print(f"written {args.out}")

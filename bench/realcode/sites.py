@@ -48,7 +48,10 @@ def sites(root: Path, key: str) -> list[dict[str, object]]:
         if file.suffix == ".py":
             text = file.read_text(encoding="utf-8", errors="replace")
             src_lines = text.splitlines()
-            out += [{"repo": key, "path": rel, "cell": None, "line": n, "code": src_lines[n - 1].strip()} for n in _calls(text)]
+            out += [
+                {"repo": key, "path": rel, "cell": None, "line": n, "code": src_lines[n - 1].strip()}
+                for n in _calls(text)
+            ]
         elif file.suffix == ".ipynb":
             try:
                 cells = json.loads(file.read_text(encoding="utf-8"))["cells"]

@@ -101,8 +101,10 @@ class Risk:
         parts = []
         if self.significance_changes:
             n = self.significance_changes
-            parts.append(f"{n} coefficient{'s' if n != 1 else ''} change{'s' if n == 1 else ''} 5 % significance "
-                         "under robust standard errors")  # fmt: skip
+            parts.append(
+                f"{n} coefficient{'s' if n != 1 else ''} change{'s' if n == 1 else ''} 5 % significance "
+                "under robust standard errors"
+            )
         if self.rejected:
             parts.append(f"{self.rejected} rejected (tests or comparisons)")
         if self.missing:
@@ -226,7 +228,9 @@ def _statistic(family: str, stats: FitStatistics | None) -> tuple[str | None, st
         if bg is None or bg.get("lm") is None:
             return None, None, None
         dw = stats.get("durbin_watson")
-        text = f"LM = {num(bg.get('lm'))} ({bg.get('lags')} lags)" + (f"; Durbin-Watson {num(dw)}" if dw is not None else "")
+        text = f"LM = {num(bg.get('lm'))} ({bg.get('lags')} lags)" + (
+            f"; Durbin-Watson {num(dw)}" if dw is not None else ""
+        )
         return text, bg.get("form"), p(bg.get("lm_pvalue"))
     if family == "breaks":
         tests = [c for c in stats.get("chow") or [] if c.get("f") is not None]
@@ -278,12 +282,21 @@ _NOT_APPLICABLE = {
 }
 
 
-def _family_row(inp: RuleInput, report: FileReport, fit: Fit, family: str, label: str, mine: list[Finding],
-                stats: FitStatistics | None) -> CheckRow:  # fmt: skip
+def _family_row(
+    inp: RuleInput,
+    report: FileReport,
+    fit: Fit,
+    family: str,
+    label: str,
+    mine: list[Finding],
+    stats: FitStatistics | None,
+) -> CheckRow:
     checks = inp.checks(fit.id, family)
     missing_rules = {r.id for r in rules_for_family(family)}
     missing = next((f for f in mine if f.rule in missing_rules), None)
-    rejecting = next((f for f in mine if (RULES_BY_ID.get(f.rule) is not None and RULES_BY_ID[f.rule].rejects == family)), None)
+    rejecting = next(
+        (f for f in mine if (RULES_BY_ID.get(f.rule) is not None and RULES_BY_ID[f.rule].rejects == family)), None
+    )
     statistic, form, pvalue = _statistic(family, stats)
     ran = stats is not None
     how = ""
@@ -319,13 +332,24 @@ def _family_row(inp: RuleInput, report: FileReport, fit: Fit, family: str, label
     if missing is not None:
         return CheckRow(family, label, MISSING, f"no {label} check (`{missing.rule}`)", statistic, form, pvalue)
     if rejecting is not None:
-        return CheckRow(family, label, MISSING, f"not checked in the code, and the run shows a problem (`{rejecting.rule}`)",
-                        statistic, form, pvalue)  # fmt: skip
+        return CheckRow(
+            family,
+            label,
+            MISSING,
+            f"not checked in the code, and the run shows a problem (`{rejecting.rule}`)",
+            statistic,
+            form,
+            pvalue,
+        )
     rules = list(rules_for_family(family))
     off = [r.id for r in rules if not inp.settings.enabled(r.id)]
     if off:
         why = f"not judged: `{off[0]}` is turned off in the configuration"
-    elif family == "serial" and not (fit.time_reason or inp.facts.tsa_in_use) and not (stats and stats.get("time_ordered")):
+    elif (
+        family == "serial"
+        and not (fit.time_reason or inp.facts.tsa_in_use)
+        and not (stats and stats.get("time_ordered"))
+    ):
         why = "the data is not known to be time-ordered"
     else:
         why = _NOT_APPLICABLE[family]
@@ -360,9 +384,17 @@ def _comparisons(inp: RuleInput, report: FileReport, fit: Fit) -> tuple[list[Com
                 if s:
                     rows.append(comparison_row(facts.fit(fid), s[0]))
             table = tuple(rows)
-        out.append(ComparisonEntry(
-            where=_where(inp, comp.loc), how=comp.how, fits=names, valid=not open_problems,
-            problem=" ".join(f.message for f in open_problems), table=table, nested=nested))  # fmt: skip
+        out.append(
+            ComparisonEntry(
+                where=_where(inp, comp.loc),
+                how=comp.how,
+                fits=names,
+                valid=not open_problems,
+                problem=" ".join(f.message for f in open_problems),
+                table=table,
+                nested=nested,
+            )
+        )
     return out, invalid
 
 
@@ -377,11 +409,23 @@ def _coefficients(stats: FitStatistics | None) -> tuple[tuple[CoefficientRow, ..
         note = ""
         if changes:
             usual = (c.get("p") or 1.0) < 0.05
-            note = (f"significant at 5 % with the usual standard errors only, not with {c.get('robust_type')}" if usual
-                    else f"significant at 5 % with {c.get('robust_type')} only, not with the usual standard errors")  # fmt: skip
-        rows.append(CoefficientRow(
-            c["name"], num(c.get("estimate")), num(c.get("se")), p(c.get("p")).replace("p ", "").replace("= ", ""),
-            num(c.get("se_robust")), p(c.get("p_robust")).replace("p ", "").replace("= ", ""), changes, note))  # fmt: skip
+            note = (
+                f"significant at 5 % with the usual standard errors only, not with {c.get('robust_type')}"
+                if usual
+                else f"significant at 5 % with {c.get('robust_type')} only, not with the usual standard errors"
+            )
+        rows.append(
+            CoefficientRow(
+                c["name"],
+                num(c.get("estimate")),
+                num(c.get("se")),
+                p(c.get("p")).replace("p ", "").replace("= ", ""),
+                num(c.get("se_robust")),
+                p(c.get("p_robust")).replace("p ", "").replace("= ", ""),
+                changes,
+                note,
+            )
+        )
     return tuple(rows), kind
 
 
@@ -413,23 +457,43 @@ def audit_file(report: FileReport, index: int) -> FileAudit:
             rows.append(CheckRow("comparison", "model comparison", NOT_APPLICABLE, "its fit measures are not compared"))
         coefficients, robust_type = _coefficients(stats)
         changes = sum(1 for c in coefficients if c.changes) if fit.cov_type == "nonrobust" else 0
-        rejected = sum(1 for f in mine if not f.waived and RULES_BY_ID.get(f.rule) is not None
-                       and RULES_BY_ID[f.rule].rejects is not None) + invalid  # fmt: skip
+        rejected = (
+            sum(
+                1
+                for f in mine
+                if not f.waived and RULES_BY_ID.get(f.rule) is not None and RULES_BY_ID[f.rule].rejects is not None
+            )
+            + invalid
+        )
         missing = sum(1 for r in rows if r.state == MISSING)
         records = inp.runtime.stats(fit.id) if inp.runtime is not None else ()
         first = records[0] if records else {}
         span = _span(report, fit.site.span)
-        out.append(FitAudit(
-            anchor=f"f{index}-{fit.id}", path=report.path, name=fit_name(fit), where=span.describe(), span=span,
-            estimator=fit.estimator, specification=_specification(fit, stats),
-            outcome=fit.outcome.text if fit.outcome else (stats.get("endog_name") if stats else None),
-            nobs=stats.get("nobs") if stats else None,
-            cov_type=(stats.get("cov_type") if stats else None) or fit.cov_type or "not a literal regvet can read",
-            checks=tuple(rows), findings=tuple(mine), comparisons=tuple(comps),
-            risk=Risk(changes, rejected, missing), ran=stats is not None, runs=len(stats_runs),
-            coefficients=coefficients, robust_type=robust_type,
-            time_ordered=(stats.get("time_ordered") if stats else None) or fit.time_reason,
-            points=first.get("points"), points_error=first.get("points_error")))  # fmt: skip
+        out.append(
+            FitAudit(
+                anchor=f"f{index}-{fit.id}",
+                path=report.path,
+                name=fit_name(fit),
+                where=span.describe(),
+                span=span,
+                estimator=fit.estimator,
+                specification=_specification(fit, stats),
+                outcome=fit.outcome.text if fit.outcome else (stats.get("endog_name") if stats else None),
+                nobs=stats.get("nobs") if stats else None,
+                cov_type=(stats.get("cov_type") if stats else None) or fit.cov_type or "not a literal regvet can read",
+                checks=tuple(rows),
+                findings=tuple(mine),
+                comparisons=tuple(comps),
+                risk=Risk(changes, rejected, missing),
+                ran=stats is not None,
+                runs=len(stats_runs),
+                coefficients=coefficients,
+                robust_type=robust_type,
+                time_ordered=(stats.get("time_ordered") if stats else None) or fit.time_reason,
+                points=first.get("points"),
+                points_error=first.get("points_error"),
+            )
+        )
     other = tuple(f for f in report.findings if not (set(f.fits) & fit_ids))
     return FileAudit(report.path, tuple(_merge_alternatives(out)), other, False, failure)
 
@@ -467,6 +531,13 @@ def build(reports: list[FileReport], *, ran: bool = False) -> Audit:
     failed = [(f.path, f.run_failure) for f in files if f.run_failure is not None]
     settings = next((r.rule_input.settings for r in reports if r.rule_input is not None), None)
     return Audit(
-        files=files, ranked=ranked, counts=counts, waivers=tuple(waivers), ran=ran,
-        fits_ran=sum(1 for fit in all_fits if fit.ran), failed=tuple(failed),
-        alpha=settings.alpha if settings is not None else 0.05, fit_count=len(all_fits))  # fmt: skip
+        files=files,
+        ranked=ranked,
+        counts=counts,
+        waivers=tuple(waivers),
+        ran=ran,
+        fits_ran=sum(1 for fit in all_fits if fit.ran),
+        failed=tuple(failed),
+        alpha=settings.alpha if settings is not None else 0.05,
+        fit_count=len(all_fits),
+    )

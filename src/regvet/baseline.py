@@ -72,7 +72,11 @@ def _slice(lines: list[str], span: Span) -> str:
         return ""
     if span.line == span.end_line:
         return lines[span.line - 1][span.col : span.end_col]
-    parts = [lines[span.line - 1][span.col :], *lines[span.line : span.end_line - 1], lines[span.end_line - 1][: span.end_col]]
+    parts = [
+        lines[span.line - 1][span.col :],
+        *lines[span.line : span.end_line - 1],
+        lines[span.end_line - 1][: span.end_col],
+    ]
     return "\n".join(parts)
 
 
@@ -112,7 +116,9 @@ def fingerprint(report: FileReport, finding: Finding) -> str:
         parts += [fit.estimator, re.sub(r"\s+", "", fit.formula or ""), fit.cov_type or "?"]
         for loc in (fit.site, fit.fit_call):
             # code in a helper module: its file name (fronts show its path differently)
-            parts.append(loc.path.replace("\\", "/").rsplit("/", 1)[-1] if loc.path else normalized_code(lines, loc.span))
+            parts.append(
+                loc.path.replace("\\", "/").rsplit("/", 1)[-1] if loc.path else normalized_code(lines, loc.span)
+            )
         if fit.model_span is not None:
             parts.append(normalized_code(lines, fit.model_span))
     if finding.rule == "parse-error" or (not finding.fits and not parts[1]):
@@ -130,7 +136,9 @@ def _about(report: FileReport, finding: Finding) -> str:
         except KeyError:
             continue
         if fit is not None:
-            names.append(f"`{fit.result_name}`" if fit.result_name else f"`{fit.formula}`" if fit.formula else fit.estimator)
+            names.append(
+                f"`{fit.result_name}`" if fit.result_name else f"`{fit.formula}`" if fit.formula else fit.estimator
+            )
     return ", ".join(names) or finding.message.split(". ")[0][:80]
 
 
@@ -267,11 +275,18 @@ def from_json(text: str, path: Path) -> Baseline:
             raise BaselineError(f"{path}: the entries of {key!r} must be a list")
         entries = []
         for i, item in enumerate(items):
-            if not (isinstance(item, dict) and isinstance(item.get("rule"), str) and isinstance(item.get("fingerprint"), str)):
-                raise BaselineError(f"{path}: entry {i} of {key!r} needs a \"rule\" and a \"fingerprint\" (strings)")
+            if not (
+                isinstance(item, dict)
+                and isinstance(item.get("rule"), str)
+                and isinstance(item.get("fingerprint"), str)
+            ):
+                raise BaselineError(f'{path}: entry {i} of {key!r} needs a "rule" and a "fingerprint" (strings)')
             line = item.get("line")
-            entries.append(Entry(key, item["rule"], item["fingerprint"], str(item.get("about", "")),
-                                 line if type(line) is int else 0))  # fmt: skip
+            entries.append(
+                Entry(
+                    key, item["rule"], item["fingerprint"], str(item.get("about", "")), line if type(line) is int else 0
+                )
+            )
         out[key] = entries
     return Baseline(path, out)
 

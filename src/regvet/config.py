@@ -36,8 +36,9 @@ class ConfigError(Exception):
     the file: the TOML syntax error, or where the bad key is written; both None when unknown.
     """
 
-    def __init__(self, path: str, message: str, key: str | None = None, line: int | None = None,
-                 column: int | None = None) -> None:  # fmt: skip
+    def __init__(
+        self, path: str, message: str, key: str | None = None, line: int | None = None, column: int | None = None
+    ) -> None:
         self.path = path
         self.key = key
         self.detail = message
@@ -120,18 +121,23 @@ def _regvet_table(path: Path, data: dict[str, Any]) -> dict[str, Any]:
     if path.name == "pyproject.toml":
         tool = data.get("tool", {})
         if not isinstance(tool, dict):
-            raise ConfigError(str(path), f"`tool` must be a table (regvet reads `[tool.regvet]`), got {_tomltype(tool)}")
+            raise ConfigError(
+                str(path), f"`tool` must be a table (regvet reads `[tool.regvet]`), got {_tomltype(tool)}"
+            )
         if "regvet" not in tool and isinstance(data.get("regvet"), dict):
-            raise ConfigError(str(path), "regvet's options belong in `[tool.regvet]` in a pyproject.toml, not in "
-                              "`[regvet]`")  # fmt: skip
+            raise ConfigError(
+                str(path), "regvet's options belong in `[tool.regvet]` in a pyproject.toml, not in " "`[regvet]`"
+            )
         table = tool.get("regvet", {})
         if not isinstance(table, dict):
             raise ConfigError(str(path), f"`tool.regvet` must be a table, got {_tomltype(table)}")
         return table
     tool = data.get("tool")
     if isinstance(tool, dict) and "regvet" in tool:
-        raise ConfigError(str(path), "a regvet.toml holds the options at the top level; `[tool.regvet]` belongs in "
-                          "a pyproject.toml")  # fmt: skip
+        raise ConfigError(
+            str(path),
+            "a regvet.toml holds the options at the top level; `[tool.regvet]` belongs in " "a pyproject.toml",
+        )
     return data
 
 
@@ -173,8 +179,12 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 raise bad
             for name in value:
                 if not _COLUMN.match(name):
-                    raise ConfigError(source, f"{name!r} is not a column name as a formula writes it in `C(...)` "
-                                      "(letters, digits, `_` and `.`, not starting with a digit)", key)  # fmt: skip
+                    raise ConfigError(
+                        source,
+                        f"{name!r} is not a column name as a formula writes it in `C(...)` "
+                        "(letters, digits, `_` and `.`, not starting with a digit)",
+                        key,
+                    )
                 if value.count(name) > 1:
                     raise ConfigError(source, f"`{name}` is listed twice", key)
             values[key] = tuple(value)
@@ -194,7 +204,11 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 raise bad
             values[key] = value
         elif option.kind in ("int", "optional-int"):
-            if isinstance(value, bool) or not isinstance(value, int) or value < (0 if option.kind == "optional-int" else 1):
+            if (
+                isinstance(value, bool)
+                or not isinstance(value, int)
+                or value < (0 if option.kind == "optional-int" else 1)
+            ):
                 raise bad
             values[key] = value
         elif option.kind == "seconds":
@@ -230,8 +244,12 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
     both = sorted(set(fixed) & set(values.get("break_candidates", base.break_candidates if base else ())))
     if both:
         key = "fixed_effects" if "fixed_effects" in values else "break_candidates"
-        raise ConfigError(source, f"`{both[0]}` is both a fixed effect and a break candidate; a column is one or "
-                          "the other (a break candidate asks for a break test, a fixed effect for none)", key)  # fmt: skip
+        raise ConfigError(
+            source,
+            f"`{both[0]}` is both a fixed effect and a break candidate; a column is one or "
+            "the other (a break candidate asks for a break test, a fixed effect for none)",
+            key,
+        )
     return replace(base or Settings(), source=source, **values)
 
 

@@ -182,8 +182,9 @@ def analyze(
     """
     with _no_gc_pauses():
         try:
-            return _analyze(text, path, settings, notebook, provider, module_key, module_cache, strict, skip_unrelated,
-                            budget)  # fmt: skip
+            return _analyze(
+                text, path, settings, notebook, provider, module_key, module_cache, strict, skip_unrelated, budget
+            )
         except (RecursionError, MemoryError) as exc:  # deeper or larger than the analyser can follow
             if strict:
                 raise
@@ -212,10 +213,12 @@ def _analyze(
         nb = read_notebook(text)
         if isinstance(nb, SourceError):
             return _finish(path, settings, RuleInput(FileFacts(), settings, (), nb), None, (), strict, None)
-        return _analyze_python(nb.python, path, settings, provider, module_key, module_cache, strict,
-                               skip_unrelated, nb, budget)  # fmt: skip
-    return _analyze_python(text, path, settings, provider, module_key, module_cache, strict, skip_unrelated, None,
-                           budget)  # fmt: skip
+        return _analyze_python(
+            nb.python, path, settings, provider, module_key, module_cache, strict, skip_unrelated, nb, budget
+        )
+    return _analyze_python(
+        text, path, settings, provider, module_key, module_cache, strict, skip_unrelated, None, budget
+    )
 
 
 def analyze_cells(
@@ -234,8 +237,9 @@ def analyze_cells(
     with _no_gc_pauses():
         try:
             nb = join_cells(code_cells, cell_count)
-            return _analyze_python(nb.python, path, settings or Settings(), provider, module_key, module_cache,
-                                   strict, True, nb, budget)  # fmt: skip
+            return _analyze_python(
+                nb.python, path, settings or Settings(), provider, module_key, module_cache, strict, True, nb, budget
+            )
         except (RecursionError, MemoryError) as exc:  # deeper or larger than the analyser can follow
             if strict:
                 raise
@@ -310,8 +314,9 @@ def _analyze_python(
         facts = FileFacts()
         crashes.append(Crash("analysis", _describe(exc)))
     spellings = suggested_spellings(tree) if facts.fits else ()
-    inp = RuleInput(facts, settings, waivers, cell_map=cell_map, stopped=stopped, spellings=spellings,
-                    broken_cells=broken)  # fmt: skip
+    inp = RuleInput(
+        facts, settings, waivers, cell_map=cell_map, stopped=stopped, spellings=spellings, broken_cells=broken
+    )
     report = _finish(path, settings, inp, cell_map, tuple(crashes), strict, cell_count)
     return replace(report, python=python, over_budget=over_budget)
 
@@ -376,9 +381,14 @@ def _finish(
         findings = [_to_cells(f, cell_map) for f in findings]
     findings.sort(key=Finding.sort_key)
     return FileReport(
-        path, tuple(findings), tuple(all_crashes), facts=inp.facts, cell_count=cell_count, cell_map=cell_map,
+        path,
+        tuple(findings),
+        tuple(all_crashes),
+        facts=inp.facts,
+        cell_count=cell_count,
+        cell_map=cell_map,
         rule_input=inp,
-    )  # fmt: skip
+    )
 
 
 def with_runtime(report: FileReport, runtime: RuntimeFacts, settings: Settings | None = None) -> FileReport:
@@ -429,7 +439,9 @@ def _with_severity(f: Finding, settings: Settings) -> Finding:
 
 
 def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
-    related = tuple(r if r.path is not None else r.__class__(cell_map.span(r.span), r.message, r.path) for r in f.related)
+    related = tuple(
+        r if r.path is not None else r.__class__(cell_map.span(r.span), r.message, r.path) for r in f.related
+    )
     fix = f.fix
     if fix is not None:
         fix = dict(fix, cell=cell_map.locate(f.span.line)[0])
@@ -438,5 +450,3 @@ def _to_cells(f: Finding, cell_map: CellMap) -> Finding:
                 s = cell_map.span(Span(*fix[key]))
                 fix[key] = [s.line, s.col, s.end_line, s.end_col]
     return f.with_(span=cell_map.span(f.span), related=related, fix=fix)
-
-

@@ -55,8 +55,10 @@ def build_fingerprint() -> str:
             for name in sorted(names):
                 if name.endswith(".py"):
                     st = os.stat(os.path.join(folder, name))
-                    h.update(f"{os.path.relpath(os.path.join(folder, name), package)}\0{st.st_size}\0"
-                             f"{st.st_mtime_ns}\0".encode())  # fmt: skip
+                    h.update(
+                        f"{os.path.relpath(os.path.join(folder, name), package)}\0{st.st_size}\0"
+                        f"{st.st_mtime_ns}\0".encode()
+                    )
         _BUILD = h.hexdigest()
     return _BUILD
 

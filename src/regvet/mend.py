@@ -116,8 +116,13 @@ def _loop(
         lines = original_lines.get(key) or [f.span.line]
         line = lines[0]
         if not planned:
-            stuck[key] = NotFixed(f.rule, line, cell, "no quick fix applies here (regvet edits only a fit call made "
-                                  "in this file, and inserts a check only after a fit whose result has a name)")  # fmt: skip
+            stuck[key] = NotFixed(
+                f.rule,
+                line,
+                cell,
+                "no quick fix applies here (regvet edits only a fit call made "
+                "in this file, and inserts a check only after a fit whose result has a name)",
+            )
             continue
         edit = planned[0]
         set_text(cell, edit.text)
@@ -141,8 +146,9 @@ def mend_python(text: str, analyse: Callable[[str], FileReport], rules: frozense
     def set_text(_cell: int | None, new: str) -> None:
         state["text"] = new
 
-    changes, not_fixed = _loop(lambda: analyse(state["text"]), lambda _c: state["text"], set_text, rules,
-                               lambda _r, _f: (None, None))  # fmt: skip
+    changes, not_fixed = _loop(
+        lambda: analyse(state["text"]), lambda _c: state["text"], set_text, rules, lambda _r, _f: (None, None)
+    )
     return Outcome(text, state["text"], changes, not_fixed)
 
 
@@ -387,8 +393,9 @@ def unified_diff(shown: str, outcome: Outcome) -> str:
         pairs.append((shown, outcome.old, outcome.new))
     out = []
     for name, old, new in pairs:
-        diff = difflib.unified_diff(old.splitlines(keepends=True), new.splitlines(keepends=True),
-                                    fromfile=f"a/{name}", tofile=f"b/{name}")  # fmt: skip
+        diff = difflib.unified_diff(
+            old.splitlines(keepends=True), new.splitlines(keepends=True), fromfile=f"a/{name}", tofile=f"b/{name}"
+        )
         for line in diff:
             out.append(line if line.endswith("\n") else line + "\n\\ No newline at end of file\n")
     return "".join(out)

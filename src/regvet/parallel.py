@@ -75,8 +75,7 @@ def _describe_exit(code: int | None) -> str:
     return f"the worker process analysing it exited with status {code}"
 
 
-def run_alone(factory: Callable[..., Callable[[T], R]], args: tuple, item: T,
-              lost: Callable[[T, str], R]) -> R:  # fmt: skip
+def run_alone(factory: Callable[..., Callable[[T], R]], args: tuple, item: T, lost: Callable[[T, str], R]) -> R:
     """``factory(*args)(item)`` in a process of its own; ``lost(item, why)`` if that process dies."""
     ctx = _context()
     receive, send = ctx.Pipe(duplex=False)
@@ -96,8 +95,13 @@ def run_alone(factory: Callable[..., Callable[[T], R]], args: tuple, item: T,
     return value
 
 
-def _harvest(future: Future, running: dict[Future, int], results: dict[int, Any], items: Sequence[Any],
-             lost: Callable[[Any, str], Any]) -> None:  # fmt: skip
+def _harvest(
+    future: Future,
+    running: dict[Future, int],
+    results: dict[int, Any],
+    items: Sequence[Any],
+    lost: Callable[[Any, str], Any],
+) -> None:
     """Move a finished future's result into ``results`` (BrokenProcessPool propagates, the future kept)."""
     from concurrent.futures.process import BrokenProcessPool
 
@@ -137,8 +141,12 @@ def map_ordered(
     window = 4 * jobs
     while pending:
         suspects: list[int] = []
-        with ProcessPoolExecutor(max_workers=min(jobs, len(pending)), mp_context=_context(), initializer=_init,
-                                 initargs=(factory, factory_args)) as pool:  # fmt: skip
+        with ProcessPoolExecutor(
+            max_workers=min(jobs, len(pending)),
+            mp_context=_context(),
+            initializer=_init,
+            initargs=(factory, factory_args),
+        ) as pool:
             running: dict[Future, int] = {}
             try:
                 while pending or running:
@@ -152,8 +160,11 @@ def map_ordered(
                         done_hook(index)
             except BrokenProcessPool:  # a worker died: keep what finished, suspect the rest
                 for future in list(running):
-                    if future.done() and not future.cancelled() and not isinstance(future.exception(),
-                                                                                   BrokenProcessPool):
+                    if (
+                        future.done()
+                        and not future.cancelled()
+                        and not isinstance(future.exception(), BrokenProcessPool)
+                    ):
                         index = running[future]
                         _harvest(future, running, results, items, lost)
                         done_hook(index)

@@ -100,7 +100,11 @@ def residual_plots(points: PlotPoints, name: str, prefix: str) -> list[Plot]:
         raise PlotsUnavailable(f"the residual plots need matplotlib (pip install 'regvet[report]'): {exc}") from None
 
     n, drawn = points["nobs"], points["drawn"]
-    sample = f"all {n} observations" if drawn >= n else f"{drawn} of {n} observations (a random subset, seed {points['seed']})"
+    sample = (
+        f"all {n} observations"
+        if drawn >= n
+        else f"{drawn} of {n} observations (a random subset, seed {points['seed']})"
+    )
     ranks = len(points["qq_sample"])
     ranked = f"all {n} observations" if ranks >= n else f"{ranks} evenly spaced ranks of {n}"
     out: list[Plot] = []
@@ -122,9 +126,13 @@ def residual_plots(points: PlotPoints, name: str, prefix: str) -> list[Plot]:
     ax.set_xlabel("fitted value", fontsize=9)
     ax.set_ylabel("residual", fontsize=9)
     ax.set_title("Residuals against fitted values", fontsize=9)
-    finish("resid-fitted", "Residuals against fitted values",
-           f"Scatter plot of the residuals of {name} against its fitted values, {sample}, with a line at zero; "
-           "a curve suggests a missing term, a funnel suggests unequal variance.", fig)  # fmt: skip
+    finish(
+        "resid-fitted",
+        "Residuals against fitted values",
+        f"Scatter plot of the residuals of {name} against its fitted values, {sample}, with a line at zero; "
+        "a curve suggests a missing term, a funnel suggests unequal variance.",
+        fig,
+    )
 
     fig, ax = figure()
     lo = min(points["qq_theoretical"][0], points["qq_sample"][0])
@@ -134,18 +142,26 @@ def residual_plots(points: PlotPoints, name: str, prefix: str) -> list[Plot]:
     ax.set_xlabel("normal quantile", fontsize=9)
     ax.set_ylabel("studentized residual", fontsize=9)
     ax.set_title("Normal Q-Q plot", fontsize=9)
-    finish("qq", "Normal Q-Q plot",
-           f"Normal Q-Q plot of the studentized residuals of {name}, {ranked}, against normal quantiles, with the "
-           "line y = x; points off the line in the tails mean heavier or lighter tails than normal.", fig)  # fmt: skip
+    finish(
+        "qq",
+        "Normal Q-Q plot",
+        f"Normal Q-Q plot of the studentized residuals of {name}, {ranked}, against normal quantiles, with the "
+        "line y = x; points off the line in the tails mean heavier or lighter tails than normal.",
+        fig,
+    )
 
     fig, ax = figure()
     ax.plot(points["fitted"], points["sqrt_abs_studentized"], linestyle="none", marker="o", markersize=2.2, color=POINT)
     ax.set_xlabel("fitted value", fontsize=9)
     ax.set_ylabel("√|studentized residual|", fontsize=9)
     ax.set_title("Scale-location", fontsize=9)
-    finish("scale-location", "Scale-location",
-           f"Scale-location plot of {name}: the square root of the absolute studentized residuals against the "
-           f"fitted values, {sample}; a trend means the error variance changes with the fitted value.", fig)  # fmt: skip
+    finish(
+        "scale-location",
+        "Scale-location",
+        f"Scale-location plot of {name}: the square root of the absolute studentized residuals against the "
+        f"fitted values, {sample}; a trend means the error variance changes with the fitted value.",
+        fig,
+    )
 
     time = points.get("time")
     if time:
@@ -155,7 +171,11 @@ def residual_plots(points: PlotPoints, name: str, prefix: str) -> list[Plot]:
         ax.set_xlabel(f"observation in time order (by {time['order_by'].strip('`')})", fontsize=9)
         ax.set_ylabel("residual", fontsize=9)
         ax.set_title("Residuals in time order", fontsize=9)
-        finish("time", "Residuals in time order",
-               f"Line plot of the residuals of {name} in time order from {time['first']} to {time['last']}, "
-               f"{ranked}; runs of residuals on one side of zero suggest serial correlation.", fig)  # fmt: skip
+        finish(
+            "time",
+            "Residuals in time order",
+            f"Line plot of the residuals of {name} in time order from {time['first']} to {time['last']}, "
+            f"{ranked}; runs of residuals on one side of zero suggest serial correlation.",
+            fig,
+        )
     return out

@@ -108,16 +108,28 @@ def fit_status(report: FileReport, fit: Fit) -> FitStatus:
             families.append(FamilyStatus(label, "done", "HAC covariance"))
         elif family == "serial" and not (fit.time_reason or facts.tsa_in_use):
             families.append(FamilyStatus(label, "not needed", "the data is not known to be time-ordered"))
-        elif family == "breaks" and finding is None and not break_question(fit, settings.break_candidates,
-                                                                            settings.fixed_effects):
-            why = ("fixed effects, not a break question" if fit.shift_groups
-                   else "no intercept-only group or configured break")  # fmt: skip
+        elif (
+            family == "breaks"
+            and finding is None
+            and not break_question(fit, settings.break_candidates, settings.fixed_effects)
+        ):
+            why = (
+                "fixed effects, not a break question"
+                if fit.shift_groups
+                else "no intercept-only group or configured break"
+            )
             families.append(FamilyStatus(label, "not needed", why))
         elif finding is not None and finding.waived:
             families.append(FamilyStatus(label, "waived", finding.reason or ""))
         elif inp is not None and (other := robust_version(inp, fit, family)) is not None:
             cov = (other.cov_type or "robust").upper()
-            families.append(FamilyStatus(label, "missing", f"{'an' if cov.startswith('HC') else 'a'} {cov} version is reported ({_where(report, other.site)})"))
+            families.append(
+                FamilyStatus(
+                    label,
+                    "missing",
+                    f"{'an' if cov.startswith('HC') else 'a'} {cov} version is reported ({_where(report, other.site)})",
+                )
+            )
         else:
             families.append(FamilyStatus(label, "missing"))
     families.append(_comparisons(report, fit))

@@ -55,11 +55,15 @@ def classify_formula(formula: Formula, text: str, column_sources: Mapping[str, I
             fid, name = tags.fit_id(part), tags.part_name(part)
             on_left = _mentions(lhs_text, var)
             squared = _squared_in(text, var)
-            if not on_left and name == tags.RESID and any(
-                tags.kind(other) == tags.PART and tags.part_name(other) == tags.RESID and tags.fit_id(other) == fid
-                for left_var in formula.variables
-                if _mentions(lhs_text, left_var)
-                for other in column_sources.get(left_var, ())
+            if (
+                not on_left
+                and name == tags.RESID
+                and any(
+                    tags.kind(other) == tags.PART and tags.part_name(other) == tags.RESID and tags.fit_id(other) == fid
+                    for left_var in formula.variables
+                    if _mentions(lhs_text, left_var)
+                    for other in column_sources.get(left_var, ())
+                )
             ):
                 aux.setdefault(SERIAL, set()).add(fid)
             elif on_left and (name == tags.RESID_SQUARED or (name == tags.RESID and squared)):

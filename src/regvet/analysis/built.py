@@ -143,8 +143,11 @@ def str_format(template: str, args: list[Value], kwargs: dict[str, Value]) -> Va
             index = name
         else:
             return _built(known, complete=False)  # attribute or item access
-        value = args[index] if isinstance(index, int) and index < len(args) else (
-            kwargs.get(index) if isinstance(index, str) else None)  # fmt: skip
+        value = (
+            args[index]
+            if isinstance(index, int) and index < len(args)
+            else (kwargs.get(index) if isinstance(index, str) else None)
+        )
         texts = pieces(value, numbers=True) if value is not None else None
         if texts is None:
             return _built(known, complete=False)
@@ -193,8 +196,15 @@ class BuiltFormulas(CollectorState):
             out.add(tags.string_method(text, name))
         return None
 
-    def call_string_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                           frame: Frame, receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_string_method(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         """The built string when it is known (else None: the call stays opaque, as before)."""
         text, name = tags.string_method_text(tag), tags.string_method_name(tag)
         if name == "join":

@@ -26,12 +26,20 @@ TIME_KINDS = frozenset({tags.TIMED, tags.DATE_COLUMN, tags.DATES})
 class UserCalls(CollectorState):
     """Following calls into user functions (mixed into ``Collector``)."""
 
-    def call_function(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
-                      receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_function(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         return self.call_user(self.funcs[tags.function_key(tag)], args, kwargs, node, frame)
 
-    def call_user(self, func: FunctionRecord, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                  frame: Frame) -> Value:  # fmt: skip
+    def call_user(
+        self, func: FunctionRecord, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame
+    ) -> Value:
         """Follow a call into a function of the analysed code, arguments bound (memoised per context)."""
         helper = self.helper_families(self._qualified_name(func))
         if helper is not None:
@@ -43,8 +51,14 @@ class UserCalls(CollectorState):
         if not self.interesting(func, args, kwargs):
             return tagged(tags.opaque_call(node))
         site = self.loc(node, frame)
-        memo_key = (func.key, id(node), frame.ctx, tuple(self.unroll), tuple(args),
-                    tuple(sorted(kwargs.items(), key=lambda kv: kv[0])))  # fmt: skip
+        memo_key = (
+            func.key,
+            id(node),
+            frame.ctx,
+            tuple(self.unroll),
+            tuple(args),
+            tuple(sorted(kwargs.items(), key=lambda kv: kv[0])),
+        )
         if memo_key in self.inline_memo:
             return self.inline_memo[memo_key]
         func.analyzed = True
@@ -68,8 +82,9 @@ class UserCalls(CollectorState):
     def _qualified_name(self, func: FunctionRecord) -> str:
         return f"{func.module.key}.{func.qualname}" if func.module.key else func.qualname
 
-    def bind_params(self, func: FunctionRecord, callee: Frame, args: list[Value], kwargs: dict[str, Value],
-                    frame: Frame) -> None:  # fmt: skip
+    def bind_params(
+        self, func: FunctionRecord, callee: Frame, args: list[Value], kwargs: dict[str, Value], frame: Frame
+    ) -> None:
         params = func.node.args
         positional = [*params.posonlyargs, *params.args]
         defaults: list[ast.expr | None] = [None] * (len(positional) - len(params.defaults)) + list(params.defaults)

@@ -126,11 +126,26 @@ ADD_CONSTANT: frozenset[str] = frozenset(
 #: assume homoskedastic errors.
 INFERENCE_MEMBERS: frozenset[str] = frozenset(
     {
-        "summary", "summary2", "pvalues", "bse", "tvalues", "conf_int", "t_test", "f_test",
-        "wald_test", "wald_test_terms", "t_test_pairwise", "cov_params", "get_prediction",
-        "fvalue", "f_pvalue", "compare_f_test", "compare_lr_test", "compare_lm_test",
+        "summary",
+        "summary2",
+        "pvalues",
+        "bse",
+        "tvalues",
+        "conf_int",
+        "t_test",
+        "f_test",
+        "wald_test",
+        "wald_test_terms",
+        "t_test_pairwise",
+        "cov_params",
+        "get_prediction",
+        "fvalue",
+        "f_pvalue",
+        "compare_f_test",
+        "compare_lr_test",
+        "compare_lm_test",
     }
-)  # fmt: skip
+)
 #: Reading these uses the estimates but not their standard errors.
 ESTIMATE_MEMBERS: frozenset[str] = frozenset({"params", "predict"})
 #: Heteroskedasticity-consistent standard errors read directly: estimates used, robust inference.
@@ -146,9 +161,14 @@ PART_MEMBERS: dict[str, str] = {
     "model": "model",
 }
 MODEL_PART_MEMBERS: dict[str, str] = {
-    "exog": "exog", "wexog": "exog", "exog_names": "exog", "endog": "endog", "wendog": "endog",
-    "endog_names": "endog", "data": "model",
-}  # fmt: skip
+    "exog": "exog",
+    "wexog": "exog",
+    "exog_names": "exog",
+    "endog": "endog",
+    "wendog": "endog",
+    "endog_names": "endog",
+    "data": "model",
+}
 DATA_PART_MEMBERS: dict[str, str] = {"orig_exog": "exog", "exog": "exog", "orig_endog": "endog", "endog": "endog"}
 #: Fit measures whose comparison across fits the comparison rules judge.
 COMPARED_MEASURES: frozenset[str] = frozenset({"rsquared", "rsquared_adj", "aic", "bic", "llf"})
@@ -165,9 +185,16 @@ ROBUST_COV: frozenset[str] = frozenset({"hc0", "hc1", "hc2", "hc3", "cluster"}) 
 # --- time-ordered data ---------------------------------------------------------------------
 #: pandas functions whose result carries a time order.
 TIME_FUNCTIONS: frozenset[str] = frozenset(
-    {"pandas.to_datetime", "pandas.date_range", "pandas.period_range", "pandas.DatetimeIndex",
-     "pandas.PeriodIndex", "pandas.bdate_range", "pandas.timedelta_range"}
-)  # fmt: skip
+    {
+        "pandas.to_datetime",
+        "pandas.date_range",
+        "pandas.period_range",
+        "pandas.DatetimeIndex",
+        "pandas.PeriodIndex",
+        "pandas.bdate_range",
+        "pandas.timedelta_range",
+    }
+)
 #: Methods on data whose result is time-ordered (lags and differences).
 TIME_METHODS: frozenset[str] = frozenset(
     {"shift", "diff", "pct_change", "asfreq", "resample", "to_period", "tshift", "lag"}
@@ -177,10 +204,39 @@ TIME_READ_KEYWORDS: frozenset[str] = frozenset({"parse_dates", "date_format", "d
 
 #: Builtins that read their argument without doing anything regvet should call an escape.
 HARMLESS_BUILTINS: frozenset[str] = frozenset(
-    {"print", "len", "repr", "str", "int", "float", "bool", "isinstance", "issubclass", "type", "id",
-     "hash", "hasattr", "vars", "dir", "round", "abs", "format", "any", "all", "sum", "display",
-     "callable", "setattr", "delattr", "help", "super", "object", "range", "ascii"}
-)  # fmt: skip
+    {
+        "print",
+        "len",
+        "repr",
+        "str",
+        "int",
+        "float",
+        "bool",
+        "isinstance",
+        "issubclass",
+        "type",
+        "id",
+        "hash",
+        "hasattr",
+        "vars",
+        "dir",
+        "round",
+        "abs",
+        "format",
+        "any",
+        "all",
+        "sum",
+        "display",
+        "callable",
+        "setattr",
+        "delattr",
+        "help",
+        "super",
+        "object",
+        "range",
+        "ascii",
+    }
+)
 
 
 def is_statsmodels(qualname: str) -> bool:

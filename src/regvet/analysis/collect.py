@@ -36,7 +36,7 @@ from regvet.analysis.libraries import (
     assigned_column_tags,
     subscript_tags,
     time_order_of,
-)  # fmt: skip
+)
 from regvet.analysis.mentions import COMPOUND_STATEMENTS, touched_names
 from regvet.analysis.modules import ModuleLoading, ModuleProvider, NoModules
 from regvet.analysis.regressions import RegressionSemantics
@@ -49,7 +49,7 @@ from regvet.analysis.state import (
     Parser,
     dotted_name,
     short_text,
-)  # fmt: skip
+)
 from regvet.analysis.tags import Tag
 from regvet.analysis.uncalled import UncalledFunctions
 from regvet.analysis.values import (
@@ -66,7 +66,7 @@ from regvet.analysis.values import (
     positions,
     sequence,
     tagged,
-)  # fmt: skip
+)
 from regvet.model.facts import FileFacts
 
 MAX_UNROLL = 12  # loops over literal sequences this short run once per element
@@ -360,15 +360,17 @@ class Collector(UserCalls, UncalledFunctions, RegressionSemantics, LibrarySemant
         self.join_into(frame, base.id, grown.with_tags(assigned_column_tags(value, index)))
 
     # --- definitions ---------------------------------------------------------------------------
-    def define_function(self, node: ast.FunctionDef | ast.AsyncFunctionDef | ast.Lambda,
-                        frame: Frame) -> FunctionRecord:  # fmt: skip
+    def define_function(
+        self, node: ast.FunctionDef | ast.AsyncFunctionDef | ast.Lambda, frame: Frame
+    ) -> FunctionRecord:
         existing = self.func_by_node.get(id(node))
         if existing is not None and existing.scope is (None if frame.is_module else frame):
             return existing
         name = getattr(node, "name", "<lambda>")
         prefix = frame.func.qualname + "." if frame.func is not None else ""
-        func = FunctionRecord(self.new_id(), node, frame.module, None if frame.is_module else frame, prefix + name,
-                              frame.cls_attrs)  # fmt: skip
+        func = FunctionRecord(
+            self.new_id(), node, frame.module, None if frame.is_module else frame, prefix + name, frame.cls_attrs
+        )
         self.funcs[func.key] = func
         self.func_by_node[id(node)] = func
         return func
@@ -654,8 +656,15 @@ class Collector(UserCalls, UncalledFunctions, RegressionSemantics, LibrarySemant
                 kwargs[kw.arg] = value
         return self.call(callee, args, kwargs, node, frame, receiver)
 
-    def call(self, callee: Value, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
-             receiver: Value | None) -> Value:  # fmt: skip
+    def call(
+        self,
+        callee: Value,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value:
         """Call ``callee``: each of its tags goes to its kind's handler in ``CALL_HANDLERS``.
 
         A handler returns the call's value, or None when it does not take the call. When none
@@ -676,8 +685,15 @@ class Collector(UserCalls, UncalledFunctions, RegressionSemantics, LibrarySemant
             out = tagged(tags.opaque_call(node), *time_order_of(args, kwargs, receiver))
         return out
 
-    def call_qualified(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
-                       receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_qualified(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         """A call of a library name: statsmodels' constructors, diagnostics and tables first, then
         builtins, numpy and pandas, then any other statsmodels callable (None: not taken)."""
         qualname = catalog.canonical(tags.qualname(tag))
@@ -722,8 +738,7 @@ ATTRIBUTE_HANDLERS: dict[str, AttributeHandler] = {
     tags.LITERAL: Collector.attribute_of_literal,
 }
 #: ``call`` handlers by tag kind: ``(collector, tag, args, kwargs, node, frame, receiver) -> Value | None``.
-CallHandler = Callable[[Collector, Tag, list[Value], dict[str, Value], ast.Call, Frame, Value | None],
-                       Value | None]  # fmt: skip
+CallHandler = Callable[[Collector, Tag, list[Value], dict[str, Value], ast.Call, Frame, Value | None], Value | None]
 CALL_HANDLERS: dict[str, CallHandler] = {
     tags.QUALIFIED: Collector.call_qualified,
     tags.FUNCTION: Collector.call_function,

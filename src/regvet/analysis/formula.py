@@ -22,9 +22,17 @@ from itertools import product
 from regvet.model.facts import Outcome
 
 _TRANSFORMS = {
-    "log": "log", "log1p": "log1p", "log10": "log10", "log2": "log2", "sqrt": "sqrt", "exp": "exp",
-    "square": "square", "abs": "abs", "arcsinh": "asinh", "asinh": "asinh",
-}  # fmt: skip
+    "log": "log",
+    "log1p": "log1p",
+    "log10": "log10",
+    "log2": "log2",
+    "sqrt": "sqrt",
+    "exp": "exp",
+    "square": "square",
+    "abs": "abs",
+    "arcsinh": "asinh",
+    "asinh": "asinh",
+}
 # One way to match each name (``l\d+\d*`` backtracks quadratically over a long run of digits).
 _LAG_NAME = re.compile(r"(?:^|_)(?:lagged\d*|lag\d*|l\d+)(?:_|$)|lag\d", re.IGNORECASE)
 _LAG_CALL = re.compile(r"\b(?:shift|diff|lag|L)\s*\(")
@@ -83,9 +91,7 @@ def _base_name(node: ast.expr) -> str | None:
         return arg.value if isinstance(arg, ast.Constant) and isinstance(arg.value, str) else None
     calls = {id(n.func) for n in ast.walk(node) if isinstance(n, ast.Call)}
     names = [
-        n.id
-        for n in ast.walk(node)
-        if isinstance(n, ast.Name) and id(n) not in calls and n.id not in ("np", "numpy")
+        n.id for n in ast.walk(node) if isinstance(n, ast.Name) and id(n) not in calls and n.id not in ("np", "numpy")
     ]
     return names[0] if len(set(names)) == 1 else None
 

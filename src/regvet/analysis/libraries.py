@@ -35,14 +35,37 @@ from regvet.analysis.values import (
     positions,
     sequence,
     tagged,
-)  # fmt: skip
+)
 from regvet.model.facts import Outcome
 
 #: Attributes of a pandas object that are not columns (``df.index`` is no variable called index).
 PANDAS_ATTRIBUTES = frozenset(
-    {"values", "index", "columns", "shape", "dtypes", "T", "loc", "iloc", "at", "iat", "size", "empty",
-     "array", "name", "ndim", "str", "dt", "cat", "plot", "attrs", "flags", "axes", "style"}
-)  # fmt: skip
+    {
+        "values",
+        "index",
+        "columns",
+        "shape",
+        "dtypes",
+        "T",
+        "loc",
+        "iloc",
+        "at",
+        "iat",
+        "size",
+        "empty",
+        "array",
+        "name",
+        "ndim",
+        "str",
+        "dt",
+        "cat",
+        "plot",
+        "attrs",
+        "flags",
+        "axes",
+        "style",
+    }
+)
 #: Attributes that hold the same data (``res.resid.values`` is still the residuals).
 PASSING_ATTRIBUTES = frozenset({"values", "array", "T", "loc", "iloc"})
 #: Methods whose result holds the same data (``res.resid.to_numpy()``).
@@ -50,8 +73,17 @@ PASSING_METHODS = frozenset({"to_numpy", "copy", "astype", "reset_index", "dropn
 #: Tag kinds arithmetic keeps (``2 * res.resid`` is still about the residuals).
 ARITHMETIC_KEEPS = frozenset({tags.PART, tags.MODEL_PART, tags.MEASURE, tags.TIMED, tags.OUTCOME, tags.SSR_SUM})
 #: numpy functions that transform an outcome, and the transform's name (``np.log(y)`` -> log).
-NUMPY_TRANSFORMS = {"log": "log", "log1p": "log1p", "log10": "log10", "log2": "log2", "sqrt": "sqrt", "exp": "exp",
-                    "square": "square", "abs": "abs", "arcsinh": "asinh"}  # fmt: skip
+NUMPY_TRANSFORMS = {
+    "log": "log",
+    "log1p": "log1p",
+    "log10": "log10",
+    "log2": "log2",
+    "sqrt": "sqrt",
+    "exp": "exp",
+    "square": "square",
+    "abs": "abs",
+    "arcsinh": "asinh",
+}
 
 _CONTAINER_CALLS = frozenset({"list", "tuple", "set", "frozenset", "iter", "reversed", "sorted"})
 _POSITIONAL_CALLS = frozenset({"list", "tuple", "iter"})  # keep known positions
@@ -62,7 +94,9 @@ _CONTAINER_VIEW_METHODS = frozenset({"items", "values", "keys", "get", "pop", "c
 _NOT_GROWN = frozenset({tags.FIT, tags.QUALIFIED})  # ``res.append(...)``, ``np.append(...)``: not containers
 _KEPT_BY_NUMPY = frozenset({tags.TIMED, tags.MODEL_PART, tags.COLUMNS, tags.MEASURE})
 _KEPT_FROM_OTHER_ARGUMENTS = frozenset({tags.PART, tags.MODEL_PART, tags.TIMED, tags.MEASURE})
-_KEPT_BY_DATA_METHODS = frozenset({tags.TIMED, tags.COLUMN_VALUE, tags.COLUMN_NAME, tags.DATE_COLUMN, tags.CATEGORY_COLUMN})
+_KEPT_BY_DATA_METHODS = frozenset(
+    {tags.TIMED, tags.COLUMN_VALUE, tags.COLUMN_NAME, tags.DATE_COLUMN, tags.CATEGORY_COLUMN}
+)
 _ASSIGNED_SOURCES = frozenset({tags.PART, tags.FIT})  # what a column is recorded to hold
 _SUBSCRIPT_KEEPS = frozenset({tags.PART, tags.MODEL_PART, tags.COLUMNS, tags.OUTCOME, tags.MEASURE})
 _OPAQUE_SUBSCRIPTED = frozenset({tags.DATA, tags.TIMED})
@@ -189,18 +223,39 @@ class LibrarySemantics(CollectorState):
             out.add(tags.container_method(name, base))
 
     # --- call handlers (see ``collect.CALL_HANDLERS``) -------------------------------------------
-    def call_passing_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                            frame: Frame, receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_passing_method(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         return tagged(tags.receiver(tag))
 
-    def call_time_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                         frame: Frame, receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_time_method(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         method = _method_name(node)
         what = "sets a time frequency" if method in timeorder.FREQUENCY_METHODS else "makes lags or differences"
         return tagged(tags.opaque_call(node), tags.time_order(f"`.{method}()` {what}", self.loc(node, frame)))
 
-    def call_container_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                              frame: Frame, receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_container_method(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         method, base = tags.container_method_name(tag), tags.container_method_base(tag)
         keys = base.keys if base.keys is not None else EMPTY
         vals = elements(base)
@@ -220,12 +275,26 @@ class LibrarySemantics(CollectorState):
                 return found
         return vals  # get, pop, setdefault
 
-    def call_getter(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
-                    receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_getter(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         return join_all(self.attribute(a, tags.getter_name(tag), node, frame) for a in args[:1])
 
-    def call_data_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                         frame: Frame, receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_data_method(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         """A method of opaque data: ``df.assign(e=res.resid)`` records the column, ``set_index`` may add dates."""
         name = tags.method_name(tag)
         # A results object handed to a method of some object regvet knows nothing of is out of sight.
@@ -259,8 +328,9 @@ class LibrarySemantics(CollectorState):
         return Value(frozenset(out))
 
     # --- library functions by qualified name ------------------------------------------------------
-    def call_library_name(self, qualname: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                          frame: Frame) -> Value | None:  # fmt: skip
+    def call_library_name(
+        self, qualname: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame
+    ) -> Value | None:
         """pandas date functions and readers, numpy, builtins, ``operator.attrgetter``, IPython's display."""
         if qualname in catalog.TIME_FUNCTIONS:
             what = f"`{qualname.replace('pandas.', 'pd.')}`"
@@ -283,8 +353,9 @@ class LibrarySemantics(CollectorState):
             return EMPTY
         return None
 
-    def call_frame_constructor(self, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                               frame: Frame) -> Value | None:  # fmt: skip
+    def call_frame_constructor(
+        self, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame
+    ) -> Value | None:
         """``pd.DataFrame({...}, index=...)``: time order from an index of dates or from time-ordered
         columns, and the columns that hold dates; None (an ordinary opaque call) when there is none."""
         found: list[Tag] = []
@@ -320,8 +391,13 @@ class LibrarySemantics(CollectorState):
                 elif fname == "power" and len(args) > 1:
                     powers = [p for p in tags.literal_values(args[1].tags) if isinstance(p, (int, float))]
                     if powers and powers[0] >= 2:
-                        raised = (tags.RESID_SQUARED if part == tags.RESID
-                                  else tags.FITTED_POWER if part == tags.FITTED else part)  # fmt: skip
+                        raised = (
+                            tags.RESID_SQUARED
+                            if part == tags.RESID
+                            else tags.FITTED_POWER
+                            if part == tags.FITTED
+                            else part
+                        )
                         out.add(tags.result_part(fid, raised))
                 else:
                     out.add(tag)
@@ -333,8 +409,9 @@ class LibrarySemantics(CollectorState):
                     out.add(tag)
         return Value(frozenset(out))
 
-    def call_builtin(self, name: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                     frame: Frame) -> Value:  # fmt: skip
+    def call_builtin(
+        self, name: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame
+    ) -> Value:
         first = args[0] if args else EMPTY
         if name in _CONTAINER_CALLS:
             if name == "sorted" and "key" in kwargs:

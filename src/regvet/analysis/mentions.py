@@ -9,9 +9,23 @@ import ast
 
 from regvet.analysis.state import dotted_name
 
-COMPOUND_STATEMENTS = (ast.If, ast.For, ast.AsyncFor, ast.While, ast.With, ast.AsyncWith, ast.Try, ast.FunctionDef,
-             ast.AsyncFunctionDef, ast.ClassDef) + ((ast.Match,) if hasattr(ast, "Match") else ()) + (
-             (ast.TryStar,) if hasattr(ast, "TryStar") else ())  # fmt: skip
+COMPOUND_STATEMENTS = (
+    (
+        ast.If,
+        ast.For,
+        ast.AsyncFor,
+        ast.While,
+        ast.With,
+        ast.AsyncWith,
+        ast.Try,
+        ast.FunctionDef,
+        ast.AsyncFunctionDef,
+        ast.ClassDef,
+    )
+    + ((ast.Match,) if hasattr(ast, "Match") else ())
+    + ((ast.TryStar,) if hasattr(ast, "TryStar") else ())
+)
+
 
 def touched_names(stmt: ast.stmt, memo: dict[int, frozenset[str]]) -> frozenset[str]:
     """``Collector.touched`` of ``stmt``, filling ``memo`` for it and every compound statement inside."""

@@ -24,10 +24,38 @@ __all__ = ["WELL_KNOWN_LIBRARIES", "ModuleLoading", "ModuleProvider", "ModuleSou
 
 #: Never looked up as project modules (a project rarely shadows them, and lookups cost).
 WELL_KNOWN_LIBRARIES = frozenset(
-    {"numpy", "pandas", "scipy", "matplotlib", "seaborn", "sklearn", "linearmodels", "patsy", "IPython", "os",
-     "sys", "pathlib", "json", "math", "re", "itertools", "functools", "collections", "operator", "typing",
-     "warnings", "datetime", "random", "statistics", "csv", "pickle", "logging", "dataclasses", "abc"}
-)  # fmt: skip
+    {
+        "numpy",
+        "pandas",
+        "scipy",
+        "matplotlib",
+        "seaborn",
+        "sklearn",
+        "linearmodels",
+        "patsy",
+        "IPython",
+        "os",
+        "sys",
+        "pathlib",
+        "json",
+        "math",
+        "re",
+        "itertools",
+        "functools",
+        "collections",
+        "operator",
+        "typing",
+        "warnings",
+        "datetime",
+        "random",
+        "statistics",
+        "csv",
+        "pickle",
+        "logging",
+        "dataclasses",
+        "abc",
+    }
+)
 
 
 class ModuleLoading(CollectorState):
@@ -134,8 +162,13 @@ class ModuleLoading(CollectorState):
         """Replace lazy ``from module import name`` references by what the module binds."""
         if not value.has(tags.LAZY_IMPORT):
             return value
-        out = Value(frozenset(tags.without_kinds(value.tags, (tags.LAZY_IMPORT,))), value.elem, value.keys,
-                    value.items, value.level)  # fmt: skip
+        out = Value(
+            frozenset(tags.without_kinds(value.tags, (tags.LAZY_IMPORT,))),
+            value.elem,
+            value.keys,
+            value.items,
+            value.level,
+        )
         for tag in value.tags_of(tags.LAZY_IMPORT):
             key, name, sub = tags.lazy_import_parts(tag)
             if (key, name) in self.resolving:  # modules importing names from each other
@@ -160,8 +193,7 @@ class ModuleLoading(CollectorState):
         out.add(tags.qualified(qualname))
         return None
 
-    def attribute_of_project_module(self, tag: Tag, name: str, node: Node, frame: Frame,
-                                    out: set[Tag]) -> Value | None:  # fmt: skip
+    def attribute_of_project_module(self, tag: Tag, name: str, node: Node, frame: Frame, out: set[Tag]) -> Value | None:
         """``helpers.fit_all``: what the module binds (which ends the attribute read), or a submodule."""
         key = tags.module_key(tag)
         module = self.load_module(key)

@@ -40,7 +40,7 @@ from regvet.model.facts import (
     Outcome,
     Use,
     root_fit,
-)  # fmt: skip
+)
 
 MAX_VARIANTS = 24  # distinct formula literals one constructor call may stand for
 _SSR = "ssr"
@@ -86,18 +86,22 @@ def compared_measures(value: Value) -> set[tuple[int, str]]:
 
 
 def _without_compared(value: Value) -> Value:
-    return Value(frozenset(
-        t for t in value.tags
-        if not (tags.kind(t) == tags.MEASURE and tags.measure_name(t) in catalog.COMPARED_MEASURES)
-    ))  # fmt: skip
+    return Value(
+        frozenset(
+            t
+            for t in value.tags
+            if not (tags.kind(t) == tags.MEASURE and tags.measure_name(t) in catalog.COMPARED_MEASURES)
+        )
+    )
 
 
 class RegressionSemantics(CollectorState):
     """statsmodels models, fits, results, diagnostics, comparisons and the facts they become."""
 
     # --- names ---------------------------------------------------------------------------------
-    def call_statsmodels_name(self, qualname: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call,
-                              frame: Frame) -> Value | None:  # fmt: skip
+    def call_statsmodels_name(
+        self, qualname: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame
+    ) -> Value | None:
         """Constructors, diagnostics (catalogued or named as helpers), summary tables, anova, add_constant."""
         if qualname in catalog.CONSTRUCTORS:
             return self.make_models(qualname, catalog.CONSTRUCTORS[qualname], args, kwargs, node, frame)
@@ -131,8 +135,9 @@ class RegressionSemantics(CollectorState):
             return tagged(tags.opaque_call(node), *keep)
         return None
 
-    def call_other_statsmodels_name(self, qualname: str, args: list[Value], kwargs: dict[str, Value],
-                                    node: ast.Call, frame: Frame) -> Value | None:  # fmt: skip
+    def call_other_statsmodels_name(
+        self, qualname: str, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame
+    ) -> Value | None:
         """Any other statsmodels callable: opaque data (time order kept; ``statsmodels.tsa``'s lag and
         trend helpers make it); its arguments do not escape."""
         if catalog.is_statsmodels(qualname):
@@ -183,8 +188,7 @@ class RegressionSemantics(CollectorState):
             out.add(tags.model_part(mid, catalog.MODEL_PART_MEMBERS[name]))
         return None
 
-    def attribute_of_result_part(self, tag: Tag, name: str, node: Node, frame: Frame,
-                                 out: set[Tag]) -> Value | None:  # fmt: skip
+    def attribute_of_result_part(self, tag: Tag, name: str, node: Node, frame: Frame, out: set[Tag]) -> Value | None:
         """``res.model.exog``, ``res.resid.values``, ``res.resid.to_numpy``: still pieces of the fit."""
         fid, part = tags.fit_id(tag), tags.part_name(tag)
         if part == tags.MODEL_OF_FIT and name in catalog.MODEL_PART_MEMBERS:
@@ -199,8 +203,7 @@ class RegressionSemantics(CollectorState):
             out.add(tags.passing_method(tag))
         return None
 
-    def attribute_of_model_part(self, tag: Tag, name: str, node: Node, frame: Frame,
-                                out: set[Tag]) -> Value | None:  # fmt: skip
+    def attribute_of_model_part(self, tag: Tag, name: str, node: Node, frame: Frame, out: set[Tag]) -> Value | None:
         if name in PASSING_ATTRIBUTES:
             out.add(tag)
         elif name in PASSING_METHODS:
@@ -208,8 +211,15 @@ class RegressionSemantics(CollectorState):
         return None
 
     # --- models ----------------------------------------------------------------------------------
-    def make_models(self, qualname: str, ctor: catalog.Constructor, args: list[Value], kwargs: dict[str, Value],
-                    node: ast.Call, frame: Frame) -> Value:  # fmt: skip
+    def make_models(
+        self,
+        qualname: str,
+        ctor: catalog.Constructor,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+    ) -> Value:
         """A constructor call: one model per formula literal it may be given (or one for arrays)."""
 
         def arg(i: int, *names: str) -> tuple[Value, ast.expr | None]:
@@ -245,9 +255,16 @@ class RegressionSemantics(CollectorState):
             sources = [ModelSource(ARRAYS)]
             data_name = None
         taken = {"formula", "data", "df"} if ctor.api == "formula" else {"endog", "exog"}
-        others = (tuple(self.same_data_key(a, None, frame) for a in node.args[2:]),
-                  tuple(sorted((k.arg or "**", self.same_data_key(k.value, None, frame)) for k in node.keywords
-                               if k.arg not in taken)))  # fmt: skip
+        others = (
+            tuple(self.same_data_key(a, None, frame) for a in node.args[2:]),
+            tuple(
+                sorted(
+                    (k.arg or "**", self.same_data_key(k.value, None, frame))
+                    for k in node.keywords
+                    if k.arg not in taken
+                )
+            ),
+        )
         data_keys = tuple(self.same_data_key(n, v, frame) for n, v in zip(data_nodes, data_values, strict=True))
         out: set[Tag] = set()
         for source in sources:
@@ -261,8 +278,15 @@ class RegressionSemantics(CollectorState):
             out.add(tags.model(mid))
         return Value(frozenset(out))
 
-    def new_model(self, qualname: str, ctor: catalog.Constructor, source: ModelSource, data_values: list[Value],
-                  data_name: str | None, loc: Loc) -> int:  # fmt: skip
+    def new_model(
+        self,
+        qualname: str,
+        ctor: catalog.Constructor,
+        source: ModelSource,
+        data_values: list[Value],
+        data_name: str | None,
+        loc: Loc,
+    ) -> int:
         mid = self.new_id()
         formula: Formula | None = None
         text: str | None = None
@@ -325,9 +349,24 @@ class RegressionSemantics(CollectorState):
             aux = classify_arrays(endog.tags, exog.tags)
         data_tags = frozenset(t for value in data_values for t in value.tags_of(tags.DATA))
         model = ModelRecord(
-            mid, qualname, ctor.estimator, ctor.api, formula, text, outcome, n_regressors, regressors, data_name,
-            time_reason, time_where, frozenset(categorical), frozenset(columns), aux, data_tags, loc,
-        )  # fmt: skip
+            mid,
+            qualname,
+            ctor.estimator,
+            ctor.api,
+            formula,
+            text,
+            outcome,
+            n_regressors,
+            regressors,
+            data_name,
+            time_reason,
+            time_where,
+            frozenset(categorical),
+            frozenset(columns),
+            aux,
+            data_tags,
+            loc,
+        )
         self.models[mid] = model
         for data in data_tags:
             self.data_models.setdefault(data, set()).add(mid)
@@ -350,8 +389,15 @@ class RegressionSemantics(CollectorState):
         return ("expr", node, tuple((n, _bound(n, frame)) for n in names))
 
     # --- fits ------------------------------------------------------------------------------------
-    def call_model_fit(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
-                       receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_model_fit(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         """``model.fit(...)``: one fit per model, call and context."""
         mid = tags.model_id(tag)
         model = self.models[mid]
@@ -368,13 +414,21 @@ class RegressionSemantics(CollectorState):
         statement = None
         if self.stmt is not None and self.stmt_module is not None and self.stmt_module.path is None:
             statement = self.span(self.stmt, self.stmt_module)
-        self.fits[fid] = FitRecord(fid, model, loc, frame.ctx, cov, parent, None, statement,
-                                   repeated=self.repeating > 0)  # fmt: skip
+        self.fits[fid] = FitRecord(
+            fid, model, loc, frame.ctx, cov, parent, None, statement, repeated=self.repeating > 0
+        )
         self.model_fits.setdefault(model.id, []).append(fid)
         return fid
 
-    def call_fit_method(self, tag: Tag, args: list[Value], kwargs: dict[str, Value], node: ast.Call, frame: Frame,
-                        receiver: Value | None) -> Value | None:  # fmt: skip
+    def call_fit_method(
+        self,
+        tag: Tag,
+        args: list[Value],
+        kwargs: dict[str, Value],
+        node: ast.Call,
+        frame: Frame,
+        receiver: Value | None,
+    ) -> Value | None:
         """``res.get_robustcov_results(...)`` (a robust copy of the fit), comparisons and F tests."""
         fid, name = tags.fit_id(tag), tags.method_name(tag)
         if name == "get_robustcov_results":
@@ -504,8 +558,9 @@ class RegressionSemantics(CollectorState):
         """The fit a robust-covariance copy was derived from (itself otherwise)."""
         return root_fit(fid, self.fits)
 
-    def escape_args(self, args: list[Value], kwargs: dict[str, Value], name: str | ast.expr, node: ast.expr,
-                    frame: Frame) -> None:  # fmt: skip
+    def escape_args(
+        self, args: list[Value], kwargs: dict[str, Value], name: str | ast.expr, node: ast.expr, frame: Frame
+    ) -> None:
         """Results handed to code regvet cannot read (``name``, or the callee's node, spelt only when
         a fit escapes): an escape for each fit."""
         fits: set[int] = set()
@@ -547,8 +602,9 @@ class RegressionSemantics(CollectorState):
             result.add(tags.outcome(Outcome(outcomes[0].base, "expr", short_text(node))))
         return Value(frozenset(result)) if result else EMPTY
 
-    def ssr_arithmetic(self, op: ast.operator, left: Value, right: Value, node: Node, frame: Frame,
-                       result: set[Tag]) -> None:  # fmt: skip
+    def ssr_arithmetic(
+        self, op: ast.operator, left: Value, right: Value, node: Node, frame: Frame, result: set[Tag]
+    ) -> None:
         """``ssr_a + ssr_b`` is a sum of subsample SSRs; a pooled SSR against such a sum is a Chow test."""
         left_ssr = {tags.fit_id(t) for t in left.tags_of(tags.MEASURE) if tags.measure_name(t) == _SSR}
         right_ssr = {tags.fit_id(t) for t in right.tags_of(tags.MEASURE) if tags.measure_name(t) == _SSR}
@@ -668,8 +724,16 @@ def _spec_numbers(models: list[ModelRecord]) -> dict[int, int]:
 
     def key(spec: tuple, full: bool) -> tuple:
         estimator, api, text, data_keys, (extra, named), ctx, unroll = spec
-        return (estimator, api, text, tuple(arg(d, full) for d in data_keys),
-                tuple(arg(a, full) for a in extra), tuple((n, arg(a, full)) for n, a in named), ctx, unroll)  # fmt: skip
+        return (
+            estimator,
+            api,
+            text,
+            tuple(arg(d, full) for d in data_keys),
+            tuple(arg(a, full) for a in extra),
+            tuple((n, arg(a, full)) for n, a in named),
+            ctx,
+            unroll,
+        )
 
     groups: dict[tuple, list[ModelRecord]] = {}
     for model in models:
@@ -684,8 +748,9 @@ def _spec_numbers(models: list[ModelRecord]) -> dict[int, int]:
     return out
 
 
-def _spec_key(ctor: catalog.Constructor, source: ModelSource, data_keys: tuple, others: tuple,
-              frame: Frame, unroll: tuple) -> tuple | None:  # fmt: skip
+def _spec_key(
+    ctor: catalog.Constructor, source: ModelSource, data_keys: tuple, others: tuple, frame: Frame, unroll: tuple
+) -> tuple | None:
     """What two models must share to be the same specification on the same data: the estimator, the
     formula (or the arrays), the data and every other argument (``same_data_key``), and the calling
     context and loop step (the data of another call or iteration may differ under the same tags).
@@ -694,7 +759,6 @@ def _spec_key(ctor: catalog.Constructor, source: ModelSource, data_keys: tuple, 
         return None
     text = "".join((source.text or "").split())
     return (ctor.estimator, ctor.api, text, data_keys, others, frame.ctx, unroll)
-
 
 
 def _category_column_groups(model: ModelRecord) -> tuple[frozenset[str], frozenset[str], frozenset[str]]:

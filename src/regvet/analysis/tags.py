@@ -568,10 +568,40 @@ category_column_name: Callable[[Tag], str] = itemgetter(1)
 
 #: Every kind above.
 KINDS: frozenset[str] = frozenset(
-    {QUALIFIED, PROJECT_MODULE, LAZY_IMPORT, FUNCTION, DATA, LITERAL, PREFIX, STRING_METHOD, DESIGN, MODEL, MODEL_FIT, MODEL_PART, FIT,
-     PART, FIT_METHOD, MEASURE, SSR_SUM, PASSING_METHOD, TIME_METHOD, DATA_METHOD, CONTAINER_METHOD, GETTER,
-     OUTCOME, COLUMNS, COLUMN_NAME, COLUMN_VALUE, TIMED, DATES, DATE_COLUMN, CATEGORIES, CATEGORY_COLUMN}
-)  # fmt: skip
+    {
+        QUALIFIED,
+        PROJECT_MODULE,
+        LAZY_IMPORT,
+        FUNCTION,
+        DATA,
+        LITERAL,
+        PREFIX,
+        STRING_METHOD,
+        DESIGN,
+        MODEL,
+        MODEL_FIT,
+        MODEL_PART,
+        FIT,
+        PART,
+        FIT_METHOD,
+        MEASURE,
+        SSR_SUM,
+        PASSING_METHOD,
+        TIME_METHOD,
+        DATA_METHOD,
+        CONTAINER_METHOD,
+        GETTER,
+        OUTCOME,
+        COLUMNS,
+        COLUMN_NAME,
+        COLUMN_VALUE,
+        TIMED,
+        DATES,
+        DATE_COLUMN,
+        CATEGORIES,
+        CATEGORY_COLUMN,
+    }
+)
 
 
 # --- reading sets of tags (the hot loops) ---------------------------------------------------------

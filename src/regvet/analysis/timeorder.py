@@ -131,17 +131,22 @@ def assigned_dates(column: object, value: Value) -> list[Tag]:
     """``df[column] = value``, ``df.assign(column=value)``: a column that holds dates."""
     if not isinstance(column, str):
         return []
-    return [tags.date_column(column, tags.dates_what(d), tags.dates_where(d)) for d in earliest(value.tags_of(tags.DATES), 1)]
+    return [
+        tags.date_column(column, tags.dates_what(d), tags.dates_where(d))
+        for d in earliest(value.tags_of(tags.DATES), 1)
+    ]
 
 
 def keeps_date_columns(method: str) -> bool:
     return method not in _DROPS_DATE_COLUMNS
 
 
-_TIME_ATTRIBUTES = frozenset({"set_index", "shift", "diff", "pct_change", "asfreq", "resample", "to_period", "tshift",
-                              "lag", "sort_values"})  # fmt: skip
-_TIME_NAMES = frozenset({"to_datetime", "date_range", "period_range", "PeriodIndex", "DatetimeIndex", "bdate_range",
-                         *TSA_ARRAY_HELPERS})  # fmt: skip
+_TIME_ATTRIBUTES = frozenset(
+    {"set_index", "shift", "diff", "pct_change", "asfreq", "resample", "to_period", "tshift", "lag", "sort_values"}
+)
+_TIME_NAMES = frozenset(
+    {"to_datetime", "date_range", "period_range", "PeriodIndex", "DatetimeIndex", "bdate_range", *TSA_ARRAY_HELPERS}
+)
 _TIME_KEYWORDS = frozenset({"parse_dates", "index_col", "date_format"})
 
 

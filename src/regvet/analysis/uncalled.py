@@ -108,15 +108,16 @@ class UncalledFunctions(CollectorState):
 
 
 #: Tag kinds that cannot lead to a fact by themselves (see ``Collector.quiet``).
-_QUIET_KINDS = frozenset({tags.LITERAL, tags.PREFIX, tags.DATA, tags.TIMED, tags.OUTCOME, tags.COLUMNS,
-                          tags.COLUMN_NAME, tags.GETTER})  # fmt: skip
+_QUIET_KINDS = frozenset(
+    {tags.LITERAL, tags.PREFIX, tags.DATA, tags.TIMED, tags.OUTCOME, tags.COLUMNS, tags.COLUMN_NAME, tags.GETTER}
+)
 #: Every library name the collector gives a meaning to (models, diagnostics, tables) and every dotted
 #: prefix of one: a name outside this set reaches none of them through its attributes.
 _SPECIAL_PREFIXES = frozenset(
     ".".join(name.split(".")[:i])
     for name in (*catalog.CONSTRUCTORS, *catalog.DIAGNOSTICS, *catalog.SUMMARY_TABLES, *catalog.ANOVA)
     for i in range(1, name.count(".") + 2)
-)  # fmt: skip
+)
 _TSA = "statsmodels.tsa"
 
 
@@ -130,9 +131,14 @@ def reaches_facts(qualname: str, helpers: dict[str, tuple[str, ...]], tsa_known:
     if name in _SPECIAL_PREFIXES:
         return True
     if not tsa_known and catalog.is_statsmodels(name):
-        return _TSA.startswith(name) or name.startswith(_TSA) or any(
-            alias.startswith(name) and target.startswith(_TSA) for alias, target in catalog.NAMESPACE_ALIASES.items()
-        )  # fmt: skip
+        return (
+            _TSA.startswith(name)
+            or name.startswith(_TSA)
+            or any(
+                alias.startswith(name) and target.startswith(_TSA)
+                for alias, target in catalog.NAMESPACE_ALIASES.items()
+            )
+        )
     return False
 
 

@@ -36,8 +36,19 @@ from regvet.rules import ALL_RULES
 from regvet.rules.texts import CAUTION, explain, find_rule, nearest_rule, render_rules
 
 __all__ = [
-    "EXIT_FAILED", "EXIT_FINDINGS", "EXIT_OK", "EXIT_USAGE", "EXTRA_EXCLUDE", "Progress", "Scan", "UsageError",
-    "analyze_file", "collect_files", "explain", "main", "scan",
+    "EXIT_FAILED",
+    "EXIT_FINDINGS",
+    "EXIT_OK",
+    "EXIT_USAGE",
+    "EXTRA_EXCLUDE",
+    "Progress",
+    "Scan",
+    "UsageError",
+    "analyze_file",
+    "collect_files",
+    "explain",
+    "main",
+    "scan",
 ]
 
 
@@ -76,13 +87,22 @@ def _parser() -> argparse.ArgumentParser:
 
 def _check_options(c: argparse.ArgumentParser, run_verb: bool) -> None:
     """The options of ``check``, and of ``run`` (``run_verb``: the same without ``--run``, which it implies)."""
-    c.add_argument("paths", nargs="*", default=["."], metavar="PATH",
-                   help="files or folders (default: .)" + ("" if run_verb else
-                   "; `-` reads one script from standard input (not with --run)"))  # fmt: skip
-    c.add_argument("--format", choices=["text", "lines", "json", "sarif", "github"], default="text",
-                   help="text: each fit's findings under one header line, wrapped to the terminal (default); "
-                   "lines: one `path:line:col:` line per finding, for tools; json; sarif (2.1.0); "
-                   "github: workflow annotations")  # fmt: skip
+    c.add_argument(
+        "paths",
+        nargs="*",
+        default=["."],
+        metavar="PATH",
+        help="files or folders (default: .)"
+        + ("" if run_verb else "; `-` reads one script from standard input (not with --run)"),
+    )
+    c.add_argument(
+        "--format",
+        choices=["text", "lines", "json", "sarif", "github"],
+        default="text",
+        help="text: each fit's findings under one header line, wrapped to the terminal (default); "
+        "lines: one `path:line:col:` line per finding, for tools; json; sarif (2.1.0); "
+        "github: workflow annotations",
+    )
     c.add_argument(
         "--fail-on",
         choices=["error", "warning", "info"],
@@ -93,16 +113,26 @@ def _check_options(c: argparse.ArgumentParser, run_verb: bool) -> None:
     c.add_argument("--skip", metavar="RULES", help="comma-separated rule ids: never report these")
     c.add_argument("--config", metavar="FILE", help="use this config file instead of searching for one")
     c.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
-    c.add_argument("--color", choices=["auto", "always", "never"], default="auto",
-                   help="colour in text output (default auto: on a terminal, unless NO_COLOR is set)")  # fmt: skip
+    c.add_argument(
+        "--color",
+        choices=["auto", "always", "never"],
+        default="auto",
+        help="colour in text output (default auto: on a terminal, unless NO_COLOR is set)",
+    )
     c.add_argument("--baseline", metavar="FILE", help=f"use this baseline instead of the nearest {BASELINE_NAME}")
     c.add_argument("--no-baseline", action="store_true", help="report every finding, the baselined ones too")
-    c.add_argument("--quiet", "-q", action="store_true",
-                   help="print only the summary line (and the counts with --counts), no findings (text and lines)")
-    c.add_argument("--show-waived", action="store_true",
-                   help="list the waived findings too, each with its reason (text and lines)")  # fmt: skip
-    c.add_argument("--counts", action="store_true",
-                   help="end with the number of findings of each rule (text and lines)")  # fmt: skip
+    c.add_argument(
+        "--quiet",
+        "-q",
+        action="store_true",
+        help="print only the summary line (and the counts with --counts), no findings (text and lines)",
+    )
+    c.add_argument(
+        "--show-waived", action="store_true", help="list the waived findings too, each with its reason (text and lines)"
+    )
+    c.add_argument(
+        "--counts", action="store_true", help="end with the number of findings of each rule (text and lines)"
+    )
     _run_options(c, run_verb)
 
 
@@ -134,9 +164,13 @@ def _subcommands(sub: argparse._SubParsersAction) -> None:
         "written atomically; a file that changed since it was read is left alone.",
     )
     m.add_argument("paths", nargs="*", default=["."], metavar="PATH", help="files or folders (default: .)")
-    m.add_argument("--only", metavar="RULES",
-                   help="comma-separated rule ids to fix (default: every rule with a fix: "
-                   + ", ".join(r.id for r in ALL_RULES if r.quick_fixes) + ")")  # fmt: skip
+    m.add_argument(
+        "--only",
+        metavar="RULES",
+        help="comma-separated rule ids to fix (default: every rule with a fix: "
+        + ", ".join(r.id for r in ALL_RULES if r.quick_fixes)
+        + ")",
+    )
     m.add_argument("--preview", action="store_true", help="print a unified diff instead of writing the files")
     m.add_argument("--config", metavar="FILE", help="use this config file instead of searching for one")
     m.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
@@ -147,10 +181,14 @@ def _subcommands(sub: argparse._SubParsersAction) -> None:
         "pre-commit hook and the language server then report only findings that are not in it.",
     )
     _scan_options(b)
-    b.add_argument("--update", action="store_true",
-                   help="refresh the existing baseline: drop what is gone, add nothing new")  # fmt: skip
-    b.add_argument("--baseline", metavar="FILE", help=f"the baseline file (default: the nearest {BASELINE_NAME}, "
-                   "else one at the project root)")  # fmt: skip
+    b.add_argument(
+        "--update", action="store_true", help="refresh the existing baseline: drop what is gone, add nothing new"
+    )
+    b.add_argument(
+        "--baseline",
+        metavar="FILE",
+        help=f"the baseline file (default: the nearest {BASELINE_NAME}, " "else one at the project root)",
+    )
     _run_options(b)
 
 
@@ -164,12 +202,21 @@ def _run_options(p: argparse.ArgumentParser, run_verb: bool = False) -> None:
             "time and memory limits) and attach the statistics of its fits; never used by the pre-commit hook",
         )
     p.set_defaults(run=run_verb)
-    p.add_argument("--no-cache", action="store_true",
-                   help="neither read nor write regvet's caches: analyse " + ("and run every file again" if run_verb
-                   else "every file again (and with --run, run again)"))  # fmt: skip
-    p.add_argument("--jobs", "-j", type=_jobs, default=None, metavar="N",
-                   help="analyse " + ("and run" if run_verb else "(and with --run, run)") + " N files at a time in "
-                   "worker processes (default: the number of cores)")  # fmt: skip
+    p.add_argument(
+        "--no-cache",
+        action="store_true",
+        help="neither read nor write regvet's caches: analyse "
+        + ("and run every file again" if run_verb else "every file again (and with --run, run again)"),
+    )
+    p.add_argument(
+        "--jobs",
+        "-j",
+        type=_jobs,
+        default=None,
+        metavar="N",
+        help="analyse " + ("and run" if run_verb else "(and with --run, run)") + " N files at a time in "
+        "worker processes (default: the number of cores)",
+    )
 
 
 def _jobs(text: str) -> int:
@@ -184,8 +231,21 @@ def _jobs(text: str) -> int:
 
 COMMANDS = ("check", "run", "report", "mend", "baseline", "rules", "explain", "serve")
 #: The options that take a value (so that a value spelled like a command is not taken for one).
-_VALUED = {"--format", "--fail-on", "--only", "--skip", "--config", "--color", "--baseline", "--jobs", "-j", "-o",
-           "--output", "--port", "--log-file"}  # fmt: skip
+_VALUED = {
+    "--format",
+    "--fail-on",
+    "--only",
+    "--skip",
+    "--config",
+    "--color",
+    "--baseline",
+    "--jobs",
+    "-j",
+    "-o",
+    "--output",
+    "--port",
+    "--log-file",
+}
 
 
 def arrange(argv: list[str]) -> list[str]:
@@ -217,8 +277,10 @@ def main(argv: Sequence[str] | None = None) -> int:
         if exc.code in (0, None):
             return EXIT_OK
         if given and given[0].startswith("-") and given[0] != "-" and args_list[0] in COMMANDS:
-            sys.stderr.write("regvet: the command comes first, then its options and paths, as in `regvet check "
-                             f"--format json fixtures/demo`; this was read as `regvet {' '.join(args_list)}`\n")
+            sys.stderr.write(
+                "regvet: the command comes first, then its options and paths, as in `regvet check "
+                f"--format json fixtures/demo`; this was read as `regvet {' '.join(args_list)}`\n"
+            )
         return EXIT_USAGE
     tolerant_streams()
     if args.command == "rules":

@@ -43,7 +43,8 @@ def run_baseline(args: argparse.Namespace) -> int:
     if args.update:
         sys.stdout.write(f"regvet: baseline {display_path(target)} refreshed: {what} ({before - total} gone)\n")
     else:
-        sys.stdout.write(f"regvet: baseline {display_path(target)} written: {what}; `regvet check` now reports only "
-                         "new findings\n")  # fmt: skip
+        sys.stdout.write(
+            f"regvet: baseline {display_path(target)} written: {what}; `regvet check` now reports only "
+            "new findings\n"
+        )
     return EXIT_OK
-

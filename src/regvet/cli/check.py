@@ -29,7 +29,8 @@ def run_check(args: argparse.Namespace) -> int:
     if not result.files:
         where = ", ".join(args.paths)
         (sys.stdout if text else sys.stderr).write(
-            f"regvet: no files were found to check in {where} (regvet reads .py and .ipynb files)\n")
+            f"regvet: no files were found to check in {where} (regvet reads .py and .ipynb files)\n"
+        )
         if text:
             return EXIT_OK
     if not args.no_baseline:
@@ -37,9 +38,17 @@ def run_check(args: argparse.Namespace) -> int:
     colour = args.color == "always" or (args.color == "auto" and sys.stdout.isatty() and not os.environ.get("NO_COLOR"))
     from regvet.output import renderer
 
-    emit(renderer(args.format)(reports, colour=colour, width=text_width(), quiet=args.quiet,
-                               show_waived=args.show_waived, counts=args.counts),
-         utf8=args.format in ("json", "sarif"))  # fmt: skip
+    emit(
+        renderer(args.format)(
+            reports,
+            colour=colour,
+            width=text_width(),
+            quiet=args.quiet,
+            show_waived=args.show_waived,
+            counts=args.counts,
+        ),
+        utf8=args.format in ("json", "sarif"),
+    )
     if note:
         (sys.stdout if text else sys.stderr).write(note)
     if result.failed:
@@ -101,4 +110,3 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
             text += f", {gone} no longer found (refresh it with `regvet baseline --update`)"
         lines.append(text + "\n")
     return reports, "".join(lines)
-

@@ -81,8 +81,11 @@ class _SettingsFinder:
             path = Path(args.config)
             if not path.is_file():
                 _, why = examine(path)  # a FIFO, a link loop: say so rather than "no such file"
-                raise UsageError(f"--config: {args.config} is {why}" if why and os.path.lexists(path)
-                                 else f"--config: no such file: {args.config}")  # fmt: skip
+                raise UsageError(
+                    f"--config: {args.config} is {why}"
+                    if why and os.path.lexists(path)
+                    else f"--config: no such file: {args.config}"
+                )
             self.forced = load_settings(path)
         self.configs = ConfigCache()
 
@@ -95,4 +98,3 @@ class _SettingsFinder:
         if isinstance(loaded, ConfigError):
             raise loaded
         return self.overrides.apply(loaded)
-

@@ -18,4 +18,3 @@ def _serve(argv: list[str]) -> int:
         return serve_main(argv)
     except SystemExit as exc:
         return EXIT_USAGE if exc.code not in (0, None) else EXIT_OK
-

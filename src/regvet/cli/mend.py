@@ -63,10 +63,18 @@ def run_mend(args: argparse.Namespace) -> int:
                     text = original.decode("utf-8")
                 except UnicodeDecodeError as exc:
                     raise MendError(f"the notebook is not UTF-8: {exc.reason}") from None
-                def analyze_notebook(cells: list[tuple[int, str]], count: int, shown: str = shown, settings: Settings = settings,
-                                     provider: FileModules = provider, key: str = file.stem) -> FileReport:
-                    return analyze_cells(cells, count, shown, settings, provider=provider, module_key=key,
-                                         module_cache=module_cache)
+
+                def analyze_notebook(
+                    cells: list[tuple[int, str]],
+                    count: int,
+                    shown: str = shown,
+                    settings: Settings = settings,
+                    provider: FileModules = provider,
+                    key: str = file.stem,
+                ) -> FileReport:
+                    return analyze_cells(
+                        cells, count, shown, settings, provider=provider, module_key=key, module_cache=module_cache
+                    )
 
                 outcome: Outcome = mend_notebook(text, analyze_notebook, rules)
                 data = outcome.new.encode("utf-8")
@@ -77,10 +85,23 @@ def run_mend(args: argparse.Namespace) -> int:
                     if b"statsmodels" not in original:
                         continue  # nothing to mend in it, and nothing regvet checks there either
                     raise
-                def analyze_script(text: str, shown: str = shown, settings: Settings = settings,
-                                   provider: FileModules = provider, key: str = file.stem) -> FileReport:
-                    return analyze(text, shown, settings, notebook=False, provider=provider, module_key=key,
-                                   module_cache=module_cache)
+
+                def analyze_script(
+                    text: str,
+                    shown: str = shown,
+                    settings: Settings = settings,
+                    provider: FileModules = provider,
+                    key: str = file.stem,
+                ) -> FileReport:
+                    return analyze(
+                        text,
+                        shown,
+                        settings,
+                        notebook=False,
+                        provider=provider,
+                        module_key=key,
+                        module_cache=module_cache,
+                    )
 
                 outcome = mend_python(source.text, analyze_script, rules)
                 data = _encode(source, outcome.new)
@@ -119,4 +140,3 @@ def _encode(source, text: str) -> bytes:
     from regvet.mend import encode_source
 
     return encode_source(source, text)
-

@@ -61,9 +61,12 @@ def run_report(args: argparse.Namespace) -> int:
     except OSError as exc:
         raise UsageError(f"-o: cannot write {exc.filename or args.output}: {exc.strerror or exc}") from None
     n_files = sum(1 for f in audit.files if f.fits)
-    sys.stdout.write(f"regvet: report written to {display_path(output)}: {audit.fit_count} fit"
-                     f"{'s' if audit.fit_count != 1 else ''} in {n_files} file{'s' if n_files != 1 else ''}"
-                     + (f", {sum(len(v) for v in plots.values())} plots" if args.run else "") + "\n")  # fmt: skip
+    sys.stdout.write(
+        f"regvet: report written to {display_path(output)}: {audit.fit_count} fit"
+        f"{'s' if audit.fit_count != 1 else ''} in {n_files} file{'s' if n_files != 1 else ''}"
+        + (f", {sum(len(v) for v in plots.values())} plots" if args.run else "")
+        + "\n"
+    )
     return EXIT_FAILED if result.failed else EXIT_OK
 
 
@@ -98,4 +101,3 @@ def _write_new(path: Path, data: bytes) -> None:
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
-

@@ -93,8 +93,14 @@ class Progress:
             if line is not None and cells is not None and where.startswith("<regvet-cell-"):
                 index = int(where[len("<regvet-cell-") : -1])  # a notebook cell: its line in the joined module
                 line = cells.starts[cells.cells.index(index)] + line - 1 if index in cells.cells else None
-            name = next((f.result_name or f.formula for f in fits
-                         if line is not None and f.site.span.line <= line <= f.site.span.end_line), None)  # fmt: skip
+            name = next(
+                (
+                    f.result_name or f.formula
+                    for f in fits
+                    if line is not None and f.site.span.line <= line <= f.site.span.end_line
+                ),
+                None,
+            )
             what = f"fit {count[0]}" + (f" (`{name}`)" if name else "")
             self._show(f"{self.head}: {what} ({time.monotonic() - self.start:.0f} s)")
 
@@ -115,8 +121,10 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     _refuse_runtime_only(finder.overrides.only, running)
     stdin = STDIN in args.paths
     if stdin and (running or getattr(args, "command", "check") not in ("check", None)):
-        raise UsageError("`-` (a script on standard input) is read by `regvet check` without --run only; "
-                         "save the script to a file for this")  # fmt: skip
+        raise UsageError(
+            "`-` (a script on standard input) is read by `regvet check` without --run only; "
+            "save the script to a file for this"
+        )
     paths = [p for p in args.paths if p != STDIN]
     base_settings = finder.for_path(Path(paths[0]) if paths else Path("."))
     exclude = (*DEFAULT_EXCLUDE, *EXTRA_EXCLUDE, *base_settings.exclude)
@@ -137,8 +145,16 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
         file = Path(STDIN)
         settings = finder.for_path(Path.cwd() / STDIN_NAME)
         tasks.append((file, settings, default_root))
-        reports.append(_analyze_bytes(Path.cwd() / STDIN_NAME, STDIN_NAME, sys.stdin.buffer.read(), settings,
-                                      FileModules(default_root, Path.cwd() / STDIN_NAME, {}), {}))  # fmt: skip
+        reports.append(
+            _analyze_bytes(
+                Path.cwd() / STDIN_NAME,
+                STDIN_NAME,
+                sys.stdin.buffer.read(),
+                settings,
+                FileModules(default_root, Path.cwd() / STDIN_NAME, {}),
+                {},
+            )
+        )
     cache = None
     if running:
         from regvet.runtime.runner import RunCache
@@ -193,8 +209,10 @@ def _check_interpreters(tasks: list[Task]) -> None:
         found = shutil.which(python) if os.sep not in python else (python if os.access(python, os.X_OK) else None)
         if found is None or not Path(found).is_file():
             where = f"{settings.source}: " if settings.source else ""
-            raise UsageError(f"{where}python = {python!r}: no such interpreter (or it is not executable); "
-                             "name a Python that exists, or remove the key to use regvet's own")  # fmt: skip
+            raise UsageError(
+                f"{where}python = {python!r}: no such interpreter (or it is not executable); "
+                "name a Python that exists, or remove the key to use regvet's own"
+            )
 
 
 def _refuse_runtime_only(only: frozenset[str], running: bool) -> None:
@@ -202,21 +220,26 @@ def _refuse_runtime_only(only: frozenset[str], running: bool) -> None:
     from regvet.rules import RULES_BY_ID
 
     if only and not running and all(RULES_BY_ID[r].needs_run for r in only):
-        raise UsageError(f"--only {','.join(sorted(only))}: {'these rules judge' if len(only) > 1 else 'this rule judges'}"
-                         " the statistics of a run, so without --run nothing will be checked; add --run (or use "
-                         "`regvet run`; either EXECUTES the code), or name rules that read the code")  # fmt: skip
+        raise UsageError(
+            f"--only {','.join(sorted(only))}: {'these rules judge' if len(only) > 1 else 'this rule judges'}"
+            " the statistics of a run, so without --run nothing will be checked; add --run (or use "
+            "`regvet run`; either EXECUTES the code), or name rules that read the code"
+        )
 
 
-def _run_all(tasks: list[Task], reports: list[FileReport], cache, jobs: int,
-             progress: Progress | None, plot_points: int) -> list[FileReport]:  # fmt: skip
+def _run_all(
+    tasks: list[Task], reports: list[FileReport], cache, jobs: int, progress: Progress | None, plot_points: int
+) -> list[FileReport]:
     """Runtime mode for many files, ``jobs`` child processes at a time; each report gets its own run's
     statistics, and the reports stay in the files' order (the progress line counts finished files)."""
     from concurrent.futures import ThreadPoolExecutor, as_completed
 
     out = list(reports)
     with ThreadPoolExecutor(max_workers=jobs) as pool:  # each thread waits on one child process
-        futures = {pool.submit(_run_file, file, report, settings, cache, None, plot_points): i
-                   for i, ((file, settings, _), report) in enumerate(zip(tasks, reports, strict=True))}  # fmt: skip
+        futures = {
+            pool.submit(_run_file, file, report, settings, cache, None, plot_points): i
+            for i, ((file, settings, _), report) in enumerate(zip(tasks, reports, strict=True))
+        }
         for done, future in enumerate(as_completed(futures), start=1):
             i = futures[future]
             out[i] = future.result()
@@ -231,8 +254,9 @@ def _was_cached(report: FileReport) -> bool:
     return bool(runtime is not None and runtime.cached)
 
 
-def _run_file(file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None,
-              plot_points: int = 0) -> FileReport:  # fmt: skip
+def _run_file(
+    file: Path, report: FileReport, settings: Settings, cache, progress: Progress | None = None, plot_points: int = 0
+) -> FileReport:
     """Runtime mode for one file (imports the runtime part only now)."""
     from regvet.runtime.session import run_and_judge
 
@@ -271,8 +295,9 @@ def _worker_lost(task: Task, why: str) -> FileReport:
     return failure_report(display_path(task[0]), Crash("analysis", why), task[1])
 
 
-def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int,
-                 progress: Progress | None = None) -> list[FileReport]:  # fmt: skip
+def _analyze_all(
+    tasks: list[Task], cache: FactCache | None, jobs: int, progress: Progress | None = None
+) -> list[FileReport]:
     """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes
     (``progress`` counts the files read)."""
     reports: list[FileReport | None] = [None] * len(tasks)
@@ -296,8 +321,9 @@ def _analyze_all(tasks: list[Task], cache: FactCache | None, jobs: int,
     return [r for r in reports if r is not None]
 
 
-def _cached(file: Path, settings: Settings, root: Path, texts: dict[Path, str | None],
-            cache: FactCache, found: dict) -> FileReport | None:  # fmt: skip
+def _cached(
+    file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], cache: FactCache, found: dict
+) -> FileReport | None:
     try:
         data = read_regular(file)
     except OSError:
@@ -307,9 +333,14 @@ def _cached(file: Path, settings: Settings, root: Path, texts: dict[Path, str | 
 
 
 def analyze_file(
-    file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], module_cache: dict,
-    cache: FactCache | None = None, found: dict | None = None,
-) -> FileReport:  # fmt: skip
+    file: Path,
+    settings: Settings,
+    root: Path,
+    texts: dict[Path, str | None],
+    module_cache: dict,
+    cache: FactCache | None = None,
+    found: dict | None = None,
+) -> FileReport:
     """Read one file and analyse it; unreadable files become ``parse-error`` findings. With ``cache``,
     the analysis is stored there with the project-module lookups it made."""
     shown = display_path(file)
@@ -326,8 +357,9 @@ def analyze_file(
     return report
 
 
-def _analyze_bytes(file: Path, shown: str, data: bytes, settings: Settings, provider: ModuleProvider,
-                   module_cache: dict) -> FileReport:  # fmt: skip
+def _analyze_bytes(
+    file: Path, shown: str, data: bytes, settings: Settings, provider: ModuleProvider, module_cache: dict
+) -> FileReport:
     if file.suffix == ".ipynb":
         try:
             text = data.decode("utf-8-sig")
@@ -343,4 +375,3 @@ def _analyze_bytes(file: Path, shown: str, data: bytes, settings: Settings, prov
 
 def _unreadable(path: str, settings: Settings, message: str) -> FileReport:
     return error_report(path, SourceError(message, Span(1, 0, 1, 0)), settings)
-

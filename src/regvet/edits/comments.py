@@ -41,11 +41,7 @@ def add_waiver(source: str, line: int, rule: str, reason: str = "REASON") -> str
     layout = _layout(source)
     if line in layout.starts:
         anchor, alone = line, True
-    elif (
-        line not in layout.code_end
-        or line in layout.open_at_end
-        or _backslash(lines, layout, line)
-    ):
+    elif line not in layout.code_end or line in layout.open_at_end or _backslash(lines, layout, line):
         # No trailing comment possible on this line. A comment line directly above it is valid
         # Python when the previous line ends inside brackets, and the engine honours a waiver
         # alone on the line above the finding; after a backslash or inside a string it is not.

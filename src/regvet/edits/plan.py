@@ -34,7 +34,6 @@ REWRITE_WAIVER = "rewrite-waiver"
 CODE_KINDS = (ROBUST_COVARIANCE, INSERT_RESET, INSERT_BREUSCH_PAGAN)
 
 
-
 @dataclass(frozen=True)
 class PlannedEdit:
     """One way to fix a finding: what it is, how an editor titles it, and the text after it."""
@@ -89,25 +88,49 @@ def plan(
     makers: list[tuple[str, str, bool, Callable[[], str]]] = []
     for kind in kinds:
         if kind == ROBUST_COVARIANCE and fit_call is not None:
-            makers.append((kind, f'Use robust standard errors (cov_type="{cov_type}")', True,
-                           partial(set_cov_type, text, fit_call, cov_type)))  # fmt: skip
+            makers.append(
+                (
+                    kind,
+                    f'Use robust standard errors (cov_type="{cov_type}")',
+                    True,
+                    partial(set_cov_type, text, fit_call, cov_type),
+                )
+            )
         elif kind == INSERT_RESET and statement is not None and result:
             call, imports = check_call(whole, "linear_reset", whole_line)
             code = f'print("RESET:", {call}({result}, power=3, use_f=True))'
-            makers.append((kind, f"Insert a RESET test of `{result}` after the fit", True,
-                           partial(insert_after_statement, text, statement, code, imports)))  # fmt: skip
+            makers.append(
+                (
+                    kind,
+                    f"Insert a RESET test of `{result}` after the fit",
+                    True,
+                    partial(insert_after_statement, text, statement, code, imports),
+                )
+            )
         elif kind == INSERT_BREUSCH_PAGAN and statement is not None and result:
             call, imports = check_call(whole, "het_breuschpagan", whole_line)
             code = f'print("Breusch-Pagan:", {call}({result}.resid, {result}.model.exog))'
-            makers.append((kind, f"Insert a Breusch-Pagan test of `{result}` after the fit", False,
-                           partial(insert_after_statement, text, statement, code, imports)))  # fmt: skip
+            makers.append(
+                (
+                    kind,
+                    f"Insert a Breusch-Pagan test of `{result}` after the fit",
+                    False,
+                    partial(insert_after_statement, text, statement, code, imports),
+                )
+            )
     rewrite, waiver = fix.get("rewrite_waiver"), _span(fix.get("waiver"))
     if isinstance(rewrite, str) and rewrite and waiver is not None:
         title = fix.get("title") if isinstance(fix.get("title"), str) else f"Rewrite the waiver as `{rewrite}`"
         makers.insert(0, (REWRITE_WAIVER, str(title), True, partial(rewrite_waiver, text, waiver, rewrite)))
     if waiver_line is not None:
-        makers.append((WAIVER, f"Waive {rule} here (write the reason)", False,
-                       lambda: add_waiver(text, waiver_line, rule, "REASON")))  # fmt: skip
+        makers.append(
+            (
+                WAIVER,
+                f"Waive {rule} here (write the reason)",
+                False,
+                lambda: add_waiver(text, waiver_line, rule, "REASON"),
+            )
+        )
     out: list[PlannedEdit] = []
     for kind, title, preferred, make in makers:
         try:

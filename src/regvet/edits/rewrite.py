@@ -54,9 +54,7 @@ def set_cov_type(source: str, fit_call: Span, cov_type: str = "HC3") -> str:
     return _replaced(module, call, call.with_changes(args=args)).code
 
 
-def insert_after_statement(
-    source: str, statement: Span, code: str, imports: tuple[tuple[str, str], ...] = ()
-) -> str:
+def insert_after_statement(source: str, statement: Span, code: str, imports: tuple[tuple[str, str], ...] = ()) -> str:
     """``source`` with the statements in ``code`` inserted right after the statement at ``statement``.
 
     The new statements take that statement's indentation (``code`` itself is dedented first);

@@ -12,8 +12,9 @@ from regvet.lsp.convert import CONFIG_ERROR, Positions
 from regvet.rules import RULES_BY_ID
 
 
-def _action(title: str, uri: str, old: str, new: str, version: int | None, diag: t.Diagnostic,
-            preferred: bool = False) -> t.CodeAction | None:  # fmt: skip
+def _action(
+    title: str, uri: str, old: str, new: str, version: int | None, diag: t.Diagnostic, preferred: bool = False
+) -> t.CodeAction | None:
     from regvet.edits import minimal_edit
 
     edit = minimal_edit(old, new)
@@ -36,8 +37,9 @@ def _action(title: str, uri: str, old: str, new: str, version: int | None, diag:
     )
 
 
-def quick_fixes(uri: str, text: str, whole: str, version: int | None,
-                diagnostics: list[t.Diagnostic]) -> list[t.CodeAction]:  # fmt: skip
+def quick_fixes(
+    uri: str, text: str, whole: str, version: int | None, diagnostics: list[t.Diagnostic]
+) -> list[t.CodeAction]:
     """Actions for the given diagnostics. ``whole`` is the whole notebook's code for a cell (imports).
 
     The edits are planned by :func:`regvet.edits.plan.plan`, the same planner ``regvet mend`` uses.
@@ -53,8 +55,14 @@ def quick_fixes(uri: str, text: str, whole: str, version: int | None,
             known = RULES_BY_ID.get(rule)
             kinds = [k.value for k in known.quick_fixes] if known is not None else []
             waivable = rule != CONFIG_ERROR and (known is None or known.waivable)
-            planned = plan(text, rule, kinds, fix, waiver_line=diag.range.start.line + 1 if waivable else None,
-                           whole=whole if whole != text else None)  # fmt: skip
+            planned = plan(
+                text,
+                rule,
+                kinds,
+                fix,
+                waiver_line=diag.range.start.line + 1 if waivable else None,
+                whole=whole if whole != text else None,
+            )
         except Exception:  # malformed data from a client: offer nothing for this diagnostic
             continue
         for edit in planned:

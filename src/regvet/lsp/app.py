@@ -9,16 +9,15 @@ import logging
 
 from lsprotocol import types as t
 
+from regvet.lsp.features import code_action, hover
 from regvet.lsp.run_command import run_fits
 from regvet.lsp.server import (
     RUN_FITS,
     RegvetServer,
-    code_action,
     did_change,
     did_close,
     did_open,
     did_save,
-    hover,
     nb_change,
     nb_close,
     nb_open,
@@ -54,9 +53,8 @@ def create_server() -> RegvetServer:
         (t.NOTEBOOK_DOCUMENT_DID_SAVE, nb_save, None),
         (t.NOTEBOOK_DOCUMENT_DID_CLOSE, nb_close, None),
         (t.TEXT_DOCUMENT_HOVER, hover, None),
-        (t.TEXT_DOCUMENT_CODE_ACTION, code_action,
-         t.CodeActionOptions(code_action_kinds=[t.CodeActionKind.QuickFix])),
-    ):  # fmt: skip
+        (t.TEXT_DOCUMENT_CODE_ACTION, code_action, t.CodeActionOptions(code_action_kinds=[t.CodeActionKind.QuickFix])),
+    ):
         server.feature(method, options)(handler)
     server.command(RUN_FITS)(run_fits)
     return server
@@ -77,8 +75,12 @@ def main(argv: list[str] | None = None) -> int:
 
     parser = argparse.ArgumentParser(prog="regvet serve", description="Run the regvet language server.")
     parser.add_argument("--tcp", action="store_true", help="listen on TCP (127.0.0.1) instead of stdio")
-    parser.add_argument("--port", type=int, default=None,
-                        help="the TCP port (1-65535); without it --tcp picks a free port and prints it")  # fmt: skip
+    parser.add_argument(
+        "--port",
+        type=int,
+        default=None,
+        help="the TCP port (1-65535); without it --tcp picks a free port and prints it",
+    )
     parser.add_argument("--log-file", help="write the server log here (stdout carries the protocol)")
     args = parser.parse_args(argv)
     logging.basicConfig(

@@ -23,8 +23,9 @@ from regvet.lsp.server import RegvetServer, Snapshot, build_result, publish, run
 from regvet.model.report import FileReport
 
 
-def _run_target(ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str], procs: list,
-                current: FileReport | None) -> tuple[FileReport, Any]:  # fmt: skip
+def _run_target(
+    ls: RegvetServer, snap: Snapshot, overlay: dict[Path, str], procs: list, current: FileReport | None
+) -> tuple[FileReport, Any]:
     """In the pool: the static report (reused when it is of this version), then the run (this
     EXECUTES the user's code), then judgement."""
     from regvet.runtime.runner import RunCache
@@ -62,8 +63,12 @@ async def run_fits(ls: RegvetServer, uri: str) -> dict:
     if win and win.work_done_progress:
         token = str(uuid.uuid4())
         await ls.work_done_progress.create_async(token)
-        ls.work_done_progress.begin(token, t.WorkDoneProgressBegin(
-            title="regvet: running the fits", message=Path(to_fs_path(key) or key).name, cancellable=True))  # fmt: skip
+        ls.work_done_progress.begin(
+            token,
+            t.WorkDoneProgressBegin(
+                title="regvet: running the fits", message=Path(to_fs_path(key) or key).name, cancellable=True
+            ),
+        )
     procs: list = []
     loop = asyncio.get_running_loop()
     previous = ls.results.get(key)
@@ -98,8 +103,12 @@ async def run_fits(ls: RegvetServer, uri: str) -> dict:
         else:
             publish(ls, built)
     fits = sum(len(v) for v in runtime.fit_stats.values()) if runtime else 0
-    return json_safe({
-        "ran": result is not None, "fits": fits, "cached": bool(runtime and runtime.cached),
-        "failed": runtime.failure.reason if runtime and runtime.failure else None,
-        "findings": len(report.findings),
-    })  # fmt: skip
+    return json_safe(
+        {
+            "ran": result is not None,
+            "fits": fits,
+            "cached": bool(runtime and runtime.cached),
+            "failed": runtime.failure.reason if runtime and runtime.failure else None,
+            "findings": len(report.findings),
+        }
+    )

@@ -337,9 +337,12 @@ class RegvetServer(LanguageServer):
         known, unknown = split_rule_ids(value)
         if unknown and (key, tuple(unknown)) not in self._warned:
             self._warned.add((key, tuple(unknown)))
-            self.window_log_message(t.LogMessageParams(
-                type=t.MessageType.Warning,
-                message=f"regvet: setting `{key}` names unknown rule ids {unknown}; they are ignored"))  # fmt: skip
+            self.window_log_message(
+                t.LogMessageParams(
+                    type=t.MessageType.Warning,
+                    message=f"regvet: setting `{key}` names unknown rule ids {unknown}; they are ignored",
+                )
+            )
         return known
 
 
@@ -381,10 +384,16 @@ def stopped_result(ls: RegvetServer, snap: Snapshot, why: str) -> Result:
         texts, cells = {snap.uri: snap.text}, {}
     diagnostics: dict[str, list[t.Diagnostic]] = {uri: [] for uri in texts}
     for uri in list(diagnostics)[:1]:
-        diagnostics[uri].append(t.Diagnostic(
-            range=t.Range(t.Position(0, 0), t.Position(0, 0)), severity=t.DiagnosticSeverity.Warning,
-            source="regvet", code=STOPPED, message=f"regvet did not finish analysing this document: {why}. "
-            "Its other documents are analysed as usual; `regvet check` reports the file on its own."))  # fmt: skip
+        diagnostics[uri].append(
+            t.Diagnostic(
+                range=t.Range(t.Position(0, 0), t.Position(0, 0)),
+                severity=t.DiagnosticSeverity.Warning,
+                source="regvet",
+                code=STOPPED,
+                message=f"regvet did not finish analysing this document: {why}. "
+                "Its other documents are analysed as usual; `regvet check` reports the file on its own.",
+            )
+        )
     return Result(snap.version, FileReport(path=shown), diagnostics, texts, cells)
 
 
@@ -419,8 +428,9 @@ def build_result(ls: RegvetServer, snap: Snapshot, report: FileReport) -> Result
                     continue
                 rel_pos = positions[rel_uri]
             related.append(
-                t.DiagnosticRelatedInformation(location=t.Location(uri=rel_uri, range=rel_pos.range(r.span)),
-                                               message=r.message)  # fmt: skip
+                t.DiagnosticRelatedInformation(
+                    location=t.Location(uri=rel_uri, range=rel_pos.range(r.span)), message=r.message
+                )
             )
         diagnostic = to_diagnostic(f, positions[uri], related, ls.rule_doc_uri(f.rule))
         if diagnostic not in diagnostics[uri]:
@@ -479,10 +489,20 @@ def publish_config_errors(ls: RegvetServer) -> None:
     for err in ls.configs.errors():
         uri = from_fs_path(str(Path(err.path).resolve()))
         current.add(uri)
-        ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[t.Diagnostic(
-            range=_config_error_range(err, ls.workspace.position_encoding),
-            message=f"regvet cannot use this configuration ({err}); using the defaults until it is fixed.",
-            severity=t.DiagnosticSeverity.Error, source="regvet", code=CONFIG_ERROR)]))  # fmt: skip
+        ls.text_document_publish_diagnostics(
+            t.PublishDiagnosticsParams(
+                uri=uri,
+                diagnostics=[
+                    t.Diagnostic(
+                        range=_config_error_range(err, ls.workspace.position_encoding),
+                        message=f"regvet cannot use this configuration ({err}); using the defaults until it is fixed.",
+                        severity=t.DiagnosticSeverity.Error,
+                        source="regvet",
+                        code=CONFIG_ERROR,
+                    )
+                ],
+            )
+        )
     for uri in ls.config_diagnostics - current:
         ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=uri, diagnostics=[]))
     ls.config_diagnostics = current
@@ -732,78 +752,6 @@ def nb_close(ls: RegvetServer, params: t.DidCloseNotebookDocumentParams) -> None
     if not ls.use_pull:
         for cell in params.cell_text_documents:
             ls.text_document_publish_diagnostics(t.PublishDiagnosticsParams(uri=cell.uri, diagnostics=[]))
-
-
-# --- hover and code actions ----------------------------------------------------------------------
-async def hover(ls: RegvetServer, params: t.HoverParams) -> t.Hover | None:
-    from regvet.status import fits_at, hover_markdown
-
-    uri = params.text_document.uri
-    key = ls.target_of(uri)
-    if key is None:
-        return None
-    result = ls.results.get(key)
-    if result is None or result.version != ls.current_version(key):
-        result = await analyse(ls, key)
-    if result is None:
-        return None
-    cell = next((i for i, u in result.cells.items() if unquote(u) == unquote(uri)), None)
-    text = result.texts.get(uri) or next((v for k, v in result.texts.items() if unquote(k) == unquote(uri)), None) or ""
-    positions = Positions(text, ls.workspace.position_encoding)
-    line, col = positions.from_client(params.position)
-    parts: list[str] = []
-    fits = fits_at(result.report, line, col, cell)
-    parts.extend(hover_markdown(result.report, fits))
-    for d in result.diagnostics.get(uri, []):
-        r = d.range
-        if (r.start.line, r.start.character) <= (params.position.line, params.position.character) <= (
-            r.end.line,
-            r.end.character,
-        ):
-            rule = RULES_BY_ID.get(str(d.code))
-            if rule is not None:
-                parts.append(f"**regvet {rule.id}** ({rule.severity.label}): {rule.summary}\n\n{rule.rationale}")
-    if not parts:
-        return None
-    return t.Hover(contents=t.MarkupContent(kind=t.MarkupKind.Markdown, value="\n\n---\n\n".join(parts)))
-
-
-async def code_action(ls: RegvetServer, params: t.CodeActionParams) -> list[t.CodeAction] | None:
-    uri = params.text_document.uri
-    doc = ls.open_text(uri)
-    if doc is None:
-        return None
-    diagnostics = [d for d in params.context.diagnostics if d.source == "regvet"]
-    if not diagnostics:  # some clients send none: use ours that overlap the range
-        key = ls.target_of(uri)
-        result = ls.results.get(key) if key else None
-        if result is not None:
-            for d in result.diagnostics.get(uri, []):
-                if d.range.start.line <= params.range.end.line and d.range.end.line >= params.range.start.line:
-                    diagnostics.append(d)
-    if not diagnostics:
-        return None
-    nb = ls.workspace.get_notebook_document(cell_uri=uri)
-    whole = _notebook_text(ls, nb) if nb is not None else doc.source
-    loop = asyncio.get_running_loop()
-    return await loop.run_in_executor(ls.pool, build_actions, uri, doc.source, whole, doc.version, diagnostics)
-
-
-def _notebook_text(ls: RegvetServer, nb: t.NotebookDocument) -> str:
-    parts = []
-    for cell in nb.cells:
-        doc = ls.open_text(cell.document)
-        if doc is not None and cell.kind == t.NotebookCellKind.Code:
-            parts.append(doc.source)
-    return "\n".join(parts)
-
-
-def build_actions(uri: str, text: str, whole: str, version: int | None,
-                  diagnostics: list[t.Diagnostic]) -> list[t.CodeAction]:  # fmt: skip
-    """Quick fixes for regvet diagnostics, each a WorkspaceEdit computed with libcst."""
-    from regvet.lsp.actions import quick_fixes
-
-    return quick_fixes(uri, text, whole, version, diagnostics)
 
 
 # --- the server ----------------------------------------------------------------------------------

@@ -126,8 +126,7 @@ class RegvetProtocol(LanguageServerProtocol):
         super().__init__(server, converter)
         self._request_futures = _Futures()
 
-    def _execute_handler(self, msg_id: Any, handler: Any, callback: Any, args: Any = None,
-                         kwargs: Any = None) -> None:  # fmt: skip
+    def _execute_handler(self, msg_id: Any, handler: Any, callback: Any, args: Any = None, kwargs: Any = None) -> None:
         def done(future: Future, msg_id: Any = msg_id) -> None:
             if self._request_futures.get(msg_id) is future:
                 del self._request_futures[msg_id]

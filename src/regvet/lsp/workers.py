@@ -67,10 +67,24 @@ def analyse_job(job: Job, module_cache: dict | None) -> Any:
     module_key = path.stem if path is not None else ""
     snap = job.snap
     if hasattr(snap, "cells"):
-        return analyze_cells(snap.code_cells(), len(snap.cells), shown, job.settings, provider=provider,
-                             module_key=module_key, module_cache=module_cache)  # fmt: skip
-    return analyze(snap.text, shown, job.settings, notebook=False, provider=provider, module_key=module_key,
-                   module_cache=module_cache)  # fmt: skip
+        return analyze_cells(
+            snap.code_cells(),
+            len(snap.cells),
+            shown,
+            job.settings,
+            provider=provider,
+            module_key=module_key,
+            module_cache=module_cache,
+        )
+    return analyze(
+        snap.text,
+        shown,
+        job.settings,
+        notebook=False,
+        provider=provider,
+        module_key=module_key,
+        module_cache=module_cache,
+    )
 
 
 class Worker:
@@ -117,9 +131,14 @@ class AnalysisPool:
 
     async def _spawn(self) -> Worker:
         proc = await asyncio.create_subprocess_exec(
-            sys.executable, "-m", "regvet.lsp.workers", str(self.memory_mb),
-            stdin=asyncio.subprocess.PIPE, stdout=asyncio.subprocess.PIPE, stderr=asyncio.subprocess.DEVNULL,
-        )  # fmt: skip
+            sys.executable,
+            "-m",
+            "regvet.lsp.workers",
+            str(self.memory_mb),
+            stdin=asyncio.subprocess.PIPE,
+            stdout=asyncio.subprocess.PIPE,
+            stderr=asyncio.subprocess.DEVNULL,
+        )
         worker = Worker(proc)
         self.all.add(worker)
         return worker

@@ -78,7 +78,7 @@ OPTIONS: tuple[Option, ...] = (
         "diagnostic_helpers",
         "helpers",
         (),
-        "Functions regvet cannot read that run checks, e.g. {\"ourlib.check_fit\" = [\"form\", \"variance\"]}.",
+        'Functions regvet cannot read that run checks, e.g. {"ourlib.check_fit" = ["form", "variance"]}.',
     ),
     Option(
         "analysis_budget",
@@ -94,7 +94,9 @@ OPTIONS: tuple[Option, ...] = (
     Option("serial_lags", "optional-int", 0, "Lags for Breusch-Godfrey (default by the index frequency: 4, 12 or 1)."),
     Option("time_column", "string", "", "A column that orders the data in time (besides a date index)."),
     Option("unit_column", "string", "", "The column naming the unit of a panel: serial tests run within units."),
-    Option("white_max_columns", "int", 40, "Largest auxiliary regression for the full White test (else the special form)."),
+    Option(
+        "white_max_columns", "int", 40, "Largest auxiliary regression for the full White test (else the special form)."
+    ),
     Option("robust_se", "hc", "HC3", "Robust standard errors reported beside the usual ones."),
     Option("robust_se_large", "hc", "HC1", "Robust standard errors used instead when n is large."),
     Option("robust_se_large_n", "int", 100000, "From this many observations on, use `robust_se_large`."),

@@ -43,4 +43,7 @@ def finding_dict(path: str, f: Finding) -> dict[str, Any]:
 
 def render(reports: list[FileReport], **_: object) -> str:
     findings = [finding_dict(r.path, f) for r in reports for f in r.findings]
-    return valid_utf8(json.dumps({"version": 1, "findings": findings}, indent=2, ensure_ascii=False, allow_nan=False)) + "\n"
+    return (
+        valid_utf8(json.dumps({"version": 1, "findings": findings}, indent=2, ensure_ascii=False, allow_nan=False))
+        + "\n"
+    )

@@ -8,8 +8,15 @@ from regvet.output.safe import printable
 from regvet.output.text import _BOLD, _COLOURS, _DIM, _RESET, location, stats_summary, tail
 
 
-def render(reports: list[FileReport], *, colour: bool = False, quiet: bool = False, show_waived: bool = False,
-           counts: bool = False, **_: object) -> str:  # fmt: skip
+def render(
+    reports: list[FileReport],
+    *,
+    colour: bool = False,
+    quiet: bool = False,
+    show_waived: bool = False,
+    counts: bool = False,
+    **_: object,
+) -> str:
     lines: list[str] = []
     for report in reports if not quiet else ():
         for f in report.findings:
@@ -23,7 +30,9 @@ def render(reports: list[FileReport], *, colour: bool = False, quiet: bool = Fal
             if stats_summary(f):
                 message += f" [run: {stats_summary(f)}]"
             if colour:
-                lines.append(f"{_BOLD}{loc}:{_RESET} {_COLOURS[f.severity]}{sev}{_RESET} {_DIM}{f.rule}{_RESET} {message}")
+                lines.append(
+                    f"{_BOLD}{loc}:{_RESET} {_COLOURS[f.severity]}{sev}{_RESET} {_DIM}{f.rule}{_RESET} {message}"
+                )
             else:
                 lines.append(f"{loc}: {sev} {f.rule} {message}")
     return printable("\n".join([*lines, *tail(reports, counts)]) + "\n")

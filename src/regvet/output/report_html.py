@@ -50,9 +50,7 @@ HEADER_BG, CAUTION_BG, CODE_BG = "#eef1f4", "#fff6dc", "#f3f3f3"
 
 
 def _css() -> str:
-    states = "\n".join(
-        f".state.{cls} {{ color: {fg}; background: {bg}; }}" for cls, fg, bg in STATE_STYLE.values()
-    )
+    states = "\n".join(f".state.{cls} {{ color: {fg}; background: {bg}; }}" for cls, fg, bg in STATE_STYLE.values())
     return f"""
 body {{ color: {TEXT}; background: {BACKGROUND}; font-family: system-ui, -apple-system, "Segoe UI", sans-serif;
   line-height: 1.45; margin: 0 auto; max-width: 72rem; padding: 1rem 1.5rem; }}
@@ -129,29 +127,54 @@ def _summary(audit: Audit, title: str) -> str:
     ]
     if audit.ran:
         rows.append(["Fits that ran", f"{audit.fits_ran} of {audit.fit_count}"])
-        rows.append(["Files whose run failed", str(len(audit.failed)) + (": " + ", ".join(
-            f"<code>{html.escape(p)}</code>" for p, _ in audit.failed) if audit.failed else "")])  # fmt: skip
+        rows.append(
+            [
+                "Files whose run failed",
+                str(len(audit.failed))
+                + (": " + ", ".join(f"<code>{html.escape(p)}</code>" for p, _ in audit.failed) if audit.failed else ""),
+            ]
+        )
     else:
         rows.append(["Run", "static reading only: the statistics, coefficients and plots need <code>--run</code>"])
     out = ['<section aria-labelledby="summary">\n<h2 id="summary">Summary</h2>']
     out.append(f'<p class="caution"><strong>Caution.</strong> {html.escape(audit.caution)}</p>')
     out.append(_table("What was scanned", ["what", "count"], rows))
     out.append('<h3 id="ranking">Fits ranked by how much their conclusions are at risk</h3>')
-    out.append('<p class="muted">First the fits with coefficients whose 5 % significance changes under robust '
-               "standard errors while the fit reports the usual ones, then those with rejected tests or invalid "
-               "comparisons, then those with missing checks.</p>")  # fmt: skip
+    out.append(
+        '<p class="muted">First the fits with coefficients whose 5 % significance changes under robust '
+        "standard errors while the fit reports the usual ones, then those with rejected tests or invalid "
+        "comparisons, then those with missing checks.</p>"
+    )
     ranked = []
     for i, fit in enumerate(audit.ranked, start=1):
         states = ", ".join(f"{r.label}: {r.state}" for r in fit.checks if r.state in (REJECTED, MISSING))
-        ranked.append([str(i), f'<a href="#{fit.anchor}"><code>{html.escape(fit.name)}</code></a>',
-                       f"<code>{html.escape(fit.path)}</code>, {html.escape(fit.where)}",
-                       html.escape(fit.risk.describe()), html.escape(states or "none")])  # fmt: skip
+        ranked.append(
+            [
+                str(i),
+                f'<a href="#{fit.anchor}"><code>{html.escape(fit.name)}</code></a>',
+                f"<code>{html.escape(fit.path)}</code>, {html.escape(fit.where)}",
+                html.escape(fit.risk.describe()),
+                html.escape(states or "none"),
+            ]
+        )
     out.append(_table("Fits by risk", ["rank", "fit", "where", "at risk", "rejected or missing checks"], ranked, (0,)))
     out.append('<h3 id="waivers">Waivers and their reasons</h3>')
     if audit.waivers:
-        out.append(_table("Waived findings", ["file", "where", "rule", "reason"], [
-            [f"<code>{html.escape(w.path)}</code>", html.escape(w.where), f"<code>{html.escape(w.rule)}</code>",
-             _inline(w.reason)] for w in audit.waivers]))  # fmt: skip
+        out.append(
+            _table(
+                "Waived findings",
+                ["file", "where", "rule", "reason"],
+                [
+                    [
+                        f"<code>{html.escape(w.path)}</code>",
+                        html.escape(w.where),
+                        f"<code>{html.escape(w.rule)}</code>",
+                        _inline(w.reason),
+                    ]
+                    for w in audit.waivers
+                ],
+            )
+        )
     else:
         out.append("<p>No finding is waived.</p>")
     if audit.failed:
@@ -161,8 +184,10 @@ def _summary(audit: Audit, title: str) -> str:
     out.append('<h3 id="states">How to read the checks tables</h3>\n<dl>')
     for state in STATES:
         out.append(f"<dt>{_state(state)}</dt><dd>{html.escape(STATE_MEANING[state])}</dd>")
-    out.append("</dl>\n<p class=\"muted\">Notebook cells are counted from 0, markdown cells included; lines from 1 "
-               "within the cell.</p>\n</section>")  # fmt: skip
+    out.append(
+        '</dl>\n<p class="muted">Notebook cells are counted from 0, markdown cells included; lines from 1 '
+        "within the cell.</p>\n</section>"
+    )
     return "\n".join(out)
 
 
@@ -173,16 +198,25 @@ def _fit(audit: Audit, fit: FitAudit, plots: Sequence[object], same: tuple[str, 
         ("Location", f"<code>{html.escape(fit.path)}</code>, {html.escape(fit.where)}"),
         ("Specification", f"<code>{html.escape(fit.specification)}</code> ({html.escape(fit.estimator)})"),
         ("Dependent variable", f"<code>{html.escape(fit.outcome)}</code>" if fit.outcome else "not known"),
-        ("Observations", str(fit.nobs) if fit.nobs is not None else ("the run recorded no statistics for this fit"
-                                                                      if audit.ran else "with <code>--run</code>")),
+        (
+            "Observations",
+            str(fit.nobs)
+            if fit.nobs is not None
+            else ("the run recorded no statistics for this fit" if audit.ran else "with <code>--run</code>"),
+        ),
         ("Covariance type", html.escape(fit.cov_type)),
         ("Risk", html.escape(fit.risk.describe())),
-    ]  # fmt: skip
+    ]
     if fit.runs > 1:
         facts.append(("Runs", f"{fit.runs} (the statistics are those of the first run)"))
     if fit.alternatives > 1:
-        facts.append(("Note", f"regvet follows {fit.alternatives} possible fits reaching this place; the one "
-                              "most at risk is shown"))  # fmt: skip
+        facts.append(
+            (
+                "Note",
+                f"regvet follows {fit.alternatives} possible fits reaching this place; the one "
+                "most at risk is shown",
+            )
+        )
     out.append('<dl class="facts">' + "".join(f"<dt>{k}</dt><dd>{v}</dd>" for k, v in facts) + "</dl>")
     head = ["check", "state", "done by, or why"]
     if audit.ran:
@@ -194,18 +228,32 @@ def _fit(audit: Audit, fit: FitAudit, plots: Sequence[object], same: tuple[str, 
             row += [html.escape(r.statistic or "—"), html.escape(r.form or "—"), html.escape(r.pvalue or "—")]
         rows.append(row)
     out.append(f'<h4 id="{fit.anchor}-checks">Checks</h4>')
-    out.append(_table(f"Checks of <code>{html.escape(fit.name)}</code>", head, rows).replace("<table>", '<table class="checks">', 1))
+    out.append(
+        _table(f"Checks of <code>{html.escape(fit.name)}</code>", head, rows).replace(
+            "<table>", '<table class="checks">', 1
+        )
+    )
     if fit.coefficients:
         kind = html.escape(fit.robust_type or "robust")
         out.append(f'<h4 id="{fit.anchor}-coefficients">Coefficients</h4>')
         crow = []
         for c in fit.coefficients:
             change = f'<span class="change">changes: {html.escape(c.note)}</span>' if c.changes else "same"
-            crow.append([f"<code>{html.escape(c.name)}</code>", *(html.escape(v) for v in (c.estimate, c.se, c.p,
-                         c.se_robust, c.p_robust)), change])  # fmt: skip
-        out.append(_table(f"Coefficients of <code>{html.escape(fit.name)}</code> with the usual and {kind} standard errors",
-                          ["term", "estimate", "usual SE", "usual p", f"{kind} SE", f"{kind} p", "5 % significance"],
-                          crow, (1, 2, 3, 4, 5)))  # fmt: skip
+            crow.append(
+                [
+                    f"<code>{html.escape(c.name)}</code>",
+                    *(html.escape(v) for v in (c.estimate, c.se, c.p, c.se_robust, c.p_robust)),
+                    change,
+                ]
+            )
+        out.append(
+            _table(
+                f"Coefficients of <code>{html.escape(fit.name)}</code> with the usual and {kind} standard errors",
+                ["term", "estimate", "usual SE", "usual p", f"{kind} SE", f"{kind} p", "5 % significance"],
+                crow,
+                (1, 2, 3, 4, 5),
+            )
+        )
     out.append(f'<h4 id="{fit.anchor}-findings">Findings</h4>')
     if fit.findings:
         out.append('<ul class="findings">' + "".join(_finding_item(f) for f in fit.findings) + "</ul>")
@@ -215,17 +263,36 @@ def _fit(audit: Audit, fit: FitAudit, plots: Sequence[object], same: tuple[str, 
         out.append(f'<h4 id="{fit.anchor}-comparisons">Comparisons</h4>')
         for comp in fit.comparisons:
             verdict = "valid" if comp.valid else "not valid"
-            out.append(f"<p>At {html.escape(comp.where)} ({html.escape(comp.how)}): {', '.join(_inline(x) for x in comp.fits)}"
-                       f"; <strong>{verdict}</strong>{': ' + _inline(comp.problem) if comp.problem else ''}</p>")  # fmt: skip
+            out.append(
+                f"<p>At {html.escape(comp.where)} ({html.escape(comp.how)}): {', '.join(_inline(x) for x in comp.fits)}"
+                f"; <strong>{verdict}</strong>{': ' + _inline(comp.problem) if comp.problem else ''}</p>"
+            )
             if comp.table:
-                out.append(_table("Comparable measures", ["fit", "outcome", "nobs", "R²", "adjusted R²", "AIC", "BIC",
-                                                          "CV RMSE"], [
-                    [f"<code>{html.escape(str(r.get('fit')))}</code>", _inline(f"`{r.get('outcome')}`"),
-                     _n(r.get("nobs")), _n(r.get("rsquared")), _n(r.get("rsquared_adj")), _n(r.get("aic")),
-                     _n(r.get("bic")), _n(r.get("cv_rmse"))] for r in comp.table], (2, 3, 4, 5, 6, 7)))  # fmt: skip
+                out.append(
+                    _table(
+                        "Comparable measures",
+                        ["fit", "outcome", "nobs", "R²", "adjusted R²", "AIC", "BIC", "CV RMSE"],
+                        [
+                            [
+                                f"<code>{html.escape(str(r.get('fit')))}</code>",
+                                _inline(f"`{r.get('outcome')}`"),
+                                _n(r.get("nobs")),
+                                _n(r.get("rsquared")),
+                                _n(r.get("rsquared_adj")),
+                                _n(r.get("aic")),
+                                _n(r.get("bic")),
+                                _n(r.get("cv_rmse")),
+                            ]
+                            for r in comp.table
+                        ],
+                        (2, 3, 4, 5, 6, 7),
+                    )
+                )
     if same is not None:
-        out.append(f'<h4 id="{fit.anchor}-plots">Residual plots</h4>\n<p>The same residuals as <a href="#{same[0]}">'
-                   f"<code>{html.escape(same[1])}</code></a>: its plots apply to this fit too.</p>")  # fmt: skip
+        out.append(
+            f'<h4 id="{fit.anchor}-plots">Residual plots</h4>\n<p>The same residuals as <a href="#{same[0]}">'
+            f"<code>{html.escape(same[1])}</code></a>: its plots apply to this fit too.</p>"
+        )
     elif plots:
         out.append(f'<h4 id="{fit.anchor}-plots">Residual plots</h4>')
         for plot in plots:
@@ -243,8 +310,9 @@ def _n(value: object) -> str:
     return str(value) if isinstance(value, int) else num(value)  # type: ignore[arg-type]
 
 
-def _file(audit: Audit, index: int, f: FileAudit, plots: Mapping[str, Sequence[object]],
-          same: Mapping[str, tuple[str, str]]) -> str:  # fmt: skip
+def _file(
+    audit: Audit, index: int, f: FileAudit, plots: Mapping[str, Sequence[object]], same: Mapping[str, tuple[str, str]]
+) -> str:
     out = [f'<section aria-labelledby="file-{index}">\n<h2 id="file-{index}">{html.escape(f.path)}</h2>']
     if f.run_failure:
         out.append(f"<p><strong>The run failed:</strong> {_inline(f.run_failure)}</p>")
@@ -259,8 +327,12 @@ def _file(audit: Audit, index: int, f: FileAudit, plots: Mapping[str, Sequence[o
     return "\n".join(out)
 
 
-def render(audit: Audit, plots: Mapping[str, Sequence[object]] | None = None, same: Mapping[str, str] | None = None,
-           title: str = "Specification audit") -> str:  # fmt: skip
+def render(
+    audit: Audit,
+    plots: Mapping[str, Sequence[object]] | None = None,
+    same: Mapping[str, str] | None = None,
+    title: str = "Specification audit",
+) -> str:
     """The HTML document. ``plots`` maps a fit's anchor to its drawn plots (``regvet.plots.Plot``),
     ``same`` a fit's anchor to the anchor of the fit with the very same residuals (plots drawn once)."""
     plots = plots or {}
@@ -271,8 +343,11 @@ def render(audit: Audit, plots: Mapping[str, Sequence[object]] | None = None, sa
     body += [_file(audit, i, f, plots, same_named) for i, f in enumerate(files)]
     skipped = [f.path for f in audit.files if f.skipped]
     if skipped:
-        body.append('<section aria-labelledby="skipped">\n<h2 id="skipped">Files without regressions</h2>\n<ul>'
-                    + "".join(f"<li><code>{html.escape(p)}</code></li>" for p in skipped) + "</ul>\n</section>")  # fmt: skip
+        body.append(
+            '<section aria-labelledby="skipped">\n<h2 id="skipped">Files without regressions</h2>\n<ul>'
+            + "".join(f"<li><code>{html.escape(p)}</code></li>" for p in skipped)
+            + "</ul>\n</section>"
+        )
     mode = "with a run of the analysis (--run)" if audit.ran else "from reading the code (no run)"
     return f"""<!DOCTYPE html>
 <html lang="en">

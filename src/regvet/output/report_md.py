@@ -37,17 +37,22 @@ def _finding(f: Finding) -> str:
     return f"- {f.severity.label} `{f.rule}` at {f.span.describe()}{waived}: {f.message}"
 
 
-def _fit(audit: Audit, fit: FitAudit, images: Sequence[tuple[str, str]], same: tuple[str, str] | None = None) -> list[str]:
+def _fit(
+    audit: Audit, fit: FitAudit, images: Sequence[tuple[str, str]], same: tuple[str, str] | None = None
+) -> list[str]:
     out = [f'### <a id="{fit.anchor}"></a>`{fit.name}`: {fit.path}, {fit.where}', ""]
     nobs = str(fit.nobs) if fit.nobs is not None else ("not recorded by the run" if audit.ran else "with `--run`")
-    out += _table(["fact", "value"], [
-        ["location", f"`{fit.path}`, {fit.where}"],
-        ["specification", f"`{fit.specification}` ({fit.estimator})"],
-        ["dependent variable", f"`{fit.outcome}`" if fit.outcome else "not known"],
-        ["observations", nobs],
-        ["covariance type", fit.cov_type],
-        ["risk", fit.risk.describe()],
-    ])  # fmt: skip
+    out += _table(
+        ["fact", "value"],
+        [
+            ["location", f"`{fit.path}`, {fit.where}"],
+            ["specification", f"`{fit.specification}` ({fit.estimator})"],
+            ["dependent variable", f"`{fit.outcome}`" if fit.outcome else "not known"],
+            ["observations", nobs],
+            ["covariance type", fit.cov_type],
+            ["risk", fit.risk.describe()],
+        ],
+    )
     head = ["check", "state", "done by, or why"] + (["statistic", "form", "p-value"] if audit.ran else [])
     rows = []
     for r in fit.checks:
@@ -59,9 +64,21 @@ def _fit(audit: Audit, fit: FitAudit, images: Sequence[tuple[str, str]], same: t
     if fit.coefficients:
         kind = fit.robust_type or "robust"
         out += ["#### Coefficients", ""]
-        out += _table(["term", "estimate", "usual SE", "usual p", f"{kind} SE", f"{kind} p", "5 % significance"], [
-            [f"`{c.name}`", c.estimate, c.se, c.p, c.se_robust, c.p_robust, f"**changes**: {c.note}" if c.changes else "same"]
-            for c in fit.coefficients])  # fmt: skip
+        out += _table(
+            ["term", "estimate", "usual SE", "usual p", f"{kind} SE", f"{kind} p", "5 % significance"],
+            [
+                [
+                    f"`{c.name}`",
+                    c.estimate,
+                    c.se,
+                    c.p,
+                    c.se_robust,
+                    c.p_robust,
+                    f"**changes**: {c.note}" if c.changes else "same",
+                ]
+                for c in fit.coefficients
+            ],
+        )
     out += ["#### Findings", ""]
     out += [_finding(f) for f in fit.findings] or ["None."]
     out.append("")
@@ -69,18 +86,36 @@ def _fit(audit: Audit, fit: FitAudit, images: Sequence[tuple[str, str]], same: t
         out += ["#### Comparisons", ""]
         for comp in fit.comparisons:
             verdict = "valid" if comp.valid else "not valid"
-            out.append(f"- At {comp.where} ({comp.how}): {', '.join(comp.fits)}; **{verdict}**"
-                       + (f": {comp.problem}" if comp.problem else ""))  # fmt: skip
+            out.append(
+                f"- At {comp.where} ({comp.how}): {', '.join(comp.fits)}; **{verdict}**"
+                + (f": {comp.problem}" if comp.problem else "")
+            )
         out.append("")
         for comp in fit.comparisons:
             if comp.table:
-                out += _table(["fit", "outcome", "nobs", "R²", "adjusted R²", "AIC", "BIC", "CV RMSE"], [
-                    [f"`{r.get('fit')}`", f"`{r.get('outcome')}`", _n(r.get("nobs")), _n(r.get("rsquared")),
-                     _n(r.get("rsquared_adj")), _n(r.get("aic")), _n(r.get("bic")), _n(r.get("cv_rmse"))]
-                    for r in comp.table])  # fmt: skip
+                out += _table(
+                    ["fit", "outcome", "nobs", "R²", "adjusted R²", "AIC", "BIC", "CV RMSE"],
+                    [
+                        [
+                            f"`{r.get('fit')}`",
+                            f"`{r.get('outcome')}`",
+                            _n(r.get("nobs")),
+                            _n(r.get("rsquared")),
+                            _n(r.get("rsquared_adj")),
+                            _n(r.get("aic")),
+                            _n(r.get("bic")),
+                            _n(r.get("cv_rmse")),
+                        ]
+                        for r in comp.table
+                    ],
+                )
     if same is not None:
-        out += ["#### Residual plots", "", f"The same residuals as [`{same[1]}`](#{same[0]}): its plots apply to this "
-                "fit too.", ""]  # fmt: skip
+        out += [
+            "#### Residual plots",
+            "",
+            f"The same residuals as [`{same[1]}`](#{same[0]}): its plots apply to this " "fit too.",
+            "",
+        ]
     elif images:
         out += ["#### Residual plots", ""]
         for alt, path in images:
@@ -90,8 +125,13 @@ def _fit(audit: Audit, fit: FitAudit, images: Sequence[tuple[str, str]], same: t
     return out
 
 
-def render(audit: Audit, plots: Mapping[str, Sequence[object]] | None = None, image_dir: str = "plots",
-           same: Mapping[str, str] | None = None, title: str = "Specification audit") -> tuple[str, dict[str, str]]:  # fmt: skip
+def render(
+    audit: Audit,
+    plots: Mapping[str, Sequence[object]] | None = None,
+    image_dir: str = "plots",
+    same: Mapping[str, str] | None = None,
+    title: str = "Specification audit",
+) -> tuple[str, dict[str, str]]:
     """(the Markdown document, {relative path of each image: its SVG text}); ``plots`` and ``same`` as
     for :func:`regvet.output.report_html.render`."""
     plots = plots or {}
@@ -116,14 +156,25 @@ def render(audit: Audit, plots: Mapping[str, Sequence[object]] | None = None, im
         rows.append(["run", "static reading only: the statistics, coefficients and plots need `--run`"])
     out += _table(["what", "count"], rows)
     out += ["### Fits ranked by how much their conclusions are at risk", ""]
-    out += _table(["rank", "fit", "where", "at risk", "rejected or missing checks"], [
-        [i, f"[`{fit.name}`](#{fit.anchor})", f"`{fit.path}`, {fit.where}", fit.risk.describe(),
-         ", ".join(f"{r.label}: {r.state}" for r in fit.checks if r.state in (REJECTED, MISSING)) or "none"]
-        for i, fit in enumerate(audit.ranked, start=1)])  # fmt: skip
+    out += _table(
+        ["rank", "fit", "where", "at risk", "rejected or missing checks"],
+        [
+            [
+                i,
+                f"[`{fit.name}`](#{fit.anchor})",
+                f"`{fit.path}`, {fit.where}",
+                fit.risk.describe(),
+                ", ".join(f"{r.label}: {r.state}" for r in fit.checks if r.state in (REJECTED, MISSING)) or "none",
+            ]
+            for i, fit in enumerate(audit.ranked, start=1)
+        ],
+    )
     out += ["### Waivers and their reasons", ""]
     if audit.waivers:
-        out += _table(["file", "where", "rule", "reason"], [[f"`{w.path}`", w.where, f"`{w.rule}`", w.reason]
-                                                            for w in audit.waivers])  # fmt: skip
+        out += _table(
+            ["file", "where", "rule", "reason"],
+            [[f"`{w.path}`", w.where, f"`{w.rule}`", w.reason] for w in audit.waivers],
+        )
     else:
         out += ["No finding is waived.", ""]
     if audit.failed:

@@ -71,9 +71,7 @@ def _result(path: str, f: Finding, index: dict[str, int]) -> dict[str, Any]:
         "partialFingerprints": {"regvet/v1": _fingerprint(f.rule, path, f.message, f.span.cell)},
     }
     if f.related:
-        result["relatedLocations"] = [
-            _location(r.path or path, r.span, r.message, i) for i, r in enumerate(f.related)
-        ]
+        result["relatedLocations"] = [_location(r.path or path, r.span, r.message, i) for i, r in enumerate(f.related)]
     props: dict[str, Any] = {}
     if f.span.cell is not None:
         props["cell"] = f.span.cell

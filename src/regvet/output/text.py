@@ -105,8 +105,14 @@ def blocks(report: FileReport, findings: Iterable[Finding]) -> list[_Block]:
 def _wrap(first: str, rest: str, indent: str, width: int) -> list[str]:
     """``first`` (kept whole on the first line) followed by ``rest``, wrapped at ``width`` with the
     continuation lines indented by ``indent``."""
-    lines = textwrap.wrap(rest, width=max(width, MIN_WIDTH), initial_indent=first, subsequent_indent=indent,
-                          break_long_words=False, break_on_hyphens=False)  # fmt: skip
+    lines = textwrap.wrap(
+        rest,
+        width=max(width, MIN_WIDTH),
+        initial_indent=first,
+        subsequent_indent=indent,
+        break_long_words=False,
+        break_on_hyphens=False,
+    )
     return lines or [first.rstrip()]
 
 
@@ -145,9 +151,14 @@ def render_block(path: str, block: _Block, width: int, paint: _Paint) -> list[st
         per_fit = f.stats["fits"] if f.stats else []
         if len(per_fit) > 1:  # several fits ran: each one's statistics, named
             for x in per_fit:
-                lines += [paint(line, _DIM) for line in _wrap(f"{_INDENT}run of {x['fit']}: ", x["summary"], _INDENT * 3, width)]
+                lines += [
+                    paint(line, _DIM)
+                    for line in _wrap(f"{_INDENT}run of {x['fit']}: ", x["summary"], _INDENT * 3, width)
+                ]
         elif stats_summary(f):
-            lines += [paint(line, _DIM) for line in _wrap(f"{_INDENT}run: ", stats_summary(f) or "", _INDENT * 3, width)]
+            lines += [
+                paint(line, _DIM) for line in _wrap(f"{_INDENT}run: ", stats_summary(f) or "", _INDENT * 3, width)
+            ]
         return lines
     fit = block.fit
     name = fit.result_name or "fit"
@@ -193,8 +204,9 @@ def rule_counts(counted: list[list[Finding]]) -> list[str]:
     if not tally:
         return []
     wide = max(len(r) for r in tally)
-    return ["findings per rule:"] + [f"{_INDENT}{rule:<{wide}}  {n}" for rule, n in
-                                     sorted(tally.items(), key=lambda kv: (-kv[1], kv[0]))]  # fmt: skip
+    return ["findings per rule:"] + [
+        f"{_INDENT}{rule:<{wide}}  {n}" for rule, n in sorted(tally.items(), key=lambda kv: (-kv[1], kv[0]))
+    ]
 
 
 def tail(reports: list[FileReport], counts: bool, width: int | None = None) -> list[str]:
@@ -206,8 +218,16 @@ def tail(reports: list[FileReport], counts: bool, width: int | None = None) -> l
     return [*(rule_counts(counted) if counts else []), *wrapped]
 
 
-def render(reports: list[FileReport], *, colour: bool = False, width: int = DEFAULT_WIDTH, quiet: bool = False,
-           show_waived: bool = False, counts: bool = False, **_: object) -> str:  # fmt: skip
+def render(
+    reports: list[FileReport],
+    *,
+    colour: bool = False,
+    width: int = DEFAULT_WIDTH,
+    quiet: bool = False,
+    show_waived: bool = False,
+    counts: bool = False,
+    **_: object,
+) -> str:
     paint = _Paint(colour)
     lines: list[str] = []
     if not quiet:

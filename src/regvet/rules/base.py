@@ -84,7 +84,10 @@ class RuleInput:
         """Checks of ``family`` applied to the fit, to any copy sharing its residuals, or to another fit of
         the identical specification on the same data."""
         return [
-            c for m in sorted(self.facts.same_data(fid)) for c in self.facts.events_of("checks", m) if c.family == family
+            c
+            for m in sorted(self.facts.same_data(fid))
+            for c in self.facts.events_of("checks", m)
+            if c.family == family
         ]
 
     def escapes(self, fid: int) -> list[Escape]:

@@ -46,7 +46,7 @@ RULE = Rule(
         "Runtime mode only. The Chow test assumes equal error variances across groups; under "
         "heteroskedasticity prefer a robust Wald test of the interactions."
     ),
-    bad='''\
+    bad="""\
 # regvet config for this example: break_candidates = ["post_timetable"]
 import numpy as np
 import pandas as pd
@@ -59,8 +59,8 @@ slope = np.where(crossings["post_timetable"] == 1, -25.0, -10.0)
 crossings["riders"] = 400 + slope * crossings["fare"] + rng.normal(0, 5, n)
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")  # expect: break-rejected
 print(res.params)
-''',
-    good='''\
+""",
+    good="""\
 # regvet config for this example: break_candidates = ["post_timetable"]
 import numpy as np
 import pandas as pd
@@ -72,7 +72,7 @@ crossings = pd.DataFrame({"fare": rng.uniform(2, 9, n), "post_timetable": np.rep
 crossings["riders"] = 400 - 10 * crossings["fare"] + rng.normal(0, 5, n)
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
 print(res.params)
-''',
+""",
     check=check,
     references=("Chow, G. C. (1960). Econometrica 28(3), 591-605.",),
     needs_run=True,

@@ -53,7 +53,7 @@ RULE = Rule(
         "variance inflation factor above 10 is a common rule of thumb (some use 5).\n\n"
         "Runtime mode only."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -64,8 +64,8 @@ crossings = pd.DataFrame({"fuel_price": fuel_price, "fuel_surcharge": 0.4 * fuel
 crossings["riders"] = 300 - 20 * crossings["fuel_price"] + rng.normal(0, 5, 150)
 res = smf.ols("riders ~ fuel_price + fuel_surcharge", data=crossings).fit(cov_type="HC3")  # expect: collinear-design
 print(res.params)
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -76,7 +76,7 @@ crossings = pd.DataFrame({"fuel_price": fuel_price, "wind_speed": rng.uniform(0,
 crossings["riders"] = 300 - 20 * crossings["fuel_price"] + rng.normal(0, 5, 150)
 res = smf.ols("riders ~ fuel_price + wind_speed", data=crossings).fit(cov_type="HC3")
 print(res.params)
-''',
+""",
     check=check,
     references=(
         "Belsley, D. A., Kuh, E. and Welsch, R. E. (1980). Regression Diagnostics. Wiley.",

@@ -33,8 +33,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             comp.loc.span,
             f"This compares {', '.join(f'`{m}`' for m in measures)} between fits of different dependent "
             f"variables ({listed}). R², AIC, BIC and the log-likelihood measure fit to one outcome on one "
-            "sample, so across outcomes the comparison means nothing; compare models of the same outcome."
-            + hint,
+            "sample, so across outcomes the comparison means nothing; compare models of the same outcome." + hint,
             [related(f.site, f"{describe_fit(f)} explains `{f.outcome.key}`") for f in known[:6]],  # type: ignore[union-attr]
             fits=tuple(f.id for f in known),
         )
@@ -54,7 +53,7 @@ RULE = Rule(
         "correlation between the level outcome and the exponentiated fitted values of the log model, or "
         "compare out-of-sample prediction errors on the same scale."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -63,8 +62,8 @@ crossings = pd.read_csv("crossings.csv")
 level = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
 logged = smf.ols("np.log(riders) ~ fare + fuel_price", data=crossings).fit()
 best = level if level.rsquared > logged.rsquared else logged  # expect: compare-across-outcomes
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
@@ -72,7 +71,7 @@ crossings = pd.read_csv("crossings.csv")
 small = smf.ols("riders ~ fare", data=crossings).fit()
 large = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
 best = small if small.aic < large.aic else large
-''',
+""",
     check=check,
     references=(
         "Wooldridge, J. M. Introductory Econometrics, Sec. 6.4 (predicting y when log(y) is the dependent "

@@ -42,7 +42,7 @@ RULE = Rule(
         "log-likelihoods and F tests no longer compare like with like.\n\n"
         "Runtime mode only: the rows each fit used are recorded when it runs."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -55,8 +55,8 @@ crossings.loc[::7, "wind_speed"] = np.nan
 small = smf.ols("riders ~ fare", data=crossings).fit()
 large = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()
 better = large.aic < small.aic  # expect: compare-across-samples
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -70,7 +70,7 @@ complete = crossings.dropna(subset=["riders", "fare", "wind_speed"])
 small = smf.ols("riders ~ fare", data=complete).fit()
 large = smf.ols("riders ~ fare + wind_speed", data=complete).fit()
 better = large.aic < small.aic
-''',
+""",
     check=check,
     needs_run=True,
     compares_fits=True,

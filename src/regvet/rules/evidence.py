@@ -73,7 +73,10 @@ def coefficient_clause(stats: FitStatistics, limit: int = 3) -> str:
     if not changed:
         return "no coefficient changes significance at 5 % under robust standard errors, but the usual ones are still wrong"
     kind = changed[0].get("robust_type") or "robust"
-    parts = [f"`{c['name']}` goes from {p(c.get('p'))} to {p(c.get('p_robust')).replace('p = ', '')}" for c in changed[:limit]]
+    parts = [
+        f"`{c['name']}` goes from {p(c.get('p'))} to {p(c.get('p_robust')).replace('p = ', '')}"
+        for c in changed[:limit]
+    ]
     more = f" and {len(changed) - limit} more" if len(changed) > limit else ""
     return f"with {kind}, " + ", ".join(parts) + more
 
@@ -131,8 +134,14 @@ def nested_f_test(small: FitStatistics, large: FitStatistics) -> NestedFTest | N
     if ssr_s is None or ssr_l is None or df is None or df <= 0 or ssr_l <= 0:
         return None
     f = ((ssr_s - ssr_l) / q) / (ssr_l / df)
-    return {"f": f, "df_num": q, "df_denom": df, "pvalue": f_pvalue(f, q, df),
-            "restricted": sorted(names_s), "extra": sorted(names_l - names_s)}  # fmt: skip
+    return {
+        "f": f,
+        "df_num": q,
+        "df_denom": df,
+        "pvalue": f_pvalue(f, q, df),
+        "restricted": sorted(names_s),
+        "extra": sorted(names_l - names_s),
+    }
 
 
 def f_pvalue(f: float, d1: float, d2: float) -> float | None:
@@ -164,7 +173,10 @@ def _betacf(a: float, b: float, x: float) -> float:
     h = d
     for m in range(1, 1000):
         m2 = 2 * m
-        for num_ in (m * (b - m) * x / ((a + m2 - 1.0) * (a + m2)), -(a + m) * (a + b + m) * x / ((a + m2) * (a + m2 + 1.0))):
+        for num_ in (
+            m * (b - m) * x / ((a + m2 - 1.0) * (a + m2)),
+            -(a + m) * (a + b + m) * x / ((a + m2) * (a + m2 + 1.0)),
+        ):
             d = 1.0 + num_ * d
             d = 1.0 / (d if abs(d) > tiny else tiny)
             c = 1.0 + num_ / c
@@ -191,8 +203,14 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
             stats = runs(inp, fid)
             if stats:
                 fit = inp.facts.fit(fid)
-                per_fit.append({"fit": fit.result_name or fit.formula or f"fit {fid}", "runs": len(stats),
-                                "statistics": stats[0], "summary": summary(stats[0])})  # fmt: skip
+                per_fit.append(
+                    {
+                        "fit": fit.result_name or fit.formula or f"fit {fid}",
+                        "runs": len(stats),
+                        "statistics": stats[0],
+                        "summary": summary(stats[0]),
+                    }
+                )
         if not per_fit:
             out.append(f)
             continue

@@ -46,7 +46,7 @@ RULE = Rule(
         "Runtime mode only. Satisfied when RESET does not reject (a specification that passes is not thereby "
         "right; it is just not caught by this test)."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -56,8 +56,8 @@ fare = rng.uniform(2.0, 9.0, 300)
 crossings = pd.DataFrame({"fare": fare, "riders": np.exp(6.5 - 0.35 * fare + rng.normal(0, 0.05, 300))})
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")  # expect: form-rejected
 print(res.params)
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -67,7 +67,7 @@ fare = rng.uniform(2.0, 9.0, 300)
 crossings = pd.DataFrame({"fare": fare, "riders": np.exp(6.5 - 0.35 * fare + rng.normal(0, 0.05, 300))})
 res = smf.ols("np.log(riders) ~ fare", data=crossings).fit(cov_type="HC3")
 print(res.params)
-''',
+""",
     check=check,
     references=("Ramsey, J. B. (1969). JRSS B 31(2), 350-371.",),
     needs_run=True,

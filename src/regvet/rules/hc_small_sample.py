@@ -36,7 +36,7 @@ RULE = Rule(
         "performed best, and they recommend it, especially when n < 250.\n\n"
         "Runtime mode only (the sample size is known once the fit has run)."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -46,8 +46,8 @@ fare = rng.uniform(2.0, 9.0, 80)
 crossings = pd.DataFrame({"fare": fare, "riders": 300 - 10 * fare + rng.normal(0, 5, 80)})
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC1")  # expect: hc-small-sample
 print(res.summary())
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -57,7 +57,7 @@ fare = rng.uniform(2.0, 9.0, 80)
 crossings = pd.DataFrame({"fare": fare, "riders": 300 - 10 * fare + rng.normal(0, 5, 80)})
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
 print(res.summary())
-''',
+""",
     check=check,
     references=(
         "Long, J. S. and Ervin, L. H. (2000). The American Statistician 54(3), 217-224.",

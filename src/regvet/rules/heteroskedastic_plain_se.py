@@ -55,7 +55,7 @@ RULE = Rule(
         "Runtime mode only (`regvet check --run`): the fit is run and the tests computed on its residuals. "
         "Satisfied by inference under a robust covariance."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -65,8 +65,8 @@ fare = rng.uniform(2.0, 9.0, 200)
 crossings = pd.DataFrame({"fare": fare, "riders": 400 - 12 * fare + rng.normal(0, 1, 200) * fare**2})
 res = smf.ols("riders ~ fare", data=crossings).fit()  # expect: heteroskedastic-plain-se
 print(res.summary())
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -76,7 +76,7 @@ fare = rng.uniform(2.0, 9.0, 200)
 crossings = pd.DataFrame({"fare": fare, "riders": 400 - 12 * fare + rng.normal(0, 1, 200) * fare**2})
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
 print(res.summary())
-''',
+""",
     check=check,
     references=(
         "Koenker, R. (1981). A note on studentizing a test for heteroscedasticity. J. Econometrics 17(1), 107-112.",

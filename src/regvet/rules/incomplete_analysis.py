@@ -61,7 +61,7 @@ RULE = Rule(
         "that it is a bug, and makes `regvet check` exit with status 3. The finding cannot be waived: "
         "shorten the formula or split the file."
     ),
-    bad='''\
+    bad="""\
 import statsmodels.formula.api as smf
 
 wide = smf.ols(  # expect: incomplete-analysis
@@ -69,13 +69,13 @@ wide = smf.ols(  # expect: incomplete-analysis
     data=crossings,
 ).fit()
 print(wide.params)
-''',
-    good='''\
+""",
+    good="""\
 import statsmodels.formula.api as smf
 
 wide = smf.ols("riders ~ (fare + fuel_price + wind_speed)**2 + rain_mm + holiday", data=crossings).fit()
 print(wide.params)
-''',
+""",
     check=check,
     waivable=False,
 )

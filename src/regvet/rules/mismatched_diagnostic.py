@@ -35,7 +35,7 @@ RULE = Rule(
         "copy-and-paste slip in long scripts) produce a number that tests nothing, and the model that was "
         "meant to be checked stays unchecked. The finding is on the diagnostic call."
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.api as sm
 from statsmodels.stats.diagnostic import het_breuschpagan
@@ -46,8 +46,8 @@ X2 = sm.add_constant(crossings[["fare", "fuel_price"]])
 res1 = sm.OLS(crossings["riders"], X1).fit()
 res2 = sm.OLS(crossings["riders"], X2).fit()
 print(het_breuschpagan(res2.resid, res1.model.exog))  # expect: mismatched-diagnostic
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.api as sm
 from statsmodels.stats.diagnostic import het_breuschpagan
@@ -56,6 +56,6 @@ crossings = pd.read_csv("crossings.csv")
 X2 = sm.add_constant(crossings[["fare", "fuel_price"]])
 res2 = sm.OLS(crossings["riders"], X2).fit()
 print(het_breuschpagan(res2.resid, res2.model.exog))
-''',
+""",
     check=check,
 )

@@ -44,8 +44,9 @@ def check(inp: RuleInput) -> Iterator[Finding]:
 
 
 #: Calendar seasonals: a `C(month)` shift is a seasonal intercept, not a unit or a period (common practice).
-_SEASONAL = re.compile(r"(?:^|_)(?:month|months|quarter|quarters|qtr|season|seasons|weekday|dayofweek|dow)(?:_|$)",
-                       re.IGNORECASE)  # fmt: skip
+_SEASONAL = re.compile(
+    r"(?:^|_)(?:month|months|quarter|quarters|qtr|season|seasons|weekday|dayofweek|dow)(?:_|$)", re.IGNORECASE
+)
 
 
 def seasonal(group: str) -> bool:
@@ -54,8 +55,9 @@ def seasonal(group: str) -> bool:
 
 
 #: Names of a period (a time effect) and of a unit identifier (a unit effect), common practice.
-_PERIOD = re.compile(r"(?:^|_)(?:year|years|yr|date|day|week|month|quarter|qtr|period|time|wave|t)(?:_|$)",
-                     re.IGNORECASE)  # fmt: skip
+_PERIOD = re.compile(
+    r"(?:^|_)(?:year|years|yr|date|day|week|month|quarter|qtr|period|time|wave|t)(?:_|$)", re.IGNORECASE
+)
 _UNIT_ID = re.compile(r"^(?:id|pid|uid|.+_id|id_.+)$", re.IGNORECASE)
 
 
@@ -163,25 +165,25 @@ RULE = Rule(
         "of them a period such as `C(year)`: `C(harbour) + C(year)`), a unit identifier (`C(ship_id)`), or a "
         "categorical named in the config's `fixed_effects`, are not flagged (period and identifier names: "
         "common practice); nor is a model of categorical terms only, which has no slope to compare. A column "
-        "made categorical (`pd.Categorical`, `.astype(\"category\")`) and named bare in the formula counts as "
+        'made categorical (`pd.Categorical`, `.astype("category")`) and named bare in the formula counts as '
         "`C(column)`. Calendar seasonals (`C(month)`, `C(quarter)`, `C(season)`) alone still are, worded as a "
         "question about seasonal slopes. A formula built from literal pieces (concatenation, `.format`, "
-        "f-strings, `\" + \".join(...)`) or a design from `patsy.dmatrices` is read like a literal one.\n\n"
+        'f-strings, `" + ".join(...)`) or a design from `patsy.dmatrices` is read like a literal one.\n\n'
         "Satisfied by: a Chow test (subsample fits combined in an F statistic from their SSRs), an F test of "
         "the interactions with the group (`anova_lm`, `compare_f_test`, or `f_test` on the interacted model), "
         "or `breaks_cusumolsresid` / `breaks_hansen` / `recursive_olsresiduals` on the fit. "
         "The Chow test assumes equal error variances across the groups; under heteroskedasticity use a "
         "robust Wald test of the interactions."
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
 crossings = pd.read_csv("crossings.csv")
 res = smf.ols("riders ~ fare + fuel_price + C(season)", data=crossings).fit()  # expect: no-break-test
 print(res.params)
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 from statsmodels.stats.anova import anova_lm
@@ -191,7 +193,7 @@ res = smf.ols("riders ~ fare + fuel_price + C(season)", data=crossings).fit()
 full = smf.ols("riders ~ (fare + fuel_price) * C(season)", data=crossings).fit()
 print(anova_lm(res, full))
 print(res.params)
-''',
+""",
     check=check,
     references=(
         "Chow, G. C. (1960). Tests of equality between sets of coefficients in two linear regressions. "

@@ -49,15 +49,15 @@ RULE = Rule(
         "regression that adds powers of the fit's fitted values), applied to the same fit. "
         "A function regvet cannot read that runs the test can be declared under `diagnostic_helpers`."
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
 crossings = pd.read_csv("crossings.csv")
 res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()  # expect: no-form-test
 print(res.params)
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 from statsmodels.stats.diagnostic import linear_reset
@@ -66,7 +66,7 @@ crossings = pd.read_csv("crossings.csv")
 res = smf.ols("riders ~ fare + fuel_price", data=crossings).fit()
 print(linear_reset(res, power=3, use_f=True))
 print(res.params)
-''',
+""",
     check=check,
     references=(
         "Ramsey, J. B. (1969). Tests for specification errors in classical linear least-squares regression "

@@ -74,15 +74,15 @@ RULE = Rule(
         "Satisfied by: `acorr_breusch_godfrey`, `durbin_watson`, `acorr_ljungbox` or `acorr_lm` on the fit, "
         'or inference under HAC (Newey-West) covariance (`cov_type="HAC"`).'
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
 weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")
 res = smf.ols("riders ~ fare + fuel_price", data=weekly).fit()  # expect: no-serial-test
 print(res.summary())
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 from statsmodels.stats.diagnostic import acorr_breusch_godfrey
@@ -92,7 +92,7 @@ res = smf.ols("riders ~ fare + fuel_price", data=weekly).fit()
 print(acorr_breusch_godfrey(res, nlags=4))
 hac = smf.ols("riders ~ fare + fuel_price", data=weekly).fit(cov_type="HAC", cov_kwds={"maxlags": 4})
 print(res.summary(), hac.summary())
-''',
+""",
     check=check,
     references=(
         "Breusch, T. S. (1978). Australian Economic Papers 17, 334-355; Godfrey, L. G. (1978). "

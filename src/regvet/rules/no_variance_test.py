@@ -45,7 +45,7 @@ RULE = Rule(
         'robust covariance (`.fit(cov_type="HC3")`, `get_robustcov_results`, reading `HC3_se`). '
         "In small samples HC3 is the better choice (Long and Ervin 2000)."
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.api as sm
 
@@ -53,8 +53,8 @@ crossings = pd.read_csv("crossings.csv")
 X = sm.add_constant(crossings[["fare", "fuel_price"]])
 res = sm.OLS(crossings["riders"], X).fit()  # expect: no-variance-test
 print(res.summary())
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.api as sm
 from statsmodels.stats.diagnostic import het_breuschpagan
@@ -65,7 +65,7 @@ res = sm.OLS(crossings["riders"], X).fit()
 print(het_breuschpagan(res.resid, res.model.exog))
 robust = sm.OLS(crossings["riders"], X).fit(cov_type="HC3")
 print(res.summary(), robust.summary())
-''',
+""",
     check=check,
     references=(
         "Breusch, T. S. and Pagan, A. R. (1979). Econometrica 47(5), 1287-1294; Koenker, R. (1981), "

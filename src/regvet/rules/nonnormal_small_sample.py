@@ -46,7 +46,7 @@ RULE = Rule(
         "a rejection here is a reason for caution, not a verdict.\n\n"
         "Runtime mode only."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -56,8 +56,8 @@ fare = rng.uniform(2.0, 9.0, 24)
 crossings = pd.DataFrame({"fare": fare, "riders": 300 - 10 * fare + rng.exponential(40, 24) ** 1.5})
 res = smf.ols("riders ~ fare", data=crossings).fit()  # expect: nonnormal-small-sample
 print(res.summary())
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -67,7 +67,7 @@ fare = rng.uniform(2.0, 9.0, 24)
 crossings = pd.DataFrame({"fare": fare, "riders": 300 - 10 * fare + rng.normal(0, 5, 24)})
 res = smf.ols("riders ~ fare", data=crossings).fit()
 print(res.summary())
-''',
+""",
     check=check,
     references=(
         "Jarque, C. M. and Bera, A. K. (1987). International Statistical Review 55(2), 163-172.",

@@ -31,16 +31,16 @@ RULE = Rule(
         "on its own gets the finding and the other cells are still checked (Jupyter runs each cell on its "
         "own)."
     ),
-    bad='''\
+    bad="""\
 import statsmodels.formula.api as smf
 
 res = smf.ols("riders ~ fare", data=crossings).fit(  # expect: parse-error
-''',
-    good='''\
+""",
+    good="""\
 import statsmodels.formula.api as smf
 
 res = smf.ols("riders ~ fare", data=crossings).fit()
-''',
+""",
     check=check,
     waivable=False,
     blocks_run=True,

@@ -50,7 +50,7 @@ RULE = Rule(
         "Regressors are counted as formula terms (a `C(...)` term counts once) or columns of a literal "
         "column list."
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
@@ -59,8 +59,8 @@ small = smf.ols("riders ~ fare", data=crossings).fit()
 large = smf.ols("riders ~ fare + fuel_price + wind_speed", data=crossings).fit()
 if large.rsquared > small.rsquared:  # expect: r2-unadjusted-compare
     print("larger model wins")
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
@@ -69,7 +69,7 @@ small = smf.ols("riders ~ fare", data=crossings).fit()
 large = smf.ols("riders ~ fare + fuel_price + wind_speed", data=crossings).fit()
 if large.rsquared_adj > small.rsquared_adj:
     print("larger model wins")
-''',
+""",
     check=check,
     references=("Theil, H. (1961). Economic Forecasts and Policy (adjusted R²) (from memory).",),
     compares_fits=True,

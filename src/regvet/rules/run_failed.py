@@ -35,7 +35,7 @@ RULE = Rule(
         "of the traceback or the reason.\n\n"
         "Runtime mode only."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -43,15 +43,15 @@ import statsmodels.formula.api as smf
 crossings = pd.DataFrame({"fare": np.linspace(2, 9, 40), "riders": np.linspace(400, 300, 40)})
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
 raise RuntimeError("the ferry timetable file is missing")  # expect: run-failed
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
 
 crossings = pd.DataFrame({"fare": np.linspace(2, 9, 40), "riders": np.linspace(400, 300, 40)})
 res = smf.ols("riders ~ fare", data=crossings).fit(cov_type="HC3")
-''',
+""",
     check=check,
     needs_run=True,
 )

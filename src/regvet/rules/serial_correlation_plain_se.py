@@ -65,7 +65,7 @@ RULE = Rule(
         "residual is regressed on its own unit's previous residual, cluster-robust by unit.\n\n"
         "Runtime mode only, for data with a date or period index or a configured `time_column`."
     ),
-    bad='''\
+    bad="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -79,8 +79,8 @@ weekly = pd.DataFrame({"fare": rng.uniform(2, 9, 156)}, index=weeks)
 weekly["riders"] = 300 - 10 * weekly["fare"] + u
 res = smf.ols("riders ~ fare", data=weekly).fit()  # expect: serial-correlation-plain-se
 print(res.summary())
-''',
-    good='''\
+""",
+    good="""\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -94,7 +94,7 @@ weekly = pd.DataFrame({"fare": rng.uniform(2, 9, 156)}, index=weeks)
 weekly["riders"] = 300 - 10 * weekly["fare"] + u
 res = smf.ols("riders ~ fare", data=weekly).fit(cov_type="HAC", cov_kwds={"maxlags": 4})
 print(res.summary())
-''',
+""",
     check=check,
     references=(
         "Breusch, T. S. (1978). Australian Economic Papers 17, 334-355; Godfrey, L. G. (1978). Econometrica 46(6), "

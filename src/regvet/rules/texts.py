@@ -33,10 +33,15 @@ def render_rules() -> str:
     then a line that says what `run` means."""
     width = max(len(r.id) for r in ALL_RULES)
     mark = len(RUN_MARK)
-    lines = [f"{r.id:<{width}}  {r.severity.label:<7}  {RUN_MARK if r.needs_run else '':<{mark}}  {r.summary}"
-             for r in ALL_RULES]  # fmt: skip
-    lines += ["", f"{RUN_MARK}: judges the statistics of a run, so it is reported only by `regvet run` "
-              "(or `check --run`), which executes the code."]  # fmt: skip
+    lines = [
+        f"{r.id:<{width}}  {r.severity.label:<7}  {RUN_MARK if r.needs_run else '':<{mark}}  {r.summary}"
+        for r in ALL_RULES
+    ]
+    lines += [
+        "",
+        f"{RUN_MARK}: judges the statistics of a run, so it is reported only by `regvet run` "
+        "(or `check --run`), which executes the code.",
+    ]
     return "\n".join(lines) + "\n"
 
 
@@ -71,8 +76,14 @@ def explain(rule_id: str, caution: bool = True) -> str:
 
     ``caution`` ends it with the caution; ``regvet explain`` of several rules prints it once, after the last."""
     r = RULES_BY_ID[rule_id]
-    out = [f"{r.id} ({r.severity.label} by default{'; runtime mode only' if r.needs_run else ''})", "",
-           r.summary, "", r.rationale, ""]  # fmt: skip
+    out = [
+        f"{r.id} ({r.severity.label} by default{'; runtime mode only' if r.needs_run else ''})",
+        "",
+        r.summary,
+        "",
+        r.rationale,
+        "",
+    ]
     for title, example in (("Flagged:", r.bad), ("Passes:", r.good)):
         settings, code = shown_example(example)
         out += [title, ""]

@@ -43,9 +43,11 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             named = dict(guesses)
             rules = list(dict.fromkeys(named.get(r) or r for r in w.rules))
             s = w.span
-            fix = {"waiver": [s.line, s.col, s.end_line, s.end_col],
-                   "rewrite_waiver": directive(w.file_wide, rules, w.reason),
-                   "title": "Correct the waiver: " + ", ".join(f"`{n}` to `{g}`" for n, g in guesses)}  # fmt: skip
+            fix = {
+                "waiver": [s.line, s.col, s.end_line, s.end_col],
+                "rewrite_waiver": directive(w.file_wide, rules, w.reason),
+                "title": "Correct the waiver: " + ", ".join(f"`{n}` to `{g}`" for n, g in guesses),
+            }
         yield RULE.finding(w.span, text, fix=fix)
 
 
@@ -59,22 +61,22 @@ RULE = Rule(
         "like a decision. The message suggests the nearest rule id; `regvet rules` lists them all. The other "
         "rules the waiver names still take effect when it gives a reason."
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
 crossings = pd.read_csv("crossings.csv")
 res = smf.ols("riders ~ fare", data=crossings).fit()  # regvet: waive no-from-test because fare enters linearly by design  # expect: waiver-unknown-rule
 print(res.params)
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
 crossings = pd.read_csv("crossings.csv")
 res = smf.ols("riders ~ fare", data=crossings).fit()  # regvet: waive no-form-test because fare enters linearly by design
 print(res.params)
-''',
+""",
     check=check,
     waivable=False,
 )

@@ -43,22 +43,22 @@ RULE = Rule(
         "Waived findings stay in JSON and SARIF output, marked as suppressed with the reason. A waiver that "
         "names a rule regvet does not have is `waiver-unknown-rule`."
     ),
-    bad='''\
+    bad="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
 crossings = pd.read_csv("crossings.csv")
 res = smf.ols("riders ~ fare", data=crossings).fit()  # regvet: waive no-form-test  # expect: waiver-without-reason
 print(res.params)
-''',
-    good='''\
+""",
+    good="""\
 import pandas as pd
 import statsmodels.formula.api as smf
 
 crossings = pd.read_csv("crossings.csv")
 res = smf.ols("riders ~ fare", data=crossings).fit()  # regvet: waive no-form-test because fare enters linearly by design
 print(res.params)
-''',
+""",
     check=check,
     waivable=False,
 )

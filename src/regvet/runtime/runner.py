@@ -64,10 +64,17 @@ class RunResult:
 
     def to_json(self) -> dict[str, Any]:
         return {
-            "fits": self.fits, "end": self.end, "timed_out": self.timed_out, "returncode": self.returncode,
-            "signal": self.signal, "output_tail": self.output_tail, "elapsed_s": self.elapsed_s,
-            "command_error": self.command_error, "peak_mb": self.peak_mb, "self_signal": self.self_signal,
-        }  # fmt: skip
+            "fits": self.fits,
+            "end": self.end,
+            "timed_out": self.timed_out,
+            "returncode": self.returncode,
+            "signal": self.signal,
+            "output_tail": self.output_tail,
+            "elapsed_s": self.elapsed_s,
+            "command_error": self.command_error,
+            "peak_mb": self.peak_mb,
+            "self_signal": self.self_signal,
+        }
 
     @classmethod
     def from_json(cls, data: dict[str, Any]) -> RunResult:

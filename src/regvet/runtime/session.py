@@ -129,7 +129,9 @@ def match(src: _Source, report: FileReport, result: RunResult) -> dict[int, tupl
             if col is not None:
                 candidates = by_end.get((line, col), [])
             else:  # no column information (Python 3.10): any fit whose site spans the line
-                candidates = [f for f in facts.fits if f.site.path is None and f.site.span.line <= line <= f.site.span.end_line]
+                candidates = [
+                    f for f in facts.fits if f.site.path is None and f.site.span.line <= line <= f.site.span.end_line
+                ]
             if candidates:
                 break
         if not candidates:
@@ -150,11 +152,14 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
         return RunFailure(result.command_error)
     if end is None:
         if result.timed_out:
-            return RunFailure(f"it ran for more than {timeout:g} s (`run_timeout`) and was stopped", tuple(result.output_tail))
+            return RunFailure(
+                f"it ran for more than {timeout:g} s (`run_timeout`) and was stopped", tuple(result.output_tail)
+            )
         if result.signal is not None:
             return RunFailure(killed_by(result, memory_mb), tuple(result.output_tail))
-        return RunFailure(f"the process ended without reporting (exit status {result.returncode})",
-                          tuple(result.output_tail))  # fmt: skip
+        return RunFailure(
+            f"the process ended without reporting (exit status {result.returncode})", tuple(result.output_tail)
+        )
     status = end.get("status")
     span = None
     where = end.get("where")
@@ -215,15 +220,21 @@ def killed_by(result: RunResult, memory_mb: int | None = None) -> str:
         ceiling = memory_ceiling_mb()
         if peak is not None and ceiling is not None:
             if peak >= OOM_SHARE * ceiling:
-                return (f"the process was killed (signal 9, SIGKILL){used} of the {ceiling:.0f} MB this machine "
-                        "can give: most likely by the system's out-of-memory killer")
-            return (f"the process was killed (signal 9, SIGKILL) from outside{used}, far from the {ceiling:.0f} MB "
-                    "this machine can give: not for memory, as far as regvet can tell")
+                return (
+                    f"the process was killed (signal 9, SIGKILL){used} of the {ceiling:.0f} MB this machine "
+                    "can give: most likely by the system's out-of-memory killer"
+                )
+            return (
+                f"the process was killed (signal 9, SIGKILL) from outside{used}, far from the {ceiling:.0f} MB "
+                "this machine can give: not for memory, as far as regvet can tell"
+            )
         return "the process was killed (signal 9, SIGKILL) from outside; regvet cannot tell whether it was for memory"
     text = f"the process was ended by signal {sig} ({name}){used} before the end"
     if memory_mb and peak is not None and peak >= NEAR_LIMIT * memory_mb:
-        text += (f"; that is near the `run_memory_mb` limit of {memory_mb} MB, where a native library may abort "
-                 "when an allocation is refused")
+        text += (
+            f"; that is near the `run_memory_mb` limit of {memory_mb} MB, where a native library may abort "
+            "when an allocation is refused"
+        )
     return text
 
 
@@ -279,4 +290,3 @@ def run_and_judge(
         elapsed_s=result.elapsed_s,
     )
     return with_runtime(report, facts, settings), result
-

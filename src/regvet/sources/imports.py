@@ -43,9 +43,7 @@ def _module_imports(tree: ast.Module, before_line: int | None) -> Iterator[ast.I
             todo[:0] = [*node.body, *node.orelse, *node.finalbody]  # type: ignore[attr-defined]
 
 
-def spelling(
-    source: str | ast.Module, name: str, modules: Sequence[str], before_line: int | None = None
-) -> str | None:
+def spelling(source: str | ast.Module, name: str, modules: Sequence[str], before_line: int | None = None) -> str | None:
     """How the file can call ``name`` (a function of each of ``modules``) with what it has imported, or None.
 
     ``modules`` are the public modules ``name`` can be imported from, the preferred first. Only

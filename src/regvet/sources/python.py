@@ -79,8 +79,11 @@ def without_broken_cells(python: str, starts: tuple[int, ...]) -> tuple[str, tup
         found = parse("\n".join(chunk))
         if isinstance(found, SourceError):
             span = found.span
-            errors.append(SourceError(found.message, Span(span.line + first - 1, span.col,
-                                                          span.end_line + first - 1, span.end_col)))  # fmt: skip
+            errors.append(
+                SourceError(
+                    found.message, Span(span.line + first - 1, span.col, span.end_line + first - 1, span.end_col)
+                )
+            )
             lines[first - 1 : after - 1] = [""] * len(chunk)
     return "\n".join(lines), tuple(errors)
 

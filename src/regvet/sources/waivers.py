@@ -67,8 +67,9 @@ def split_reason(rest: str) -> tuple[str, str, str] | None:
     return (rest[: m.start()], m.group(), rest[m.end() :]) if m else None
 
 
-def _parse(rest: str, file_wide: bool, known: Collection[str] | None
-           ) -> tuple[tuple[str, ...], str | None, str | None, str | None, str | None]:  # fmt: skip
+def _parse(
+    rest: str, file_wide: bool, known: Collection[str] | None
+) -> tuple[tuple[str, ...], str | None, str | None, str | None, str | None]:
     """(rules, reason, malformed, expected, intended) of the text after ``waive``/``waive-file``."""
     rest = rest.split("#", 1)[0]  # a further comment on the line (another tool's, a test marker) is not ours
     m = _BECAUSE.search(rest)
@@ -86,8 +87,13 @@ def _parse(rest: str, file_wide: bool, known: Collection[str] | None
         sep = other.group(0)
         shown = f"` {sep} `" if sep != ":" else "`:`"
         problem = f"separates its reason with {shown} instead of the word `because`"
-        return (tuple(named), None, problem if named else "names no rule and " + problem,
-                directive(file_wide, named or ["RULE"], why or "REASON"), why or None)  # fmt: skip
+        return (
+            tuple(named),
+            None,
+            problem if named else "names no rule and " + problem,
+            directive(file_wide, named or ["RULE"], why or "REASON"),
+            why or None,
+        )
     words = _words(rest)
     if not words:
         return (), None, "names no rule", directive(file_wide, ["RULE"], "REASON"), None
@@ -96,8 +102,13 @@ def _parse(rest: str, file_wide: bool, known: Collection[str] | None
         if cut is not None:
             names = [w for w, _ in words[:cut]]
             why = " ".join(w for w, _ in words[cut:])
-            return (tuple(names), None, "gives its reason without the word `because`",
-                    directive(file_wide, names, why), why)  # fmt: skip
+            return (
+                tuple(names),
+                None,
+                "gives its reason without the word `because`",
+                directive(file_wide, names, why),
+                why,
+            )
     return tuple(w for w, _ in words), None, None, None, None
 
 

@@ -21,7 +21,16 @@ from typing import Any, NamedTuple
 
 import numpy as np
 
-__all__ = ["RowDataError", "TimeOrder", "aligned", "candidate_groups", "fingerprint", "lags_for", "model_frame", "time_order"]
+__all__ = [
+    "RowDataError",
+    "TimeOrder",
+    "aligned",
+    "candidate_groups",
+    "fingerprint",
+    "lags_for",
+    "model_frame",
+    "time_order",
+]
 
 
 class RowDataError(Exception):
@@ -232,8 +241,9 @@ def time_order(model: Any, column: str | None, unit_column: str | None = None) -
         units, unit_name = _codes(aligned(frame[unit_column], frame, labels, n)), f"unit_column {unit_column!r}"
     if units is not None:
         note = ""  # within units the rows are sorted by unit and time
-    return TimeOrder(reason + note, freq, order, repeats, np.asarray(keys) if keys is not None else None,
-                     units, unit_name)  # fmt: skip
+    return TimeOrder(
+        reason + note, freq, order, repeats, np.asarray(keys) if keys is not None else None, units, unit_name
+    )
 
 
 def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tuple[np.ndarray, list[str]]:

@@ -49,6 +49,7 @@ DEFAULT_OPTIONS: dict[str, Any] = {
 
 HC_TYPES = ("HC0", "HC1", "HC2", "HC3")
 
+
 class StatisticError(Exception):
     """A statistic is undefined or cannot be computed for this fit; the message says why."""
 
@@ -178,9 +179,7 @@ class FitInputs:
                 "the endog or the residuals contain NaN or infinite values (missing values not dropped?)"
             )
         if self.perfect:
-            raise StatisticError(
-                "the residuals are numerically zero (a perfect fit): the statistic is undefined"
-            )
+            raise StatisticError("the residuals are numerically zero (a perfect fit): the statistic is undefined")
 
 
 def parameter_names(model: Any, X: np.ndarray) -> list[str]:

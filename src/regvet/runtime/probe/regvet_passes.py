@@ -158,6 +158,7 @@ class RowPasses:
 
         consumers: dict[str, Consumer] = {"gram": gram}
         if self.reset_z is not None:
+
             def reset(s: int, e: int, v: np.ndarray) -> None:
                 self.cross_reset += v.T @ self.reset_block(s, e)
 

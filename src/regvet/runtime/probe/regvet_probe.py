@@ -57,8 +57,7 @@ class Recorder:
         while frame is not None:
             filename = frame.f_code.co_filename
             if self._is_user(filename):
-                out.append([os.path.abspath(filename) if not filename.startswith("<") else filename,
-                            *_position(frame)])  # fmt: skip
+                out.append([os.path.abspath(filename) if not filename.startswith("<") else filename, *_position(frame)])
             frame = frame.f_back
         return out
 
@@ -127,8 +126,9 @@ class Recorder:
                 from regvet_points import residual_points
 
                 stats = record.get("stats") or {}
-                record["points"] = residual_points(res, limit, bool(stats.get("time_ordered")),
-                                                   self.options.get("time_column"))  # fmt: skip
+                record["points"] = residual_points(
+                    res, limit, bool(stats.get("time_ordered")), self.options.get("time_column")
+                )
             except Exception as exc:  # the plots failing must never fail the user's program
                 record["points"] = None
                 record["points_error"] = f"{type(exc).__name__}: {exc}"

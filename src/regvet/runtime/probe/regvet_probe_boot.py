@@ -51,6 +51,7 @@ def _note_self_signals(recorder) -> None:
 
     os.kill = kill
     if real_killpg is not None:
+
         def killpg(pgid, sig):
             if os.getpid() == me and pgid in (0, me):
                 note(sig, "os.killpg")
@@ -59,6 +60,7 @@ def _note_self_signals(recorder) -> None:
         os.killpg = killpg
     real_raise = getattr(signal, "raise_signal", None)
     if real_raise is not None:
+
         def raise_signal(sig):
             if os.getpid() == me:
                 note(sig, "signal.raise_signal")

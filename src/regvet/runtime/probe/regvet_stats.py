@@ -99,8 +99,18 @@ class _Stats(RowPasses):
         try:
             step()
         except Exception as exc:
-            for name in ("design", "gram", "reset_cross", "reset", "lags", "bg", "meat", "cv", "cv_predict",
-                         "white_full"):
+            for name in (
+                "design",
+                "gram",
+                "reset_cross",
+                "reset",
+                "lags",
+                "bg",
+                "meat",
+                "cv",
+                "cv_predict",
+                "white_full",
+            ):
                 self.failed.setdefault(name, exc)
 
     def run(self) -> dict[str, Any]:
@@ -347,8 +357,11 @@ class _Stats(RowPasses):
 
     def _one_series(self) -> None:
         if self.stacked_panel:
-            advice = ("see serial_within_units" if self.panel is not None else
-                      "name the unit column (`unit_column`) to test within units")  # fmt: skip
+            advice = (
+                "see serial_within_units"
+                if self.panel is not None
+                else "name the unit column (`unit_column`) to test within units"
+            )
             raise StatisticError(
                 "not run: the time values repeat (several rows per period, a stacked panel), so a serial "
                 f"test over the stacked rows would mix units; {advice}"
