@@ -2,9 +2,9 @@
 
 Usage::
 
-    python bench/realcode/extract.py GIT_DIR [--out /work/corpus] [--labels bench/realcode/labels.json]
+    python bench/realcode/extract.py GIT_DIR [--out ../corpus] [--labels bench/realcode/labels.json]
 
-GIT_DIR is the bare git directory the ``fetch`` tool gave (``/work/.mirror/owner+name/repo`` or
+GIT_DIR is the bare git directory the ``fetch`` tool gave (``<mirror>/owner+name/repo`` or
 ``.../repo/.git``). The repository's name is read from that path (``owner+name``); the files
 listed for it in labels.json are written with ``git --git-dir=GIT_DIR show HEAD:path`` to
 ``OUT/owner+name/path``. Nothing is downloaded here and nothing is written inside this repository:
@@ -24,17 +24,22 @@ REPO_ROOT = HERE.parent.parent
 
 
 def repo_key(git_dir: Path) -> str:
-    """``owner+name`` from a mirror path such as /work/.mirror/owner+name/repo[/.git]."""
+    """``owner+name`` from a mirror path such as <mirror>/owner+name/repo[/.git]."""
     for part in reversed(git_dir.resolve().parts):
         if "+" in part:
             return part
-    raise SystemExit(f"extract: {git_dir}: no 'owner+name' folder in the path (expected /work/.mirror/owner+name/...)")
+    raise SystemExit(f"extract: {git_dir}: no 'owner+name' folder in the path (expected <mirror>/owner+name/...)")
 
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("git_dir", type=Path, help="the bare git directory the fetch tool gave")
-    parser.add_argument("--out", type=Path, default=Path("/work/corpus"), help="work folder (outside the repository)")
+    parser.add_argument(
+        "--out",
+        type=Path,
+        default=Path(__file__).resolve().parents[3] / "corpus",
+        help="work folder (outside the repository)",
+    )
     parser.add_argument("--labels", type=Path, default=HERE / "labels.json")
     args = parser.parse_args(argv)
 

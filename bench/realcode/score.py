@@ -2,7 +2,7 @@
 
 Usage::
 
-    python bench/realcode/score.py [--corpus /work/corpus] [--labels bench/realcode/labels.json]
+    python bench/realcode/score.py [--corpus ../corpus] [--labels bench/realcode/labels.json]
                                    [--regvet .venv/bin/regvet] [--out bench/results/realcode.json]
 
 Runs ``regvet check --format json --no-baseline --no-cache`` once over every labelled file found
@@ -137,7 +137,7 @@ def score(labels: dict[str, Any], findings: list[dict[str, Any]], present: set[s
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--corpus", type=Path, default=Path("/work/corpus"))
+    parser.add_argument("--corpus", type=Path, default=Path(__file__).resolve().parents[3] / "corpus")
     parser.add_argument("--labels", type=Path, default=HERE / "labels.json")
     parser.add_argument("--regvet", default=str(ROOT / ".venv" / "bin" / "regvet"))
     parser.add_argument("--out", type=Path, default=ROOT / "bench" / "results" / "realcode.json")
