@@ -733,8 +733,8 @@ ATTRIBUTE_HANDLERS: dict[str, AttributeHandler] = {
     tags.OUTCOME: Collector.attribute_of_columns,
     tags.COLUMNS: Collector.attribute_of_columns,
     tags.TIMED: Collector.attribute_of_timed,
-    tags.DATE_COLUMN: Collector.attribute_of_date_column,
-    tags.CATEGORY_COLUMN: Collector.attribute_of_date_column,
+    tags.DATE_COLUMN: Collector.attribute_of_frame_column,
+    tags.CATEGORY_COLUMN: Collector.attribute_of_frame_column,
     tags.LITERAL: Collector.attribute_of_literal,
 }
 #: ``call`` handlers by tag kind: ``(collector, tag, args, kwargs, node, frame, receiver) -> Value | None``.

@@ -21,7 +21,8 @@ from itertools import product
 
 from regvet.model.facts import Outcome
 
-_TRANSFORMS = {
+#: Functions that transform an outcome, and the transform's name (``np.log(y)``, ``log(y)`` -> log).
+TRANSFORMS = {
     "log": "log",
     "log1p": "log1p",
     "log10": "log10",
@@ -71,8 +72,8 @@ def outcome_of_expr(node: ast.expr) -> Outcome | None:
             return Outcome(arg.value, None, arg.value)
         if fname == "I":
             return outcome_of_expr(arg)
-        if fname in _TRANSFORMS:
-            transform = _TRANSFORMS[fname]
+        if fname in TRANSFORMS:
+            transform = TRANSFORMS[fname]
             inner = arg
     base = _base_name(inner)
     if base is None:

@@ -19,6 +19,7 @@ import ast
 from collections.abc import Iterable
 
 from regvet.analysis import catalog, tags, timeorder
+from regvet.analysis.formula import TRANSFORMS
 from regvet.analysis.state import CollectorState, Frame, Node, dotted_name, short_text
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import (
@@ -72,18 +73,6 @@ PASSING_ATTRIBUTES = frozenset({"values", "array", "T", "loc", "iloc"})
 PASSING_METHODS = frozenset({"to_numpy", "copy", "astype", "reset_index", "dropna", "squeeze", "ravel", "flatten"})
 #: Tag kinds arithmetic keeps (``2 * res.resid`` is still about the residuals).
 ARITHMETIC_KEEPS = frozenset({tags.PART, tags.MODEL_PART, tags.MEASURE, tags.TIMED, tags.OUTCOME, tags.SSR_SUM})
-#: numpy functions that transform an outcome, and the transform's name (``np.log(y)`` -> log).
-NUMPY_TRANSFORMS = {
-    "log": "log",
-    "log1p": "log1p",
-    "log10": "log10",
-    "log2": "log2",
-    "sqrt": "sqrt",
-    "exp": "exp",
-    "square": "square",
-    "abs": "abs",
-    "arcsinh": "asinh",
-}
 
 _CONTAINER_CALLS = frozenset({"list", "tuple", "set", "frozenset", "iter", "reversed", "sorted"})
 _POSITIONAL_CALLS = frozenset({"list", "tuple", "iter"})  # keep known positions
@@ -211,8 +200,8 @@ class LibrarySemantics(CollectorState):
         out.add(tag)
         return None
 
-    def attribute_of_date_column(self, tag: Tag, name: str, node: Node, frame: Frame, out: set[Tag]) -> Value | None:
-        """``df.loc``, ``df.values``: the same frame, with its date columns."""
+    def attribute_of_frame_column(self, tag: Tag, name: str, node: Node, frame: Frame, out: set[Tag]) -> Value | None:
+        """``df.loc``, ``df.values``: the same frame, with its date and category columns."""
         if name in PASSING_ATTRIBUTES:
             out.add(tag)
         return None
@@ -379,9 +368,9 @@ class LibrarySemantics(CollectorState):
         out: set[Tag] = {tags.opaque_call(node)}
         for tag in flat(first).tags:
             kind = tags.kind(tag)
-            if kind == tags.OUTCOME and fname in NUMPY_TRANSFORMS:
+            if kind == tags.OUTCOME and fname in TRANSFORMS:
                 old = tags.outcome_of(tag)
-                out.add(tags.outcome(Outcome(old.base, NUMPY_TRANSFORMS[fname], f"{fname}({old.text})")))
+                out.add(tags.outcome(Outcome(old.base, TRANSFORMS[fname], f"{fname}({old.text})")))
             elif kind == tags.PART:
                 fid, part = tags.fit_id(tag), tags.part_name(tag)
                 if fname == "square" and part == tags.RESID:
