@@ -105,7 +105,9 @@ def _ipython_shell(namespace: dict[str, Any], notes: _Notes) -> Any:
     from IPython.utils.text import SList
     from traitlets.config import Config
 
-    class RegvetShell(InteractiveShell):
+    base: Any = InteractiveShell  # its methods are overridden loosely, as IPython calls them
+
+    class RegvetShell(base):
         """The interactive shell without a terminal or a kernel, whose shell escapes do not run."""
 
         current = 0  # the index of the cell running now
@@ -142,7 +144,7 @@ def _ipython_shell(namespace: dict[str, Any], notes: _Notes) -> Any:
     config.HistoryManager.enabled = False
     config.InteractiveShell.colors = "nocolor"
     config.InteractiveShell.autocall = 0
-    shell = RegvetShell.instance(config=config, user_module=sys.modules["__main__"], user_ns=namespace)
+    shell: Any = RegvetShell.instance(config=config, user_module=sys.modules["__main__"], user_ns=namespace)
     shell.display_formatter.active_types = ["text/plain"]  # as a terminal: no images rendered
     shell.compile.get_code_name = lambda raw_code, transformed_code, number: cell_name(shell.current)
 
@@ -338,7 +340,7 @@ class _Compiler:
     def __init__(self) -> None:
         self.flags = getattr(ast, "PyCF_ALLOW_TOP_LEVEL_AWAIT", 0)
 
-    def __call__(self, tree: ast.AST, name: str, mode: str) -> types.CodeType:
+    def __call__(self, tree: Any, name: str, mode: str) -> types.CodeType:
         import __future__
 
         code = compile(tree, name, mode, self.flags, True)

@@ -274,7 +274,7 @@ def traceback_tail(exc: BaseException, user_files: set[str], limit: int = 12) ->
             for why, other in (("caused by", shown.__cause__), ("while handling", shown.__context__))
             if other is not None and not (why == "while handling" and shown.__suppress_context__)
         ]
-        shown.__cause__ = shown.__context__ = None  # the chain in one line each: the user's traceback is this one
+        shown.__cause__ = shown.__context__ = None  # type: ignore[assignment]  # the chain in one line each: the user's traceback is this one
         _from_user_code(shown, user_files)
         text = "".join(shown.format()).rstrip().split("\n")
         text[-1:-1] = [f"  ({why} {what})" for why, what in chained[:1]]
@@ -299,9 +299,9 @@ def _shown_name(filename: str) -> str:
 def _runner_dirs() -> tuple[str, ...]:
     """Folders whose frames are regvet's machinery, never the user's code: the probe and IPython."""
     dirs = [_PROBE_DIR]
-    ipython = sys.modules.get("IPython")
-    if ipython is not None and getattr(ipython, "__file__", None):
-        dirs.append(os.path.dirname(os.path.abspath(ipython.__file__)))
+    ipython = getattr(sys.modules.get("IPython"), "__file__", None)
+    if ipython:
+        dirs.append(os.path.dirname(os.path.abspath(ipython)))
     return tuple(d + os.sep for d in dirs)
 
 
@@ -326,4 +326,4 @@ def _from_user_code(shown: traceback.TracebackException, user_files: set[str]) -
         frame.filename = _shown_name(frame.filename)
     shown.stack = traceback.StackSummary.from_list(kept)
     if getattr(shown, "filename", None):  # a SyntaxError: where it is
-        shown.filename = _shown_name(shown.filename)  # type: ignore[assignment]
+        shown.filename = _shown_name(shown.filename)
