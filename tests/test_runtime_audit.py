@@ -67,8 +67,8 @@ def _basis(columns: list[list[Any]]) -> list[list[Any]]:
         v = list(col)
         for _ in range(2):
             for q in out:
-                d = mpmath.fsum(a * b for a, b in zip(q, v))
-                v = [a - d * b for a, b in zip(v, q)]
+                d = mpmath.fsum(a * b for a, b in zip(q, v, strict=False))
+                v = [a - d * b for a, b in zip(v, q, strict=False)]
         norm = mpmath.sqrt(mpmath.fsum(a * a for a in v))
         if norm > DEPENDENT * norm0:
             out.append([a / norm for a in v])
@@ -79,8 +79,8 @@ def _residual(y: list[Any], basis: list[list[Any]]) -> list[Any]:
     r = list(y)
     for _ in range(2):
         for q in basis:
-            d = mpmath.fsum(a * b for a, b in zip(q, r))
-            r = [a - d * b for a, b in zip(r, q)]
+            d = mpmath.fsum(a * b for a, b in zip(q, r, strict=False))
+            r = [a - d * b for a, b in zip(r, q, strict=False)]
     return r
 
 
@@ -121,8 +121,8 @@ def exact(y: np.ndarray, X: np.ndarray, weights: np.ndarray | None = None, timed
         root = [mpmath.sqrt(mpmath.mpf(float(w))) for w in weights[keep]]
         y = y[keep]
         X = X[keep]
-        ys = [r * a for r, a in zip(root, _vec(y))]
-        cols = [[r * a for r, a in zip(root, _vec(X[:, j]))] for j in range(X.shape[1])]
+        ys = [r * a for r, a in zip(root, _vec(y), strict=False)]
+        cols = [[r * a for r, a in zip(root, _vec(X[:, j]), strict=False)] for j in range(X.shape[1])]
     else:
         ys = _vec(y)
         cols = [_vec(X[:, j]) for j in range(X.shape[1])]
@@ -130,7 +130,7 @@ def exact(y: np.ndarray, X: np.ndarray, weights: np.ndarray | None = None, timed
     one = [mpmath.mpf(1)] * n
     design = _basis(cols)
     u = _residual(ys, design)
-    yhat = [a - b for a, b in zip(ys, u)]
+    yhat = [a - b for a, b in zip(ys, u, strict=False)]
     rank = len(design)
     if _ss(u) <= DEPENDENT**2 * _ss(ys):  # zero up to the reference's own rounding: a perfect fit
         return Exact(None, None, None, None)
@@ -138,7 +138,9 @@ def exact(y: np.ndarray, X: np.ndarray, weights: np.ndarray | None = None, timed
     with_one = [one, *cols]
     bp = _lm_pvalue(g, with_one, n)
     products = [
-        [a * b for a, b in zip(with_one[i], with_one[j])] for i in range(len(with_one)) for j in range(i, len(with_one))
+        [a * b for a, b in zip(with_one[i], with_one[j], strict=False)]
+        for i in range(len(with_one))
+        for j in range(i, len(with_one))
     ]
     white = _lm_pvalue(g, products, n)
     # RESET: F of ŷ², ŷ³ added to the design.
@@ -309,7 +311,7 @@ def test_the_probe_decides_as_the_exact_statistic_does(name: str) -> None:
     else:
         want = exact(case.y, case.X, case.weights, case.timed)
     got = _probe_pvalues(out)
-    for test, w, g in zip(Exact._fields, want, got):
+    for test, w, g in zip(Exact._fields, want, got, strict=False):
         where = f"{name} ({case.source}), {test}: exact p {w}, probe p {g} ({out['errors'].get(test, '')})"
         if w is None:
             assert g is None, f"{where}: the exact statistic is undefined, the probe reports a p-value"
@@ -321,7 +323,7 @@ def test_the_probe_decides_as_the_exact_statistic_does(name: str) -> None:
 def test_the_audit_covers_rejections_and_acceptances() -> None:
     # The audit means something only if the exact decisions go both ways on some test.
     decisions = set()
-    for name, case in CASES.items():
+    for case in CASES.values():
         if case.exact_y is None:
             for p in exact(case.y, case.X, case.weights, case.timed):
                 if p is not None:
@@ -357,10 +359,10 @@ def test_hc3_exists_at_a_leverage_of_one_minus_2e_11() -> None:
         warnings.simplefilter("ignore")
         out = fit_statistics(sm.OLS(y, X).fit())
     cols = [_vec(X[:, j]) for j in range(2)]
-    A = mpmath.matrix([[mpmath.fsum(a * b for a, b in zip(ci, cj)) for cj in cols] for ci in cols])
+    A = mpmath.matrix([[mpmath.fsum(a * b for a, b in zip(ci, cj, strict=False)) for cj in cols] for ci in cols])
     inv = A**-1
     ys = _vec(y)
-    beta = inv * mpmath.matrix([mpmath.fsum(a * b for a, b in zip(c, ys)) for c in cols])
+    beta = inv * mpmath.matrix([mpmath.fsum(a * b for a, b in zip(c, ys, strict=False)) for c in cols])
     meat = mpmath.matrix(2, 2)
     h_max = mpmath.mpf(0)
     for i in range(n):
