@@ -28,6 +28,7 @@ __all__ = [
     "constant_columns",
     "gram_with_constant",
     "leverages",
+    "root_inverse",
     "ssr_on_columns",
     "sweep",
 ]
@@ -130,6 +131,22 @@ def constant_columns(X: np.ndarray, block: int = 4096) -> np.ndarray:
                 candidates = candidates[candidates != j]
                 break
     return candidates
+
+
+def root_inverse(r: np.ndarray, rank: int) -> np.ndarray:
+    """T (k x rank) with T·T' = (R'R)⁻ on R's leading ``rank`` scaled singular directions.
+
+    R is the triangular factor of a tall matrix V (R'R = V'V). With the columns of R scaled to unit
+    length, R·D⁻¹ = U·S·W', and T = D⁻¹·W·S⁻¹: the rows q_i = v_i·T are the rows of V's orthonormal
+    factor Q (on those directions), so the leverage h_i = ‖q_i‖² is accurate to about eps times the
+    condition number of the scaled design, not its square, and does not depend on how the rows
+    were blocked.
+    """
+    d = np.sqrt(np.sum(r * r, axis=0))
+    d[~(d > 0)] = 1.0
+    _, sv, wt = np.linalg.svd(r / d, full_matrices=False)
+    keep = max(0, min(int(rank), int(np.sum(sv > 0))))
+    return (wt[:keep].T / sv[:keep]) / d[:, None]
 
 
 def leverages(v: np.ndarray, ginv: np.ndarray) -> np.ndarray:
