@@ -18,7 +18,8 @@ squares the condition number by forming a cross-product matrix and inverting or 
 * :func:`term_sets`: which columns form one term (a predictor with its powers and the interactions
   that contain it, the dummies of one categorical): from patsy's ``design_info`` when the fit came
   from a formula, else from the column names (``x**2``, ``I(x ** 2)``, ``np.power(x, 2)``, ``x:z``,
-  ``C(g)[T.b]``); other columns are terms of their own.
+  ``C(g)[T.b]``); other columns are terms of their own, and predictors joined by an interaction
+  are one term.
 """
 
 from __future__ import annotations
@@ -51,8 +52,8 @@ FORM_CONDITION_INDEX = (
 )
 FORM_GVIF = (
     "Fox-Monette generalized VIF per term (a predictor with its powers and the interactions that contain "
-    "it, the dummies of one categorical): det(R_SS)·det(R_rest)/det(R) of the regressors' correlation "
-    "matrix R; scaled = GVIF^(1/(2·df))"
+    "it, the dummies of one categorical; predictors that interact are one term): det(R_SS)·det(R_rest)/det(R) "
+    "of the regressors' correlation matrix R; scaled = GVIF^(1/(2·df))"
 )
 
 #: Dimensions are reported from this condition index on, with the proportions from this share on
@@ -259,22 +260,42 @@ def _column_predictors(model: Any, names: list[str], idx: list[int]) -> list[set
 
 
 def term_sets(model: Any, names: list[str], idx: list[int]) -> list[tuple[str, list[int]]]:
-    """One set of columns (positions into ``idx``) per predictor: every column that involves it.
+    """The model's terms as sets of columns (positions into ``idx``), in the order of their first column.
 
-    Sets that repeat (a predictor that appears only together with another) are listed once; sets are
-    in the order of their first column.
+    A predictor's term is every column that involves it (its powers, its dummies, the interactions
+    that contain it); predictors that share a column (an interaction x:z) are one term, since the
+    interaction belongs to both. A one-column term is labelled with the column's name, a larger one
+    with its predictors joined by " * ".
     """
     found = _column_predictors(model, names, idx)
-    sets: dict[str, list[int]] = {}
+    label_of: dict[str, str] = {}
+    parent: dict[str, str] = {}
+
+    def root(p: str) -> str:
+        while parent[p] != p:
+            parent[p] = parent[parent[p]]
+            p = parent[p]
+        return p
+
+    for preds in found:
+        ordered = sorted(preds)
+        for p in ordered:
+            parent.setdefault(p, p)
+            label_of.setdefault(p, p)
+        for p in ordered[1:]:
+            a, b = root(ordered[0]), root(p)
+            if a != b:
+                parent[b] = a
+    groups: dict[str, list[int]] = {}
+    members: dict[str, list[str]] = {}
     for pos, preds in enumerate(found):
-        for p in sorted(preds):
-            sets.setdefault(p, []).append(pos)
+        key = root(sorted(preds)[0])
+        groups.setdefault(key, []).append(pos)
+    for p in parent:
+        members.setdefault(root(p), []).append(p)
     out: list[tuple[str, list[int]]] = []
-    seen: set[tuple[int, ...]] = set()
-    for label, cols in sorted(sets.items(), key=lambda item: item[1][0]):
-        key = tuple(cols)
-        if key in seen:
-            continue
-        seen.add(key)
-        out.append((names[idx[cols[0]]] if len(cols) == 1 else label, cols))
+    for key, cols in sorted(groups.items(), key=lambda item: item[1][0]):
+        first = {p: min(i for i, preds in enumerate(found) if p in preds) for p in members[key]}
+        label = names[idx[cols[0]]] if len(cols) == 1 else " * ".join(sorted(members[key], key=first.__getitem__))
+        out.append((label, cols))
     return out
