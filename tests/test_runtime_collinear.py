@@ -82,7 +82,7 @@ def test_condition_indexes_and_proportions_equal_numpy_svd_of_the_scaled_design(
     names = res.model.exog_names
     shown = sorted((k for k in range(len(index)) if index[k] >= 10), key=lambda k: -index[k])
     assert [d["index"] for d in ci["dimensions"]] == pytest.approx([index[k] for k in shown], rel=1e-9)
-    for dim, k in zip(ci["dimensions"], shown):
+    for dim, k in zip(ci["dimensions"], shown, strict=False):
         expected = {names[j]: props[j, k] for j in range(len(names)) if props[j, k] >= 0.1}
         assert dim["proportions"].keys() == expected.keys()
         for name, value in expected.items():
