@@ -22,6 +22,10 @@ How the numbers are computed (and why), in short:
   Cross-product matrices are equilibrated (scaled to unit diagonal) before they are inverted, so the
   relative accuracy is about eps times the squared condition number of the *centred, unit-scaled*
   design (Longley: 110, against 4.9e9 for the raw design), not of the raw one.
+  Robust standard errors (their leverages and sandwich), condition indexes, VIFs and generalized
+  VIFs come from the triangular factor of a blocked QR of that design instead (``regvet_collinear``,
+  ``regvet_linalg.root_inverse``): eps times the condition number, not its square, and the same
+  whatever the row blocks.
 * Auxiliary regressions are done by partitioned (Frisch-Waugh-Lovell) regression: RESET regresses
   the residuals on the powers of the fitted values after residualising those on the design;
   Breusch-Godfrey does the same with the lagged residuals; Breusch-Pagan needs only X'(u^2).
@@ -626,10 +630,16 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
       ``white_max_columns`` columns, else "special (ŷ, ŷ²)" (= ``het_breuschpagan(resid, [1, ŷ, ŷ²])``).
     * ``reset``: ``{"form", "f", "pvalue", "df_num", "df_denom"}`` = ``linear_reset(res, power=3, use_f=True)``.
     * ``jarque_bera``: ``{"statistic", "pvalue", "skew", "kurtosis", "form"}`` = ``stattools.jarque_bera``.
-    * ``condition_index``: ``{"value", "form"}``, Belsley-Kuh-Welsch (unit-length columns incl. the
-      constant, not centred; not statsmodels' raw ``condition_number``).
+    * ``condition_index``: ``{"value", "form", "constant", "dimensions": [{"index", "proportions"}]}``,
+      Belsley-Kuh-Welsch (unit-length columns incl. the constant, not centred; not statsmodels' raw
+      ``condition_number``), from the SVD of the design's QR factor; ``dimensions``: every direction
+      with an index of at least 10, with its variance-decomposition proportions of at least 0.1
+      (``regvet_collinear``); ``constant``: the name of the explicit constant column.
     * ``vif``: ``{"max", "variable", "values": {name: vif}}``, centred VIFs of the non-constant
       regressors (= ``variance_inflation_factor(exog, i)``, standardize=True).
+    * ``gvif``: ``{"max", "term", "terms": [{"term", "columns", "df", "gvif", "scaled"}], "form"}``,
+      Fox-Monette generalized VIFs of the model's terms (``regvet_collinear.term_sets``); ``scaled``
+      = GVIF^(1/(2·df)).
     * ``time_ordered``: why the data is time-ordered (DatetimeIndex/PeriodIndex rows, or
       ``time_column`` in the model's data frame), else None; then ``durbin_watson`` (float) and
       ``breusch_godfrey`` ``{"lm", "lm_pvalue", "f", "f_pvalue", "lags", "form"}``
