@@ -86,12 +86,18 @@ class TallQR:
         self.r: np.ndarray | None = None
         self.rows = 0
 
+    #: Rows per QR: LAPACK's QR of a very tall, narrow block is slower per row than of a shorter one
+    #: (measured: 1e6 x 22 in blocks of 65,536 rows 0.65 s, in sub-blocks of 8,192 rows 0.35 s).
+    SUB_ROWS = 8192
+
     def add(self, block: np.ndarray) -> None:
         if block.shape[0] == 0:
             return
         self.rows += block.shape[0]
-        stacked = block if self.r is None else np.vstack([self.r, block])
-        self.r = _qr_r(stacked)
+        for s in range(0, block.shape[0], self.SUB_ROWS):
+            part = block[s : s + self.SUB_ROWS]
+            stacked = part if self.r is None else np.vstack([self.r, part])
+            self.r = _qr_r(stacked)
 
 
 def ssr_on_columns(r: np.ndarray, n_rows: int, p: int) -> tuple[float, int]:
