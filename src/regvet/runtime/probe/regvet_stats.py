@@ -65,6 +65,7 @@ from regvet_linalg import (
     ssr_on_columns,
 )
 from regvet_passes import RowPasses
+from regvet_reset import reset as reset_test
 from scipy import stats
 
 __all__ = ["DEFAULT_OPTIONS", "fit_statistics"]
@@ -74,7 +75,6 @@ _SIGNIFICANCE = 0.05
 FORM_BREUSCH_PAGAN = "Koenker studentized LM = n·R² of û² on the regressors; F from the same auxiliary regression"
 FORM_WHITE_FULL = "full"
 FORM_WHITE_SPECIAL = "special (ŷ, ŷ²)"
-FORM_RESET = "F test of powers 2 and 3 of the fitted values"
 FORM_JARQUE_BERA = "kurtosis is not excess kurtosis"
 FORM_CONDITION_INDEX = "Belsley-Kuh-Welsch: columns incl. the constant scaled to unit length, not centred"
 FORM_WITHIN_UNITS = "û_it on û_i,t-1 with an intercept, rows sorted by unit and time; cluster-robust by unit, t(G-1)"
@@ -186,6 +186,11 @@ class _Stats(RowPasses):
         ess = min(max(ess, 0.0), tss)
         lm = n * ess / tss
         ssr = tss - ess
+        if ssr <= self._aux_resolution() ** 2 * tss:
+            raise StatisticError(
+                "not identified: the auxiliary regression reproduces the squared residuals exactly (R² = 1, "
+                "as with two rows per cell of a saturated design), so there is no variation left to test against"
+            )
         f = (ess / df_model) / (ssr / df_resid) if ssr > 0 else math.inf
         return {
             "lm": as_float(lm),
@@ -194,6 +199,16 @@ class _Stats(RowPasses):
             "f_pvalue": as_float(stats.f.sf(f, df_model, df_resid)) if math.isfinite(f) else as_float(0.0),
             "df": int(df_model),
         }
+
+    def _aux_resolution(self) -> float:
+        """The relative size below which what an auxiliary regression of û² leaves is rounding: û
+        carries the rounding of y − ŷ relative to its own size (and that of the design's condition)."""
+        fit = self.fit
+        u_rms = math.sqrt(fit.ssr / fit.n) if fit.n else 0.0
+        y_rms = math.sqrt(float(fit.y @ fit.y) / fit.n) if fit.n else 0.0
+        eig = self.Ginv.eigenvalues[: max(self.Ginv.rank, 1)] if hasattr(self, "Ginv") else np.ones(1)
+        cond = float(eig[0] / eig[-1]) if eig.size and eig[-1] > 0 else 1.0
+        return 100.0 * (fit.k + 2) * EPS * (cond + (y_rms / u_rms if u_rms > 0 else 1.0))
 
     def breusch_pagan(self) -> dict[str, Any]:
         """Koenker's studentized BP: n·R² of û² on the design (with an intercept); = het_breuschpagan."""
@@ -243,27 +258,8 @@ class _Stats(RowPasses):
         return out
 
     def reset(self) -> dict[str, Any]:
-        """RESET with ŷ², ŷ³: F of the powers added to the model (= linear_reset(power=3, use_f=True))."""
-        fit = self.fit
-        fit.require_residuals()
-        self.need("gram", "reset")
-        gi = GInverse(self.reset_rr)
-        q = gi.rank
-        if q == 0:
-            raise StatisticError("the powers of the fitted values lie in the span of the regressors")
-        ess = gi.quad(self.reset_ru)
-        df_denom = float(fit.res.df_resid) - q
-        ssr_u = fit.ssr - ess
-        if df_denom <= 0:
-            raise StatisticError("too few residual degrees of freedom for the RESET regression")
-        f = (ess / q) / (ssr_u / df_denom) if ssr_u > 0 else math.inf
-        return {
-            "form": FORM_RESET,
-            "f": as_float(f),
-            "pvalue": as_float(stats.f.sf(f, q, df_denom)) if math.isfinite(f) else as_float(0.0),
-            "df_num": int(q),
-            "df_denom": as_count(df_denom),
-        }
+        """RESET with ŷ², ŷ³ (classical F, and the robust Wald test for HC fits): see ``regvet_reset``."""
+        return reset_test(self)
 
     def jarque_bera(self) -> dict[str, Any]:
         """JB = n/6·(S² + (K − 3)²/4) with biased moments; K is not excess kurtosis (= stattools.jarque_bera)."""
@@ -612,7 +608,13 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
     * ``white``: ``{"form", "lm", "lm_pvalue", "f", "f_pvalue", "df", "columns"}``: "full"
       (= ``het_white(resid, exog)``, df from the rank) while the auxiliary regression has at most
       ``white_max_columns`` columns, else "special (ŷ, ŷ²)" (= ``het_breuschpagan(resid, [1, ŷ, ŷ²])``).
-    * ``reset``: ``{"form", "f", "pvalue", "df_num", "df_denom"}`` = ``linear_reset(res, power=3, use_f=True)``.
+    * ``reset``: ``{"form", "f", "pvalue", "df_num", "df_denom", "dummies_only", "robust"}``: the F test
+      = ``linear_reset(res, power=3, use_f=True)``, df_num from the powers identified beyond the
+      design; ``dummies_only``: every non-constant regressor takes two values; ``robust``: for a fit
+      with HC0-HC3 covariance ``{"cov_type", "form", "f", "pvalue", "df_num", "df_denom"}``, the Wald
+      test with that covariance (= ``linear_reset(..., cov_type=...)``), else None (why, for other
+      robust types, under ``errors["reset_robust"]``). None with ``errors["reset"]`` "not identified:
+      ..." when the powers lie in the span of the regressors.
     * ``jarque_bera``: ``{"statistic", "pvalue", "skew", "kurtosis", "form"}`` = ``stattools.jarque_bera``.
     * ``condition_index``: ``{"value", "form"}``, Belsley-Kuh-Welsch (unit-length columns incl. the
       constant, not centred; not statsmodels' raw ``condition_number``).
