@@ -256,3 +256,98 @@ def test_not_identified_designs_still_give_every_other_statistic() -> None:
         warnings.simplefilter("ignore")
         out = run(smf.ols("delay ~ pilot", data=_harbours()).fit())
     assert out["reset"] is None and out["breusch_pagan"] is not None and out["jarque_bera"] is not None
+
+
+# ------------------------------------------------------------------------------------------
+# Chow: only where it tests something, degrees of freedom from the ranks each group identifies
+
+
+def _crossings(seed: int = 19, n: int = 180) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
+    frame = pd.DataFrame(
+        {
+            "port": rng.choice(["Kelp Bay", "Gull Point", "Saltmarsh"], n),
+            "fare": rng.uniform(2.0, 9.0, n),
+            "wind": rng.normal(0.0, 1.0, n),
+            "night": rng.integers(0, 2, n),
+        }
+    )
+    slope = frame["port"].map({"Kelp Bay": -10.0, "Gull Point": -12.0, "Saltmarsh": -9.0})
+    frame["riders"] = 400.0 + slope * frame["fare"] + 3.0 * frame["wind"] + rng.normal(0.0, 5.0, n)
+    return frame
+
+
+def _separate_fits(frame: pd.DataFrame, formula: str, group: str, pooled: Any) -> tuple[float, float, int, int]:
+    """The Chow F from separate statsmodels OLS fits per group (the pooled fit's design, each group's rows):
+    df_num = Σ rank_g − rank, df_denom = n − Σ rank_g, with each rank as statsmodels identifies it."""
+    X = np.asarray(pooled.model.exog, dtype=float)
+    y = np.asarray(pooled.model.endog, dtype=float)
+    labels = frame.loc[pooled.model.data.row_labels, group].to_numpy()
+    ssr = 0.0
+    ranks = 0
+    for value in np.unique(labels):
+        rows = labels == value
+        part = sm.OLS(y[rows], X[rows]).fit()
+        ssr += float(part.ssr)
+        ranks += int(part.model.rank)
+    n = y.size
+    df_num, df_denom = ranks - int(pooled.model.rank), n - ranks
+    f = ((float(pooled.ssr) - ssr) / df_num) / (ssr / df_denom)
+    return f, float(stats.f.sf(f, df_num, df_denom)), df_num, df_denom
+
+
+def test_no_chow_test_where_the_model_already_interacts_every_regressor_with_the_candidate() -> None:
+    frame = _crossings()
+    res = smf.ols("riders ~ C(port) * (fare + wind)", data=frame).fit()
+    out = run(res, break_candidates=["port"])
+    [chow] = out["chow"]
+    assert chow["f"] is None and chow["pvalue"] is None
+    assert out["errors"]["chow:port"].startswith("not run:") and "unrestricted" in out["errors"]["chow:port"]
+    # Reference: separate statsmodels OLS fits per port add no parameter and no fit to the pooled model.
+    X, y = np.asarray(res.model.exog), np.asarray(res.model.endog)
+    parts = [sm.OLS(y[frame["port"] == g], X[frame["port"] == g]).fit() for g in frame["port"].unique()]
+    assert sum(int(p.model.rank) for p in parts) == int(res.model.rank)
+    close(sum(float(p.ssr) for p in parts), res.ssr, rtol=1e-9)
+
+
+def test_chow_where_the_model_interacts_only_some_regressors_tests_the_rest() -> None:
+    frame = _crossings()
+    formula = "riders ~ C(port) * fare + wind"
+    res = smf.ols(formula, data=frame).fit()
+    chow = run(res, break_candidates=["port"])["chow"][0]
+    f, pvalue, df_num, df_denom = _separate_fits(frame, formula, "port", res)  # reference: statsmodels per group
+    assert (chow["df_num"], chow["df_denom"]) == (df_num, df_denom) == (2, 180 - 9)
+    close([chow["f"], chow["pvalue"]], [f, pvalue])
+
+
+@pytest.mark.parametrize("chunk", [65_536, 7])
+def test_chow_degrees_of_freedom_come_from_the_ranks_each_group_identifies(chunk: int) -> None:
+    """One port where `gust` is exactly twice `wind`, one with fewer rows than parameters, one where the
+    night dummy never varies: each group identifies fewer directions than the design has columns."""
+    frame = _crossings()
+    rng = np.random.default_rng(4)
+    frame["gust"] = rng.normal(0.0, 1.0, len(frame))
+    kelp = frame["port"] == "Kelp Bay"
+    frame.loc[kelp, "gust"] = 2.0 * frame.loc[kelp, "wind"]
+    frame.loc[frame["port"] == "Saltmarsh", "night"] = 1
+    tiny = frame.index[frame["port"] == "Gull Point"][:3]
+    frame = frame[(frame["port"] != "Gull Point") | frame.index.isin(tiny)]
+    formula = "riders ~ fare + wind + gust + night"
+    res = smf.ols(formula, data=frame).fit()
+    chow = run(res, break_candidates=["port"], chunk_rows=chunk)["chow"][0]
+    f, pvalue, df_num, df_denom = _separate_fits(frame, formula, "port", res)  # reference: statsmodels per group
+    # Ranks: Kelp Bay 4 (gust = 2·wind), Gull Point 3 (three rows), Saltmarsh 4 (night constant); pooled 5.
+    assert (chow["df_num"], chow["df_denom"]) == (df_num, df_denom) == (4 + 3 + 4 - 5, len(frame) - 11)
+    close([chow["f"], chow["pvalue"]], [f, pvalue])
+
+
+def test_no_chow_entry_for_a_candidate_the_fits_data_does_not_have() -> None:
+    frame = _crossings()
+    res = smf.ols("riders ~ fare", data=frame).fit()
+    out = run(res, break_candidates=["timetable", "timetable == 2", "fare >", "night == 1"])
+    assert [c["candidate"] for c in out["chow"]] == ["fare >", "night == 1"]
+    assert "chow:fare >" in out["errors"] and not any("timetable" in key for key in out["errors"])
+    arrays = sm.OLS(frame["riders"].to_numpy(), sm.add_constant(frame[["fare"]].to_numpy())).fit()
+    out = run(arrays, break_candidates=["timetable", "x1 > 5"])
+    assert [c["candidate"] for c in out["chow"]] == ["x1 > 5"]  # names a design column, but no frame to query
+    assert "no data frame" in out["errors"]["chow:x1 > 5"]

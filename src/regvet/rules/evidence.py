@@ -20,6 +20,8 @@ from regvet.model.stats_schema import (
     FitEvidence,
     FitStatistics,
     NestedFTest,
+    ResetTest,
+    RobustReset,
 )
 from regvet.rules.base import RuleInput
 
@@ -241,3 +243,15 @@ def _comparison(inp: RuleInput, fids: tuple[int, ...]) -> ComparisonTable:
     if tests:
         result["nested_f_tests"] = tests
     return result
+
+
+def judged_reset(stats: FitStatistics) -> tuple[str, ResetTest | RobustReset] | None:
+    """The RESET a run's fit is judged by, with its label: the robust Wald form when the fit has HC
+    covariance (the probe computes it with the fit's own HC type), else the classical F."""
+    reset = stats.get("reset")
+    if reset is None:
+        return None
+    robust = reset.get("robust")
+    if robust is not None:
+        return f"with {robust.get('cov_type')} covariance", robust
+    return "", reset

@@ -46,7 +46,7 @@ from typing import Any
 import numpy as np
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
-from regvet_align import candidate_groups, fingerprint
+from regvet_align import CandidateAbsent, candidate_groups, fingerprint
 from regvet_fit import (
     DEFAULT_OPTIONS,
     FitInputs,
@@ -455,7 +455,8 @@ class _Stats(RowPasses):
         }
 
     def chow(self) -> list[dict[str, Any]]:
-        """One Chow F test per break candidate, from the pooled and the per-group SSRs."""
+        """One Chow F test per break candidate, from the pooled and the per-group SSRs; no entry for a
+        candidate the fit's data does not have (a break candidate of other fits)."""
         out = []
         for candidate in self.opts["break_candidates"]:
             entry: dict[str, Any] = {
@@ -469,6 +470,8 @@ class _Stats(RowPasses):
             }
             try:
                 entry.update(self._chow_one(candidate))
+            except CandidateAbsent:
+                continue  # a candidate for other fits: this one's data does not have it
             except Exception as exc:
                 self.errors[f"chow:{candidate}"] = error_message(exc)
             out.append(entry)
@@ -506,7 +509,10 @@ class _Stats(RowPasses):
             "df_denom": int(df_denom),
         }
         if df_num <= 0:
-            raise StatisticError("the group-wise regressions add no parameters")
+            raise StatisticError(
+                f"not run: the model already has its own coefficients in every group of {candidate!r} (every "
+                "regressor interacts with it), so it is the unrestricted model and there is nothing to test"
+            )
         if df_denom <= 0:
             raise StatisticError("too few observations per group for separate regressions")
         if not ssr_groups > 0:
@@ -625,7 +631,9 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
       ``breusch_godfrey`` ``{"lm", "lm_pvalue", "f", "f_pvalue", "lags", "form"}``
       (= ``acorr_breusch_godfrey(res, nlags=lags)``), both None when not time-ordered.
     * ``chow``: one ``{"candidate", "groups" (how many), "group_sizes": [{"label", "nobs"}], "f",
-      "pvalue", "df_num", "df_denom"}`` per break candidate (in the order given; the values are None
+      "pvalue", "df_num", "df_denom"}`` per break candidate the fit's data has (in the order given;
+      none for a name neither the frame nor the design holds; not run, values None, when the model
+      already interacts every regressor with it; the values are None
       and ``errors["chow:<candidate>"]`` says why when it cannot be computed), F = ((SSR_pooled − Σ SSR_g)/df_num)/(Σ SSR_g/df_denom) with
       df_num = Σ rank_g − rank and df_denom = n − Σ rank_g ((G−1)k and n − Gk at full rank); equal
       to the F test of all group interactions.
