@@ -30,7 +30,7 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     s, label, r = rejecting[0]
     reset = s.get("reset")
     name = f"Ramsey's RESET {label}" if label else "Ramsey's RESET"
-    test = f"{name}, F({r.get('df_num')}, {num(r.get('df_denom'))}) = {num(r.get('f'))}, {p(r.get('pvalue'))}"
+    test = f"{name}, F({r.get('df_num')}, {r.get('df_denom')}) = {num(r.get('f'))}, {p(r.get('pvalue'))}"
     if label and reset is not None:
         test += f"; classical F = {num(reset.get('f'))}, {p(reset.get('pvalue'))}"
     runs_note = in_runs(len(rejecting), len(stats))

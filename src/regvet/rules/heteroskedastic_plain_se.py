@@ -7,7 +7,7 @@ from collections.abc import Iterator
 from regvet.model.finding import Finding, Severity
 from regvet.model.stats_schema import FitStatistics
 from regvet.rules.base import Rule, RuleInput, describe_fit
-from regvet.rules.evidence import coefficient_clause, in_runs, num, p, runs
+from regvet.rules.evidence import changed_coefficients, coefficient_clause, in_runs, num, p, runs
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -32,10 +32,15 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 'Report robust standard errors (`.fit(cov_type="HC3")`).'
             )
         else:
+            changes = (
+                coefficient_clause(s)
+                if changed_coefficients(s)
+                else "no coefficient changes significance at 5 % under robust standard errors"
+            )
             message = (
                 f"{text}{where}: the error variance of {describe_fit(fit)} may not be constant, so its usual t "
-                f"tests (`{uses[0].member}`) may not be valid; {coefficient_clause(s)}. "
-                'Report robust standard errors (`.fit(cov_type="HC3")`), or say why one test is enough.'
+                f"tests (`{uses[0].member}`) may not be valid; {changes}. "
+                'Report robust standard errors (`.fit(cov_type="HC3")`): they are valid whether it is or not.'
             )
         finding = RULE.fit_finding(fit, message, uses)
         yield finding if both else finding.with_(severity=Severity.WARNING)
@@ -53,18 +58,19 @@ def _verdict(s: FitStatistics, alpha: float) -> tuple[str, bool] | None:
     white_rejects = white_p is not None and white_p < alpha
     if not (bp_rejects or white_rejects):
         return None
-    bp_text = f"Breusch-Pagan in Koenker's form, LM = {num(bp.get('lm') if bp else None)}, {p(bp_p)}"
-    name = "White's test" if white is None or white.get("form") == "full" else "White's special test"
-    white_text = f"{name}, LM = {num(white.get('lm') if white else None)}, {p(white_p)}"
+    bp_name = "Breusch-Pagan in Koenker's form"
+    white_name = "White's test" if white is None or white.get("form") == "full" else "White's special test"
+    bp_stat = f"LM = {num(bp.get('lm') if bp else None)}, {p(bp_p)}"
+    white_stat = f"LM = {num(white.get('lm') if white else None)}, {p(white_p)}"
     if bp_rejects and white_rejects:
-        return f"{bp_text}; {white_text}", True
+        return f"{bp_name}, {bp_stat}; {white_name}, {white_stat}", True
     if bp_rejects and white_p is None:
-        return bp_text, True
+        return f"{bp_name}, {bp_stat}", True
     if bp_rejects:
-        return f"{bp_text}, but {white_text}: only the primary test rejects", False
+        return f"Only {bp_name} rejects, {bp_stat}; {white_name} does not, {white_stat}", False
     if bp_p is None:
-        return f"{white_text}; Breusch-Pagan could not be computed", False
-    return f"{white_text}, but {bp_text}: only White's test rejects", False
+        return f"Only {white_name} rejects, {white_stat}; {bp_name} could not be computed", False
+    return f"Only {white_name} rejects, {white_stat}; {bp_name} does not, {bp_stat}", False
 
 
 RULE = Rule(
