@@ -78,7 +78,7 @@ def reset(passes: RowPasses) -> dict[str, Any]:
         raise StatisticError(_not_identified(passes))
     q = powers.q
     ess = float(powers.gamma @ (powers.w * powers.gamma))
-    df_denom = float(fit.res.df_resid) - q
+    df_denom = float(fit.df_resid) - q
     ssr_u = fit.ssr - ess
     if df_denom <= 0:
         raise StatisticError("too few residual degrees of freedom for the RESET regression")
@@ -89,7 +89,7 @@ def reset(passes: RowPasses) -> dict[str, Any]:
         "pvalue": as_float(stats.f.sf(f, q, df_denom)) if math.isfinite(f) else as_float(0.0),
         "df_num": int(q),
         "df_denom": as_count(df_denom),
-        "dummies_only": dummies_only(np.asarray(fit.model.exog), fit.chunk),
+        "dummies_only": dummies_only(fit.select(np.asarray(fit.model.exog)), fit.chunk),
         "robust": None,
     }
     cov = str(getattr(fit.res, "cov_type", "nonrobust"))
@@ -160,7 +160,7 @@ def _not_identified(passes: RowPasses) -> str:
             "the fitted values take only two values, so their squares and cubes are linear in them and lie in "
             "the span of the regressors"
         )
-    elif dummies_only(np.asarray(fit.model.exog), fit.chunk):
+    elif dummies_only(fit.select(np.asarray(fit.model.exog)), fit.chunk):
         why = (
             f"the regressors are dummies that give every cell its own mean ({values} fitted values), so every "
             "function of the fitted values lies in the span of the regressors"
