@@ -90,7 +90,10 @@ def summary(stats: FitStatistics) -> str:
     if bp is not None and bp.get("lm_pvalue") is not None:
         bits.append(f"BP {p(bp.get('lm_pvalue'))}")
     reset = stats.get("reset")
-    if reset is not None and reset.get("pvalue") is not None:
+    robust = reset.get("robust") if reset is not None else None
+    if robust is not None and robust.get("pvalue") is not None:
+        bits.append(f"{robust.get('cov_type')} RESET {p(robust.get('pvalue'))}")
+    elif reset is not None and reset.get("pvalue") is not None:
         bits.append(f"RESET {p(reset.get('pvalue'))}")
     bg = stats.get("breusch_godfrey")
     if bg is not None and bg.get("lm_pvalue") is not None:

@@ -51,15 +51,12 @@ class _Powers:
         size[~(size > 0)] = 1.0
         rr = (passes.reset_rr + passes.reset_rr.T) / 2.0
         w, q = np.linalg.eigh(rr / np.outer(size, size))
-        # What a residualised direction of relative length below `resolved` is: rounding. The
-        # residualisation solves normal equations (error ~ eps·cond(V'V)), and ŷ itself carries the
-        # rounding of y − û relative to its spread.
-        eig = passes.Ginv.eigenvalues[: max(passes.Ginv.rank, 1)]
-        cond = float(eig[0] / eig[-1]) if eig.size and eig[-1] > 0 else math.inf
+        # What a residualised direction of relative length below `resolved` is: rounding, the design's
+        # noise floor (eps times its scaled condition) and that of ŷ = y − û relative to its spread.
         y_rms = math.sqrt(float(fit.y @ fit.y) / fit.n) if fit.n else 0.0
-        spread = math.sqrt(float(fit.yhat @ fit.yhat) / fit.n - float(fit.yhat.mean()) ** 2) if fit.n else 0.0
+        spread = math.sqrt(max(float(fit.yhat @ fit.yhat) / fit.n - float(fit.yhat.mean()) ** 2, 0.0)) if fit.n else 0.0
         offset = y_rms / spread if spread > 0 else math.inf
-        self.resolved = 100.0 * (fit.k + 2) * EPS * (cond + offset)
+        self.resolved = fit.noise * (1.0 + offset)
         keep = w > self.resolved**2
         self.q = int(keep.sum())
         self.w = w[keep]

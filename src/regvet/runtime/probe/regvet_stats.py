@@ -203,13 +203,11 @@ class _Stats(RowPasses):
 
     def _aux_resolution(self) -> float:
         """The relative size below which what an auxiliary regression of û² leaves is rounding: û
-        carries the rounding of y − ŷ relative to its own size (and that of the design's condition)."""
+        carries the rounding of y − ŷ (the design's noise floor, relative to y) relative to its own size."""
         fit = self.fit
         u_rms = math.sqrt(fit.ssr / fit.n) if fit.n else 0.0
         y_rms = math.sqrt(float(fit.y @ fit.y) / fit.n) if fit.n else 0.0
-        eig = self.Ginv.eigenvalues[: max(self.Ginv.rank, 1)] if hasattr(self, "Ginv") else np.ones(1)
-        cond = float(eig[0] / eig[-1]) if eig.size and eig[-1] > 0 else 1.0
-        return 100.0 * (fit.k + 2) * EPS * (cond + (y_rms / u_rms if u_rms > 0 else 1.0))
+        return fit.noise * (1.0 + (y_rms / u_rms if u_rms > 0 else 1.0))
 
     def breusch_pagan(self) -> dict[str, Any]:
         """Koenker's studentized BP: n·R² of û² on the design (with an intercept); = het_breuschpagan."""
