@@ -55,6 +55,7 @@ SLOW_GROUPS: dict[str, str] = {
     "test_runtime.py": "runtime",  # the analysed code runs in real child processes
     "test_golden_text.py::test_demo_run_text_matches_the_golden_file": "runtime",
     "test_runtime_rules.py": "runtime",
+    "test_runtime_judging.py": "runtime",
     "test_demo.py::test_demo_run_gives_the_documented_findings_from_the_numbers": "runtime",
     "test_demo.py::test_demo_scripts_run": "runtime",
     "test_demo.py::test_demo_notebook_cells_run_in_order": "runtime",

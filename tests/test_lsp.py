@@ -594,7 +594,10 @@ async def test_run_fits_command_reports_progress_and_attaches_statistics(project
         diags = c.lsp.diagnostics[uri]
         assert codes(diags) == ["heteroskedastic-plain-se", "no-form-test", "no-variance-test"]
         hetero = next(d for d in diags if d.code == "heteroskedastic-plain-se")
-        assert "Breusch-Pagan LM =" in hetero.message and hetero.data["stats"]["fits"][0]["statistics"]["nobs"] == 200
+        assert (
+            "Breusch-Pagan in Koenker's form, LM =" in hetero.message
+            and hetero.data["stats"]["fits"][0]["statistics"]["nobs"] == 200
+        )
         variance = next(d for d in diags if d.code == "no-variance-test")
         assert "[run: n=200, BP p < 0.001" in variance.message
         [reports] = list(c.lsp.progress_reports.values())

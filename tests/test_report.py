@@ -352,7 +352,9 @@ def test_run_report_has_statistics_coefficients_and_plots(ran):
     check_html(text)
     assert text.count('<table class="checks">') == 22
     assert "done, passed" in text and "done, rejected" in text
-    assert "F(2, 539) = 106.7" in text  # RESET of the helper-made weather model, as the probe computed it
+    # RESET of the helper-made weather model (an HC3 fit), as the probe computed it: the HC3 Wald form
+    # it is judged by, and the classical F beside it.
+    assert "HC3 covariance, F(2, 539) = 110.7, p &lt; 0.001; classical F = 106.7, p &lt; 0.001" in text
     assert "Koenker studentized LM" in text
     svgs = re.findall(r"<svg .*?</svg>", text, flags=re.S)
     assert len(svgs) >= 3 * 15

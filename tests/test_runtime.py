@@ -271,7 +271,7 @@ def test_wooldridge_house_prices_through_the_probe(tmp_path):
     assert abs(s["breusch_pagan"]["f"] - 5.34) <= 0.005  # Ex. 8.4, F form
     assert abs(s["reset"]["f"] - 4.67) <= 0.005 and abs(s["reset"]["pvalue"] - 0.012) <= 0.0005  # Ex. 9.2
     hetero = [f for f in report.findings if f.rule == "heteroskedastic-plain-se"]
-    assert len(hetero) == 1 and "Breusch-Pagan LM = 14.09, p = 0.003" in hetero[0].message
+    assert len(hetero) == 1 and "Breusch-Pagan in Koenker's form, LM = 14.09, p = 0.003" in hetero[0].message
     assert [f.rule for f in report.findings if f.rule == "form-rejected"] == ["form-rejected"]
 
 

@@ -33,7 +33,7 @@ from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.model.stats_schema import ComparisonRow, FitStatistics, NestedFTest, PlotPoints
 from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput, rules_for_family
-from regvet.rules.evidence import comparison_row, num, p, runs
+from regvet.rules.evidence import comparison_row, judged_reset, num, p, runs
 from regvet.rules.texts import CAUTION
 
 PASSED, REJECTED, DONE = "done, passed", "done, rejected", "done"
@@ -204,10 +204,15 @@ def _statistic(family: str, stats: FitStatistics | None) -> tuple[str | None, st
     if stats is None:
         return None, None, None
     if family == "form":
-        r = stats.get("reset")
-        if r is None or r.get("f") is None:
+        judged = judged_reset(stats)  # the robust Wald form for a fit with HC covariance
+        if judged is None or judged[1].get("f") is None:
             return None, None, None
-        return f"F({r.get('df_num')}, {num(r.get('df_denom'))}) = {num(r.get('f'))}", r.get("form"), p(r.get("pvalue"))
+        label, r = judged
+        text = f"F({r.get('df_num')}, {r.get('df_denom')}) = {num(r.get('f'))}"
+        classical = stats.get("reset")
+        if label and classical is not None:
+            text += f"; classical F = {num(classical.get('f'))}, {p(classical.get('pvalue'))}"
+        return text, r.get("form"), p(r.get("pvalue"))
     if family == "variance":
         bp = stats.get("breusch_pagan")
         if bp is None or bp.get("lm") is None:
@@ -261,10 +266,10 @@ def _rejects(family: str, stats: FitStatistics | None, alpha: float) -> bool:
     """Does the run's own test of ``family`` reject at ``alpha`` (only to say so in words)?"""
     if stats is None:
         return False
-    reset, bp = stats.get("reset"), stats.get("breusch_pagan")
+    reset, bp = judged_reset(stats), stats.get("breusch_pagan")
     jb, bg = stats.get("jarque_bera"), stats.get("breusch_godfrey")
     value = {
-        "form": reset.get("pvalue") if reset else None,
+        "form": reset[1].get("pvalue") if reset else None,
         "variance": bp.get("lm_pvalue") if bp else None,
         "normality": jb.get("pvalue") if jb else None,
         "serial": bg.get("lm_pvalue") if bg else None,

@@ -41,14 +41,30 @@ class WhiteTest(AuxiliaryTest):
     columns: int
 
 
+class RobustReset(TypedDict):
+    """RESET as the Wald test of the added powers with the fit's own HC covariance, F form."""
+
+    cov_type: str  # "HC0" .. "HC3"
+    form: str
+    f: float | None
+    pvalue: float | None
+    df_num: int
+    df_denom: int | float | None
+
+
 class ResetTest(TypedDict):
     """Ramsey's RESET with the squared and cubed fitted values, F form."""
 
     form: str
     f: float | None
     pvalue: float | None
+    #: The powers identified beyond the design (2, or 1 when one lies in its span).
     df_num: int
     df_denom: int | float | None
+    #: Every non-constant regressor takes two values: the only alternative RESET detects is omitted interactions.
+    dummies_only: bool
+    #: For a fit with HC0-HC3 covariance, the robust form of the same test; else None.
+    robust: RobustReset | None
 
 
 class JarqueBera(TypedDict):

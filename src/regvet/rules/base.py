@@ -308,8 +308,21 @@ def _merge(inp: RuleInput, group: list[Finding], fits: list[Fit]) -> Finding:
         rel.append(Related(fit.site.span, f"fit {i} of {n} from this line: {spec}{state}", fit.site.path))
     for f in group:
         rel.extend(r for r in f.related if r not in rel)
-    message = f"{head} {lead}{body[:1].lower()}{body[1:]}"
+    message = f"{head} {lead}{_continued(body)}"
     return first.with_(message=message, related=tuple(rel), fits=tuple(flagged_ids))
+
+
+#: Names a message may start with: they keep their capital when the message continues a sentence.
+_NAMES = ("Ramsey", "Breusch", "White", "Chow", "Durbin", "Jarque", "Koenker", "Wooldridge")
+
+
+def _continued(body: str) -> str:
+    """A message as the continuation of a sentence: its first letter in lower case, unless the first
+    word is an acronym (RESET, VIF) or a name (Ramsey's RESET, Breusch-Pagan)."""
+    word = body.split(" ", 1)[0]
+    if word[1:2].isupper() or word.startswith(_NAMES):
+        return body
+    return body[:1].lower() + body[1:]
 
 
 def related(loc: Loc, message: str) -> Related:

@@ -25,11 +25,11 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
         c = rejected[0]
         return RULE.fit_finding(
             fit,
-            f"Chow test at `{c.get('candidate')}` ({c.get('groups')} groups): F({c.get('df_num')}, "
-            f"{c.get('df_denom')}) = {num(c.get('f'))}, {p(c.get('pvalue'))}. The coefficients of "
-            f"{describe_fit(fit)} differ across the break, so one pooled set describes neither side; fit the "
-            "groups separately or interact the regressors with the group. (The Chow test assumes equal error "
-            "variances across groups.)",
+            f"Chow test at `{c.get('candidate')}`, {c.get('groups')} groups, F({c.get('df_num')}, "
+            f"{c.get('df_denom')}) = {num(c.get('f'))}, {p(c.get('pvalue'))}: the coefficients of "
+            f"{describe_fit(fit)} differ across the break, so one pooled set describes neither side. Fit the "
+            "groups separately, or interact the regressors with the group and test the interactions with robust "
+            "standard errors, since the Chow test assumes equal error variances.",
         )
     return None
 
@@ -43,6 +43,11 @@ RULE = Rule(
         "pandas query expression, which splits it into the rows where it holds and the rest), the fit is "
         "re-estimated on each part and the Chow F statistic compares the pooled SSR with the sum of the "
         "parts' SSRs. A rejection means the relationship changed across the break.\n\n"
+        "The degrees of freedom come from the ranks each group's regression identifies (a regressor constant "
+        "within a group, or a group with fewer rows than parameters, identifies fewer). There is no test at a "
+        "candidate with which the model already interacts every regressor, since that model is already the "
+        "unrestricted one, and none for a candidate the fit's data does not have (a column of another data "
+        "frame): such a candidate is for other fits.\n\n"
         "Runtime mode only. The Chow test assumes equal error variances across groups; under "
         "heteroskedasticity prefer a robust Wald test of the interactions."
     ),

@@ -20,6 +20,8 @@ from regvet.model.stats_schema import (
     FitEvidence,
     FitStatistics,
     NestedFTest,
+    ResetTest,
+    RobustReset,
 )
 from regvet.rules.base import RuleInput
 
@@ -88,7 +90,10 @@ def summary(stats: FitStatistics) -> str:
     if bp is not None and bp.get("lm_pvalue") is not None:
         bits.append(f"BP {p(bp.get('lm_pvalue'))}")
     reset = stats.get("reset")
-    if reset is not None and reset.get("pvalue") is not None:
+    robust = reset.get("robust") if reset is not None else None
+    if robust is not None and robust.get("pvalue") is not None:
+        bits.append(f"{robust.get('cov_type')} RESET {p(robust.get('pvalue'))}")
+    elif reset is not None and reset.get("pvalue") is not None:
         bits.append(f"RESET {p(reset.get('pvalue'))}")
     bg = stats.get("breusch_godfrey")
     if bg is not None and bg.get("lm_pvalue") is not None:
@@ -241,3 +246,15 @@ def _comparison(inp: RuleInput, fids: tuple[int, ...]) -> ComparisonTable:
     if tests:
         result["nested_f_tests"] = tests
     return result
+
+
+def judged_reset(stats: FitStatistics) -> tuple[str, ResetTest | RobustReset] | None:
+    """The RESET a run's fit is judged by, with its label: the robust Wald form when the fit has HC
+    covariance (the probe computes it with the fit's own HC type), else the classical F."""
+    reset = stats.get("reset")
+    if reset is None:
+        return None
+    robust = reset.get("robust")
+    if robust is not None:
+        return f"with {robust.get('cov_type')} covariance", robust
+    return "", reset

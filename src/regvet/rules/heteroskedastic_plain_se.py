@@ -7,7 +7,7 @@ from collections.abc import Iterator
 from regvet.model.finding import Finding, Severity
 from regvet.model.stats_schema import FitStatistics
 from regvet.rules.base import Rule, RuleInput, describe_fit
-from regvet.rules.evidence import coefficient_clause, in_runs, num, p, runs
+from regvet.rules.evidence import changed_coefficients, coefficient_clause, in_runs, num, p, runs
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -19,39 +19,73 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         stats = runs(inp, fit.id)
         if not uses or not stats:
             continue
-        rejecting = [(s, test) for s in stats if (test := _rejection(s, alpha)) is not None]
-        if not rejecting:
+        judged = [(s, verdict) for s in stats if (verdict := _verdict(s, alpha)) is not None]
+        if not judged:
             continue
-        s, test = rejecting[0]
-        yield RULE.fit_finding(
-            fit,
-            f"{test}{in_runs(len(rejecting), len(stats))}: the error variance of {describe_fit(fit)} is not "
-            f"constant, so its usual t tests (`{uses[0].member}`) are not valid; {coefficient_clause(s)}. "
-            'Report robust standard errors (`.fit(cov_type="HC3")`).',
-            uses,
-        )
+        # The run where both tests reject decides when there is one; else the first run where one does.
+        s, (text, both) = next(((s, v) for s, v in judged if v[1]), judged[0])
+        where = in_runs(len(judged), len(stats))
+        if both:
+            message = (
+                f"{text}{where}: the error variance of {describe_fit(fit)} is not constant, so its usual t tests "
+                f"(`{uses[0].member}`) are not valid; {coefficient_clause(s)}. "
+                'Report robust standard errors (`.fit(cov_type="HC3")`).'
+            )
+        else:
+            changes = (
+                coefficient_clause(s)
+                if changed_coefficients(s)
+                else "no coefficient changes significance at 5 % under robust standard errors"
+            )
+            message = (
+                f"{text}{where}: the error variance of {describe_fit(fit)} may not be constant, so its usual t "
+                f"tests (`{uses[0].member}`) may not be valid; {changes}. "
+                'Report robust standard errors (`.fit(cov_type="HC3")`): they are valid whether it is or not.'
+            )
+        finding = RULE.fit_finding(fit, message, uses)
+        yield finding if both else finding.with_(severity=Severity.WARNING)
 
 
-def _rejection(s: FitStatistics, alpha: float) -> str | None:
-    """The heteroskedasticity test that rejects in one run (Breusch-Pagan first, then White), or None."""
-    bp = s.get("breusch_pagan")
-    if bp is not None and (pvalue := bp.get("lm_pvalue")) is not None and pvalue < alpha:
-        return f"Breusch-Pagan LM = {num(bp.get('lm'))}, {p(pvalue)}"
-    white = s.get("white")
-    if white is not None and (pvalue := white.get("lm_pvalue")) is not None and pvalue < alpha:
-        return f"White ({white.get('form')}) LM = {num(white.get('lm'))}, {p(pvalue)}"
-    return None
+def _verdict(s: FitStatistics, alpha: float) -> tuple[str, bool] | None:
+    """(what the tests of one run say, whether it is decisive) when either test rejects, else None.
+
+    Breusch-Pagan in Koenker's form is the primary test; White's test is shown beside it. Decisive:
+    Breusch-Pagan rejects and White's test rejects too, or could not be computed."""
+    bp, white = s.get("breusch_pagan"), s.get("white")
+    bp_p = bp.get("lm_pvalue") if bp is not None else None
+    white_p = white.get("lm_pvalue") if white is not None else None
+    bp_rejects = bp_p is not None and bp_p < alpha
+    white_rejects = white_p is not None and white_p < alpha
+    if not (bp_rejects or white_rejects):
+        return None
+    bp_name = "Breusch-Pagan in Koenker's form"
+    white_name = "White's test" if white is None or white.get("form") == "full" else "White's special test"
+    bp_stat = f"LM = {num(bp.get('lm') if bp else None)}, {p(bp_p)}"
+    white_stat = f"LM = {num(white.get('lm') if white else None)}, {p(white_p)}"
+    if bp_rejects and white_rejects:
+        return f"{bp_name}, {bp_stat}; {white_name}, {white_stat}", True
+    if bp_rejects and white_p is None:
+        return f"{bp_name}, {bp_stat}", True
+    if bp_rejects:
+        return f"Only {bp_name} rejects, {bp_stat}; {white_name} does not, {white_stat}", False
+    if bp_p is None:
+        return f"Only {white_name} rejects, {white_stat}; {bp_name} could not be computed", False
+    return f"Only {white_name} rejects, {white_stat}; {bp_name} does not, {bp_stat}", False
 
 
 RULE = Rule(
     id="heteroskedastic-plain-se",
     severity=Severity.ERROR,
-    summary="A heteroskedasticity test rejects while the fit's inference uses the usual (non-robust) covariance.",
+    summary="Breusch-Pagan rejects constant variance (White's test beside it) while the fit's inference uses the usual covariance.",
     rationale=(
-        "When Breusch-Pagan (Koenker's studentized form) or White's test rejects constant error variance at "
-        "`alpha`, the usual OLS standard errors are inconsistent, and the t tests, p-values and intervals built "
-        "on them can be far off. The finding names the coefficients whose 5 % significance changes under "
-        "robust standard errors (HC3 by default; `robust_se` in the config).\n\n"
+        "When the error variance is not constant, the usual OLS standard errors are inconsistent, and the t "
+        "tests, p-values and intervals built on them can be far off. One test decides: Breusch-Pagan in "
+        "Koenker's studentized form, at `alpha`; White's test is shown beside it. When both reject the finding "
+        "is an error; when only one of the two rejects, the message says which and the finding is a warning. "
+        "Breusch-Pagan is the primary test because it has few degrees of freedom and keeps its power in "
+        "small samples, while White's test, with every square and cross-product, spends many. The finding "
+        "names the coefficients whose 5 % significance changes under robust standard errors (HC3 by default; "
+        "`robust_se` in the config).\n\n"
         "Runtime mode only (`regvet check --run`): the fit is run and the tests computed on its residuals. "
         "Satisfied by inference under a robust covariance."
     ),

@@ -22,6 +22,7 @@ from typing import Any, NamedTuple
 import numpy as np
 
 __all__ = [
+    "CandidateAbsent",
     "RowDataError",
     "TimeOrder",
     "aligned",
@@ -35,6 +36,10 @@ __all__ = [
 
 class RowDataError(Exception):
     """The fit's row data cannot serve a statistic (alignment, a break candidate); the message says why."""
+
+
+class CandidateAbsent(RowDataError):
+    """A break candidate names data the fit does not have (a column of another data frame): no Chow entry."""
 
 
 def _describe(exc: BaseException) -> str:
@@ -246,12 +251,26 @@ def time_order(model: Any, column: str | None, unit_column: str | None = None) -
     )
 
 
+def _names_in(candidate: str) -> set[str]:
+    """The names a candidate refers to: itself when it is a name, else the names of the expression."""
+    import ast
+
+    if candidate.isidentifier():
+        return {candidate}
+    try:
+        tree = ast.parse(candidate, mode="eval")
+    except SyntaxError:
+        return set()
+    return {node.id for node in ast.walk(tree) if isinstance(node, ast.Name)}
+
+
 def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tuple[np.ndarray, list[str]]:
     """(group code of every row used by the fit, group labels) for one break candidate.
 
     ``candidate`` is a column of the model's data frame, else a column of the design (``names``:
     the parameter names), else a pandas query expression on the frame (two groups: where it holds
-    and where it does not). ``n``: the fit's rows.
+    and where it does not). ``n``: the fit's rows. Raises :class:`CandidateAbsent` when the candidate
+    refers to data the fit does not have (a name that is neither a frame nor a design column).
     """
     labels = model.data.row_labels
     frame = model_frame(model)
@@ -269,12 +288,16 @@ def candidate_groups(model: Any, n: int, names: list[str], candidate: str) -> tu
         uniques, codes = np.unique(column, return_inverse=True)
         return codes.reshape(-1), [str(x) for x in uniques.tolist()]
     if frame is None:
+        if not (_names_in(candidate) & set(names)):
+            raise CandidateAbsent(f"{candidate!r} is not in the fit's data")
         raise RowDataError(
             f"{candidate!r} is not a column of the design and the fit has no data frame "
             "(not a formula fit), so a query expression cannot be evaluated"
         )
     try:
         result = frame.eval(candidate)
+    except NameError as exc:  # pandas' UndefinedVariableError: a name the frame does not hold
+        raise CandidateAbsent(f"{candidate!r} is not in the fit's data ({_describe(exc)})") from exc
     except Exception as exc:
         raise RowDataError(
             f"{candidate!r} is neither a column of the data frame nor a query expression it can evaluate "

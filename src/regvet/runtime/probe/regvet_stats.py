@@ -50,7 +50,7 @@ from typing import Any
 import numpy as np
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
-from regvet_align import fingerprint
+from regvet_align import CandidateAbsent, fingerprint
 from regvet_collinear import centred_factor, condition_indexes, gvifs, raw_factor, term_sets, vifs
 from regvet_fit import (
     DEFAULT_OPTIONS,
@@ -69,6 +69,7 @@ from regvet_linalg import (
     ssr_on_columns,
 )
 from regvet_passes import RowPasses
+from regvet_reset import reset as reset_test
 from scipy import stats
 
 __all__ = ["DEFAULT_OPTIONS", "fit_statistics"]
@@ -78,7 +79,6 @@ _SIGNIFICANCE = 0.05
 FORM_BREUSCH_PAGAN = "Koenker studentized LM = n·R² of û² on the regressors; F from the same auxiliary regression"
 FORM_WHITE_FULL = "full"
 FORM_WHITE_SPECIAL = "special (ŷ, ŷ²)"
-FORM_RESET = "F test of powers 2 and 3 of the fitted values"
 FORM_JARQUE_BERA = "kurtosis is not excess kurtosis"
 FORM_WITHIN_UNITS = "û_it on û_i,t-1 with an intercept, rows sorted by unit and time; cluster-robust by unit, t(G-1)"
 FORM_BREUSCH_GODFREY = "n·R² of û on the regressors and its lags (zero-padded, all n observations)"
@@ -192,6 +192,11 @@ class _Stats(RowPasses):
         ess = min(max(ess, 0.0), tss)
         lm = n * ess / tss
         ssr = tss - ess
+        if ssr <= self._aux_resolution() ** 2 * tss:
+            raise StatisticError(
+                "not identified: the auxiliary regression reproduces the squared residuals exactly (R² = 1, "
+                "as with two rows per cell of a saturated design), so there is no variation left to test against"
+            )
         f = (ess / df_model) / (ssr / df_resid) if ssr > 0 else math.inf
         return {
             "lm": as_float(lm),
@@ -200,6 +205,14 @@ class _Stats(RowPasses):
             "f_pvalue": as_float(stats.f.sf(f, df_model, df_resid)) if math.isfinite(f) else as_float(0.0),
             "df": int(df_model),
         }
+
+    def _aux_resolution(self) -> float:
+        """The relative size below which what an auxiliary regression of û² leaves is rounding: û
+        carries the rounding of y − ŷ (the design's noise floor, relative to y) relative to its own size."""
+        fit = self.fit
+        u_rms = math.sqrt(fit.ssr / fit.n) if fit.n else 0.0
+        y_rms = math.sqrt(float(fit.y @ fit.y) / fit.n) if fit.n else 0.0
+        return fit.noise * (1.0 + (y_rms / u_rms if u_rms > 0 else 1.0))
 
     def breusch_pagan(self) -> dict[str, Any]:
         """Koenker's studentized BP: n·R² of û² on the design (with an intercept); = het_breuschpagan."""
@@ -249,27 +262,8 @@ class _Stats(RowPasses):
         return out
 
     def reset(self) -> dict[str, Any]:
-        """RESET with ŷ², ŷ³: F of the powers added to the model (= linear_reset(power=3, use_f=True))."""
-        fit = self.fit
-        fit.require_residuals()
-        self.need("gram", "reset")
-        gi = GInverse(self.reset_rr)
-        q = gi.rank
-        if q == 0:
-            raise StatisticError("the powers of the fitted values lie in the span of the regressors")
-        ess = gi.quad(self.reset_ru)
-        df_denom = fit.df_resid - q
-        ssr_u = fit.ssr - ess
-        if df_denom <= 0:
-            raise StatisticError("too few residual degrees of freedom for the RESET regression")
-        f = (ess / q) / (ssr_u / df_denom) if ssr_u > 0 else math.inf
-        return {
-            "form": FORM_RESET,
-            "f": as_float(f),
-            "pvalue": as_float(stats.f.sf(f, q, df_denom)) if math.isfinite(f) else as_float(0.0),
-            "df_num": int(q),
-            "df_denom": as_count(df_denom),
-        }
+        """RESET with ŷ², ŷ³ (classical F, and the robust Wald test for HC fits): see ``regvet_reset``."""
+        return reset_test(self)
 
     def jarque_bera(self) -> dict[str, Any]:
         """JB = n/6·(S² + (K − 3)²/4) with biased moments; K is not excess kurtosis (= stattools.jarque_bera)."""
@@ -453,7 +447,8 @@ class _Stats(RowPasses):
         }
 
     def chow(self) -> list[dict[str, Any]]:
-        """One Chow F test per break candidate, from the pooled and the per-group SSRs."""
+        """One Chow F test per break candidate, from the pooled and the per-group SSRs; no entry for a
+        candidate the fit's data does not have (a break candidate of other fits)."""
         out = []
         for candidate in self.opts["break_candidates"]:
             entry: dict[str, Any] = {
@@ -467,6 +462,8 @@ class _Stats(RowPasses):
             }
             try:
                 entry.update(self._chow_one(candidate))
+            except CandidateAbsent:
+                continue  # a candidate for other fits: this one's data does not have it
             except Exception as exc:
                 self.errors[f"chow:{candidate}"] = error_message(exc)
             out.append(entry)
@@ -504,7 +501,10 @@ class _Stats(RowPasses):
             "df_denom": int(df_denom),
         }
         if df_num <= 0:
-            raise StatisticError("the group-wise regressions add no parameters")
+            raise StatisticError(
+                f"not run: the model already has its own coefficients in every group of {candidate!r} (every "
+                "regressor interacts with it), so it is the unrestricted model and there is nothing to test"
+            )
         if df_denom <= 0:
             raise StatisticError("too few observations per group for separate regressions")
         if not ssr_groups > 0:
@@ -628,7 +628,13 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
     * ``white``: ``{"form", "lm", "lm_pvalue", "f", "f_pvalue", "df", "columns"}``: "full"
       (= ``het_white(resid, exog)``, df from the rank) while the auxiliary regression has at most
       ``white_max_columns`` columns, else "special (ŷ, ŷ²)" (= ``het_breuschpagan(resid, [1, ŷ, ŷ²])``).
-    * ``reset``: ``{"form", "f", "pvalue", "df_num", "df_denom"}`` = ``linear_reset(res, power=3, use_f=True)``.
+    * ``reset``: ``{"form", "f", "pvalue", "df_num", "df_denom", "dummies_only", "robust"}``: the F test
+      = ``linear_reset(res, power=3, use_f=True)``, df_num from the powers identified beyond the
+      design; ``dummies_only``: every non-constant regressor takes two values; ``robust``: for a fit
+      with HC0-HC3 covariance ``{"cov_type", "form", "f", "pvalue", "df_num", "df_denom"}``, the Wald
+      test with that covariance (= ``linear_reset(..., cov_type=...)``), else None (why, for other
+      robust types, under ``errors["reset_robust"]``). None with ``errors["reset"]`` "not identified:
+      ..." when the powers lie in the span of the regressors.
     * ``jarque_bera``: ``{"statistic", "pvalue", "skew", "kurtosis", "form"}`` = ``stattools.jarque_bera``.
     * ``condition_index``: ``{"value", "form", "constant", "dimensions": [{"index", "proportions"}]}``,
       Belsley-Kuh-Welsch (unit-length columns incl. the constant, not centred; not statsmodels' raw
@@ -645,7 +651,9 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
       ``breusch_godfrey`` ``{"lm", "lm_pvalue", "f", "f_pvalue", "lags", "form"}``
       (= ``acorr_breusch_godfrey(res, nlags=lags)``), both None when not time-ordered.
     * ``chow``: one ``{"candidate", "groups" (how many), "group_sizes": [{"label", "nobs"}], "f",
-      "pvalue", "df_num", "df_denom"}`` per break candidate (in the order given; the values are None
+      "pvalue", "df_num", "df_denom"}`` per break candidate the fit's data has (in the order given;
+      none for a name neither the frame nor the design holds; not run, values None, when the model
+      already interacts every regressor with it; the values are None
       and ``errors["chow:<candidate>"]`` says why when it cannot be computed), F = ((SSR_pooled − Σ SSR_g)/df_num)/(Σ SSR_g/df_denom) with
       df_num = Σ rank_g − rank and df_denom = n − Σ rank_g ((G−1)k and n − Gk at full rank); equal
       to the F test of all group interactions.
