@@ -12,6 +12,7 @@ from collections.abc import Collection, Iterable
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding
+from regvet.model.runtime import Pairing
 from regvet.model.stats_schema import (
     Coefficient,
     ComparisonRow,
@@ -122,6 +123,49 @@ def comparison_row(fit: Fit, stats: FitStatistics) -> ComparisonRow:
     }
 
 
+LEVEL_CV = "level scale (Duan's smearing)"
+
+
+def level_scale(inp: RuleInput, fids: Iterable[int]) -> list[Pairing]:
+    """The run's pairings among these fits: one outcome is a transform of another (``regvet_pairs``)."""
+    if inp.runtime is None:
+        return []
+    return inp.runtime.pairing(set(fids))
+
+
+def comparison_rows(inp: RuleInput, fids: Iterable[int]) -> list[ComparisonRow]:
+    """The compared fits' rows; measures of a transformed outcome on the level scale, or None.
+
+    A fit whose outcome the run showed to be a transform of a compared level model's outcome gets
+    the level-scale R² (``log_level_r2``) and its CV errors retransformed with Duan's smearing, the
+    level model its corr(y, ŷ)² (``level_r2``). A fit of a log outcome (by name) compared with a level
+    model without that pairing shows no CV errors at all: never errors in mixed units."""
+    fids = list(dict.fromkeys(fids))
+    rows: dict[int, ComparisonRow] = {}
+    for fid in fids:
+        stats = runs(inp, fid)
+        if stats:
+            rows[fid] = comparison_row(inp.facts.fit(fid), stats[0])
+    paired: set[int] = set()
+    for pairing in level_scale(inp, rows):
+        t, level, record = rows[pairing.transformed], rows[pairing.level], pairing.record
+        paired.add(pairing.transformed)
+        t["level_transform"] = record.get("transform") or "?"
+        t["log_level_r2"] = record.get("level_r2")
+        level["level_r2"] = record.get("level_model_r2")
+        cv = record.get("cv")
+        if cv is not None and t.get("cv_folds") is not None:
+            t["cv_rmse"], t["cv_mae"] = cv["transformed"].get("rmse"), cv["transformed"].get("mae")
+            t["cv_scale"] = LEVEL_CV
+        else:
+            t["cv_rmse"] = t["cv_mae"] = None
+    levels = [r for fid, r in rows.items() if r.get("log_level_r2") is None and fid not in paired]
+    for fid, row in rows.items():
+        if fid not in paired and row.get("log_level_r2") is not None and levels:
+            row["cv_rmse"] = row["cv_mae"] = None
+    return [rows[fid] for fid in fids if fid in rows]
+
+
 def nested_f_test(small: FitStatistics, large: FitStatistics) -> NestedFTest | None:
     """F test of the extra regressors when one fit's regressors are a subset of the other's (same rows)."""
     names_s, names_l = set(small.get("param_names") or []), set(large.get("param_names") or [])
@@ -222,13 +266,11 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
 
 
 def _comparison(inp: RuleInput, fids: tuple[int, ...]) -> ComparisonTable:
-    rows: list[ComparisonRow] = []
+    rows = comparison_rows(inp, fids)
     table: list[FitStatistics] = []
     for fid in fids:
         stats = runs(inp, fid)
         if stats:
-            fit = inp.facts.fit(fid)
-            rows.append(comparison_row(fit, stats[0]))
             table.append(stats[0])
     result: ComparisonTable = {"fits": rows}
     tests: list[NestedFTest] = []
