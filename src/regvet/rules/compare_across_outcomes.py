@@ -5,7 +5,9 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
+from regvet.model.runtime import Pairing
 from regvet.rules.base import Rule, RuleInput, describe_fit, related
+from regvet.rules.evidence import level_scale, num
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -21,6 +23,15 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if len(outcomes) < 2:
             continue
         measures = sorted({m for _, m in comp.measures})
+        pairings = level_scale(inp, [f.id for f in known])
+        if pairings:
+            yield RULE.finding(
+                comp.loc.span,
+                _level_message(inp, measures, pairings[0]),
+                [related(f.site, f"{describe_fit(f)} explains `{f.outcome.key}`") for f in known[:6]],  # type: ignore[union-attr]
+                fits=tuple(f.id for f in known),
+            )
+            continue
         listed = ", ".join(f"`{o}`" for o in outcomes[:4])
         bases = {f.outcome.base for f in known}  # type: ignore[union-attr]
         hint = (
@@ -37,6 +48,36 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             [related(f.site, f"{describe_fit(f)} explains `{f.outcome.key}`") for f in known[:6]],  # type: ignore[union-attr]
             fits=tuple(f.id for f in known),
         )
+
+
+def _level_message(inp: RuleInput, measures: list[str], pairing: Pairing) -> str:
+    """The finding's text when the run showed one outcome to be a transform of the other: the
+    comparable numbers themselves, on the level scale."""
+    record = pairing.record
+    t_fit, level_fit = inp.facts.fit(pairing.transformed), inp.facts.fit(pairing.level)
+    t_out = t_fit.outcome.key if t_fit.outcome else "?"
+    level_out = level_fit.outcome.key if level_fit.outcome else "?"
+    how = record.get("transform") or "a transform"
+    kind = f"{how} model"
+    compared = ", ".join(f"`{m}`" for m in measures)
+    numbers = f"level scale: {kind} {num(record.get('level_r2'))} vs level model {num(record.get('level_model_r2'))}"
+    wrong = (
+        f"This compares {compared} of a model of `{t_out}`, which this run shows is {how} of `{level_out}`, with a "
+        f"model of `{level_out}`; such measures are on each outcome's own scale, so they cannot rank the two "
+        f"({numbers})."
+    )
+    cv = record.get("cv")
+    errors = ""
+    if cv is not None and cv["transformed"].get("rmse") is not None and cv["level"].get("rmse") is not None:
+        errors = (
+            f", or by their {cv['folds']}-fold CV RMSE on the level scale with Duan's smearing "
+            f"({kind} {num(cv['transformed'].get('rmse'))} vs level model {num(cv['level'].get('rmse'))})"
+        )
+    todo = (
+        f"Rank them by these squared correlations of `{level_out}` with each model's predictions of it"
+        f"{errors}."
+    )
+    return f"{wrong} {todo}"
 
 
 RULE = Rule(

@@ -20,6 +20,7 @@ from regvet.model.stats_schema import (
     FindingStats,
     FitEvidence,
     FitStatistics,
+    LevelErrors,
     NestedFTest,
 )
 from regvet.rules.base import RuleInput
@@ -82,8 +83,11 @@ def coefficient_clause(stats: FitStatistics, limit: int = 3) -> str:
     return f"with {kind}, " + ", ".join(parts) + more
 
 
-def summary(stats: FitStatistics) -> str:
-    """A short clause for a text line: the headline numbers of one run."""
+def summary(stats: FitStatistics, level_cv: LevelErrors | None | bool = False) -> str:
+    """A short clause for a text line: the headline numbers of one run.
+
+    ``level_cv``: for a compared fit of a transformed outcome, its CV errors on the level scale (None:
+    there are none, so no CV clause; False, the default: the fit's own)."""
     bits = [f"n={stats.get('nobs')}"]
     bp = stats.get("breusch_pagan")
     if bp is not None and bp.get("lm_pvalue") is not None:
@@ -101,8 +105,11 @@ def summary(stats: FitStatistics) -> str:
     if ci is not None and ci.get("value") is not None:
         bits.append(f"cond. index {num(ci.get('value'))}")
     cv = stats.get("cv")
-    if cv is not None and cv.get("rmse") is not None:
-        bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv.get('rmse'))}")
+    if level_cv is False:
+        if cv is not None and cv.get("rmse") is not None:
+            bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv.get('rmse'))}")
+    elif isinstance(level_cv, dict) and cv is not None and level_cv.get("rmse") is not None:
+        bits.append(f"{cv.get('folds')}-fold CV RMSE {num(level_cv.get('rmse'))} on the level scale")
     return ", ".join(bits)
 
 
@@ -243,6 +250,11 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
             out.append(f)
             continue
         per_fit: list[FitEvidence] = []
+        transformed = {}
+        if f.rule in comparing:  # a transformed outcome's CV errors: on the level scale, or none
+            for pairing in level_scale(inp, f.fits):
+                cv = pairing.record.get("cv")
+                transformed[pairing.transformed] = cv["transformed"] if cv is not None else None
         for fid in f.fits:
             stats = runs(inp, fid)
             if stats:
@@ -252,7 +264,7 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
                         "fit": fit.result_name or fit.formula or f"fit {fid}",
                         "runs": len(stats),
                         "statistics": stats[0],
-                        "summary": summary(stats[0]),
+                        "summary": summary(stats[0], transformed.get(fid, False)),
                     }
                 )
         if not per_fit:
