@@ -73,10 +73,7 @@ def _level_message(inp: RuleInput, measures: list[str], pairing: Pairing) -> str
             f", or by their {cv['folds']}-fold CV RMSE on the level scale with Duan's smearing "
             f"({kind} {num(cv['transformed'].get('rmse'))} vs level model {num(cv['level'].get('rmse'))})"
         )
-    todo = (
-        f"Rank them by these squared correlations of `{level_out}` with each model's predictions of it"
-        f"{errors}."
-    )
+    todo = f"Rank them by these squared correlations of `{level_out}` with each model's predictions of it" f"{errors}."
     return f"{wrong} {todo}"
 
 
