@@ -30,6 +30,7 @@ formula. For a recognised pair the record holds
 from __future__ import annotations
 
 import math
+import warnings
 from collections.abc import Callable
 from typing import Any
 
@@ -256,7 +257,12 @@ def level_cv(res: Any, name: str | None, opts: dict[str, Any]) -> dict[str, Any]
 
 def pair_record(a: Any, b: Any, seq_a: int, seq_b: int, options: dict[str, Any]) -> dict[str, Any] | None:
     """The ``"pair"`` line for two compared fits when one outcome is a transform of the other, else None."""
-    opts = read_options(options)
+    with warnings.catch_warnings(), np.errstate(all="ignore"):  # nothing on the user's output
+        warnings.simplefilter("ignore")
+        return _pair_record(a, b, seq_a, seq_b, read_options(options))
+
+
+def _pair_record(a: Any, b: Any, seq_a: int, seq_b: int, opts: dict[str, Any]) -> dict[str, Any] | None:
     found = recognise(a, b, opts["chunk_rows"])
     if found is None:
         return None
