@@ -173,3 +173,21 @@ def test_the_pair_record_matches_its_schema(crossings) -> None:
     _declared(LevelCrossValidation, record["cv"], "pair.cv")
     for side in ("transformed", "level"):
         _declared(LevelErrors, record["cv"][side], f"pair.cv.{side}")
+
+
+def test_zero_weight_rows_are_not_observations_of_the_level_scale_errors(crossings) -> None:
+    w = 1.0 + crossings["fare"].to_numpy()
+    w[::10] = 0.0
+    wlevel = smf.wls("riders ~ fare + wind", data=crossings, weights=w).fit()
+    record = pair_record(smf.ols("log_riders ~ fare + wind", data=crossings).fit(), wlevel, 1, 2, OPTS)
+    assert record is not None
+    kept = np.flatnonzero(w > 0)
+    X = sm.add_constant(crossings[["fare", "wind"]].to_numpy())[kept]
+    y, wk = crossings["riders"].to_numpy()[kept], w[kept]
+    errors = []  # statsmodels WLS refits over the observations (weights > 0) only
+    for part in np.array_split(np.random.default_rng(2).permutation(kept.size), 5):
+        train = np.setdiff1d(np.arange(kept.size), part)
+        errors.append(y[part] - X[part] @ sm.WLS(y[train], X[train], weights=wk[train]).fit().params)
+    e = np.concatenate(errors)
+    assert record["cv"]["level"]["rmse"] == pytest.approx(np.sqrt(np.mean(e**2)), rel=1e-9)
+    assert record["cv"]["level"]["mae"] == pytest.approx(np.mean(np.abs(e)), rel=1e-9)

@@ -67,10 +67,6 @@ def _endog(res: Any) -> np.ndarray:
     return np.asarray(res.model.endog, dtype=float).reshape(-1)  # a view when statsmodels holds float64
 
 
-def _fitted(res: Any) -> np.ndarray:
-    return np.asarray(res.fittedvalues, dtype=float).reshape(-1)
-
-
 def _labels(res: Any) -> Any:
     return getattr(res.model.data, "row_labels", None)
 
@@ -169,18 +165,17 @@ def _squared_correlation(a: np.ndarray, b: np.ndarray) -> float | None:
     return as_float(float(a @ b) ** 2 / den)
 
 
-def level_r2(res: Any, name: str) -> float | None:
+def level_r2(fit: FitInputs, name: str) -> float | None:
     """corr(g⁻¹(y_t), g⁻¹(ŷ_t))²: the level outcome against the back-transformed fitted values."""
-    y, f = _endog(res), _fitted(res)
+    y, f = fit.endog_fitted()
     if name in _BASE:  # exp(v − max v): the same correlation, no overflow (log1p: a shift of exp)
         base = _BASE[name]
         return _squared_correlation(np.power(base, y - np.max(y)), np.power(base, f - np.max(f)))
     return _squared_correlation(np.square(y), np.square(f))
 
 
-def level_cv(res: Any, name: str | None, opts: dict[str, Any]) -> dict[str, Any]:
+def level_cv(fit: FitInputs, name: str | None, opts: dict[str, Any]) -> dict[str, Any]:
     """k-fold prediction errors on the level scale (see the module docstring), the fits' own folds."""
-    fit = FitInputs(res, opts)
     if name is not None and fit.estimator != "OLS":
         raise StatisticError(
             "not computed for a transformed WLS fit: Duan's smearing assumes one error distribution for all rows"
@@ -212,7 +207,6 @@ def level_cv(res: Any, name: str | None, opts: dict[str, Any]) -> dict[str, Any]
         [GInverse(G - fold_gram[j], rank=fit.rank).inv @ (cross - fold_cross[j]) for j in range(folds)]
     )
     sqrt_w = None if fit.weights is None else np.sqrt(fit.weights)
-    used = np.ones(n, dtype=bool) if sqrt_w is None else sqrt_w > 0  # zero weight: not an observation
     held = np.empty(n)  # held-out prediction errors on the model's own (whitened) scale
     train_count = np.zeros(folds)
     s1, s2 = np.zeros(folds), np.zeros(folds)  # smearing sums over each training fold's residuals
@@ -233,7 +227,7 @@ def level_cv(res: Any, name: str | None, opts: dict[str, Any]) -> dict[str, Any]
             s2 += np.where(train, err * err, 0.0).sum(axis=0)
     out: dict[str, Any] = {"smearing": None}
     if name is None:
-        level_err = held[used] if sqrt_w is None else held[used] / sqrt_w[used]
+        level_err = held if sqrt_w is None else held / sqrt_w  # FitInputs keeps only positive weights
     else:
         y = fit.y
         pred = y - held  # held-out predictions on the transformed scale
@@ -286,15 +280,16 @@ def _pair_record(a: Any, b: Any, seq_a: int, seq_b: int, opts: dict[str, Any]) -
         except Exception as exc:
             errors[key] = error_message(exc)
 
-    put("level_r2", lambda: level_r2(t, name))
-    put("level_model_r2", lambda: _squared_correlation(_endog(level), _fitted(level)))
+    inputs_t, inputs_l = FitInputs(t, opts), FitInputs(level, opts)
+    put("level_r2", lambda: level_r2(inputs_t, name))
+    put("level_model_r2", lambda: _squared_correlation(*inputs_l.endog_fitted()))
 
     def cv() -> dict[str, Any]:
         return {
             "folds": int(opts["cv_folds"]),
             "seed": int(opts["cv_seed"]),
-            "transformed": level_cv(t, name, opts),
-            "level": level_cv(level, None, opts),
+            "transformed": level_cv(inputs_t, name, opts),
+            "level": level_cv(inputs_l, None, opts),
             "form": FORM_LEVEL_CV,
         }
 
