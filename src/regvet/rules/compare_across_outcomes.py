@@ -61,8 +61,10 @@ def _level_message(inp: RuleInput, measures: list[str], pairing: Pairing) -> str
     kind = f"{how} model"
     compared = ", ".join(f"`{m}`" for m in measures)
     numbers = f"level scale: {kind} {num(record.get('level_r2'))} vs level model {num(record.get('level_model_r2'))}"
+    visible = t_fit.outcome is not None and t_fit.outcome.base == level_out  # `np.log(riders)` says so itself
+    shown = "" if visible else f", which this run shows is {how} of `{level_out}`,"
     wrong = (
-        f"This compares {compared} of a model of `{t_out}`, which this run shows is {how} of `{level_out}`, with a "
+        f"This compares {compared} of a model of `{t_out}`{shown} with a "
         f"model of `{level_out}`; such measures are on each outcome's own scale, so they cannot rank the two "
         f"({numbers})."
     )
@@ -73,7 +75,7 @@ def _level_message(inp: RuleInput, measures: list[str], pairing: Pairing) -> str
             f", or by their {cv['folds']}-fold CV RMSE on the level scale with Duan's smearing "
             f"({kind} {num(cv['transformed'].get('rmse'))} vs level model {num(cv['level'].get('rmse'))})"
         )
-    todo = f"Rank them by these squared correlations of `{level_out}` with each model's predictions of it" f"{errors}."
+    todo = f"Rank them by these squared correlations of `{level_out}` with each model's predictions of it{errors}."
     return f"{wrong} {todo}"
 
 
