@@ -97,11 +97,11 @@ def test_level_scale_cv_equals_a_direct_duan_smearing_computation(crossings, nam
     rmse, mae = _duan_cv(crossings, f"{name}_riders", name, 5, 2)  # Duan (1983), statsmodels refits
     assert cv["transformed"]["rmse"] == pytest.approx(rmse, rel=1e-9)
     assert cv["transformed"]["mae"] == pytest.approx(mae, rel=1e-9)
+    # an OLS level model's level-scale errors are its own cross-validation (same folds): not repeated
+    assert cv["level"] is None
     rmse_l, mae_l = _duan_cv(crossings, "riders", None, 5, 2)  # statsmodels refits of the level model
-    assert cv["level"]["rmse"] == pytest.approx(rmse_l, rel=1e-9) and cv["level"]["mae"] == pytest.approx(mae_l)
-    # the level model's errors are its own cross-validation (same folds) as fit_statistics reports it
-    own = fit_statistics(level, {"cv": True, **OPTS})["cv"]
-    assert cv["level"]["rmse"] == pytest.approx(own["rmse"], rel=1e-10)
+    own = fit_statistics(level, {"cv": True, **OPTS, "chunk_rows": chunk})["cv"]
+    assert own["rmse"] == pytest.approx(rmse_l, rel=1e-9) and own["mae"] == pytest.approx(mae_l, rel=1e-9)
     if name in ("log", "log10", "log1p"):  # the full-sample smearing factor, directly
         base = {"log": np.e, "log10": 10.0, "log1p": np.e}[name]
         assert cv["transformed"]["smearing"] == pytest.approx(np.mean(base ** transformed.resid.to_numpy()))
@@ -171,8 +171,12 @@ def test_the_pair_record_matches_its_schema(crossings) -> None:
     _declared(PairRecord, record, "pair")
     assert set(get_type_hints(PairRecord)) == set(record)  # every declared key is written
     _declared(LevelCrossValidation, record["cv"], "pair.cv")
-    for side in ("transformed", "level"):
-        _declared(LevelErrors, record["cv"][side], f"pair.cv.{side}")
+    _declared(LevelErrors, record["cv"]["transformed"], "pair.cv.transformed")
+    assert record["cv"]["level"] is None  # an OLS level model: its own cv
+    wlevel = smf.wls("riders ~ fare + wind", data=crossings, weights=1.0 + crossings["fare"]).fit()
+    record = pair_record(smf.ols("log_riders ~ fare + wind", data=crossings).fit(), wlevel, 1, 2, OPTS)
+    assert record is not None
+    _declared(LevelErrors, record["cv"]["level"], "pair.cv.level")
 
 
 def test_zero_weight_rows_are_not_observations_of_the_level_scale_errors(crossings) -> None:

@@ -264,7 +264,8 @@ class LevelCrossValidation(TypedDict):
     folds: int
     seed: int
     transformed: LevelErrors
-    level: LevelErrors
+    #: None for an OLS level model: its own ``cv`` (the same folds) is on the level scale already.
+    level: LevelErrors | None
     form: str
 
 

@@ -7,7 +7,7 @@ from collections.abc import Iterator
 from regvet.model.finding import Finding, Severity
 from regvet.model.runtime import Pairing
 from regvet.rules.base import Rule, RuleInput, describe_fit, related
-from regvet.rules.evidence import level_scale, num
+from regvet.rules.evidence import level_rmse, level_scale, num
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -69,11 +69,12 @@ def _level_message(inp: RuleInput, measures: list[str], pairing: Pairing) -> str
         f"({numbers})."
     )
     cv = record.get("cv")
+    rmse_t, rmse_level = level_rmse(inp, pairing)
     errors = ""
-    if cv is not None and cv["transformed"].get("rmse") is not None and cv["level"].get("rmse") is not None:
+    if cv is not None and rmse_t is not None and rmse_level is not None:
         errors = (
             f", or by their {cv['folds']}-fold CV RMSE on the level scale with Duan's smearing "
-            f"({kind} {num(cv['transformed'].get('rmse'))} vs level model {num(cv['level'].get('rmse'))})"
+            f"({kind} {num(rmse_t)} vs level model {num(rmse_level)})"
         )
     todo = f"Rank them by these squared correlations of `{level_out}` with each model's predictions of it{errors}."
     return f"{wrong} {todo}"

@@ -140,6 +140,21 @@ def level_scale(inp: RuleInput, fids: Iterable[int]) -> list[Pairing]:
     return inp.runtime.pairing(set(fids))
 
 
+def level_rmse(inp: RuleInput, pairing: Pairing) -> tuple[float | None, float | None]:
+    """(transformed model, level model) k-fold CV RMSE on the level scale, or None where there is none.
+
+    An OLS level model's own cross-validation is on the level scale (the pair record leaves it out)."""
+    cv = pairing.record.get("cv")
+    if cv is None:
+        return None, None
+    level = cv.get("level")
+    if level is None:
+        own = runs(inp, pairing.level)
+        own_cv = own[0].get("cv") if own else None
+        return cv["transformed"].get("rmse"), own_cv.get("rmse") if own_cv is not None else None
+    return cv["transformed"].get("rmse"), level.get("rmse")
+
+
 def comparison_rows(inp: RuleInput, fids: Iterable[int]) -> list[ComparisonRow]:
     """The compared fits' rows; measures of a transformed outcome on the level scale, or None.
 

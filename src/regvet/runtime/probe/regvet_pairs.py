@@ -19,7 +19,8 @@ formula. For a recognised pair the record holds
   back-transformed fitted values of the transformed model (a positive factor such as Duan's smearing
   does not change it), and ``level_model_r2``: corr(y, ŷ)² of the level model, both unweighted;
 * ``cv``: both models' k-fold prediction errors on the level scale, the same folds as the fits' own
-  cross-validation: the level model's plain errors (for WLS: the whitened errors divided by √w), the
+  cross-validation: the level model's plain errors (for WLS: the whitened errors divided by √w; for
+  OLS they are its own ``cv`` and not computed again: ``cv["level"]`` is None), the
   transformed model's retransformed with Duan's (1983) smearing estimate from each training fold's
   residuals e: g⁻¹ = exp gives exp(x'b)·mean(exp(e)) (base b: b^(x'b)·mean(b^e); log1p: that minus
   1), sqrt gives mean((x'b + e)²) = (x'b)² + 2·x'b·mean(e) + mean(e²). A transformed WLS fit gets
@@ -65,6 +66,10 @@ _BASE = {"log": math.e, "log10": 10.0, "log2": 2.0, "log1p": math.e}
 
 def _endog(res: Any) -> np.ndarray:
     return np.asarray(res.model.endog, dtype=float).reshape(-1)  # a view when statsmodels holds float64
+
+
+def _values(values: Any) -> np.ndarray:
+    return np.asarray(values, dtype=float).reshape(-1)
 
 
 def _labels(res: Any) -> Any:
@@ -280,16 +285,22 @@ def _pair_record(a: Any, b: Any, seq_a: int, seq_b: int, opts: dict[str, Any]) -
         except Exception as exc:
             errors[key] = error_message(exc)
 
-    inputs_t, inputs_l = FitInputs(t, opts), FitInputs(level, opts)
+    inputs_t = FitInputs(t, opts)
+    # An OLS level model's own cross-validation (``fit_statistics``' ``cv``, the same folds) is already
+    # on the level scale: it is not computed twice (``cv["level"]`` is None).
+    inputs_l = FitInputs(level, opts) if type(level.model).__name__ != "OLS" else None
     put("level_r2", lambda: level_r2(inputs_t, name))
-    put("level_model_r2", lambda: _squared_correlation(*inputs_l.endog_fitted()))
+    if inputs_l is None:
+        put("level_model_r2", lambda: _squared_correlation(_endog(level), _values(level.fittedvalues)))
+    else:
+        put("level_model_r2", lambda: _squared_correlation(*inputs_l.endog_fitted()))
 
     def cv() -> dict[str, Any]:
         return {
             "folds": int(opts["cv_folds"]),
             "seed": int(opts["cv_seed"]),
             "transformed": level_cv(inputs_t, name, opts),
-            "level": level_cv(inputs_l, None, opts),
+            "level": level_cv(inputs_l, None, opts) if inputs_l is not None else None,
             "form": FORM_LEVEL_CV,
         }
 
