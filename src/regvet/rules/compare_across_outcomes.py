@@ -92,7 +92,11 @@ RULE = Rule(
         "measures (`rsquared`, `rsquared_adj`, `aic`, `bic`, `llf`) between fits whose dependent variables "
         "differ. To choose between a log and a level model, compare the level model's R² with the squared "
         "correlation between the level outcome and the exponentiated fitted values of the log model, or "
-        "compare out-of-sample prediction errors on the same scale."
+        "compare out-of-sample prediction errors on the same scale.\n\n"
+        "After a run, an outcome that is numerically the log (log10, log2, log1p or sqrt) of the other "
+        "compared outcome, even one held as its own column, is recognised on the rows both fits used, and "
+        "the message shows these level-scale numbers, the log model's cross-validation errors retransformed "
+        "with Duan's smearing estimate."
     ),
     bad="""\
 import numpy as np
@@ -117,6 +121,8 @@ best = small if small.aic < large.aic else large
     references=(
         "Wooldridge, J. M. Introductory Econometrics, Sec. 6.4 (predicting y when log(y) is the dependent "
         "variable) (from memory).",
+        "Duan, N. (1983). Smearing estimate: a nonparametric retransformation method. JASA 78, 605-610 "
+        "(from memory).",
     ),
     compares_fits=True,
 )
