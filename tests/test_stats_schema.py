@@ -128,6 +128,11 @@ def _cases() -> dict[str, tuple[Any, dict[str, Any]]]:
             {"cv": True, "break_candidates": ["x1"]},
         ),
         "collinear design": (sm.OLS(flat["riders"].to_numpy(), collinear).fit(), {}),
+        # fare beside its square: a condition index above 10 (BKW dimensions), one multi-column term.
+        "ols, formula, a square and a categorical": (
+            smf.ols("riders ~ fare + I(fare ** 2) + C(post) + wind", data=flat).fit(),
+            {},
+        ),
         "constant only": (sm.OLS(flat["riders"].to_numpy(), np.ones((n, 1))).fit(), {}),
         # statsmodels drops the 1e-8-scaled column (its rank rule on the raw columns): scaled_refit.
         "rank lost to scaling": (

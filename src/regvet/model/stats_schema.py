@@ -59,10 +59,40 @@ class JarqueBera(TypedDict):
     form: str
 
 
+class Dimension(TypedDict):
+    """One singular direction of the unit-length-scaled design (Belsley-Kuh-Welsch)."""
+
+    index: float | None  # its condition index: the largest singular value over its own
+    #: The share of each coefficient's variance on this direction, the shares of at least 0.1, largest first.
+    proportions: dict[str, float | None]
+
+
 class ConditionIndex(TypedDict):
     """Belsley-Kuh-Welsch condition index (unit-length columns, the constant included)."""
 
     value: float | None
+    form: str
+    constant: str | None  # the name of the explicit constant column (the intercept), if any
+    #: The directions with a condition index of at least 10, largest first.
+    dimensions: list[Dimension]
+
+
+class GvifTerm(TypedDict):
+    """The generalized VIF of one term: a predictor's columns (powers, interactions, dummies)."""
+
+    term: str
+    columns: list[str]
+    df: int
+    gvif: float | None
+    scaled: float | None  # GVIF^(1/(2·df)), comparable with the square root of a VIF threshold
+
+
+class Gvif(TypedDict):
+    """Fox-Monette generalized VIFs of the model's terms."""
+
+    max: float | None  # the largest scaled value
+    term: str | None
+    terms: list[GvifTerm]
     form: str
 
 
@@ -183,6 +213,7 @@ class _FitStatisticsAlways(TypedDict):
     jarque_bera: JarqueBera | None
     condition_index: ConditionIndex | None
     vif: Vif | None
+    gvif: Gvif | None
     #: Why the data is time-ordered, or None (then the two serial statistics are None too).
     time_ordered: str | None
     durbin_watson: float | None

@@ -1,35 +1,94 @@
-"""collinear-design: a near-singular design (scaled condition index > 30 or a VIF > 10)."""
+"""collinear-design: collinearity between terms (generalized VIF) or a BKW dependence among two or more slopes."""
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
+from regvet.model.stats_schema import FitStatistics
 from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
 from regvet.rules.evidence import num, runs
 
 CONDITION = 30  # Belsley, Kuh and Welsch (1980)
+PROPORTION = 0.5  # Belsley, Kuh and Welsch (1980): a variance-decomposition proportion above one half
 VIF = 10  # common practice
+#: GVIF^(1/(2·df)) is compared with the square root of the VIF threshold (Fox and Monette 1992; common practice).
+SCALED_GVIF = math.sqrt(VIF)
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
     return once_per_root(inp, _judge)
 
 
+def _names(names: list[str]) -> str:
+    return ", ".join(f"`{n}`" for n in names)
+
+
+def _terms(s: FitStatistics) -> list[set[str]]:
+    gvif = s.get("gvif")
+    return [set(t.get("columns") or []) for t in (gvif.get("terms") or [])] if gvif is not None else []
+
+
+def _dependence(s: FitStatistics) -> str | None:
+    """A condition index above 30 that carries more than half the variance of two or more slopes
+    that are not all in one term (a predictor with its own square, the dummies of one factor)."""
+    index = s.get("condition_index")
+    if index is None or index.get("value") is None:
+        return None
+    dims = index.get("dimensions")
+    if dims is None:  # a run from before the proportions were recorded: the index alone
+        ci = index.get("value")
+        return (
+            f"the scaled condition index is {num(ci)} (above {CONDITION})"
+            if ci is not None and ci > CONDITION
+            else None
+        )
+    constant = index.get("constant")
+    terms = _terms(s)
+    for dim in dims:
+        value = dim.get("index")
+        if value is None or not value > CONDITION:
+            continue
+        shares = dim.get("proportions") or {}
+        involved = [n for n, p in shares.items() if p is not None and p > PROPORTION and n != constant]
+        if len(involved) < 2 or any(set(involved) <= term for term in terms):
+            continue
+        props = ", ".join(num(shares[n]) for n in involved)
+        return (
+            f"the scaled condition index is {num(value)} (above {CONDITION}) and that near-dependence carries more "
+            f"than half the variance of {_names(involved)} (Belsley-Kuh-Welsch proportions {props})"
+        )
+    return None
+
+
+def _inflation(s: FitStatistics) -> str | None:
+    """The term with the largest generalized VIF above the threshold (a plain VIF for one column)."""
+    gvif = s.get("gvif")
+    if gvif is not None and gvif.get("terms") is not None:
+        worst = max(gvif.get("terms") or [], key=lambda t: t.get("scaled") or 0.0, default=None)
+        if worst is None or not (worst.get("scaled") or 0.0) > SCALED_GVIF:
+            return None
+        if worst.get("df") == 1:
+            return f"`{worst.get('term')}` has a VIF of {num(worst.get('gvif'))} (above {VIF})"
+        return (
+            f"the term `{worst.get('term')}` ({worst.get('df')} columns: {_names(worst.get('columns') or [])}) has a "
+            f"generalized VIF of {num(worst.get('gvif'))}, GVIF^(1/(2·df)) = {num(worst.get('scaled'))} (above "
+            f"√{VIF} = {num(SCALED_GVIF)})"
+        )
+    vifs = s.get("vif")  # a run from before generalized VIFs were recorded
+    vif = vifs.get("max") if vifs is not None else None
+    if vifs is not None and vif is not None and vif > VIF:
+        return f"`{vifs.get('variable')}` has a VIF of {num(vif)} (above {VIF})"
+    return None
+
+
 def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     if not inp.uses(fit.id, ("estimate", "inference", "robust")):
         return None
     for s in runs(inp, fit.id):
-        index, vifs = s.get("condition_index"), s.get("vif")
-        ci = index.get("value") if index is not None else None
-        vif = vifs.get("max") if vifs is not None else None
-        var = vifs.get("variable") if vifs is not None else None
-        parts = []
-        if ci is not None and ci > CONDITION:
-            parts.append(f"the scaled condition index is {num(ci)} (above {CONDITION})")
-        if vif is not None and vif > VIF:
-            parts.append(f"`{var}` has a VIF of {num(vif)} (above {VIF})")
+        parts = [part for part in (_dependence(s), _inflation(s)) if part is not None]
         if not parts:
             continue
         return RULE.fit_finding(
@@ -45,12 +104,26 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
 RULE = Rule(
     id="collinear-design",
     severity=Severity.WARNING,
-    summary="The design is nearly collinear: scaled condition index > 30 or a VIF > 10.",
+    summary=(
+        "The design is nearly collinear between terms: a generalized VIF above the usual threshold, or a "
+        "condition index > 30 carrying most of the variance of two or more slopes."
+    ),
     rationale=(
-        "The condition index is computed as Belsley, Kuh and Welsch define it: on the design with each "
-        "column, the constant included, scaled to unit length (not statsmodels' raw `condition_number`, "
-        "which depends on the units). An index above 30 signals a moderate to strong near-dependence. A "
-        "variance inflation factor above 10 is a common rule of thumb (some use 5).\n\n"
+        "Collinearity is judged between the model's terms, never inside one: a predictor with its own "
+        "powers and the interactions that contain it, and the dummies of one categorical, form one term, "
+        "and predictors joined by an interaction are one term (patsy's terms for a formula; for arrays, names "
+        "such as `x**2`, `I(x**2)` or `x:z`): the near-dependence of x, z and x:z is built in by the "
+        "interaction (centre x and z to see it go), not a property of the data. Each term gets the "
+        "generalized VIF of Fox and Monette (1992); GVIF^(1/(2·df)) is compared with the square root of the "
+        "usual VIF threshold of 10 (common practice; some use 5), so a one-column term is judged by its "
+        "plain VIF.\n\n"
+        "The condition index is computed as Belsley, Kuh and Welsch define it: from the singular values of "
+        "the design with each column, the constant included, scaled to unit length (not statsmodels' raw "
+        "`condition_number`, which depends on the units). Following their rule, an index above 30 counts "
+        "only when its direction carries more than half (variance-decomposition proportion > 0.5) of the "
+        "variance of at least two coefficients other than the intercept, not all in one term; the message "
+        "names them. An index whose variance sits on the constant (regressors far from zero) is not "
+        "flagged.\n\n"
         "Runtime mode only."
     ),
     bad="""\
@@ -80,6 +153,7 @@ print(res.params)
     check=check,
     references=(
         "Belsley, D. A., Kuh, E. and Welsch, R. E. (1980). Regression Diagnostics. Wiley.",
+        "Fox, J. and Monette, G. (1992). Generalized collinearity diagnostics. JASA 87, 178-183.",
         "VIF > 10: common practice (e.g. Kutner et al., Applied Linear Statistical Models); see O'Brien, R. M. "
         "(2007), Quality & Quantity 41, 673-690, for a critique.",
     ),

@@ -187,6 +187,8 @@ class FitInputs:
         self.rank = self.statsmodels_rank
         self.condition = 1.0
         self.refit: Refit | None = None
+        #: The triangular factor of the design in the probe's basis (R'R = V'V), from the same QR.
+        self.factor: np.ndarray | None = None
         self._resolve()
         self.yhat = self.y - self.u  # whitened fitted values, wexog @ params
         self.df_resid = float(self.n - self.rank)
@@ -212,6 +214,7 @@ class FitInputs:
         except (ValueError, np.linalg.LinAlgError):
             return
         self.condition = found.condition
+        self.factor = found.factor
         if found.refit is None:
             return
         self.refit = found.refit

@@ -2,8 +2,10 @@
 
 Runs inside the user's interpreter beside ``regvet_stats`` (same import rules). :class:`RowPasses`
 holds the state of one statistics run (output, errors, failed passes) and the shared computations:
-``prepare`` (n-vectors and choices), ``pass_one`` (cross-products), ``solve`` (generalised
-inverses), ``pass_two`` (leverages, residualised auxiliary columns, the full White regression).
+``prepare`` (n-vectors and choices), ``pass_one`` (cross-products; the design's QR factor unless
+``FitInputs`` has it), ``solve`` (generalised inverses; T with T·T' = (V'V)⁻ from the QR factor),
+``pass_two`` (HC meat and leverages from the QR factor, residualised auxiliary columns, the full
+White regression).
 ``regvet_stats._Stats`` builds every statistic on top of them.
 """
 
@@ -18,7 +20,7 @@ import numpy as np
 # Siblings in this folder (the probe's own modules, never regvet itself).
 from regvet_align import lags_for
 from regvet_fit import FitInputs, StatisticError, error_message
-from regvet_linalg import Basis, Consumer, GInverse, TallQR, gram_with_constant, leverages, sweep
+from regvet_linalg import Basis, Consumer, GInverse, TallQR, gram_with_constant, root_inverse, sweep
 
 
 class RowPasses:
@@ -140,7 +142,7 @@ class RowPasses:
             self.basis = Basis(fit.X, fit.const_idx, fit.chunk, fit.one_in_span and fit.estimator == "OLS")
         except Exception as exc:
             self.failed["design"] = exc
-            for name in ("gram", "reset_cross", "lags", "meat", "cv"):
+            for name in ("gram", "reset_cross", "lags", "meat", "cv", "factor"):
                 self.failed.setdefault(name, exc)
             return
         k = fit.k
@@ -174,16 +176,15 @@ class RowPasses:
                 self.sum_lags += block.sum(axis=0)
 
             consumers["lags"] = lags
-        if self.hc in ("HC0", "HC1"):
-            self.meat = np.zeros((k, k))
+        # The design's triangular factor: from FitInputs' QR when it has one, else from this pass.
+        self.factor: np.ndarray | None = fit.factor
+        if self.factor is None:
+            design_qr = TallQR()
 
-            absu = np.abs(u)
+            def factor(s: int, e: int, v: np.ndarray) -> None:
+                design_qr.add(v)
 
-            def meat(s: int, e: int, v: np.ndarray) -> None:
-                w = v * absu[s:e, None]
-                self.meat += w.T @ w
-
-            consumers["meat"] = meat
+            consumers["factor"] = factor
         if self.opts["cv"] and "cv" not in self.failed:
             folds = self.opts["cv_folds"]
             self.fold_gram = np.zeros((folds, k, k))
@@ -201,6 +202,10 @@ class RowPasses:
 
             consumers["cv"] = cv
         sweep(self.basis, consumers, self.failed)
+        if self.factor is None and "factor" not in self.failed:
+            self.factor = design_qr.r
+        if self.factor is None:
+            self.failed.setdefault("factor", StatisticError("no observations"))
 
     def solve(self) -> None:
         """Generalised inverses of V'V and of [1, V]'[1, V] (the auxiliary regressions' design)."""
@@ -218,6 +223,11 @@ class RowPasses:
                 self.Gpinv = GInverse(gram_with_constant(self.G, self.sums, fit.n), rank=fit.rank + 1)
         except Exception as exc:
             self.failed["gram"] = exc
+        if self.factor is not None:
+            try:
+                self.root_inv = root_inverse(self.factor, fit.rank)
+            except Exception as exc:
+                self.failed["factor"] = exc
 
     def plus_cross(self, cross_v: np.ndarray, sums: np.ndarray) -> np.ndarray:
         """[1, V]'R (or V'R when 1 is already in the design's span) from V'R and 1'R."""
@@ -238,16 +248,24 @@ class RowPasses:
         consumers: dict[str, Consumer] = {}
         Ginv = self.Ginv.inv
 
-        if self.hc in ("HC2", "HC3"):
-            self.meat = np.zeros((k, k))
+        if "factor" in self.failed:
+            self.failed.setdefault("meat", self.failed["factor"])
+        else:
+            # HC meat in the orthonormal coordinates q_i = v_i·T (T·T' = (V'V)⁻, from the QR factor):
+            # leverages h_i = ‖q_i‖², and Cov_HC(β_V) = T·(Σ ω_i q_i q_i')·T'.
+            root = self.root_inv
+            self.meat = np.zeros((root.shape[1], root.shape[1]))
             self.max_leverage = 0.0
-            power = 1 if self.hc == "HC2" else 2
+            power = {"HC0": 0, "HC1": 0, "HC2": 1, "HC3": 2}[self.hc]
 
             def meat(s: int, e: int, v: np.ndarray) -> None:
-                h = leverages(v, Ginv)
-                self.max_leverage = max(self.max_leverage, float(h.max(initial=0.0)))
-                w = self.g[s:e] / (1.0 - h) ** power
-                self.meat += (v * w[:, None]).T @ v
+                q = v @ root
+                w = self.g[s:e]
+                if power:
+                    h = np.einsum("ij,ij->i", q, q)
+                    self.max_leverage = max(self.max_leverage, float(h.max(initial=0.0)))
+                    w = w / (1.0 - h) ** power
+                self.meat += (q * w[:, None]).T @ q
 
             consumers["meat"] = meat
 

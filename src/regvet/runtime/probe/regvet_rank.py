@@ -48,6 +48,9 @@ class Resolution(NamedTuple):
     rank: int  # numerical rank of the centred, unit-scaled design
     condition: float  # its condition number on those directions (1.0 without columns)
     refit: Refit | None  # set when ``rank`` exceeds statsmodels' rank
+    #: The triangular factor of the design in the probe's basis (R'R = V'V), for the statistics
+    #: that need it (leverages, condition indexes, VIFs); None when it was not computed.
+    factor: np.ndarray | None = None
 
 
 def noise_floor(condition: float) -> float:
@@ -77,7 +80,7 @@ def resolve(basis: Basis, y: np.ndarray, statsmodels_rank: int) -> Resolution:
     rank = int(np.sum(sv > sv[0] * max(n, k) * EPS))
     condition = float(sv[0] / sv[rank - 1])
     if rank <= statsmodels_rank:
-        return Resolution(rank, condition, None)
+        return Resolution(rank, condition, None, rx)
     # The least-squares fit on the kept directions: scaled coefficients, then the model's.
     ur, sr, wr = left[:, :rank], sv[:rank], right_t[:rank].T
     beta_scaled = wr @ ((ur.T @ z) / sr)
@@ -87,4 +90,4 @@ def resolve(basis: Basis, y: np.ndarray, statsmodels_rank: int) -> Resolution:
         u[s:e] = y[s:e] - basis.rows(s, e) @ beta_v
     cov_v = (wr / sr**2) @ wr.T / np.outer(norms, norms)
     params = basis.to_coefficients(beta_v)
-    return Resolution(rank, condition, Refit(u, params, basis.to_params(cov_v), float(u @ u)))
+    return Resolution(rank, condition, Refit(u, params, basis.to_params(cov_v), float(u @ u)), rx)

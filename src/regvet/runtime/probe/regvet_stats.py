@@ -22,6 +22,10 @@ How the numbers are computed (and why), in short:
   Cross-product matrices are equilibrated (scaled to unit diagonal) before they are inverted, so the
   relative accuracy is about eps times the squared condition number of the *centred, unit-scaled*
   design (Longley: 110, against 4.9e9 for the raw design), not of the raw one.
+  Robust standard errors (their leverages and sandwich), condition indexes, VIFs and generalized
+  VIFs come from the triangular factor of a blocked QR of that design instead (``regvet_collinear``,
+  ``regvet_linalg.root_inverse``): eps times the condition number, not its square, and the same
+  whatever the row blocks.
 * Auxiliary regressions are done by partitioned (Frisch-Waugh-Lovell) regression: RESET regresses
   the residuals on the powers of the fitted values after residualising those on the design;
   Breusch-Godfrey does the same with the lagged residuals; Breusch-Pagan needs only X'(u^2).
@@ -47,6 +51,7 @@ import numpy as np
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
 from regvet_align import fingerprint
+from regvet_collinear import centred_factor, condition_indexes, gvifs, raw_factor, term_sets, vifs
 from regvet_fit import (
     DEFAULT_OPTIONS,
     FitInputs,
@@ -59,7 +64,6 @@ from regvet_fit import (
     read_options,
 )
 from regvet_linalg import (
-    EPS,
     GInverse,
     TallQR,
     ssr_on_columns,
@@ -76,7 +80,6 @@ FORM_WHITE_FULL = "full"
 FORM_WHITE_SPECIAL = "special (ŷ, ŷ²)"
 FORM_RESET = "F test of powers 2 and 3 of the fitted values"
 FORM_JARQUE_BERA = "kurtosis is not excess kurtosis"
-FORM_CONDITION_INDEX = "Belsley-Kuh-Welsch: columns incl. the constant scaled to unit length, not centred"
 FORM_WITHIN_UNITS = "û_it on û_i,t-1 with an intercept, rows sorted by unit and time; cluster-robust by unit, t(G-1)"
 FORM_BREUSCH_GODFREY = "n·R² of û on the regressors and its lags (zero-padded, all n observations)"
 COEFFICIENT_TESTS = "t distribution with df_resid for both"
@@ -110,6 +113,7 @@ class _Stats(RowPasses):
                 "cv",
                 "cv_predict",
                 "white_full",
+                "factor",
             ):
                 self.failed.setdefault(name, exc)
 
@@ -134,6 +138,7 @@ class _Stats(RowPasses):
         self.put("jarque_bera", self.jarque_bera)
         self.put("condition_index", self.condition_index)
         self.put("vif", self.vif)
+        self.put("gvif", self.gvif)
         self.time_series()
         self.out["chow"] = self.chow()
         self.out["coefficient_tests"] = COEFFICIENT_TESTS
@@ -299,50 +304,38 @@ class _Stats(RowPasses):
             )
 
     def condition_index(self) -> dict[str, Any]:
-        """Belsley-Kuh-Welsch condition number: columns (incl. the constant) scaled to unit length."""
-        self.need("gram")
+        """Belsley-Kuh-Welsch condition indexes and variance-decomposition proportions (regvet_collinear)."""
+        self.need("factor")
         self._full_rank("the condition index is infinite")
-        xtx = self.basis.to_raw_gram(self.G)
-        d = np.sqrt(np.diag(xtx))
-        if not np.all(d > 0):
-            raise StatisticError("a column of the design is all zeros")
-        lam = np.linalg.eigvalsh(xtx / np.outer(d, d))
-        if not lam[0] > 0:
-            raise StatisticError("the scaled design is numerically singular: the condition index is infinite")
-        return {"value": as_float(math.sqrt(lam[-1] / lam[0])), "form": FORM_CONDITION_INDEX}
+        fit = self.fit
+        assert self.factor is not None
+        f_x = raw_factor(self.factor, self.basis.c, self.basis.m)
+        constant = fit.names[fit.const_idx] if fit.const_idx is not None else None
+        return condition_indexes(f_x, fit.names, constant)
 
-    def vif(self) -> dict[str, Any]:
-        """Centred VIFs of the non-constant regressors: diag of the inverse correlation matrix."""
-        self.need("gram")
-        self._full_rank("the VIFs are infinite")
+    def _centred(self) -> tuple[np.ndarray, list[int]]:
+        """The centred factor of the non-constant regressors and their column indexes."""
         fit = self.fit
         if fit.const_idx is not None:
+            self.need("factor")
             idx = [j for j in range(fit.k) if j != fit.const_idx]
-            centred = self.G[np.ix_(idx, idx)]  # V's columns are already centred on the constant
-        else:
-            idx = list(range(fit.k))
-            centred = self.G - np.outer(self.sums, self.sums) / fit.n
-        if not idx:
-            return {"max": None, "variable": None, "values": {}}
-        d = np.sqrt(np.diag(centred))
-        if not np.all(d > 0):
-            bad = [fit.names[idx[i]] for i in np.flatnonzero(~(d > 0))]
-            raise StatisticError(f"regressor(s) without variation: {', '.join(bad)}")
-        corr = centred / np.outer(d, d)
-        w = np.linalg.eigvalsh(corr)
-        if not w[0] > w[-1] * len(idx) * EPS * 10:
-            raise StatisticError(
-                "the centred regressors are perfectly collinear (e.g. a full set of dummies without a "
-                "constant column), so the VIFs are infinite"
-            )
-        values = np.diag(np.linalg.inv(corr))
-        names = [fit.names[j] for j in idx]
-        top = int(np.argmax(values))
-        return {
-            "max": as_float(values[top]),
-            "variable": names[top],
-            "values": {name: as_float(v) for name, v in zip(names, values)},
-        }
+            return centred_factor(self.factor, self.G, self.sums, fit.n, idx), idx
+        self.need("gram")
+        idx = list(range(fit.k))
+        return centred_factor(None, self.G, self.sums, fit.n, idx), idx
+
+    def vif(self) -> dict[str, Any]:
+        """Centred VIFs of the non-constant regressors (= variance_inflation_factor), from the QR factor."""
+        self._full_rank("the VIFs are infinite")
+        f, idx = self._centred()
+        return vifs(f, [self.fit.names[j] for j in idx])
+
+    def gvif(self) -> dict[str, Any]:
+        """Fox-Monette generalized VIFs of the model's terms (see regvet_collinear.term_sets)."""
+        self._full_rank("the generalized VIFs are infinite")
+        f, idx = self._centred()
+        fit = self.fit
+        return gvifs(f, [fit.names[j] for j in idx], term_sets(fit.model, fit.names, idx))
 
     def time_series(self) -> None:
         self.out["time_ordered"] = self.time_reason
@@ -537,7 +530,8 @@ class _Stats(RowPasses):
                 raise StatisticError(
                     f"an observation has leverage 1 (e.g. a dummy for a single row): {self.hc} is undefined"
                 )
-            cov_v = self.Ginv.inv @ self.meat @ self.Ginv.inv
+            self.need("factor")
+            cov_v = self.root_inv @ self.meat @ self.root_inv.T
             if self.hc == "HC1":
                 cov_v = cov_v * (fit.n / df)
             se_r = np.sqrt(np.clip(np.diag(self.basis.to_params(cov_v)), 0.0, None))
@@ -636,10 +630,16 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
       ``white_max_columns`` columns, else "special (ŷ, ŷ²)" (= ``het_breuschpagan(resid, [1, ŷ, ŷ²])``).
     * ``reset``: ``{"form", "f", "pvalue", "df_num", "df_denom"}`` = ``linear_reset(res, power=3, use_f=True)``.
     * ``jarque_bera``: ``{"statistic", "pvalue", "skew", "kurtosis", "form"}`` = ``stattools.jarque_bera``.
-    * ``condition_index``: ``{"value", "form"}``, Belsley-Kuh-Welsch (unit-length columns incl. the
-      constant, not centred; not statsmodels' raw ``condition_number``).
+    * ``condition_index``: ``{"value", "form", "constant", "dimensions": [{"index", "proportions"}]}``,
+      Belsley-Kuh-Welsch (unit-length columns incl. the constant, not centred; not statsmodels' raw
+      ``condition_number``), from the SVD of the design's QR factor; ``dimensions``: every direction
+      with an index of at least 10, with its variance-decomposition proportions of at least 0.1
+      (``regvet_collinear``); ``constant``: the name of the explicit constant column.
     * ``vif``: ``{"max", "variable", "values": {name: vif}}``, centred VIFs of the non-constant
       regressors (= ``variance_inflation_factor(exog, i)``, standardize=True).
+    * ``gvif``: ``{"max", "term", "terms": [{"term", "columns", "df", "gvif", "scaled"}], "form"}``,
+      Fox-Monette generalized VIFs of the model's terms (``regvet_collinear.term_sets``); ``scaled``
+      = GVIF^(1/(2·df)).
     * ``time_ordered``: why the data is time-ordered (DatetimeIndex/PeriodIndex rows, or
       ``time_column`` in the model's data frame), else None; then ``durbin_watson`` (float) and
       ``breusch_godfrey`` ``{"lm", "lm_pvalue", "f", "f_pvalue", "lags", "form"}``
