@@ -337,6 +337,75 @@ def test_compared_fits_get_comparable_measures(tmp_path):
     assert test["f"] == pytest.approx(f, rel=1e-9) and test["pvalue"] == pytest.approx(pvalue, rel=1e-7)
 
 
+LOG_COLUMN = """\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+
+rng = np.random.default_rng(21)
+crossings = pd.DataFrame({"fare": rng.uniform(2, 9, 150), "wind_speed": rng.uniform(0, 30, 150)})
+crossings["riders"] = np.exp(6 - 0.1 * crossings["fare"] - 0.01 * crossings["wind_speed"] + rng.normal(0, 0.3, 150))
+crossings["log_riders"] = np.log(crossings.riders)
+logged = smf.ols("log_riders ~ fare + wind_speed", data=crossings).fit()
+level = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()
+pick = level if level.rsquared > logged.rsquared else logged
+"""
+
+
+def test_a_log_outcome_held_as_its_own_column_is_compared_on_the_level_scale(tmp_path):
+    import numpy as np
+    import pandas as pd
+    import statsmodels.api as sm
+    import statsmodels.formula.api as smf
+
+    from regvet.rules.evidence import num
+
+    report, result = judge(tmp_path, LOG_COLUMN)
+    assert result.completed and len(result.pairs) == 1
+    [across] = [f for f in report.findings if f.rule == "compare-across-outcomes"]
+    # the same fits in this process: numpy's corrcoef of riders with exp(fitted), statsmodels' R²
+    rng = np.random.default_rng(21)
+    crossings = pd.DataFrame({"fare": rng.uniform(2, 9, 150), "wind_speed": rng.uniform(0, 30, 150)})
+    noise = rng.normal(0, 0.3, 150)
+    crossings["riders"] = np.exp(6 - 0.1 * crossings["fare"] - 0.01 * crossings["wind_speed"] + noise)
+    logged = smf.ols("np.log(riders) ~ fare + wind_speed", data=crossings).fit()
+    level = smf.ols("riders ~ fare + wind_speed", data=crossings).fit()
+    r2_log = np.corrcoef(crossings["riders"], np.exp(logged.fittedvalues))[0, 1] ** 2
+    assert f"(level scale: log model {num(r2_log)} vs level model {num(level.rsquared)})" in across.message
+    # Duan (1983) smearing, computed directly from statsmodels refits on the probe's folds (5, seed 0)
+    X = sm.add_constant(crossings[["fare", "wind_speed"]].to_numpy())
+    y = crossings["riders"].to_numpy()
+    e_log, e_level = [], []
+    for part in np.array_split(np.random.default_rng(0).permutation(150), 5):
+        train = np.setdiff1d(np.arange(150), part)
+        refit = sm.OLS(np.log(y[train]), X[train]).fit()
+        e_log.append(y[part] - np.exp(X[part] @ refit.params) * np.mean(np.exp(refit.resid)))
+        e_level.append(y[part] - X[part] @ sm.OLS(y[train], X[train]).fit().params)
+    rmse_log = float(np.sqrt(np.mean(np.concatenate(e_log) ** 2)))
+    rmse_level = float(np.sqrt(np.mean(np.concatenate(e_level) ** 2)))
+    assert f"(log model {num(rmse_log)} vs level model {num(rmse_level)})" in across.message
+    assert "((" not in across.message and across.message.count(". ") == 1  # two sentences, no nesting
+    rows = {r["outcome"]: r for r in across.stats["comparison"]["fits"]}
+    assert rows["log_riders"]["level_transform"] == "log"
+    assert rows["log_riders"]["cv_rmse"] == pytest.approx(rmse_log, rel=1e-9)
+    assert rows["log_riders"]["log_level_r2"] == pytest.approx(r2_log, rel=1e-9)
+    assert rows["riders"]["level_r2"] == pytest.approx(level.rsquared, rel=1e-9)
+    summaries = [x["summary"] for x in across.stats["fits"]]
+    assert f"5-fold CV RMSE {num(rmse_log)} on the level scale" in summaries[0]  # never in log units
+
+
+def test_a_log_model_without_a_level_pair_shows_no_cv_errors_beside_a_level_one(tmp_path):
+    code = LOG_COLUMN.replace('crossings["log_riders"] = np.log(crossings.riders)', "").replace(
+        '"log_riders ~', '"np.log(riders + 5) ~'
+    )  # log(riders + 5) is no transform regvet pairs: its CV errors would be in mixed units
+    report, result = judge(tmp_path, code)
+    assert result.completed and result.pairs == []
+    [across] = [f for f in report.findings if f.rule == "compare-across-outcomes"]
+    rows = {r["fit"]: r for r in across.stats["comparison"]["fits"]}
+    assert rows["logged"]["cv_rmse"] is None and rows["level"]["cv_rmse"] is not None
+    assert "level scale" not in across.message
+
+
 def test_an_interpreter_without_statsmodels_gives_run_failed(tmp_path):
     import shutil
     import subprocess

@@ -33,7 +33,7 @@ from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.model.stats_schema import ComparisonRow, FitStatistics, NestedFTest, PlotPoints
 from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput, rules_for_family
-from regvet.rules.evidence import comparison_row, judged_reset, num, p, runs
+from regvet.rules.evidence import comparison_rows, judged_reset, num, p, runs
 from regvet.rules.texts import CAUTION
 
 PASSED, REJECTED, DONE = "done, passed", "done, rejected", "done"
@@ -383,12 +383,7 @@ def _comparisons(inp: RuleInput, report: FileReport, fit: Fit) -> tuple[list[Com
             table = tuple(measured["fits"])
             nested = tuple(measured.get("nested_f_tests", ()))
         elif inp.runtime is not None:
-            rows = []
-            for fid, _ in comp.measures:
-                s = runs(inp, fid)
-                if s:
-                    rows.append(comparison_row(facts.fit(fid), s[0]))
-            table = tuple(rows)
+            table = tuple(comparison_rows(inp, [fid for fid, _ in comp.measures]))
         out.append(
             ComparisonEntry(
                 where=_where(inp, comp.loc),

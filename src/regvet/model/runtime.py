@@ -11,7 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 from regvet.model.span import Span
-from regvet.model.stats_schema import FitRecord
+from regvet.model.stats_schema import FitRecord, PairRecord
 
 
 @dataclass(frozen=True)
@@ -24,6 +24,15 @@ class RunFailure:
 
 
 @dataclass(frozen=True)
+class Pairing:
+    """Two compared static fits whose outcomes the run showed to be one transform of the other."""
+
+    transformed: int  # static fit id of the fit of the transformed outcome (``log_riders``)
+    level: int  # static fit id of the fit of the level outcome (``riders``)
+    record: PairRecord
+
+
+@dataclass(frozen=True)
 class RuntimeFacts:
     """Statistics per static fit id (one entry per time the fit ran), and the run's outcome."""
 
@@ -31,7 +40,12 @@ class RuntimeFacts:
     failure: RunFailure | None = None
     cached: bool = False
     elapsed_s: float | None = None
+    pairs: tuple[Pairing, ...] = ()
 
     def stats(self, fid: int) -> tuple[FitRecord, ...]:
         """The probe's records of every run of the fit (``FitRecord.stats`` holds the statistics)."""
         return self.fit_stats.get(fid, ())
+
+    def pairing(self, fids: set[int] | frozenset[int]) -> list[Pairing]:
+        """The pairings between fits in ``fids``."""
+        return [p for p in self.pairs if p.transformed in fids and p.level in fids]

@@ -298,6 +298,40 @@ class FitRecord(TypedDict, total=False):
     points_error: str
 
 
+class LevelErrors(TypedDict):
+    """One model's k-fold prediction errors on the level scale."""
+
+    rmse: float | None
+    mae: float | None
+    #: The transformed model's full-sample Duan smearing factor mean(g⁻¹(e)) for a log family; else None.
+    smearing: float | None
+
+
+class LevelCrossValidation(TypedDict):
+    folds: int
+    seed: int
+    transformed: LevelErrors
+    #: None for an OLS level model: its own ``cv`` (the same folds) is on the level scale already.
+    level: LevelErrors | None
+    form: str
+
+
+class PairRecord(TypedDict, total=False):
+    """Two compared fits of a run whose outcomes are one transform of the other (``regvet_pairs``)."""
+
+    type: str  # "pair"
+    transformed: int  # ``seq`` of the fit whose outcome is the transform
+    level: int  # ``seq`` of the fit of the level outcome
+    transform: str  # "log" | "log10" | "log2" | "log1p" | "sqrt"
+    common_rows: int
+    #: corr(y, g⁻¹(ŷ_t))² of the transformed model and corr(y, ŷ)² of the level model (unweighted).
+    level_r2: float | None
+    level_model_r2: float | None
+    #: Both models' prediction errors on the level scale (Duan's smearing), or None (``errors["cv"]``).
+    cv: LevelCrossValidation | None
+    errors: dict[str, str]
+
+
 # --- what the engine attaches to a finding (``Finding.stats``) -----------------------------------
 class FitEvidence(TypedDict):
     fit: str
@@ -306,7 +340,7 @@ class FitEvidence(TypedDict):
     summary: str
 
 
-class ComparisonRow(TypedDict):
+class _ComparisonRowAlways(TypedDict):
     fit: str
     outcome: str | None
     nobs: int | None
@@ -318,6 +352,18 @@ class ComparisonRow(TypedDict):
     cv_mae: float | None
     cv_folds: int | None
     log_level_r2: float | None
+
+
+class ComparisonRow(_ComparisonRowAlways, total=False):
+    """One compared fit's measures. For a fit whose outcome is a transform of a compared level
+    model's outcome, ``log_level_r2`` and the CV errors are on the level scale (or None)."""
+
+    #: The transform that makes this fit's outcome from the compared level model's ("log", "sqrt"...).
+    level_transform: str
+    #: corr(y, ŷ)² of a compared level model, the number to set beside ``log_level_r2``.
+    level_r2: float | None
+    #: "level scale (Duan's smearing)" when the CV errors are the retransformed ones.
+    cv_scale: str
 
 
 class NestedFTest(TypedDict):

@@ -5,7 +5,9 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
+from regvet.model.runtime import Pairing
 from regvet.rules.base import Rule, RuleInput, describe_fit, related
+from regvet.rules.evidence import level_rmse, level_scale, num
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -21,6 +23,15 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if len(outcomes) < 2:
             continue
         measures = sorted({m for _, m in comp.measures})
+        pairings = level_scale(inp, [f.id for f in known])
+        if pairings:
+            yield RULE.finding(
+                comp.loc.span,
+                _level_message(inp, measures, pairings[0]),
+                [related(f.site, f"{describe_fit(f)} explains `{f.outcome.key}`") for f in known[:6]],  # type: ignore[union-attr]
+                fits=tuple(f.id for f in known),
+            )
+            continue
         listed = ", ".join(f"`{o}`" for o in outcomes[:4])
         bases = {f.outcome.base for f in known}  # type: ignore[union-attr]
         hint = (
@@ -39,6 +50,36 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         )
 
 
+def _level_message(inp: RuleInput, measures: list[str], pairing: Pairing) -> str:
+    """The finding's text when the run showed one outcome to be a transform of the other: the
+    comparable numbers themselves, on the level scale."""
+    record = pairing.record
+    t_fit, level_fit = inp.facts.fit(pairing.transformed), inp.facts.fit(pairing.level)
+    t_out = t_fit.outcome.key if t_fit.outcome else "?"
+    level_out = level_fit.outcome.key if level_fit.outcome else "?"
+    how = record.get("transform") or "a transform"
+    kind = f"{how} model"
+    compared = ", ".join(f"`{m}`" for m in measures)
+    numbers = f"level scale: {kind} {num(record.get('level_r2'))} vs level model {num(record.get('level_model_r2'))}"
+    visible = t_fit.outcome is not None and t_fit.outcome.base == level_out  # `np.log(riders)` says so itself
+    shown = "" if visible else f", which this run shows is {how} of `{level_out}`,"
+    wrong = (
+        f"This compares {compared} of a model of `{t_out}`{shown} with a "
+        f"model of `{level_out}`; such measures are on each outcome's own scale, so they cannot rank the two "
+        f"({numbers})."
+    )
+    cv = record.get("cv")
+    rmse_t, rmse_level = level_rmse(inp, pairing)
+    errors = ""
+    if cv is not None and rmse_t is not None and rmse_level is not None:
+        errors = (
+            f", or by their {cv['folds']}-fold CV RMSE on the level scale with Duan's smearing "
+            f"({kind} {num(rmse_t)} vs level model {num(rmse_level)})"
+        )
+    todo = f"Rank them by these squared correlations of `{level_out}` with each model's predictions of it{errors}."
+    return f"{wrong} {todo}"
+
+
 RULE = Rule(
     id="compare-across-outcomes",
     severity=Severity.ERROR,
@@ -51,7 +92,11 @@ RULE = Rule(
         "measures (`rsquared`, `rsquared_adj`, `aic`, `bic`, `llf`) between fits whose dependent variables "
         "differ. To choose between a log and a level model, compare the level model's R² with the squared "
         "correlation between the level outcome and the exponentiated fitted values of the log model, or "
-        "compare out-of-sample prediction errors on the same scale."
+        "compare out-of-sample prediction errors on the same scale.\n\n"
+        "After a run, an outcome that is numerically the log (log10, log2, log1p or sqrt) of the other "
+        "compared outcome, even one held as its own column, is recognised on the rows both fits used, and "
+        "the message shows these level-scale numbers, the log model's cross-validation errors retransformed "
+        "with Duan's smearing estimate."
     ),
     bad="""\
 import numpy as np
@@ -76,6 +121,8 @@ best = small if small.aic < large.aic else large
     references=(
         "Wooldridge, J. M. Introductory Econometrics, Sec. 6.4 (predicting y when log(y) is the dependent "
         "variable) (from memory).",
+        "Duan, N. (1983). Smearing estimate: a nonparametric retransformation method. JASA 78, 605-610 "
+        "(from memory).",
     ),
     compares_fits=True,
 )

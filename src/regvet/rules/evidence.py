@@ -12,6 +12,7 @@ from collections.abc import Collection, Iterable
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding
+from regvet.model.runtime import Pairing
 from regvet.model.stats_schema import (
     Coefficient,
     ComparisonRow,
@@ -19,6 +20,7 @@ from regvet.model.stats_schema import (
     FindingStats,
     FitEvidence,
     FitStatistics,
+    LevelErrors,
     NestedFTest,
     ResetTest,
     RobustReset,
@@ -83,8 +85,11 @@ def coefficient_clause(stats: FitStatistics, limit: int = 3) -> str:
     return f"with {kind}, " + ", ".join(parts) + more
 
 
-def summary(stats: FitStatistics) -> str:
-    """A short clause for a text line: the headline numbers of one run."""
+def summary(stats: FitStatistics, level_cv: LevelErrors | None | bool = False) -> str:
+    """A short clause for a text line: the headline numbers of one run.
+
+    ``level_cv``: for a compared fit of a transformed outcome, its CV errors on the level scale (None:
+    there are none, so no CV clause; False, the default: the fit's own)."""
     bits = [f"n={stats.get('nobs')}"]
     bp = stats.get("breusch_pagan")
     if bp is not None and bp.get("lm_pvalue") is not None:
@@ -105,8 +110,11 @@ def summary(stats: FitStatistics) -> str:
     if ci is not None and ci.get("value") is not None:
         bits.append(f"cond. index {num(ci.get('value'))}")
     cv = stats.get("cv")
-    if cv is not None and cv.get("rmse") is not None:
-        bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv.get('rmse'))}")
+    if level_cv is False:
+        if cv is not None and cv.get("rmse") is not None:
+            bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv.get('rmse'))}")
+    elif isinstance(level_cv, dict) and cv is not None and level_cv.get("rmse") is not None:
+        bits.append(f"{cv.get('folds')}-fold CV RMSE {num(level_cv.get('rmse'))} on the level scale")
     return ", ".join(bits)
 
 
@@ -125,6 +133,64 @@ def comparison_row(fit: Fit, stats: FitStatistics) -> ComparisonRow:
         "cv_folds": cv.get("folds") if cv is not None else None,
         "log_level_r2": stats.get("log_level_r2"),
     }
+
+
+LEVEL_CV = "level scale (Duan's smearing)"
+
+
+def level_scale(inp: RuleInput, fids: Iterable[int]) -> list[Pairing]:
+    """The run's pairings among these fits: one outcome is a transform of another (``regvet_pairs``)."""
+    if inp.runtime is None:
+        return []
+    return inp.runtime.pairing(set(fids))
+
+
+def level_rmse(inp: RuleInput, pairing: Pairing) -> tuple[float | None, float | None]:
+    """(transformed model, level model) k-fold CV RMSE on the level scale, or None where there is none.
+
+    An OLS level model's own cross-validation is on the level scale (the pair record leaves it out)."""
+    cv = pairing.record.get("cv")
+    if cv is None:
+        return None, None
+    level = cv.get("level")
+    if level is None:
+        own = runs(inp, pairing.level)
+        own_cv = own[0].get("cv") if own else None
+        return cv["transformed"].get("rmse"), own_cv.get("rmse") if own_cv is not None else None
+    return cv["transformed"].get("rmse"), level.get("rmse")
+
+
+def comparison_rows(inp: RuleInput, fids: Iterable[int]) -> list[ComparisonRow]:
+    """The compared fits' rows; measures of a transformed outcome on the level scale, or None.
+
+    A fit whose outcome the run showed to be a transform of a compared level model's outcome gets
+    the level-scale R² (``log_level_r2``) and its CV errors retransformed with Duan's smearing, the
+    level model its corr(y, ŷ)² (``level_r2``). A fit of a log outcome (by name) compared with a level
+    model without that pairing shows no CV errors at all: never errors in mixed units."""
+    fids = list(dict.fromkeys(fids))
+    rows: dict[int, ComparisonRow] = {}
+    for fid in fids:
+        stats = runs(inp, fid)
+        if stats:
+            rows[fid] = comparison_row(inp.facts.fit(fid), stats[0])
+    paired: set[int] = set()
+    for pairing in level_scale(inp, rows):
+        t, level, record = rows[pairing.transformed], rows[pairing.level], pairing.record
+        paired.add(pairing.transformed)
+        t["level_transform"] = record.get("transform") or "?"
+        t["log_level_r2"] = record.get("level_r2")
+        level["level_r2"] = record.get("level_model_r2")
+        cv = record.get("cv")
+        if cv is not None and t.get("cv_folds") is not None:
+            t["cv_rmse"], t["cv_mae"] = cv["transformed"].get("rmse"), cv["transformed"].get("mae")
+            t["cv_scale"] = LEVEL_CV
+        else:
+            t["cv_rmse"] = t["cv_mae"] = None
+    levels = [r for fid, r in rows.items() if r.get("log_level_r2") is None and fid not in paired]
+    for fid, row in rows.items():
+        if fid not in paired and row.get("log_level_r2") is not None and levels:
+            row["cv_rmse"] = row["cv_mae"] = None
+    return [rows[fid] for fid in fids if fid in rows]
 
 
 def nested_f_test(small: FitStatistics, large: FitStatistics) -> NestedFTest | None:
@@ -204,6 +270,11 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
             out.append(f)
             continue
         per_fit: list[FitEvidence] = []
+        transformed = {}
+        if f.rule in comparing:  # a transformed outcome's CV errors: on the level scale, or none
+            for pairing in level_scale(inp, f.fits):
+                cv = pairing.record.get("cv")
+                transformed[pairing.transformed] = cv["transformed"] if cv is not None else None
         for fid in f.fits:
             stats = runs(inp, fid)
             if stats:
@@ -213,7 +284,7 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
                         "fit": fit.result_name or fit.formula or f"fit {fid}",
                         "runs": len(stats),
                         "statistics": stats[0],
-                        "summary": summary(stats[0]),
+                        "summary": summary(stats[0], transformed.get(fid, False)),
                     }
                 )
         if not per_fit:
@@ -227,13 +298,11 @@ def attach(findings: Iterable[Finding], inp: RuleInput, comparing: Collection[st
 
 
 def _comparison(inp: RuleInput, fids: tuple[int, ...]) -> ComparisonTable:
-    rows: list[ComparisonRow] = []
+    rows = comparison_rows(inp, fids)
     table: list[FitStatistics] = []
     for fid in fids:
         stats = runs(inp, fid)
         if stats:
-            fit = inp.facts.fit(fid)
-            rows.append(comparison_row(fit, stats[0]))
             table.append(stats[0])
     result: ComparisonTable = {"fits": rows}
     tests: list[NestedFTest] = []

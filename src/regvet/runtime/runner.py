@@ -33,7 +33,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, cast
 
-from regvet.model.stats_schema import FitRecord
+from regvet.model.stats_schema import FitRecord, PairRecord
 
 PROBE_DIR = Path(__file__).resolve().parent / "probe"
 BOOT = PROBE_DIR / "regvet_probe_boot.py"
@@ -48,6 +48,8 @@ class RunResult:
     """What one run produced: fit records (with statistics), how it ended, and cache facts."""
 
     fits: list[FitRecord] = field(default_factory=list)
+    #: Compared fits whose outcomes are one transform of the other (``regvet_pairs``), by ``seq``.
+    pairs: list[PairRecord] = field(default_factory=list)
     end: dict[str, Any] | None = None  # the probe's last record; None when the child was killed
     timed_out: bool = False
     returncode: int | None = None
@@ -68,6 +70,7 @@ class RunResult:
     def to_json(self) -> dict[str, Any]:
         return {
             "fits": self.fits,
+            "pairs": self.pairs,
             "end": self.end,
             "timed_out": self.timed_out,
             "returncode": self.returncode,
@@ -83,6 +86,7 @@ class RunResult:
     def from_json(cls, data: dict[str, Any]) -> RunResult:
         return cls(
             fits=list(data.get("fits") or []),
+            pairs=list(data.get("pairs") or []),
             end=data.get("end"),
             timed_out=bool(data.get("timed_out")),
             returncode=data.get("returncode"),
@@ -247,6 +251,8 @@ def run(
         for record in _records(out):
             if record.get("type") == "fit":
                 result.fits.append(cast(FitRecord, record))  # the probe writes FitRecord lines
+            elif record.get("type") == "pair":
+                result.pairs.append(cast(PairRecord, record))
             elif record.get("type") == "end":
                 result.end = record
             elif record.get("type") == "self-signal" and result.signal is not None:

@@ -15,7 +15,7 @@ from typing import Any
 from regvet.engine import with_runtime
 from regvet.model.facts import Fit
 from regvet.model.report import FileReport
-from regvet.model.runtime import RunFailure, RuntimeFacts
+from regvet.model.runtime import Pairing, RunFailure, RuntimeFacts
 from regvet.model.settings import Settings
 from regvet.model.span import Span, byte_col, code_point_col
 from regvet.model.stats_schema import FitRecord
@@ -91,26 +91,65 @@ def _frame_position(src: _Source, frame: list[Any], end: bool = False) -> tuple[
     return line, None if col is None else code_point_col(text, col)
 
 
+def _fit_sites(src: _Source, report: FileReport, fit: Fit) -> list[list[Any]]:
+    """The end positions of a fit's calls in this file, as the probe's frames record them."""
+    sites = []
+    for loc in (fit.site, fit.fit_call):
+        if loc.path is not None:
+            continue
+        line, col = loc.span.end_line, loc.span.end_col
+        text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
+        if src.cells is not None:
+            cell, cell_line = report.cell_map.locate(line)  # type: ignore[union-attr]
+            sites.append([f"<regvet-cell-{cell}>", cell_line, byte_col(text, col)])
+        else:
+            sites.append([str(src.path.resolve()), line, byte_col(text, col)])
+    return sites
+
+
 def _cv_sites(src: _Source, report: FileReport) -> list[list[Any]]:
     """Where the fits whose measures are compared are made (the child cross-validates those)."""
     facts = report.facts
     if facts is None:
         return []
-    sites = []
+    return [
+        site
+        for comp in facts.comparisons
+        for fid, _ in comp.measures
+        for site in _fit_sites(src, report, facts.fit(fid))
+    ]
+
+
+def _compare_groups(src: _Source, report: FileReport) -> list[list[list[list[Any]]]]:
+    """Per comparison of two or more fits, each compared fit's call sites: the child pairs those fits
+    and recognises an outcome that is a transform of another's (``regvet_pairs``)."""
+    facts = report.facts
+    if facts is None:
+        return []
+    groups = []
     for comp in facts.comparisons:
-        for fid, _ in comp.measures:
-            fit = facts.fit(fid)
-            for loc in (fit.site, fit.fit_call):
-                if loc.path is not None:
-                    continue
-                line, col = loc.span.end_line, loc.span.end_col
-                text = src.lines[line - 1] if 0 < line <= len(src.lines) else ""
-                if src.cells is not None:
-                    cell, cell_line = report.cell_map.locate(line)  # type: ignore[union-attr]
-                    sites.append([f"<regvet-cell-{cell}>", cell_line, byte_col(text, col)])
-                else:
-                    sites.append([str(src.path.resolve()), line, byte_col(text, col)])
-    return sites
+        roots = sorted({facts.root(fid) for fid, _ in comp.measures})
+        members = [sites for r in roots if (sites := _fit_sites(src, report, facts.fit(r)))]
+        if len(members) >= 2:
+            groups.append(members)
+    return groups
+
+
+def pairings(result: RunResult, fit_stats: dict[int, tuple[FitRecord, ...]]) -> tuple[Pairing, ...]:
+    """The run's pair lines, from the probe's ``seq`` numbers to the static fits they were matched to."""
+    by_seq: dict[int, list[int]] = {}
+    for fid, records in fit_stats.items():
+        for record in records:
+            seq = record.get("seq")
+            if isinstance(seq, int):
+                by_seq.setdefault(seq, []).append(fid)
+    out: dict[tuple[int, int], Pairing] = {}
+    for pair in result.pairs:
+        for t in by_seq.get(pair.get("transformed", -1), []):
+            for level in by_seq.get(pair.get("level", -1), []):
+                if t != level:
+                    out[(t, level)] = Pairing(t, level, pair)  # the latest run of the two fits wins
+    return tuple(out.values())
 
 
 def match(src: _Source, report: FileReport, result: RunResult) -> dict[int, tuple[FitRecord, ...]]:
@@ -271,6 +310,7 @@ def run_and_judge(
         return report, None
     options = options_for(settings)
     options["cv_sites"] = _cv_sites(src, report)
+    options["compare_groups"] = _compare_groups(src, report)
     if plot_points > 0:
         options["plot_points"] = plot_points
     memory = settings.run_memory_mb or None
@@ -287,8 +327,10 @@ def run_and_judge(
         started=started,
         on_fit=on_fit,
     )
+    fit_stats = match(src, report, result)
     facts = RuntimeFacts(
-        fit_stats=match(src, report, result),
+        fit_stats=fit_stats,
+        pairs=pairings(result, fit_stats),
         failure=failure_of(src, result, settings.run_timeout, memory),
         cached=result.cached,
         elapsed_s=result.elapsed_s,

@@ -25,7 +25,8 @@ import types
 from typing import Any
 
 _state = threading.local()
-_PROBE_OPTIONS = frozenset({"cv_sites", "max_fits_per_site", "plot_points"})  # the probe's own, not statistics options
+# The probe's own options, not statistics options.
+_PROBE_OPTIONS = frozenset({"compare_groups", "cv_sites", "max_fits_per_site", "plot_points"})
 _LIBRARY_DIRS: tuple[str, ...] = ()
 _PROBE_DIR = os.path.dirname(os.path.abspath(__file__))
 
@@ -44,6 +45,8 @@ class Recorder:
         self.ids: dict[int, int] = {}  # id(results) -> seq, for derived fits
         self.keep: list[Any] = []  # keep results alive so ids stay unique during the run
         self.cv_sites = {tuple(s) for s in options.get("cv_sites", [])}
+        self.compare_groups = options.get("compare_groups") or []
+        self.pairs: Any = None  # regvet_pairs.CompareGroups, made on the first compared fit
 
     def write(self, record: dict[str, Any]) -> None:
         self.out.write(json.dumps(record, allow_nan=False, default=str) + "\n")
@@ -135,6 +138,23 @@ class Recorder:
             finally:
                 _state.busy = False
         self.write(record)
+        if self.compare_groups and record.get("stats") is not None:
+            self.pair(seq, frames, res, options)
+
+    def pair(self, seq: int, frames: list[list[Any]], res: Any, options: dict[str, Any]) -> None:
+        """Pair lines for a compared fit whose outcome is a transform of another compared fit's."""
+        _state.busy = True
+        try:
+            from regvet_pairs import CompareGroups
+
+            if self.pairs is None:
+                self.pairs = CompareGroups(self.compare_groups)
+            for line in self.pairs.pairs(seq, frames, res, {k: v for k, v in options.items() if k != "cv"}):
+                self.write(line)
+        except Exception as exc:  # pairing failing must never fail the user's program
+            self.write({"type": "pair-error", "seq": seq, "error": f"{type(exc).__name__}: {exc}"})
+        finally:
+            _state.busy = False
 
     def finish(self, status: str, **extra: Any) -> None:
         opened = []
