@@ -8,6 +8,10 @@ and the file's bytes; a lookup is valid only while every recorded module lookup 
 same module with the same text, so a changed helper module re-analyses the files that import it
 (and a new module that shadows an import does too).
 
+The lookups are stored grouped by the module that made them (the analysed file's own, then each
+project module's imports). A scan checks a group once for all its files (:class:`LookupMemo`):
+the standard library's files each look up some 360 modules, most of them the same ones.
+
 Entries live under ``$REGVET_CACHE_DIR/facts``, else ``$XDG_CACHE_HOME/regvet/facts``, else
 ``~/.cache/regvet/facts``. Each is written to a temporary file in the same folder and renamed into
 place, so concurrent runs never read a half-written entry and a killed run leaves none; an
@@ -20,8 +24,9 @@ import hashlib
 import os
 import pickle
 import tempfile
+from collections.abc import Hashable
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 from regvet import __version__
 from regvet.analysis.providers import ModuleProvider, ModuleSource
@@ -29,9 +34,12 @@ from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 
 #: Bumped when the layout of an entry changes.
-FORMAT = 1
-#: One recorded lookup: ``(name, level, importer)`` -> ``(key, path, text hash)`` or None (not found).
-Lookup = tuple[tuple[str, int, str | None], tuple[str, str, str] | None]
+FORMAT = 2
+#: What a lookup found: the module's key, shown path and text hash, or None (nothing).
+Found = tuple[str, str, str] | None
+#: The lookups one importer made (None: the analysed file): the importer, the ``(name, level)`` of
+#: each, and what each found, in the same order.
+Group = tuple[str | None, tuple[tuple[str, int], ...], tuple[Found, ...]]
 
 _BUILD: str | None = None
 
@@ -91,6 +99,63 @@ def _text_hash(text: str) -> str:
     return digest
 
 
+def _found(source: ModuleSource | None) -> Found:
+    return None if source is None else (source.key, source.path, _text_hash(source.text))
+
+
+def grouped(lookups: dict[tuple[str, int, str | None], Found]) -> tuple[Group, ...]:
+    """The recorded lookups as groups, one per importer, in the order they were first made."""
+    groups: dict[str | None, tuple[list[tuple[str, int]], list[Found]]] = {}
+    for (name, level, importer), found in lookups.items():
+        names, founds = groups.setdefault(importer, ([], []))
+        names.append((name, level))
+        founds.append(found)
+    return tuple((importer, tuple(names), tuple(founds)) for importer, (names, founds) in groups.items())
+
+
+class ScopedProvider(ModuleProvider, Protocol):
+    """A provider whose lookups :class:`LookupMemo` can share between the files of a scan
+    (:class:`regvet.project.FileModules`)."""
+
+    main: Path
+
+    def scope(self, importer: str | None) -> Hashable: ...
+
+    def first_file(self, name: str, level: int, importer: str | None) -> Path | None: ...
+
+
+class LookupMemo:
+    """What each group of lookups finds now, worked out once per scan and shared by its files.
+
+    A group's result depends on its scope (the project root and the folder the search starts
+    from), its imports, the files on disk and their texts (all fixed for one scan), and on the
+    analysed file only through ``find`` never returning it. So a result is kept only when the
+    analysed file was none of the files the group's imports name first, and reused only by a
+    file that is none of them either; any other file works its groups out itself.
+    """
+
+    def __init__(self) -> None:
+        self.groups: dict[tuple[Hashable, tuple[tuple[str, int], ...]], tuple[tuple[Found, ...], frozenset[str]]] = {}
+
+    def holds(self, provider: ScopedProvider, groups: tuple[Group, ...]) -> bool:
+        """Whether every group of lookups still finds what it found (``Group``'s last part)."""
+        main = str(provider.main)
+        for importer, names, was in groups:
+            key = (provider.scope(importer), names)
+            known = self.groups.get(key)
+            if known is not None and main not in known[1]:
+                now = known[0]
+            else:
+                now = tuple(_found(provider.find(name, level, importer)) for name, level in names)
+                firsts = {provider.first_file(name, level, importer) for name, level in names}
+                named = frozenset(str(f) for f in firsts if f is not None)
+                if main not in named:
+                    self.groups[key] = (now, named)
+            if now != was:
+                return False
+        return True
+
+
 class RecordingModules:
     """A :class:`ModuleProvider` that passes lookups on and records each one with what it found."""
 
@@ -100,9 +165,7 @@ class RecordingModules:
 
     def find(self, name: str, level: int, importer: str | None) -> ModuleSource | None:
         found = self.inner.find(name, level, importer)
-        self.lookups[(name, level, importer)] = (
-            None if found is None else (found.key, found.path, _text_hash(found.text))
-        )
+        self.lookups[(name, level, importer)] = _found(found)
         return found
 
 
@@ -123,8 +186,9 @@ class FactCache:
     def _entry(self, key: str) -> Path:
         return self.folder / key[:2] / f"{key[2:]}.pickle"
 
-    def get(self, key: str, provider: ModuleProvider) -> FileReport | None:
-        """The stored report, if there is one and its module lookups still find the same modules."""
+    def get(self, key: str, provider: ModuleProvider, memo: LookupMemo | None = None) -> FileReport | None:
+        """The stored report, if there is one and its module lookups still find the same modules
+        (with ``memo`` and a :class:`ScopedProvider`, each group of lookups is worked out once per scan)."""
         try:
             with open(self._entry(key), "rb") as fh:
                 stored: Any = pickle.load(fh)
@@ -132,17 +196,21 @@ class FactCache:
             return None
         if not (isinstance(stored, tuple) and len(stored) == 3 and stored[0] == FORMAT):
             return None
-        _, lookups, report = stored
+        _, groups, report = stored
         if not isinstance(report, FileReport):
             return None
-        for (name, level, importer), was in lookups:
-            try:
-                found = provider.find(name, level, importer)
-            except Exception:
-                return None
-            now = None if found is None else (found.key, found.path, _text_hash(found.text))
-            if now != was:
-                return None
+        try:
+            if memo is not None and hasattr(provider, "scope") and hasattr(provider, "first_file"):
+                holds = memo.holds(provider, groups)  # type: ignore[arg-type]
+            else:
+                holds = all(
+                    tuple(_found(provider.find(name, level, importer)) for name, level in names) == was
+                    for importer, names, was in groups
+                )
+        except Exception:
+            return None
+        if not holds:
+            return None
         return report
 
     def put(self, key: str, lookups: dict, report: FileReport) -> None:
@@ -152,7 +220,7 @@ class FactCache:
             return
         entry = self._entry(key)
         try:
-            data = pickle.dumps((FORMAT, tuple(lookups.items()), report), protocol=pickle.HIGHEST_PROTOCOL)
+            data = pickle.dumps((FORMAT, grouped(lookups), report), protocol=pickle.HIGHEST_PROTOCOL)
             entry.parent.mkdir(parents=True, exist_ok=True)
             fd, tmp = tempfile.mkstemp(dir=entry.parent, prefix=".", suffix=".tmp")
             try:

@@ -78,6 +78,7 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
     if forced is not None and not forced.is_file():
         raise UsageError(f"--baseline: no such file: {forced}")
     loaded: dict[Path, object] = {}
+    nearest: dict[Path, Path | None] = {}  # per folder: every file of a folder has the same baseline
     tally: dict[Path, list[int]] = {}
     scanned: dict[Path, set[str]] = {}
     reports = []
@@ -85,7 +86,12 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
         if str(file) == STDIN:
             reports.append(report)  # standard input has no place in a baseline
             continue
-        where = forced if forced is not None else find_baseline(file)
+        if forced is not None:
+            where: Path | None = forced
+        else:
+            if file.parent not in nearest:
+                nearest[file.parent] = find_baseline(file.parent)
+            where = nearest[file.parent]
         if where is None:
             reports.append(report)
             continue

@@ -13,13 +13,13 @@ from regvet.analysis.providers import ModuleProvider
 from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
 from regvet.discovery import read_regular
 from regvet.engine import analyze, error_report, failure_report
-from regvet.factcache import FactCache, RecordingModules
+from regvet.factcache import FactCache, LookupMemo, RecordingModules
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
 from regvet.output.safe import printable
 from regvet.parallel import default_jobs, map_ordered
-from regvet.project import FileModules, display_path
+from regvet.project import FileModules, ScanLookups, display_path
 from regvet.sources.python import SourceError, decode, parse
 from regvet.workspace import project_root
 
@@ -279,7 +279,7 @@ class FileAnalyzer:
 
     def __init__(self, cache_folder: str | None) -> None:
         self.texts: dict[Path, str | None] = {}
-        self.found: dict = {}
+        self.found = ScanLookups()
         self.module_cache: dict = {}
         self.cache = FactCache(Path(cache_folder)) if cache_folder is not None else None
 
@@ -302,10 +302,11 @@ def _analyze_all(
     (``progress`` counts the files read)."""
     reports: list[FileReport | None] = [None] * len(tasks)
     texts: dict[Path, str | None] = {}
-    found: dict = {}
+    found = ScanLookups()
     if cache is not None:
+        memo = LookupMemo()
         for i, (file, settings, root) in enumerate(tasks):
-            reports[i] = _cached(file, settings, root, texts, cache, found)
+            reports[i] = _cached(file, settings, root, texts, cache, found, memo)
     todo = [i for i, r in enumerate(reports) if r is None]
     folder = str(cache.folder) if cache is not None else None
     finished = [len(tasks) - len(todo)]
@@ -322,14 +323,20 @@ def _analyze_all(
 
 
 def _cached(
-    file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], cache: FactCache, found: dict
+    file: Path,
+    settings: Settings,
+    root: Path,
+    texts: dict[Path, str | None],
+    cache: FactCache,
+    found: ScanLookups,
+    memo: LookupMemo,
 ) -> FileReport | None:
     try:
         data = read_regular(file)
     except OSError:
         return None
     key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
-    return cache.get(key, FileModules(root, file, texts, found=found))
+    return cache.get(key, FileModules(root, file, texts, found=found), memo)
 
 
 def analyze_file(
@@ -339,7 +346,7 @@ def analyze_file(
     texts: dict[Path, str | None],
     module_cache: dict,
     cache: FactCache | None = None,
-    found: dict | None = None,
+    found: ScanLookups | None = None,
 ) -> FileReport:
     """Read one file and analyse it; unreadable files become ``parse-error`` findings. With ``cache``,
     the analysis is stored there with the project-module lookups it made."""
