@@ -38,8 +38,8 @@ FORMAT = 2
 #: What a lookup found: the module's key, shown path and text hash, or None (nothing).
 Found = tuple[str, str, str] | None
 #: The lookups one importer made (None: the analysed file): the importer, the ``(name, level)`` of
-#: each, and what each found, in the same order.
-Group = tuple[str | None, tuple[tuple[str, int], ...], tuple[Found, ...]]
+#: each, a digest of those, and a digest of what each found, in the same order.
+Group = tuple[str | None, tuple[tuple[str, int], ...], bytes, bytes]
 
 _BUILD: str | None = None
 
@@ -103,6 +103,11 @@ def _found(source: ModuleSource | None) -> Found:
     return None if source is None else (source.key, source.path, _text_hash(source.text))
 
 
+def _digest(value: object) -> bytes:
+    """A short digest of a tuple of strings and numbers (its ``repr`` is stable across processes)."""
+    return hashlib.blake2b(repr(value).encode("utf-8", "surrogatepass"), digest_size=16).digest()
+
+
 def grouped(lookups: dict[tuple[str, int, str | None], Found]) -> tuple[Group, ...]:
     """The recorded lookups as groups, one per importer, in the order they were first made."""
     groups: dict[str | None, tuple[list[tuple[str, int]], list[Found]]] = {}
@@ -110,7 +115,15 @@ def grouped(lookups: dict[tuple[str, int, str | None], Found]) -> tuple[Group, .
         names, founds = groups.setdefault(importer, ([], []))
         names.append((name, level))
         founds.append(found)
-    return tuple((importer, tuple(names), tuple(founds)) for importer, (names, founds) in groups.items())
+    return tuple(
+        (importer, tuple(names), _digest(tuple(names)), _digest(tuple(founds)))
+        for importer, (names, founds) in groups.items()
+    )
+
+
+def _finds(provider: ModuleProvider, importer: str | None, names: tuple[tuple[str, int], ...]) -> bytes:
+    """The digest of what the group's lookups find now."""
+    return _digest(tuple(_found(provider.find(name, level, importer)) for name, level in names))
 
 
 class ScopedProvider(ModuleProvider, Protocol):
@@ -135,22 +148,24 @@ class LookupMemo:
     """
 
     def __init__(self) -> None:
-        self.groups: dict[tuple[Hashable, tuple[tuple[str, int], ...]], tuple[tuple[Found, ...], frozenset[str]]] = {}
+        #: (scope, digest of the imports) -> (digest of what they find, the files they name first)
+        self.groups: dict[tuple[Hashable, bytes], tuple[bytes, frozenset[str]]] = {}
 
     def holds(self, provider: ScopedProvider, groups: tuple[Group, ...]) -> bool:
-        """Whether every group of lookups still finds what it found (``Group``'s last part)."""
+        """Whether every group of lookups still finds what it found."""
         main = str(provider.main)
-        for importer, names, was in groups:
-            key = (provider.scope(importer), names)
-            known = self.groups.get(key)
+        scope, known_groups = provider.scope, self.groups
+        for importer, names, imports, was in groups:
+            key = (scope(importer), imports)
+            known = known_groups.get(key)
             if known is not None and main not in known[1]:
                 now = known[0]
             else:
-                now = tuple(_found(provider.find(name, level, importer)) for name, level in names)
+                now = _finds(provider, importer, names)
                 firsts = {provider.first_file(name, level, importer) for name, level in names}
                 named = frozenset(str(f) for f in firsts if f is not None)
                 if main not in named:
-                    self.groups[key] = (now, named)
+                    known_groups[key] = (now, named)
             if now != was:
                 return False
         return True
@@ -203,10 +218,7 @@ class FactCache:
             if memo is not None and hasattr(provider, "scope") and hasattr(provider, "first_file"):
                 holds = memo.holds(provider, groups)  # type: ignore[arg-type]
             else:
-                holds = all(
-                    tuple(_found(provider.find(name, level, importer)) for name, level in names) == was
-                    for importer, names, was in groups
-                )
+                holds = all(_finds(provider, importer, names) == was for importer, names, _, was in groups)
         except Exception:
             return None
         if not holds:

@@ -29,12 +29,38 @@ class ScanLookups:
         #: (a found file, the root) -> its module key and the path findings show
         self.names: dict[tuple[Path, str], tuple[str, str]] = {}
         self.resolved: dict[Path, Path] = {}
+        #: a folder -> the names in it that are regular files (or links to one); empty when it cannot be listed
+        self.listed: dict[str, frozenset[str]] = {}
+
+    def is_file(self, path: str) -> bool:
+        """``os.path.isfile(path)``, from one listing of each folder."""
+        folder, name = os.path.split(path)
+        names = self.listed.get(folder)
+        if names is None:
+            try:
+                with os.scandir(folder) as entries:
+                    names = frozenset(e.name for e in entries if _is_file(e))
+            except OSError:
+                names = frozenset()
+            self.listed[folder] = names
+        return name in names
 
     def resolve(self, path: Path) -> Path:
+        """``path.resolve()``, with each folder resolved once: a name that is not a symbolic link
+        resolves to its resolved folder joined with the name."""
         known = self.resolved.get(path)
         if known is None:
-            known = self.resolved[path] = path.resolve()
+            name = path.name
+            if name in ("", ".", "..") or path.parent == path or os.path.islink(path):
+                known = path.resolve()
+            else:
+                known = self.resolve(path.parent) / name
+            self.resolved[path] = known
         return known
+
+    def show(self, path: Path) -> str:
+        """:func:`display_path`, resolving through :meth:`resolve`."""
+        return display_path(path, self.resolve)
 
 
 class FileModules:
@@ -61,7 +87,7 @@ class FileModules:
         self._folder = str(self.main.parent)
         self.texts = texts if texts is not None else {}
         self.overlay = overlay or {}  # unsaved editor buffers win over the files on disk
-        self.show = show or display_path
+        self.show = show or self.found.show
 
     def _read(self, path: Path) -> str | None:
         if path in self.overlay:
@@ -105,7 +131,7 @@ class FileModules:
         folders = self.found.folders
         folder = folders.get(importer)
         if folder is None:
-            folder = folders[importer] = str(Path(importer).resolve().parent)
+            folder = folders[importer] = str(self.found.resolve(Path(importer)).parent)
         return folder
 
     def _candidates(self, name: str, level: int, importer: str | None) -> tuple[Path, ...]:
@@ -115,23 +141,30 @@ class FileModules:
         known = self.found.files.get(key)
         if known is not None:
             return known
-        start = Path(folder)
         if level:
-            base = start
+            base = folder
             for _ in range(level - 1):
-                base = base.parent
+                base = os.path.dirname(base)
             bases = [base]
         else:
-            bases = [start] if start == self.root else [start, self.root]
+            bases = [folder] if folder == self._root else [folder, self._root]
         parts = [p for p in name.split(".") if p]
         out: list[Path] = []
         if parts:
             for base in bases:
-                for candidate in (base.joinpath(*parts).with_suffix(".py"), base.joinpath(*parts, "__init__.py")):
-                    if candidate.is_file():
-                        out.append(candidate)
+                stem = os.path.join(base, *parts)
+                for candidate in (stem + ".py", os.path.join(stem, "__init__.py")):
+                    if self.found.is_file(candidate):
+                        out.append(Path(candidate))
         self.found.files[key] = tuple(out)
         return self.found.files[key]
+
+
+def _is_file(entry: os.DirEntry) -> bool:
+    try:
+        return entry.is_file()
+    except OSError:
+        return False
 
 
 def _key(path: Path, root: Path) -> str:
@@ -145,15 +178,16 @@ def _key(path: Path, root: Path) -> str:
     return ".".join(parts)
 
 
-def display_path(path: Path) -> str:
-    """A path relative to the current folder when it is inside it, with forward slashes."""
+def display_path(path: Path, resolve: Callable[[Path], Path] = Path.resolve) -> str:
+    """A path relative to the current folder when it is inside it, with forward slashes (else
+    resolved, by ``resolve``)."""
     try:
-        rel = os.path.relpath(path, Path.cwd())
+        rel = os.path.relpath(path, os.getcwd())
     except ValueError:  # another drive on Windows
         return path.as_posix()
     if rel.startswith(".."):
         try:
-            return Path(path).resolve().as_posix()
+            return resolve(Path(path)).as_posix()
         except (OSError, RuntimeError):  # a symbolic link loop (a name a scan skips)
             return Path(os.path.abspath(path)).as_posix()
     return Path(rel).as_posix()

@@ -8,6 +8,7 @@ read only through :mod:`regvet.config`; nothing here prints or exits.
 
 from __future__ import annotations
 
+import os
 from collections.abc import Iterable
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -90,9 +91,14 @@ def project_root(path: Path, folders: Iterable[Path], fallback: Path | None = No
     """
     best: Path | None = None
     for folder in folders:
-        if folder == path or folder in path.parents:
+        if folder == path or _inside(path, folder):
             if best is None or len(folder.parts) > len(best.parts):
                 best = folder
-    if best is None and fallback is not None and fallback in path.parents:
+    if best is None and fallback is not None and _inside(path, fallback):
         best = fallback
     return best or path.parent
+
+
+def _inside(path: Path, folder: Path) -> bool:
+    """``folder in path.parents``, for absolute paths, without building the parents."""
+    return str(path).startswith(str(folder).rstrip("/\\") + os.sep) or path.parent == folder

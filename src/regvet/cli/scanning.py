@@ -134,11 +134,12 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     no_cache = getattr(args, "no_cache", False)
     jobs = getattr(args, "jobs", None) or default_jobs()
     facts = None if no_cache else FactCache()
-    tasks = [(file, finder.for_path(file), project_root(file.resolve(), roots, default_root)) for file in files]
+    found = ScanLookups()
+    tasks = [(file, finder.for_path(file), project_root(found.resolve(file), roots, default_root)) for file in files]
     reading = progress if progress is not None else Progress(delay=2.0)
     if running:
         _check_interpreters(tasks)
-    reports = _analyze_all(tasks, facts, jobs, reading)
+    reports = _analyze_all(tasks, facts, jobs, reading, found)
     named = {Path(p).resolve() for p in paths if Path(p).is_file()}
     reports = [_named_syntax(task, report, named) for task, report in zip(tasks, reports, strict=True)]
     if stdin:
@@ -185,7 +186,7 @@ def _named_syntax(task: Task, report: FileReport, named: set[Path]) -> FileRepor
     """A ``.py`` file named on the command line that the quick pre-check skipped (it mentions no
     statsmodels) is still parsed: a syntax error in it is a ``parse-error``, as in any other file."""
     file, settings, _ = task
-    if not report.skipped or file.suffix != ".py" or file.resolve() not in named:
+    if not named or not report.skipped or file.suffix != ".py" or file.resolve() not in named:
         return report
     try:
         decoded = decode(read_regular(file))
@@ -296,13 +297,17 @@ def _worker_lost(task: Task, why: str) -> FileReport:
 
 
 def _analyze_all(
-    tasks: list[Task], cache: FactCache | None, jobs: int, progress: Progress | None = None
+    tasks: list[Task],
+    cache: FactCache | None,
+    jobs: int,
+    progress: Progress | None = None,
+    found: ScanLookups | None = None,
 ) -> list[FileReport]:
     """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes
-    (``progress`` counts the files read)."""
+    (``progress`` counts the files read; ``found``: the scan's shared lookups)."""
     reports: list[FileReport | None] = [None] * len(tasks)
     texts: dict[Path, str | None] = {}
-    found = ScanLookups()
+    found = found if found is not None else ScanLookups()
     if cache is not None:
         memo = LookupMemo()
         for i, (file, settings, root) in enumerate(tasks):
@@ -335,7 +340,7 @@ def _cached(
         data = read_regular(file)
     except OSError:
         return None
-    key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
+    key = cache.key(data, found.show(file), root, settings, file.suffix == ".ipynb")
     return cache.get(key, FileModules(root, file, texts, found=found), memo)
 
 
@@ -350,7 +355,8 @@ def analyze_file(
 ) -> FileReport:
     """Read one file and analyse it; unreadable files become ``parse-error`` findings. With ``cache``,
     the analysis is stored there with the project-module lookups it made."""
-    shown = display_path(file)
+    found = found if found is not None else ScanLookups()
+    shown = found.show(file)
     try:
         data = read_regular(file)
     except OSError as exc:
