@@ -181,8 +181,11 @@ def _key(path: Path, root: Path) -> str:
 def display_path(path: Path, resolve: Callable[[Path], Path] = Path.resolve) -> str:
     """A path relative to the current folder when it is inside it, with forward slashes (else
     resolved, by ``resolve``)."""
+    cwd = os.getcwd()
+    absolute = os.path.abspath(path)
+    outside = absolute != cwd and not absolute.startswith(cwd.rstrip(os.sep) + os.sep)
     try:
-        rel = os.path.relpath(path, os.getcwd())
+        rel = ".." if outside else os.path.relpath(absolute, cwd)  # outside: relpath would start with ..
     except ValueError:  # another drive on Windows
         return path.as_posix()
     if rel.startswith(".."):
