@@ -23,7 +23,6 @@ from __future__ import annotations
 import hashlib
 import os
 import pickle
-import tempfile
 from collections.abc import Hashable
 from pathlib import Path
 from typing import Any, Protocol
@@ -230,6 +229,8 @@ class FactCache:
         stopped at their time budget (a slower moment of the machine), are not stored."""
         if report.crashes or report.over_budget:
             return
+        import tempfile
+
         entry = self._entry(key)
         try:
             data = pickle.dumps((FORMAT, grouped(lookups), report), protocol=pickle.HIGHEST_PROTOCOL)

@@ -10,9 +10,8 @@ import os
 from collections.abc import Callable, Mapping
 from pathlib import Path
 
-from regvet.analysis.modules import ModuleSource
+from regvet.analysis.providers import ModuleSource
 from regvet.discovery import read_regular
-from regvet.sources.python import SourceError, decode
 
 
 class ScanLookups:
@@ -93,6 +92,8 @@ class FileModules:
         if path in self.overlay:
             return self.overlay[path]
         if path not in self.texts:
+            from regvet.sources.python import SourceError, decode
+
             try:
                 text = decode(read_regular(path))
             except OSError:

@@ -15,7 +15,6 @@ from pathlib import Path
 
 from regvet.config import ConfigError, find_config, load_settings
 from regvet.model.settings import Settings
-from regvet.rules import RULES_BY_ID
 
 
 class ConfigCache:
@@ -78,6 +77,8 @@ class Overrides:
 def split_rule_ids(values: Iterable[object]) -> tuple[frozenset[str], list[object]]:
     """(the rule ids among ``values``, the other values in their order): fronts decide how to complain."""
     items = list(values)
+    from regvet.rules import RULES_BY_ID
+
     known = frozenset(v for v in items if isinstance(v, str) and v in RULES_BY_ID)
     return known, [v for v in items if not (isinstance(v, str) and v in RULES_BY_ID)]
 

@@ -73,7 +73,7 @@ def text_width() -> int:
 
 def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport], str]:
     """The reports without their baselined findings, and the line that says what the baselines hid."""
-    from regvet.baseline import find_baseline, load, split
+    from regvet.baseline_file import find_baseline
 
     if forced is not None and not forced.is_file():
         raise UsageError(f"--baseline: no such file: {forced}")
@@ -96,10 +96,14 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
             reports.append(report)
             continue
         if where not in loaded:
+            from regvet.baseline import load
+
             loaded[where] = load(where)
         baseline = loaded[where]
         key = baseline.key_of(file)  # type: ignore[attr-defined]
         scanned.setdefault(where, set()).add(key)
+        from regvet.baseline import split
+
         part = split(report, baseline.known(key))  # type: ignore[attr-defined]
         counts = tally.setdefault(where, [0, 0])
         counts[0] += part.known

@@ -12,7 +12,6 @@ from pathlib import Path
 from regvet.analysis.providers import ModuleProvider
 from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
 from regvet.discovery import read_regular
-from regvet.engine import analyze, error_report, failure_report
 from regvet.factcache import FactCache, LookupMemo, RecordingModules
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
@@ -20,7 +19,6 @@ from regvet.model.span import Span
 from regvet.output.safe import printable
 from regvet.parallel import default_jobs, map_ordered
 from regvet.project import FileModules, ScanLookups, display_path
-from regvet.sources.python import SourceError, decode, parse
 from regvet.workspace import project_root
 
 #: The path that names standard input, and the name its findings are shown under.
@@ -188,6 +186,9 @@ def _named_syntax(task: Task, report: FileReport, named: set[Path]) -> FileRepor
     file, settings, _ = task
     if not named or not report.skipped or file.suffix != ".py" or file.resolve() not in named:
         return report
+    from regvet.engine import error_report
+    from regvet.sources.python import SourceError, decode, parse
+
     try:
         decoded = decode(read_regular(file))
     except OSError:
@@ -218,9 +219,11 @@ def _check_interpreters(tasks: list[Task]) -> None:
 
 def _refuse_runtime_only(only: frozenset[str], running: bool) -> None:
     """``--only`` naming nothing but rules that judge a run's statistics, without ``--run``: nothing to check."""
+    if not only or running:
+        return
     from regvet.rules import RULES_BY_ID
 
-    if only and not running and all(RULES_BY_ID[r].needs_run for r in only):
+    if all(RULES_BY_ID[r].needs_run for r in only):
         raise UsageError(
             f"--only {','.join(sorted(only))}: {'these rules judge' if len(only) > 1 else 'this rule judges'}"
             " the statistics of a run, so without --run nothing will be checked; add --run (or use "
@@ -291,6 +294,7 @@ class FileAnalyzer:
 
 def _worker_lost(task: Task, why: str) -> FileReport:
     """The report for a file whose worker process died: regvet failed on it, the scan goes on."""
+    from regvet.engine import failure_report
     from regvet.model.report import Crash
 
     return failure_report(display_path(task[0]), Crash("analysis", why), task[1])
@@ -373,6 +377,11 @@ def analyze_file(
 def _analyze_bytes(
     file: Path, shown: str, data: bytes, settings: Settings, provider: ModuleProvider, module_cache: dict
 ) -> FileReport:
+    """Decode and analyse one file's bytes (the analysis core is imported only now: a run whose reports
+    all come from the fact cache never needs it)."""
+    from regvet.engine import analyze, error_report
+    from regvet.sources.python import SourceError, decode
+
     if file.suffix == ".ipynb":
         try:
             text = data.decode("utf-8-sig")
@@ -387,4 +396,7 @@ def _analyze_bytes(
 
 
 def _unreadable(path: str, settings: Settings, message: str) -> FileReport:
+    from regvet.engine import error_report
+    from regvet.sources.python import SourceError
+
     return error_report(path, SourceError(message, Span(1, 0, 1, 0)), settings)
