@@ -8,8 +8,6 @@ or ``.hg``). Every key is described once, in :data:`regvet.model.settings.OPTION
 
 from __future__ import annotations
 
-import difflib
-import json
 import re
 import sys
 from collections.abc import Collection
@@ -19,6 +17,14 @@ from types import ModuleType
 from typing import Any
 
 from regvet.model.settings import FAMILIES, MAX_MEGABYTES, MAX_SECONDS, MIN_MEGABYTES, OPTIONS, Option, Settings
+
+
+def _json_string(raw: str) -> str:
+    """A TOML basic string's body with its escapes read (they are JSON's)."""
+    import json
+
+    value: str = json.loads(f'"{raw}"')
+    return value
 
 
 def _toml() -> ModuleType:
@@ -169,6 +175,8 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
     for key, value in table.items():
         option = known.get(key)
         if option is None:
+            import difflib
+
             close = difflib.get_close_matches(key, list(known), n=1)
             hint = f"; did you mean `{close[0]}`?" if close else f"; known keys: {', '.join(known)}"
             raise ConfigError(source, f"unknown key{hint}", key)
@@ -334,7 +342,7 @@ def _toml_key(line: str, start: int) -> tuple[tuple[str, ...], int] | None:
                 return None
             raw = line[i + 1 : end]
             try:
-                part = json.loads(f'"{raw}"') if quote == '"' else raw  # TOML basic strings escape as JSON
+                part = _json_string(raw) if quote == '"' else raw  # TOML basic strings escape as JSON
             except ValueError:
                 part = raw
             i = end + 1
