@@ -71,8 +71,22 @@ def build_fingerprint() -> str:
     return _BUILD
 
 
+_FINGERPRINTS: dict[int, tuple[Settings, str]] = {}
+
+
 def settings_fingerprint(settings: Settings) -> str:
-    """Every field of the settings in a stable spelling (sets sorted: string hashes vary per process)."""
+    """Every field of the settings in a stable spelling (sets sorted: string hashes vary per process);
+    worked out once per settings object (a scan shares one per config file)."""
+    known = _FINGERPRINTS.get(id(settings))
+    if known is not None and known[0] is settings:
+        return known[1]
+    if len(_FINGERPRINTS) > 1_000:
+        _FINGERPRINTS.clear()
+    _FINGERPRINTS[id(settings)] = (settings, _spelled(settings))
+    return _FINGERPRINTS[id(settings)][1]
+
+
+def _spelled(settings: Settings) -> str:
     parts = []
     for name in sorted(settings.__dataclass_fields__):
         if name == "source":
