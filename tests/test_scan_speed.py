@@ -18,6 +18,7 @@ from pathlib import Path
 
 import pytest
 
+from regvet.factcache import FORMAT
 from regvet.parallel import map_ordered
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -122,6 +123,57 @@ def test_a_new_module_that_an_import_now_finds_re_analyses_the_file(tmp_path):
     assert "no-form-test" in _rules(after)
 
 
+QUAY_PLAIN = """def fit_lifts(df):
+    return None
+"""
+BERTHS = """import model_lifts_north
+from quay import fit_lifts
+
+
+def berth_count():
+    return 12
+"""
+LIFTS = """import pandas as pd
+from berths import fit_lifts
+
+df = pd.read_csv("lifts.csv")
+res = fit_lifts(df)
+print(res.params)
+"""
+
+
+def _stamps(cache: Path) -> dict[Path, int]:
+    return {e: e.stat().st_mtime_ns for e in cache.rglob("*.pickle")}
+
+
+def test_lookups_shared_by_the_files_of_a_scan_stay_right(tmp_path):
+    """Files skipped unread (nothing in reach mentions statsmodels) share their module lookups in a
+    warm scan: an unchanged tree reads every entry and rewrites none; a helper two imports away that
+    starts fitting models re-analyses every file that reaches it. ``berths`` imports one of the
+    files that import it, which its own lookups must never find (the memo is per analysed file there)."""
+    project, cache = tmp_path / "harbour", tmp_path / "cache"
+    project.mkdir()
+    (project / "quay.py").write_text(QUAY_PLAIN)
+    (project / "berths.py").write_text(BERTHS)
+    for side in ("north", "south", "east"):
+        (project / f"model_lifts_{side}.py").write_text(LIFTS)
+    args = ("check", ".", "--format", "json", "--no-config", "-j", "1")
+    cold = regvet(*args, cache=cache, cwd=project)
+    assert cold.returncode == 0 and _rules(cold) == []
+    stamps = _stamps(cache)
+    assert len(stamps) == 5
+    warm = regvet(*args, cache=cache, cwd=project)
+    assert warm.stdout == cold.stdout and _stamps(cache) == stamps  # every entry read, none rewritten
+    (project / "quay.py").write_text(HELPER)  # the helper now fits a model without a RESET test
+    changed = regvet(*args, cache=cache, cwd=project)
+    fresh = regvet(*args, "--no-cache", cache=None, cwd=project)
+    assert changed.stdout == fresh.stdout
+    assert _rules(changed).count("no-form-test") == 3  # each model_lifts_* file, through berths and quay
+    again = _stamps(cache)
+    assert len(again) == 6 and sum(again[e] != t for e, t in stamps.items()) == 4  # berths and its importers
+    assert regvet(*args, cache=cache, cwd=project).stdout == fresh.stdout and _stamps(cache) == again
+
+
 def test_settings_change_the_key_and_the_key_is_stable_across_processes(tmp_path):
     cache = tmp_path / "cache"
     args = (
@@ -180,8 +232,8 @@ def test_a_killed_run_leaves_no_partial_entry(copies, tmp_path):
     assert 3 <= len(entries) < len(list(copies.rglob("*.py")))
     for entry in entries:  # every entry under its final name is whole
         with open(entry, "rb") as fh:
-            fmt, _lookups, report = pickle.load(fh)
-        assert fmt == 1 and report.path.endswith(".py")
+            fmt, _groups, report = pickle.load(fh)
+        assert fmt == FORMAT and report.path.endswith(".py")
     expected = regvet("check", ".", "--format", "json", "--no-config", "--no-cache", cache=None, cwd=copies).stdout
     assert regvet("check", ".", "--format", "json", "--no-config", cache=cache, cwd=copies).stdout == expected
 

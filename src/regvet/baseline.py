@@ -40,19 +40,15 @@ from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
+from regvet.baseline_file import BASELINE_NAME, BaselineError, find_baseline
 from regvet.config import ROOT_MARKERS
 from regvet.model.finding import Finding
 from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.rules import RULES_BY_ID
 
-BASELINE_NAME = "regvet-baseline.json"
 FORMAT = "regvet-baseline"
 VERSION = 1
-
-
-class BaselineError(Exception):
-    """A baseline file that cannot be used; ``str()`` names the file and the problem."""
 
 
 # --- fingerprints (pure) -------------------------------------------------------------------------
@@ -292,21 +288,6 @@ def from_json(text: str, path: Path) -> Baseline:
 
 
 # --- files ----------------------------------------------------------------------------------------
-def find_baseline(start: Path) -> Path | None:
-    """The baseline for ``start`` (a file or folder): ``regvet-baseline.json`` in its folder or one
-    above it, up to the project root (the first folder with ``pyproject.toml``, ``.git`` or
-    ``.hg``, as for the configuration); None when there is none."""
-    here = start if start.is_dir() else start.parent
-    here = here.resolve()
-    for folder in (here, *here.parents):
-        candidate = folder / BASELINE_NAME
-        if candidate.is_file():
-            return candidate
-        if any((folder / m).exists() for m in ROOT_MARKERS):
-            return None
-    return None
-
-
 def home_for(start: Path) -> Path:
     """Where a new baseline for ``start`` goes: the existing one, else the project root, else
     ``start``'s own folder."""

@@ -8,20 +8,33 @@ or ``.hg``). Every key is described once, in :data:`regvet.model.settings.OPTION
 
 from __future__ import annotations
 
-import difflib
-import json
 import re
 import sys
+from collections.abc import Collection
 from dataclasses import replace
 from pathlib import Path
+from types import ModuleType
 from typing import Any
 
 from regvet.model.settings import FAMILIES, MAX_MEGABYTES, MAX_SECONDS, MIN_MEGABYTES, OPTIONS, Option, Settings
 
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover - exercised on Python 3.10 only
-    import tomli as tomllib
+
+def _json_string(raw: str) -> str:
+    """A TOML basic string's body with its escapes read (they are JSON's)."""
+    import json
+
+    value: str = json.loads(f'"{raw}"')
+    return value
+
+
+def _toml() -> ModuleType:
+    """The TOML reader, imported only when a file has to be parsed (a few milliseconds of start-up)."""
+    if sys.version_info >= (3, 11):
+        import tomllib
+    else:  # pragma: no cover - exercised on Python 3.10 only
+        import tomli as tomllib
+    return tomllib
+
 
 CONFIG_NAMES = ("regvet.toml", "pyproject.toml")
 ROOT_MARKERS = ("pyproject.toml", ".git", ".hg")
@@ -77,6 +90,7 @@ def _has_table(path: Path) -> bool:
         return True  # the usual case, decided without parsing (this runs once per scanned file)
     if "regvet" not in text and not assigned:
         return False
+    tomllib = _toml()
     try:
         data = tomllib.loads(text)
     except (tomllib.TOMLDecodeError, RecursionError, MemoryError):
@@ -102,6 +116,7 @@ def _read_table(path: Path) -> tuple[str, dict[str, Any]]:
         raw = path.read_bytes()
     except OSError as exc:
         raise ConfigError(str(path), f"cannot read the file: {exc.strerror or exc}") from None
+    tomllib = _toml()
     try:
         text = raw.decode("utf-8-sig")  # a byte-order mark at the start is not part of the TOML
         data = tomllib.loads(text)
@@ -146,15 +161,22 @@ def _mismatch(source: str, option: Option, key: str, value: Any) -> ConfigError:
     return ConfigError(source, f"expected {option.expected}, got {_tomltype(value)}", key)
 
 
-def settings_from_table(table: dict[str, Any], source: str, base: Settings | None = None) -> Settings:
-    """Validate a config table and turn it into :class:`Settings` (on top of ``base``)."""
+def _rule_ids() -> Collection[str]:
+    """The rule ids (importing the rules only when a config names one)."""
     from regvet.rules import RULES_BY_ID  # rules import settings; keep this import local
 
+    return RULES_BY_ID.keys()
+
+
+def settings_from_table(table: dict[str, Any], source: str, base: Settings | None = None) -> Settings:
+    """Validate a config table and turn it into :class:`Settings` (on top of ``base``)."""
     known = {o.name: o for o in OPTIONS}
     values: dict[str, Any] = {}
     for key, value in table.items():
         option = known.get(key)
         if option is None:
+            import difflib
+
             close = difflib.get_close_matches(key, list(known), n=1)
             hint = f"; did you mean `{close[0]}`?" if close else f"; known keys: {', '.join(known)}"
             raise ConfigError(source, f"unknown key{hint}", key)
@@ -169,7 +191,7 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 raise bad
             if option.kind == "rules":
                 for rid in value:
-                    if rid not in RULES_BY_ID:
+                    if rid not in _rule_ids():
                         raise ConfigError(source, f"`{rid}` is not a rule id (see `regvet rules`)", key)
                 values[key] = frozenset(value)
             else:
@@ -193,7 +215,7 @@ def settings_from_table(table: dict[str, Any], source: str, base: Settings | Non
                 raise bad
             severities: list[tuple[str, str]] = []
             for rid, sev in value.items():
-                if rid not in RULES_BY_ID:
+                if rid not in _rule_ids():
                     raise ConfigError(source, f"`{rid}` is not a rule id (see `regvet rules`)", f"{key}.{rid}")
                 if not isinstance(sev, str) or sev.lower() not in _SEVERITIES:
                     raise ConfigError(source, f"expected one of {', '.join(_SEVERITIES)}, got {sev!r}", f"{key}.{rid}")
@@ -320,7 +342,7 @@ def _toml_key(line: str, start: int) -> tuple[tuple[str, ...], int] | None:
                 return None
             raw = line[i + 1 : end]
             try:
-                part = json.loads(f'"{raw}"') if quote == '"' else raw  # TOML basic strings escape as JSON
+                part = _json_string(raw) if quote == '"' else raw  # TOML basic strings escape as JSON
             except ValueError:
                 part = raw
             i = end + 1

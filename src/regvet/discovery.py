@@ -17,6 +17,7 @@ from __future__ import annotations
 import errno
 import fnmatch
 import os
+import re
 import stat
 from collections.abc import Sequence
 from dataclasses import dataclass, field
@@ -81,15 +82,26 @@ def examine(path: Path) -> tuple[os.stat_result | None, str | None]:
 
 def excluded(rel: Path, patterns: Sequence[str]) -> bool:
     """Whether a path relative to a scanned folder matches one of the exclude globs."""
-    posix = rel.as_posix()
-    for pat in patterns:
-        pat = pat.rstrip("/")
-        if "/" in pat:
-            if fnmatch.fnmatch(posix, pat) or fnmatch.fnmatch(posix, pat + "/*"):
-                return True
-        elif any(fnmatch.fnmatch(part, pat) for part in rel.parts):
+    return Excluder(patterns)(rel.parts, rel.as_posix())
+
+
+class Excluder:
+    """The exclude globs, compiled once: a glob with a ``/`` matches the relative path (or a folder
+    above the name), any other glob matches one of its parts."""
+
+    def __init__(self, patterns: Sequence[str]) -> None:
+        globs = [p.rstrip("/") for p in patterns]
+        nested = [t for g in globs if "/" in g for t in (fnmatch.translate(g), fnmatch.translate(g + "/*"))]
+        plain = [fnmatch.translate(g) for g in globs if "/" not in g]
+        self._path = re.compile("|".join(nested)).match if nested else None
+        self._part = re.compile("|".join(plain)).match if plain else None
+
+    def __call__(self, parts: Sequence[str], posix: str) -> bool:
+        """``parts``: the relative path's parts; ``posix``: the same with forward slashes."""
+        if self._path is not None and self._path(os.path.normcase(posix)):
             return True
-    return False
+        part = self._part
+        return part is not None and any(part(os.path.normcase(p)) for p in parts)
 
 
 def discover(paths: Sequence[str], exclude: Sequence[str]) -> Discovery:
@@ -101,6 +113,7 @@ def discover(paths: Sequence[str], exclude: Sequence[str]) -> Discovery:
     """
     out = Discovery()
     seen: set[tuple[int, int]] = set()
+    leave_out = Excluder(exclude)
 
     def keep(path: Path) -> None:
         st, why = examine(path)
@@ -127,10 +140,11 @@ def discover(paths: Sequence[str], exclude: Sequence[str]) -> Discovery:
             out.skipped.append(Skipped(where, f"the folder cannot be listed: {exc.strerror or exc}"))
 
         for folder, dirs, names in os.walk(path, onerror=unlisted):
-            rel_folder = Path(folder).relative_to(path)
-            dirs[:] = sorted(d for d in dirs if not excluded(rel_folder / d, exclude))
+            rel = Path(folder).relative_to(path)
+            parts, prefix = rel.parts, "" if not rel.parts else rel.as_posix() + "/"
+            dirs[:] = sorted(d for d in dirs if not leave_out((*parts, d), prefix + d))
             for name in sorted(names):
-                if name.endswith(SUFFIXES) and not excluded(rel_folder / name, exclude):
+                if name.endswith(SUFFIXES) and not leave_out((*parts, name), prefix + name):
                     keep(Path(folder) / name)
     return out
 

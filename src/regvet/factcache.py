@@ -8,6 +8,10 @@ and the file's bytes; a lookup is valid only while every recorded module lookup 
 same module with the same text, so a changed helper module re-analyses the files that import it
 (and a new module that shadows an import does too).
 
+The lookups are stored grouped by the module that made them (the analysed file's own, then each
+project module's imports). A scan checks a group once for all its files (:class:`LookupMemo`):
+the standard library's files each look up some 360 modules, most of them the same ones.
+
 Entries live under ``$REGVET_CACHE_DIR/facts``, else ``$XDG_CACHE_HOME/regvet/facts``, else
 ``~/.cache/regvet/facts``. Each is written to a temporary file in the same folder and renamed into
 place, so concurrent runs never read a half-written entry and a killed run leaves none; an
@@ -19,9 +23,9 @@ from __future__ import annotations
 import hashlib
 import os
 import pickle
-import tempfile
+from collections.abc import Hashable
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 from regvet import __version__
 from regvet.analysis.providers import ModuleProvider, ModuleSource
@@ -29,9 +33,13 @@ from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 
 #: Bumped when the layout of an entry changes.
-FORMAT = 1
-#: One recorded lookup: ``(name, level, importer)`` -> ``(key, path, text hash)`` or None (not found).
-Lookup = tuple[tuple[str, int, str | None], tuple[str, str, str] | None]
+FORMAT = 2
+#: What a lookup found: the module's key, shown path and text hash, or None (nothing).
+Found = tuple[str, str, str] | None
+#: The lookups one importer made (None: the analysed file): the importer, each lookup's level and
+#: name (``"level:name"`` lines: one string unpickles far faster than a tuple per lookup), a digest
+#: of those lines, and a digest of what each lookup found, in the same order.
+Group = tuple[str | None, str, bytes, bytes]
 
 _BUILD: str | None = None
 
@@ -63,8 +71,22 @@ def build_fingerprint() -> str:
     return _BUILD
 
 
+_FINGERPRINTS: dict[int, tuple[Settings, str]] = {}
+
+
 def settings_fingerprint(settings: Settings) -> str:
-    """Every field of the settings in a stable spelling (sets sorted: string hashes vary per process)."""
+    """Every field of the settings in a stable spelling (sets sorted: string hashes vary per process);
+    worked out once per settings object (a scan shares one per config file)."""
+    known = _FINGERPRINTS.get(id(settings))
+    if known is not None and known[0] is settings:
+        return known[1]
+    if len(_FINGERPRINTS) > 1_000:
+        _FINGERPRINTS.clear()
+    _FINGERPRINTS[id(settings)] = (settings, _spelled(settings))
+    return _FINGERPRINTS[id(settings)][1]
+
+
+def _spelled(settings: Settings) -> str:
     parts = []
     for name in sorted(settings.__dataclass_fields__):
         if name == "source":
@@ -91,6 +113,89 @@ def _text_hash(text: str) -> str:
     return digest
 
 
+def _found(source: ModuleSource | None) -> Found:
+    return None if source is None else (source.key, source.path, _text_hash(source.text))
+
+
+def _digest(value: object) -> bytes:
+    """A short digest of a string, or of a tuple of strings and numbers (its ``repr`` is stable across processes)."""
+    text = value if isinstance(value, str) else repr(value)
+    return hashlib.blake2b(text.encode("utf-8", "surrogatepass"), digest_size=16).digest()
+
+
+def grouped(lookups: dict[tuple[str, int, str | None], Found]) -> tuple[Group, ...]:
+    """The recorded lookups as groups, one per importer, in the order they were first made."""
+    groups: dict[str | None, tuple[list[str], list[Found]]] = {}
+    for (name, level, importer), found in lookups.items():
+        lines, founds = groups.setdefault(importer, ([], []))
+        lines.append(f"{level}:{name}")
+        founds.append(found)
+    out = []
+    for importer, (lines, founds) in groups.items():
+        names = "\n".join(lines)
+        out.append((importer, names, _digest(names), _digest(tuple(founds))))
+    return tuple(out)
+
+
+def _names(lines: str) -> list[tuple[str, int]]:
+    """The ``(name, level)`` of each lookup of a group."""
+    return [(name, int(level)) for level, name in (line.split(":", 1) for line in lines.split("\n"))]
+
+
+def _finds(provider: ModuleProvider, importer: str | None, names: list[tuple[str, int]]) -> bytes:
+    """The digest of what the group's lookups find now."""
+    return _digest(tuple(_found(provider.find(name, level, importer)) for name, level in names))
+
+
+class ScopedProvider(ModuleProvider, Protocol):
+    """A provider whose lookups :class:`LookupMemo` can share between the files of a scan
+    (:class:`regvet.project.FileModules`)."""
+
+    main: Path
+
+    def scope(self, importer: str | None) -> tuple[str, str]: ...
+
+    def first_file(self, name: str, level: int, importer: str | None) -> Path | None: ...
+
+
+class LookupMemo:
+    """What each group of lookups finds now, worked out once per scan and shared by its files.
+
+    A group's result depends on its scope (the project root and the folder the search starts
+    from), its imports, the files on disk and their texts (all fixed for one scan), and on the
+    analysed file only through ``find`` never returning it. So a result is kept only when the
+    analysed file was none of the files the group's imports name first, and reused only by a
+    file that is none of them either; any other file works its groups out itself.
+    """
+
+    def __init__(self) -> None:
+        #: root -> (importer, the analysed file's folder when the importer is None, digest of the
+        #: imports) -> (digest of what they find, the files they name first). Within a scan, the
+        #: folder an importer's search starts from is a function of the importer.
+        self.groups: dict[Hashable, dict[tuple[str, str, bytes], tuple[bytes, frozenset[str]]]] = {}
+
+    def holds(self, provider: ScopedProvider, groups: tuple[Group, ...]) -> bool:
+        """Whether every group of lookups still finds what it found."""
+        main = str(provider.main)
+        root, home = provider.scope(None)
+        known_groups = self.groups.setdefault(root, {})
+        for importer, lines, imports, was in groups:
+            key = (importer, "", imports) if importer else ("", home, imports)
+            known = known_groups.get(key)
+            if known is not None and main not in known[1]:
+                now = known[0]
+            else:
+                names = _names(lines)
+                now = _finds(provider, importer, names)
+                firsts = {provider.first_file(name, level, importer) for name, level in names}
+                named = frozenset(str(f) for f in firsts if f is not None)
+                if main not in named:
+                    known_groups[key] = (now, named)
+            if now != was:
+                return False
+        return True
+
+
 class RecordingModules:
     """A :class:`ModuleProvider` that passes lookups on and records each one with what it found."""
 
@@ -100,9 +205,7 @@ class RecordingModules:
 
     def find(self, name: str, level: int, importer: str | None) -> ModuleSource | None:
         found = self.inner.find(name, level, importer)
-        self.lookups[(name, level, importer)] = (
-            None if found is None else (found.key, found.path, _text_hash(found.text))
-        )
+        self.lookups[(name, level, importer)] = _found(found)
         return found
 
 
@@ -123,8 +226,9 @@ class FactCache:
     def _entry(self, key: str) -> Path:
         return self.folder / key[:2] / f"{key[2:]}.pickle"
 
-    def get(self, key: str, provider: ModuleProvider) -> FileReport | None:
-        """The stored report, if there is one and its module lookups still find the same modules."""
+    def get(self, key: str, provider: ModuleProvider, memo: LookupMemo | None = None) -> FileReport | None:
+        """The stored report, if there is one and its module lookups still find the same modules
+        (with ``memo`` and a :class:`ScopedProvider`, each group of lookups is worked out once per scan)."""
         try:
             with open(self._entry(key), "rb") as fh:
                 stored: Any = pickle.load(fh)
@@ -132,17 +236,18 @@ class FactCache:
             return None
         if not (isinstance(stored, tuple) and len(stored) == 3 and stored[0] == FORMAT):
             return None
-        _, lookups, report = stored
+        _, groups, report = stored
         if not isinstance(report, FileReport):
             return None
-        for (name, level, importer), was in lookups:
-            try:
-                found = provider.find(name, level, importer)
-            except Exception:
-                return None
-            now = None if found is None else (found.key, found.path, _text_hash(found.text))
-            if now != was:
-                return None
+        try:
+            if memo is not None and hasattr(provider, "scope") and hasattr(provider, "first_file"):
+                holds = memo.holds(provider, groups)  # type: ignore[arg-type]
+            else:
+                holds = all(_finds(provider, importer, _names(lines)) == was for importer, lines, _, was in groups)
+        except Exception:
+            return None
+        if not holds:
+            return None
         return report
 
     def put(self, key: str, lookups: dict, report: FileReport) -> None:
@@ -150,9 +255,11 @@ class FactCache:
         stopped at their time budget (a slower moment of the machine), are not stored."""
         if report.crashes or report.over_budget:
             return
+        import tempfile
+
         entry = self._entry(key)
         try:
-            data = pickle.dumps((FORMAT, tuple(lookups.items()), report), protocol=pickle.HIGHEST_PROTOCOL)
+            data = pickle.dumps((FORMAT, grouped(lookups), report), protocol=pickle.HIGHEST_PROTOCOL)
             entry.parent.mkdir(parents=True, exist_ok=True)
             fd, tmp = tempfile.mkstemp(dir=entry.parent, prefix=".", suffix=".tmp")
             try:

@@ -8,13 +8,13 @@ read only through :mod:`regvet.config`; nothing here prints or exits.
 
 from __future__ import annotations
 
+import os
 from collections.abc import Iterable
 from dataclasses import dataclass, replace
 from pathlib import Path
 
 from regvet.config import ConfigError, find_config, load_settings
 from regvet.model.settings import Settings
-from regvet.rules import RULES_BY_ID
 
 
 class ConfigCache:
@@ -77,6 +77,8 @@ class Overrides:
 def split_rule_ids(values: Iterable[object]) -> tuple[frozenset[str], list[object]]:
     """(the rule ids among ``values``, the other values in their order): fronts decide how to complain."""
     items = list(values)
+    from regvet.rules import RULES_BY_ID
+
     known = frozenset(v for v in items if isinstance(v, str) and v in RULES_BY_ID)
     return known, [v for v in items if not (isinstance(v, str) and v in RULES_BY_ID)]
 
@@ -90,9 +92,14 @@ def project_root(path: Path, folders: Iterable[Path], fallback: Path | None = No
     """
     best: Path | None = None
     for folder in folders:
-        if folder == path or folder in path.parents:
+        if folder == path or _inside(path, folder):
             if best is None or len(folder.parts) > len(best.parts):
                 best = folder
-    if best is None and fallback is not None and fallback in path.parents:
+    if best is None and fallback is not None and _inside(path, fallback):
         best = fallback
     return best or path.parent
+
+
+def _inside(path: Path, folder: Path) -> bool:
+    """``folder in path.parents``, for absolute paths, without building the parents."""
+    return str(path).startswith(str(folder).rstrip("/\\") + os.sep) or path.parent == folder

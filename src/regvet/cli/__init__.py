@@ -11,12 +11,10 @@ from __future__ import annotations
 
 import argparse
 import sys
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 from regvet import __version__
-from regvet.baseline import BASELINE_NAME, BaselineError
-from regvet.cli.baseline import run_baseline
-from regvet.cli.check import run_check
+from regvet.baseline_file import BASELINE_NAME, BaselineError
 from regvet.cli.common import (
     EXIT_FAILED,
     EXIT_FINDINGS,
@@ -27,13 +25,9 @@ from regvet.cli.common import (
     collect_files,
     tolerant_streams,
 )
-from regvet.cli.info import _serve
-from regvet.cli.mend import run_mend
-from regvet.cli.report import run_report
 from regvet.cli.scanning import Progress, Scan, analyze_file, scan
 from regvet.config import ConfigError
-from regvet.rules import ALL_RULES
-from regvet.rules.texts import CAUTION, explain, find_rule, nearest_rule, render_rules
+from regvet.model.caution import CAUTION
 
 __all__ = [
     "EXIT_FAILED",
@@ -46,13 +40,13 @@ __all__ = [
     "UsageError",
     "analyze_file",
     "collect_files",
-    "explain",
     "main",
     "scan",
 ]
 
 
-def _parser() -> argparse.ArgumentParser:
+def _parser(only: str | None = None) -> argparse.ArgumentParser:
+    """The argument parser; with ``only``, just that command's part of it (each run parses one command)."""
     p = argparse.ArgumentParser(
         prog="regvet",
         description="Find missing and failed specification checks around statsmodels OLS fits.",
@@ -61,27 +55,37 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--version", action="version", version=f"regvet {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
 
-    c = sub.add_parser(
-        "check",
-        help="scan files and folders (the default command)",
-        description="Read analysis scripts and notebooks (without running them) and report fits whose "
-        "specification checks are missing.",
-        epilog=CAUTION,
-    )
-    _check_options(c, run_verb=False)
-    r = sub.add_parser(
-        "run",
-        help="the same as `check --run`: EXECUTES the analysed code to attach real statistics",
-        description="Run each analysed script or notebook (this EXECUTES your code, in a child process with "
-        "limits) and attach the statistics of every fit to the findings.",
-        epilog=CAUTION,
-    )
-    _check_options(r, run_verb=True)
-    _subcommands(sub)
-    sub.add_parser("rules", help="list the rules: id, default severity, `run` for those that judge a run, summary")
-    sub.add_parser("serve", help="run the language server (stdio; --tcp [--port N] for 127.0.0.1)")
-    e = sub.add_parser("explain", help="explain rules: rationale, examples, references")
-    e.add_argument("rule", nargs="+", metavar="RULE", help="a rule id as `regvet rules` lists it, in any letter case")
+    def wanted(command: str) -> bool:
+        return only is None or only == command
+
+    if wanted("check"):
+        c = sub.add_parser(
+            "check",
+            help="scan files and folders (the default command)",
+            description="Read analysis scripts and notebooks (without running them) and report fits whose "
+            "specification checks are missing.",
+            epilog=CAUTION,
+        )
+        _check_options(c, run_verb=False)
+    if wanted("run"):
+        r = sub.add_parser(
+            "run",
+            help="the same as `check --run`: EXECUTES the analysed code to attach real statistics",
+            description="Run each analysed script or notebook (this EXECUTES your code, in a child process with "
+            "limits) and attach the statistics of every fit to the findings.",
+            epilog=CAUTION,
+        )
+        _check_options(r, run_verb=True)
+    _subcommands(sub, wanted)
+    if wanted("rules"):
+        sub.add_parser("rules", help="list the rules: id, default severity, `run` for those that judge a run, summary")
+    if wanted("serve"):
+        sub.add_parser("serve", help="run the language server (stdio; --tcp [--port N] for 127.0.0.1)")
+    if wanted("explain"):
+        e = sub.add_parser("explain", help="explain rules: rationale, examples, references")
+        e.add_argument(
+            "rule", nargs="+", metavar="RULE", help="a rule id as `regvet rules` lists it, in any letter case"
+        )
     return p
 
 
@@ -144,52 +148,57 @@ def _scan_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
 
 
-def _subcommands(sub: argparse._SubParsersAction) -> None:
-    rp = sub.add_parser(
-        "report",
-        help="write the specification audit of the fits: one HTML file (or Markdown for FILE.md)",
-        description="Write one document that shows, fit by fit, which specification checks were done, what they "
-        "showed and what is missing. HTML is self-contained (it opens from disk and prints); a FILE ending in .md "
-        "gives Markdown with the plots as SVG files beside it.",
-        epilog=CAUTION,
-    )
-    _scan_options(rp)
-    rp.add_argument("-o", "--output", required=True, metavar="FILE", help="the report to write (.html or .md)")
-    _run_options(rp)
-    m = sub.add_parser(
-        "mend",
-        help="apply the editor's quick fixes (robust covariance, RESET, Breusch-Pagan) to the files",
-        description="Apply the quick fixes the language server offers to every finding of the selected rules: "
-        "robust standard errors on the fit call, or a RESET / Breusch-Pagan test inserted after the fit. Files are "
-        "written atomically; a file that changed since it was read is left alone.",
-    )
-    m.add_argument("paths", nargs="*", default=["."], metavar="PATH", help="files or folders (default: .)")
-    m.add_argument(
-        "--only",
-        metavar="RULES",
-        help="comma-separated rule ids to fix (default: every rule with a fix: "
-        + ", ".join(r.id for r in ALL_RULES if r.quick_fixes)
-        + ")",
-    )
-    m.add_argument("--preview", action="store_true", help="print a unified diff instead of writing the files")
-    m.add_argument("--config", metavar="FILE", help="use this config file instead of searching for one")
-    m.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
-    b = sub.add_parser(
-        "baseline",
-        help=f"record today's findings in {BASELINE_NAME}, so that `check` reports only new ones",
-        description=f"Write the current findings to {BASELINE_NAME} at the project root. `regvet check`, the "
-        "pre-commit hook and the language server then report only findings that are not in it.",
-    )
-    _scan_options(b)
-    b.add_argument(
-        "--update", action="store_true", help="refresh the existing baseline: drop what is gone, add nothing new"
-    )
-    b.add_argument(
-        "--baseline",
-        metavar="FILE",
-        help=f"the baseline file (default: the nearest {BASELINE_NAME}, " "else one at the project root)",
-    )
-    _run_options(b)
+def _subcommands(sub: argparse._SubParsersAction, wanted: Callable[[str], bool]) -> None:
+    if wanted("report"):
+        rp = sub.add_parser(
+            "report",
+            help="write the specification audit of the fits: one HTML file (or Markdown for FILE.md)",
+            description="Write one document that shows, fit by fit, which specification checks were done, what "
+            "they showed and what is missing. HTML is self-contained (it opens from disk and prints); a FILE ending "
+            "in .md gives Markdown with the plots as SVG files beside it.",
+            epilog=CAUTION,
+        )
+        _scan_options(rp)
+        rp.add_argument("-o", "--output", required=True, metavar="FILE", help="the report to write (.html or .md)")
+        _run_options(rp)
+    if wanted("mend"):
+        from regvet.rules import ALL_RULES
+
+        m = sub.add_parser(
+            "mend",
+            help="apply the editor's quick fixes (robust covariance, RESET, Breusch-Pagan) to the files",
+            description="Apply the quick fixes the language server offers to every finding of the selected rules: "
+            "robust standard errors on the fit call, or a RESET / Breusch-Pagan test inserted after the fit. Files "
+            "are written atomically; a file that changed since it was read is left alone.",
+        )
+        m.add_argument("paths", nargs="*", default=["."], metavar="PATH", help="files or folders (default: .)")
+        m.add_argument(
+            "--only",
+            metavar="RULES",
+            help="comma-separated rule ids to fix (default: every rule with a fix: "
+            + ", ".join(r.id for r in ALL_RULES if r.quick_fixes)
+            + ")",
+        )
+        m.add_argument("--preview", action="store_true", help="print a unified diff instead of writing the files")
+        m.add_argument("--config", metavar="FILE", help="use this config file instead of searching for one")
+        m.add_argument("--no-config", action="store_true", help="ignore config files; use the defaults")
+    if wanted("baseline"):
+        b = sub.add_parser(
+            "baseline",
+            help=f"record today's findings in {BASELINE_NAME}, so that `check` reports only new ones",
+            description=f"Write the current findings to {BASELINE_NAME} at the project root. `regvet check`, the "
+            "pre-commit hook and the language server then report only findings that are not in it.",
+        )
+        _scan_options(b)
+        b.add_argument(
+            "--update", action="store_true", help="refresh the existing baseline: drop what is gone, add nothing new"
+        )
+        b.add_argument(
+            "--baseline",
+            metavar="FILE",
+            help=f"the baseline file (default: the nearest {BASELINE_NAME}, " "else one at the project root)",
+        )
+        _run_options(b)
 
 
 def _run_options(p: argparse.ArgumentParser, run_verb: bool = False) -> None:
@@ -269,8 +278,10 @@ def main(argv: Sequence[str] | None = None) -> int:
     given = list(sys.argv[1:] if argv is None else argv)
     args_list = arrange(given)
     if args_list and args_list[0] == "serve":
+        from regvet.cli.info import _serve
+
         return _serve(args_list[1:])
-    parser = _parser()
+    parser = _parser(args_list[0] if args_list[0] in COMMANDS else None)
     try:
         args = parser.parse_args(args_list)
     except SystemExit as exc:  # argparse already printed the problem
@@ -284,17 +295,27 @@ def main(argv: Sequence[str] | None = None) -> int:
         return EXIT_USAGE
     tolerant_streams()
     if args.command == "rules":
+        from regvet.rules.texts import render_rules
+
         sys.stdout.write(render_rules())
         return EXIT_OK
     if args.command == "explain":
         return _explain(args.rule)
     try:
         if args.command == "report":
+            from regvet.cli.report import run_report
+
             return run_report(args)
         if args.command == "mend":
+            from regvet.cli.mend import run_mend
+
             return run_mend(args)
         if args.command == "baseline":
+            from regvet.cli.baseline import run_baseline
+
             return run_baseline(args)
+        from regvet.cli.check import run_check
+
         return run_check(args)
     except BaselineError as exc:
         sys.stderr.write(f"regvet: baseline error: {exc}\n")
@@ -313,6 +334,8 @@ if __name__ == "__main__":  # pragma: no cover
 
 def _explain(names: list[str]) -> int:
     """``regvet explain RULE...``: each rule's text, the caution once at the end; a typo gets the nearest rule."""
+    from regvet.rules.texts import explain, find_rule, nearest_rule
+
     rules = []
     for name in names:
         rule = find_rule(name)

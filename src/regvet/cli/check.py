@@ -73,11 +73,12 @@ def text_width() -> int:
 
 def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport], str]:
     """The reports without their baselined findings, and the line that says what the baselines hid."""
-    from regvet.baseline import find_baseline, load, split
+    from regvet.baseline_file import find_baseline
 
     if forced is not None and not forced.is_file():
         raise UsageError(f"--baseline: no such file: {forced}")
     loaded: dict[Path, object] = {}
+    nearest: dict[Path, Path | None] = {}  # per folder: every file of a folder has the same baseline
     tally: dict[Path, list[int]] = {}
     scanned: dict[Path, set[str]] = {}
     reports = []
@@ -85,15 +86,24 @@ def _apply_baselines(result: Scan, forced: Path | None) -> tuple[list[FileReport
         if str(file) == STDIN:
             reports.append(report)  # standard input has no place in a baseline
             continue
-        where = forced if forced is not None else find_baseline(file)
+        if forced is not None:
+            where: Path | None = forced
+        else:
+            if file.parent not in nearest:
+                nearest[file.parent] = find_baseline(file.parent)
+            where = nearest[file.parent]
         if where is None:
             reports.append(report)
             continue
         if where not in loaded:
+            from regvet.baseline import load
+
             loaded[where] = load(where)
         baseline = loaded[where]
         key = baseline.key_of(file)  # type: ignore[attr-defined]
         scanned.setdefault(where, set()).add(key)
+        from regvet.baseline import split
+
         part = split(report, baseline.known(key))  # type: ignore[attr-defined]
         counts = tally.setdefault(where, [0, 0])
         counts[0] += part.known

@@ -77,6 +77,7 @@ class _SettingsFinder:
         self.overrides = Overrides(only=_rule_list(args.only, "--only"), skip=_rule_list(args.skip, "--skip"))
         self.no_config = args.no_config
         self.forced: Settings | None = None
+        self.default: Settings | None = None
         if args.config:
             path = Path(args.config)
             if not path.is_file():
@@ -93,7 +94,9 @@ class _SettingsFinder:
         if self.forced is not None:
             return self.overrides.apply(self.forced)
         if self.no_config:
-            return self.overrides.apply(Settings())
+            if self.default is None:
+                self.default = self.overrides.apply(Settings())
+            return self.default  # one object for every file (the fact cache fingerprints it once)
         loaded = self.configs.for_file(path)
         if isinstance(loaded, ConfigError):
             raise loaded

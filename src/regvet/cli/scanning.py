@@ -12,15 +12,13 @@ from pathlib import Path
 from regvet.analysis.providers import ModuleProvider
 from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
 from regvet.discovery import read_regular
-from regvet.engine import analyze, error_report, failure_report
-from regvet.factcache import FactCache, RecordingModules
+from regvet.factcache import FactCache, LookupMemo, RecordingModules
 from regvet.model.report import FileReport
 from regvet.model.settings import DEFAULT_EXCLUDE, Settings
 from regvet.model.span import Span
 from regvet.output.safe import printable
 from regvet.parallel import default_jobs, map_ordered
-from regvet.project import FileModules, display_path
-from regvet.sources.python import SourceError, decode, parse
+from regvet.project import FileModules, ScanLookups, display_path
 from regvet.workspace import project_root
 
 #: The path that names standard input, and the name its findings are shown under.
@@ -134,11 +132,12 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
     no_cache = getattr(args, "no_cache", False)
     jobs = getattr(args, "jobs", None) or default_jobs()
     facts = None if no_cache else FactCache()
-    tasks = [(file, finder.for_path(file), project_root(file.resolve(), roots, default_root)) for file in files]
+    found = ScanLookups()
+    tasks = [(file, finder.for_path(file), project_root(found.resolve(file), roots, default_root)) for file in files]
     reading = progress if progress is not None else Progress(delay=2.0)
     if running:
         _check_interpreters(tasks)
-    reports = _analyze_all(tasks, facts, jobs, reading)
+    reports = _analyze_all(tasks, facts, jobs, reading, found)
     named = {Path(p).resolve() for p in paths if Path(p).is_file()}
     reports = [_named_syntax(task, report, named) for task, report in zip(tasks, reports, strict=True)]
     if stdin:
@@ -185,8 +184,11 @@ def _named_syntax(task: Task, report: FileReport, named: set[Path]) -> FileRepor
     """A ``.py`` file named on the command line that the quick pre-check skipped (it mentions no
     statsmodels) is still parsed: a syntax error in it is a ``parse-error``, as in any other file."""
     file, settings, _ = task
-    if not report.skipped or file.suffix != ".py" or file.resolve() not in named:
+    if not named or not report.skipped or file.suffix != ".py" or file.resolve() not in named:
         return report
+    from regvet.engine import error_report
+    from regvet.sources.python import SourceError, decode, parse
+
     try:
         decoded = decode(read_regular(file))
     except OSError:
@@ -217,9 +219,11 @@ def _check_interpreters(tasks: list[Task]) -> None:
 
 def _refuse_runtime_only(only: frozenset[str], running: bool) -> None:
     """``--only`` naming nothing but rules that judge a run's statistics, without ``--run``: nothing to check."""
+    if not only or running:
+        return
     from regvet.rules import RULES_BY_ID
 
-    if only and not running and all(RULES_BY_ID[r].needs_run for r in only):
+    if all(RULES_BY_ID[r].needs_run for r in only):
         raise UsageError(
             f"--only {','.join(sorted(only))}: {'these rules judge' if len(only) > 1 else 'this rule judges'}"
             " the statistics of a run, so without --run nothing will be checked; add --run (or use "
@@ -279,7 +283,7 @@ class FileAnalyzer:
 
     def __init__(self, cache_folder: str | None) -> None:
         self.texts: dict[Path, str | None] = {}
-        self.found: dict = {}
+        self.found = ScanLookups()
         self.module_cache: dict = {}
         self.cache = FactCache(Path(cache_folder)) if cache_folder is not None else None
 
@@ -290,22 +294,28 @@ class FileAnalyzer:
 
 def _worker_lost(task: Task, why: str) -> FileReport:
     """The report for a file whose worker process died: regvet failed on it, the scan goes on."""
+    from regvet.engine import failure_report
     from regvet.model.report import Crash
 
     return failure_report(display_path(task[0]), Crash("analysis", why), task[1])
 
 
 def _analyze_all(
-    tasks: list[Task], cache: FactCache | None, jobs: int, progress: Progress | None = None
+    tasks: list[Task],
+    cache: FactCache | None,
+    jobs: int,
+    progress: Progress | None = None,
+    found: ScanLookups | None = None,
 ) -> list[FileReport]:
     """The report of every task, in order: cached ones from here, the others from ``jobs`` worker processes
-    (``progress`` counts the files read)."""
+    (``progress`` counts the files read; ``found``: the scan's shared lookups)."""
     reports: list[FileReport | None] = [None] * len(tasks)
     texts: dict[Path, str | None] = {}
-    found: dict = {}
+    found = found if found is not None else ScanLookups()
     if cache is not None:
+        memo = LookupMemo()
         for i, (file, settings, root) in enumerate(tasks):
-            reports[i] = _cached(file, settings, root, texts, cache, found)
+            reports[i] = _cached(file, settings, root, texts, cache, found, memo)
     todo = [i for i, r in enumerate(reports) if r is None]
     folder = str(cache.folder) if cache is not None else None
     finished = [len(tasks) - len(todo)]
@@ -322,14 +332,20 @@ def _analyze_all(
 
 
 def _cached(
-    file: Path, settings: Settings, root: Path, texts: dict[Path, str | None], cache: FactCache, found: dict
+    file: Path,
+    settings: Settings,
+    root: Path,
+    texts: dict[Path, str | None],
+    cache: FactCache,
+    found: ScanLookups,
+    memo: LookupMemo,
 ) -> FileReport | None:
     try:
         data = read_regular(file)
     except OSError:
         return None
-    key = cache.key(data, display_path(file), root, settings, file.suffix == ".ipynb")
-    return cache.get(key, FileModules(root, file, texts, found=found))
+    key = cache.key(data, found.show(file), root, settings, file.suffix == ".ipynb")
+    return cache.get(key, FileModules(root, file, texts, found=found), memo)
 
 
 def analyze_file(
@@ -339,11 +355,12 @@ def analyze_file(
     texts: dict[Path, str | None],
     module_cache: dict,
     cache: FactCache | None = None,
-    found: dict | None = None,
+    found: ScanLookups | None = None,
 ) -> FileReport:
     """Read one file and analyse it; unreadable files become ``parse-error`` findings. With ``cache``,
     the analysis is stored there with the project-module lookups it made."""
-    shown = display_path(file)
+    found = found if found is not None else ScanLookups()
+    shown = found.show(file)
     try:
         data = read_regular(file)
     except OSError as exc:
@@ -360,6 +377,11 @@ def analyze_file(
 def _analyze_bytes(
     file: Path, shown: str, data: bytes, settings: Settings, provider: ModuleProvider, module_cache: dict
 ) -> FileReport:
+    """Decode and analyse one file's bytes (the analysis core is imported only now: a run whose reports
+    all come from the fact cache never needs it)."""
+    from regvet.engine import analyze, error_report
+    from regvet.sources.python import SourceError, decode
+
     if file.suffix == ".ipynb":
         try:
             text = data.decode("utf-8-sig")
@@ -374,4 +396,7 @@ def _analyze_bytes(
 
 
 def _unreadable(path: str, settings: Settings, message: str) -> FileReport:
+    from regvet.engine import error_report
+    from regvet.sources.python import SourceError
+
     return error_report(path, SourceError(message, Span(1, 0, 1, 0)), settings)

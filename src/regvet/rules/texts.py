@@ -10,15 +10,10 @@ from __future__ import annotations
 import difflib
 import re
 
+from regvet.model.caution import CAUTION
 from regvet.rules import ALL_RULES, RULES_BY_ID
 from regvet.rules.base import Rule
 from regvet.sources.waivers import directive
-
-CAUTION = (
-    "Passing regvet does not make a model right: it finds specification checks that are missing or failed, "
-    "and judgement about the economics stays with the analyst. Important results deserve review by a "
-    "qualified statistician or econometrician under the rules of their field or institution."
-)
 
 #: The marker the test suite reads on an example's flagged lines (``# expect: RULE``).
 _EXPECT = re.compile(r"\s*#\s*expect:[^#\n]*$")
