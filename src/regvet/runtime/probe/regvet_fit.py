@@ -187,6 +187,8 @@ class FitInputs:
         self.rank = self.statsmodels_rank
         self.condition = 1.0
         self.refit: Refit | None = None
+        #: The design in the probe's basis (regvet_linalg.Basis), shared by the row passes; None if it failed.
+        self.basis: Basis | None = None
         self._resolve()
         self.yhat = self.y - self.u  # whitened fitted values, wexog @ params
         self.df_resid = float(self.n - self.rank)
@@ -208,7 +210,8 @@ class FitInputs:
             return
         shift = self.one_in_span and self.estimator == "OLS"
         try:
-            found = resolve(Basis(self.X, self.const_idx, self.chunk, shift), self.y, self.statsmodels_rank)
+            self.basis = Basis(self.X, self.const_idx, self.chunk, shift)
+            found = resolve(self.basis, self.y, self.statsmodels_rank)
         except (ValueError, np.linalg.LinAlgError):
             return
         self.condition = found.condition
