@@ -13,12 +13,20 @@ def check(inp: RuleInput) -> Iterator[Finding]:
     failure = inp.runtime.failure if inp.runtime is not None else None
     if failure is None:
         return
-    detail = " | ".join(line.strip() for line in failure.detail[-4:] if line.strip())
+    lines = [line.strip() for line in failure.detail if line.strip()]
+    traceback = bool(lines) and lines[0].startswith("Traceback")
+    if traceback:  # from the user's outermost frame (the probe cut it there): keep that frame and the end
+        lines = lines[1:]
+        if len(lines) > 7:
+            lines = [*lines[:2], "...", *lines[-4:]]
+    else:
+        lines = lines[-4:]
+    detail = " | ".join(lines)
     kept = sum(1 for v in inp.runtime.fit_stats.values() for r in v if r.get("stats")) if inp.runtime else 0
     yield RULE.finding(
         failure.span or Span(1, 0, 1, 0),
         f"The run of this file stopped: {failure.reason}."
-        + (f" Last output: {detail}." if detail else "")
+        + (f" {'Traceback' if traceback else 'Last output'}: {detail}." if detail else "")
         + f" Statistics of the {kept} fit run(s) completed before that are kept; fits after it were not checked.",
     )
 
@@ -31,8 +39,9 @@ RULE = Rule(
         "The runtime mode runs each analysed file in a child process (its own folder, standard input closed, "
         "a non-interactive plotting backend, a wall-clock limit `run_timeout` and an address-space limit "
         "`run_memory_mb`). When the run stops before the end, the fits it did not reach have no statistics. "
-        "The finding is placed on the line that failed when it is in this file, and carries the last lines "
-        "of the traceback or the reason.\n\n"
+        "The finding is placed on the line that failed when it is in this file, and carries the traceback "
+        "from the first frame of the analysed code on (no frame of regvet's or IPython's; a notebook cell "
+        "is named `cell N`), or the reason.\n\n"
         "Runtime mode only."
     ),
     bad="""\
