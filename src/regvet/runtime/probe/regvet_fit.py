@@ -198,6 +198,9 @@ class FitInputs:
         #: Relative size below which a computed residual (or spread of fitted values, or 1 - leverage)
         #: is rounding noise for this design: a multiple of eps times its scaled condition number.
         self.noise = noise_floor(self.condition)
+        #: The same for 1 - leverage: the row passes take leverages from the inverse of V'V, whose rounding
+        #: grows with the squared condition number (from a QR factor of V it would be eps x condition).
+        self.leverage_noise = noise_floor(self.condition**2)
         self.perfect = self.finite and (self.ssr <= self.noise**2 * yy or yy == 0.0)
         rms = math.sqrt(yy / self.n) if self.n else 0.0
         spread = float(np.ptp(self.yhat)) if self.n else 0.0

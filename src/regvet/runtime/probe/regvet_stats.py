@@ -534,7 +534,7 @@ class _Stats(RowPasses):
             fit.require_residuals()
             self.need("gram", "meat")
             self._full_rank("the coefficients are not identified and robust standard errors are not computed")
-            if self.hc in ("HC2", "HC3") and 1.0 - self.max_leverage <= fit.noise:
+            if self.hc in ("HC2", "HC3") and 1.0 - self.max_leverage <= fit.leverage_noise:
                 raise StatisticError(
                     f"an observation has leverage 1 (e.g. a dummy for a single row): {self.hc} is undefined"
                 )
