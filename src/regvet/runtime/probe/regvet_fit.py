@@ -189,6 +189,8 @@ class FitInputs:
         self.refit: Refit | None = None
         #: The triangular factor of the design in the probe's basis (R'R = V'V), from the same QR.
         self.factor: np.ndarray | None = None
+        #: The design in the probe's basis (regvet_linalg.Basis), shared by the row passes; None if it failed.
+        self.basis: Basis | None = None
         self._resolve()
         self.yhat = self.y - self.u  # whitened fitted values, wexog @ params
         self.df_resid = float(self.n - self.rank)
@@ -198,6 +200,9 @@ class FitInputs:
         #: Relative size below which a computed residual (or spread of fitted values, or 1 - leverage)
         #: is rounding noise for this design: a multiple of eps times its scaled condition number.
         self.noise = noise_floor(self.condition)
+        #: The same for 1 - leverage: the leverages come from the design's QR factor (h_i = |v_i T|^2 with
+        #: T T' = (V'V)^-, T from R), so their rounding is eps x condition too, not its square.
+        self.leverage_noise = self.noise
         self.perfect = self.finite and (self.ssr <= self.noise**2 * yy or yy == 0.0)
         rms = math.sqrt(yy / self.n) if self.n else 0.0
         spread = float(np.ptp(self.yhat)) if self.n else 0.0
@@ -210,7 +215,8 @@ class FitInputs:
             return
         shift = self.one_in_span and self.estimator == "OLS"
         try:
-            found = resolve(Basis(self.X, self.const_idx, self.chunk, shift), self.y, self.statsmodels_rank)
+            self.basis = Basis(self.X, self.const_idx, self.chunk, shift)
+            found = resolve(self.basis, self.y, self.statsmodels_rank)
         except (ValueError, np.linalg.LinAlgError):
             return
         self.condition = found.condition

@@ -139,7 +139,7 @@ class RowPasses:
         """Row pass 1: V'V, V'1, V'[û, û² − mean, RESET columns, lags], HC0 meat, CV fold sums."""
         fit = self.fit
         try:
-            self.basis = Basis(fit.X, fit.const_idx, fit.chunk, fit.one_in_span and fit.estimator == "OLS")
+            self.basis = fit.basis or Basis(fit.X, fit.const_idx, fit.chunk, fit.one_in_span and fit.estimator == "OLS")
         except Exception as exc:
             self.failed["design"] = exc
             for name in ("gram", "reset_cross", "lags", "meat", "cv", "factor"):

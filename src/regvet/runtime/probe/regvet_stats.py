@@ -88,7 +88,8 @@ WEIGHTS_NOTE = (
     "wresid = √w·û. Auxiliary regressions add an intercept when the whitened design has none; VIFs "
     "are weighted (the regressors centred on their weighted means); the condition index is that of "
     "the whitened design; cross-validation refits WLS and reports whitened prediction errors; "
-    "log_level_r2 uses the unweighted endog and fitted values."
+    "log_level_r2 uses the unweighted endog and fitted values. Rows of weight zero are no observations "
+    "and are left out of everything."
 )
 
 
@@ -526,7 +527,7 @@ class _Stats(RowPasses):
             fit.require_residuals()
             self.need("gram", "meat")
             self._full_rank("the coefficients are not identified and robust standard errors are not computed")
-            if self.hc in ("HC2", "HC3") and 1.0 - self.max_leverage <= fit.noise:
+            if self.hc in ("HC2", "HC3") and 1.0 - self.max_leverage <= fit.leverage_noise:
                 raise StatisticError(
                     f"an observation has leverage 1 (e.g. a dummy for a single row): {self.hc} is undefined"
                 )
@@ -666,6 +667,12 @@ def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[s
       ``numpy.random.default_rng(seed).permutation(n)``, split by ``numpy.array_split`` into folds;
       the model refitted on each training part, prediction errors of the held-out part pooled.
     * ``weights``: None for OLS; for WLS a note that every statistic uses the whitened model.
+    * ``zero_weight_rows``: None for OLS; for WLS the rows of weight zero, which are no observations:
+      left out of ``nobs``, ``df_resid``, the row fingerprint and every statistic.
+    * ``scaled_refit``: None, unless statsmodels' rank (decided on the raw columns) is below the rank
+      of the centred, unit-scaled design (``regvet_rank``): then ``{"statsmodels_rank", "rank",
+      "condition", "ssr", "statsmodels_ssr", "note"}``, and every statistic and coefficient comes from
+      the least-squares fit in the scaled basis.
     * ``errors``: ``{name: message}`` for every statistic that could not be computed.
     """
     opts = read_options(options)
