@@ -270,7 +270,7 @@ async def test_hover_on_a_loop_lists_the_fits_of_the_line(project):
         diags = await c.diagnostics_for(uri, 1)
         assert codes(diags) == ["no-form-test", "no-variance-test"]  # one per rule for the two fits
         d = next(d for d in diags if d.code == "no-variance-test")
-        assert d.message.startswith("2 fits from this line: `riders ~ fare`, `riders ~ fare + fuel_price`. For both:")
+        assert d.message.startswith("For both fits from this line, `riders ~ fare` and `riders ~ fare + fuel_price`: ")
         line = text.split("\n")[5]
         hover = await c.lsp.text_document_hover_async(
             t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(5, line.index("smf.ols") + 3))
