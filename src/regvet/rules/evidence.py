@@ -83,22 +83,22 @@ def coefficient_clause(stats: FitStatistics, limit: int = 3) -> str:
 
 def summary(stats: FitStatistics) -> str:
     """A short clause for a text line: the headline numbers of one run."""
-    bits = [f"n={stats.get('nobs')}"]
+    bits = [f"n = {stats.get('nobs')}"]
     bp = stats.get("breusch_pagan")
     if bp is not None and bp.get("lm_pvalue") is not None:
-        bits.append(f"BP {p(bp.get('lm_pvalue'))}")
+        bits.append(f"Breusch-Pagan {p(bp.get('lm_pvalue'))}")
     reset = stats.get("reset")
     if reset is not None and reset.get("pvalue") is not None:
         bits.append(f"RESET {p(reset.get('pvalue'))}")
     bg = stats.get("breusch_godfrey")
     if bg is not None and bg.get("lm_pvalue") is not None:
-        bits.append(f"BG {p(bg.get('lm_pvalue'))}")
+        bits.append(f"Breusch-Godfrey {p(bg.get('lm_pvalue'))}")
     within = stats.get("serial_within_units")
     if within is not None and within.get("pvalue") is not None:
         bits.append(f"serial within units {p(within.get('pvalue'))}")
     ci = stats.get("condition_index")
     if ci is not None and ci.get("value") is not None:
-        bits.append(f"cond. index {num(ci.get('value'))}")
+        bits.append(f"condition index {num(ci.get('value'))}")
     cv = stats.get("cv")
     if cv is not None and cv.get("rmse") is not None:
         bits.append(f"{cv.get('folds')}-fold CV RMSE {num(cv.get('rmse'))}")

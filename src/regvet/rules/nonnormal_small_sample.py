@@ -25,8 +25,8 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 continue
             yield RULE.fit_finding(
                 fit,
-                f"{opening(fit)} has non-normal errors by Jarque-Bera = {num(jb.get('statistic'))}, {p(pvalue)}, "
-                f"skewness {num(jb.get('skew'))}, kurtosis {num(jb.get('kurtosis'))}, with only {df:g} residual "
+                f"{opening(fit)} has non-normal errors, Jarque-Bera = {num(jb.get('statistic'))}, {p(pvalue)}, "
+                f"skewness {num(jb.get('skew'))}, kurtosis {num(jb.get('kurtosis'))}, and only {df:g} residual "
                 "degrees of freedom, so its exact t and F p-values, which assume normal errors, are unreliable. "
                 "Treat them as rough, or use a bootstrap.",
                 uses[:1],

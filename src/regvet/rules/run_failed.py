@@ -13,7 +13,9 @@ def check(inp: RuleInput) -> Iterator[Finding]:
     failure = inp.runtime.failure if inp.runtime is not None else None
     if failure is None:
         return
-    detail = " | ".join(line.strip() for line in failure.detail[-4:] if line.strip())
+    shown = [line.strip() for line in failure.detail[-4:] if line.strip()]
+    # a traceback whose last line the reason already gives adds nothing to the message (the finding is on its line)
+    detail = "" if shown and shown[-1] in failure.reason else " | ".join(shown)
     kept = sum(1 for v in inp.runtime.fit_stats.values() for r in v if r.get("stats")) if inp.runtime else 0
     runs = f"{kept} fit run{'' if kept == 1 else 's'}"
     yield RULE.finding(
