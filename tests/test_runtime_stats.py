@@ -884,7 +884,8 @@ def test_fit_statistics_leaves_the_results_object_alone(data: pd.DataFrame) -> N
 
 
 @pytest.mark.parametrize(
-    "module", ["regvet_stats.py", "regvet_linalg.py", "regvet_align.py", "regvet_fit.py", "regvet_passes.py"]
+    "module",
+    ["regvet_stats.py", "regvet_linalg.py", "regvet_align.py", "regvet_fit.py", "regvet_passes.py", "regvet_rank.py"],
 )
 def test_probe_imports_only_stdlib_numpy_scipy_statsmodels(module: str) -> None:
     # It runs inside the user's interpreter: never regvet, pandas only lazily (inside functions);
@@ -898,7 +899,7 @@ def test_probe_imports_only_stdlib_numpy_scipy_statsmodels(module: str) -> None:
             top.update(a.name.split(".")[0] for a in node.names)
         elif isinstance(node, ast.ImportFrom) and node.level == 0 and node.module:
             top.add(node.module.split(".")[0])
-    siblings = {"regvet_linalg", "regvet_align", "regvet_fit", "regvet_passes"}
+    siblings = {"regvet_linalg", "regvet_align", "regvet_fit", "regvet_passes", "regvet_rank"}
     assert top - {"__future__", "numpy", "scipy", "statsmodels"} - siblings <= set(sys.stdlib_module_names)
     everywhere = {
         (a.name if isinstance(node, ast.Import) else node.module or "").split(".")[0]

@@ -129,6 +129,15 @@ def _cases() -> dict[str, tuple[Any, dict[str, Any]]]:
         ),
         "collinear design": (sm.OLS(flat["riders"].to_numpy(), collinear).fit(), {}),
         "constant only": (sm.OLS(flat["riders"].to_numpy(), np.ones((n, 1))).fit(), {}),
+        # statsmodels drops the 1e-8-scaled column (its rank rule on the raw columns): scaled_refit.
+        "rank lost to scaling": (
+            sm.OLS(flat["riders"].to_numpy(), np.column_stack([X[:, :2] * [1, 1e-8], X[:, 2] * 1e8])).fit(),
+            {},
+        ),
+        "wls, zero weights": (
+            sm.WLS(flat["riders"].to_numpy(), X, weights=np.where(np.arange(n) % 10 == 0, 0.0, weights)).fit(),
+            {},
+        ),
         "panel of two routes, unit_column": (
             smf.ols(
                 "riders ~ fare",

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 from bisect import bisect_right
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from regvet.model.span import Span
 
@@ -14,6 +14,8 @@ class CellMap:
 
     starts: tuple[int, ...]  # 1-based first line of each code cell in the joined module
     cells: tuple[int, ...]  # the cell index of each of those code cells
+    #: Each code cell's text as written (magics kept, line ends normalised), for the runtime's IPython shell.
+    sources: tuple[str, ...] = field(default=(), compare=False, repr=False)
 
     def locate(self, line: int) -> tuple[int, int]:
         i = bisect_right(self.starts, line) - 1

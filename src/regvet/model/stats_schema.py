@@ -137,6 +137,17 @@ class CrossValidation(TypedDict):
     mae: float | None
 
 
+class ScaledRefit(TypedDict):
+    """statsmodels lost rank on the raw columns: the statistics come from the probe's fit in the scaled basis."""
+
+    statsmodels_rank: int
+    rank: int  # of the centred, unit-scaled design
+    condition: float | None  # its condition number
+    ssr: float | None  # of the probe's least-squares fit
+    statsmodels_ssr: float | None  # of the fit statsmodels reported
+    note: str
+
+
 class _FitStatisticsAlways(TypedDict):
     """The keys ``fit_statistics`` always writes."""
 
@@ -162,6 +173,10 @@ class _FitStatisticsAlways(TypedDict):
     log_level_r2: float | None
     #: For WLS, a note that every statistic uses the whitened model; None for OLS.
     weights: str | None
+    #: For WLS, the rows with weight zero, left out of nobs and of every statistic; None for OLS.
+    zero_weight_rows: int | None
+    #: Set when the probe refitted in the scaled basis because statsmodels dropped a direction.
+    scaled_refit: ScaledRefit | None
     breusch_pagan: AuxiliaryTest | None
     white: WhiteTest | None
     reset: ResetTest | None

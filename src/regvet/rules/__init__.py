@@ -19,6 +19,7 @@ from regvet.rules import (
     nonnormal_small_sample,
     parse_error,
     r2_unadjusted_compare,
+    rank_lost_to_scaling,
     run_failed,
     serial_correlation_plain_se,
     waiver_unknown_rule,
@@ -39,6 +40,7 @@ ALL_RULES: tuple[Rule, ...] = (
     parse_error.RULE,
     incomplete_analysis.RULE,
     # from a run's statistics (regvet check --run)
+    rank_lost_to_scaling.RULE,
     heteroskedastic_plain_se.RULE,
     form_rejected.RULE,
     nonnormal_small_sample.RULE,

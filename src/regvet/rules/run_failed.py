@@ -13,16 +13,26 @@ def check(inp: RuleInput) -> Iterator[Finding]:
     failure = inp.runtime.failure if inp.runtime is not None else None
     if failure is None:
         return
-    shown = [line.strip() for line in failure.detail[-4:] if line.strip()]
-    # a traceback whose last line the reason already gives adds nothing to the message (the finding is on its line)
-    detail = "" if shown and shown[-1] in failure.reason else " | ".join(shown)
+    lines = [line.strip() for line in failure.detail if line.strip()]
+    traceback = bool(lines) and lines[0].startswith("Traceback")
+    if traceback:  # from the user's outermost frame (the probe cut it there): keep that frame and the end
+        lines = lines[1:]
+        if len(lines) > 7:
+            lines = [*lines[:2], "...", *lines[-4:]]
+    else:
+        lines = lines[-4:]
+    detail = " | ".join(lines)
     kept = sum(1 for v in inp.runtime.fit_stats.values() for r in v if r.get("stats")) if inp.runtime else 0
     runs = f"{kept} fit run{'' if kept == 1 else 's'}"
     yield RULE.finding(
         failure.span or Span(1, 0, 1, 0),
         f"This file's run stopped: {failure.reason}, so the fits it did not reach were not checked; the "
         f"statistics of the {runs} completed before that are kept. "
-        + (f"Make it run to the end; its last output was {detail}." if detail else "Make it run to the end."),
+        + (
+            f"Make it run to the end; its {'traceback' if traceback else 'last output'}: {detail}."
+            if detail
+            else "Make it run to the end."
+        ),
     )
 
 
@@ -34,8 +44,9 @@ RULE = Rule(
         "The runtime mode runs each analysed file in a child process (its own folder, standard input closed, "
         "a non-interactive plotting backend, a wall-clock limit `run_timeout` and an address-space limit "
         "`run_memory_mb`). When the run stops before the end, the fits it did not reach have no statistics. "
-        "The finding is placed on the line that failed when it is in this file, and carries the last lines "
-        "of the traceback or the reason.\n\n"
+        "The finding is placed on the line that failed when it is in this file, and carries the traceback "
+        "from the first frame of the analysed code on (no frame of regvet's or IPython's; a notebook cell "
+        "is named `cell N`), or the reason.\n\n"
         "Runtime mode only."
     ),
     bad="""\

@@ -38,6 +38,9 @@ from regvet.model.stats_schema import FitRecord
 PROBE_DIR = Path(__file__).resolve().parent / "probe"
 BOOT = PROBE_DIR / "regvet_probe_boot.py"
 STDOUT_TAIL = 20
+#: In the environment, runs notebooks with the probe's stand-in for IPython even where IPython is installed
+#: (the tests' switch; read by the child's ``regvet_cells``).
+NO_IPYTHON = "REGVET_PROBE_NO_IPYTHON"
 
 
 @dataclass
@@ -178,7 +181,11 @@ def run(
     options = options or {}
     interpreter = python or sys.executable
     content = content if content is not None else path.read_bytes()
-    key = RunCache.key(path, content, interpreter, {**options, "cells": cells is not None}) if cache else ""
+    keyed = {**options, "cells": cells is not None}
+    if cells is not None:  # the cells as written (magics included) run too, and which shell runs them
+        keyed["raw"] = [cell.get("raw") for cell in cells]
+        keyed["shell"] = "stand-in" if os.environ.get(NO_IPYTHON) else "ipython"
+    key = RunCache.key(path, content, interpreter, keyed) if cache else ""
     if cache is not None:
         hit = cache.get(key)
         if hit is not None:
@@ -203,6 +210,7 @@ def run(
         env["PYTHONPATH"] = os.pathsep.join(filter(None, [str(PROBE_DIR), env.get("PYTHONPATH", "")]))
         env["PYTHONUNBUFFERED"] = "1"
         env.pop("PYTHONSTARTUP", None)
+        env["IPYTHONDIR"] = str(Path(tmp) / "ipython")  # IPython's profile: fresh, never the user's own
         log = Path(tmp) / "output.txt"
         start = time.perf_counter()
         with open(log, "wb") as output:

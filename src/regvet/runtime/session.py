@@ -29,7 +29,7 @@ class _Source:
 
     path: Path
     lines: list[str]
-    cells: list[dict[str, Any]] | None  # notebook code cells for the child: index + neutralised source
+    cells: list[dict[str, Any]] | None  # notebook code cells for the child: index, neutralised source, raw text
     cell_start: dict[int, int]  # cell index -> first line in the joined module
 
 
@@ -41,8 +41,12 @@ def _source(path: Path, report: FileReport) -> _Source | None:
         return _Source(path, lines, None, {})
     starts = [*list(report.cell_map.starts), len(lines) + 1]
     cells = []
+    raw = report.cell_map.sources
     for i, index in enumerate(report.cell_map.cells):
-        cells.append({"index": index, "source": "\n".join(lines[starts[i] - 1 : starts[i + 1] - 1])})
+        cell: dict[str, Any] = {"index": index, "source": "\n".join(lines[starts[i] - 1 : starts[i + 1] - 1])}
+        if i < len(raw):  # as written, for IPython's shell (the analysed text has its magics replaced)
+            cell["raw"] = raw[i]
+        cells.append(cell)
     return _Source(path, lines, cells, dict(zip(report.cell_map.cells, report.cell_map.starts, strict=False)))
 
 

@@ -158,13 +158,15 @@ def join_cells(code_cells: list[tuple[int, str]], cell_count: int) -> NotebookSo
     parts: list[str] = []
     starts: list[int] = []
     indices: list[int] = []
+    raw: list[str] = []
     line = 1
     for index, src in code_cells:
-        py = neutralize(src.replace("\r\n", "\n"))
+        raw.append(src.replace("\r\n", "\n"))
+        py = neutralize(raw[-1])
         if not py.endswith("\n"):
             py += "\n"
         starts.append(line)
         indices.append(index)
         parts.append(py)
         line += py.count("\n")
-    return NotebookSource("".join(parts), CellMap(tuple(starts), tuple(indices)), cell_count)
+    return NotebookSource("".join(parts), CellMap(tuple(starts), tuple(indices), tuple(raw)), cell_count)

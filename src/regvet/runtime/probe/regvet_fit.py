@@ -17,8 +17,9 @@ from typing import Any
 import numpy as np
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
-from regvet_align import RowDataError
-from regvet_linalg import constant_columns
+from regvet_align import RowDataError, TimeOrder, candidate_groups, time_order
+from regvet_linalg import Basis, constant_columns
+from regvet_rank import Refit, noise_floor, resolve
 from statsmodels.regression.linear_model import OLS, WLS
 
 #: Options of :func:`fit_statistics` and their defaults.
@@ -151,26 +152,119 @@ class FitInputs:
         if self.X.ndim != 2:
             raise TypeError("the model's design must be two-dimensional")
         self.n, self.k = self.X.shape
+        #: Rows of the model's data (its endog, exog, index, frame) that the fit has.
+        self.n_model = self.n
         self.y = np.asarray(model.wendog, dtype=float).reshape(-1)
         self.u = np.asarray(res.wresid, dtype=float).reshape(-1)
-        self.yhat = self.y - self.u  # whitened fitted values, wexog @ params
         self.chunk = opts["chunk_rows"]
         data = model.data
         self.const_idx: int | None = getattr(data, "const_idx", None)
         self.k_constant = int(getattr(model, "k_constant", 0) or 0)
         self.weights: np.ndarray | None = None
+        #: The model rows that are observations (None: all). WLS rows with weight zero are not: they
+        #: are left out here, once, and every statistic (time order, groups, folds) sees only these.
+        self.kept: np.ndarray | None = None
         if self.estimator == "WLS":
             self.weights = np.broadcast_to(np.asarray(model.weights, dtype=float), (self.n,))
-        weights_constant = self.weights is None or bool(np.ptp(self.weights) == 0)
+            zero = self.weights == 0
+            if zero.any():
+                self.kept = np.flatnonzero(~zero)
+                self.X = self.X[self.kept]
+                self.y, self.u, self.weights = self.y[self.kept], self.u[self.kept], self.weights[self.kept]
+                self.n = int(self.kept.size)
+        self.zero_weight_rows = self.n_model - self.n
+        weights_constant = self.weights is None or self.n == 0 or bool(np.ptp(self.weights) == 0)
         # Does the whitened design contain the constant 1 in its column space?
         self.one_in_span = bool(self.k_constant) and weights_constant
         rank = getattr(model, "rank", None)
-        self.rank = int(rank) if rank is not None else int(np.linalg.matrix_rank(self.X))
+        self.statsmodels_rank = int(rank) if rank is not None else int(np.linalg.matrix_rank(self.X))
         self.names = parameter_names(model, self.X)
+        # The coefficients and their unscaled covariance as statsmodels has them.
+        self.params = np.asarray(res.params, dtype=float).reshape(-1)
+        self.normalized_cov = np.asarray(res.normalized_cov_params, dtype=float)
+        # The rank and condition of the centred, unit-scaled design; a correct least-squares fit there
+        # when statsmodels, deciding on the raw columns, dropped a direction the design has.
+        self.rank = self.statsmodels_rank
+        self.condition = 1.0
+        self.refit: Refit | None = None
+        self._resolve()
+        self.yhat = self.y - self.u  # whitened fitted values, wexog @ params
+        self.df_resid = float(self.n - self.rank)
         self.ssr = float(self.u @ self.u)
         yy = float(self.y @ self.y)
         self.finite = math.isfinite(self.ssr) and math.isfinite(yy)
-        self.perfect = self.finite and (self.ssr <= 1e-20 * yy or yy == 0.0)
+        #: Relative size below which a computed residual (or spread of fitted values, or 1 - leverage)
+        #: is rounding noise for this design: a multiple of eps times its scaled condition number.
+        self.noise = noise_floor(self.condition)
+        self.perfect = self.finite and (self.ssr <= self.noise**2 * yy or yy == 0.0)
+        rms = math.sqrt(yy / self.n) if self.n else 0.0
+        spread = float(np.ptp(self.yhat)) if self.n else 0.0
+        #: The fitted values differ by more than rounding (not a model with only a constant).
+        self.yhat_varies = self.finite and spread > self.noise * rms
+        self.scale = self.ssr / self.df_resid if self.df_resid > 0 else math.nan
+
+    def _resolve(self) -> None:
+        if not (np.isfinite(self.y).all() and self.n > 0):
+            return
+        shift = self.one_in_span and self.estimator == "OLS"
+        try:
+            found = resolve(Basis(self.X, self.const_idx, self.chunk, shift), self.y, self.statsmodels_rank)
+        except (ValueError, np.linalg.LinAlgError):
+            return
+        self.condition = found.condition
+        if found.refit is None:
+            return
+        self.refit = found.refit
+        self.rank = found.rank
+        self.u = found.refit.u
+        self.params = found.refit.params
+        self.normalized_cov = found.refit.normalized_cov
+
+    # -- the model's row data, restricted to the fit's observations --------------------------------
+
+    def select(self, values: Any) -> Any:
+        """An array with one entry per model row, restricted to the observations (``kept``)."""
+        return values if self.kept is None else np.asarray(values)[self.kept]
+
+    def row_labels(self) -> Any:
+        """The observations' row labels (None: the model has none and every row is kept)."""
+        labels = self.model.data.row_labels
+        if self.kept is None:
+            return labels
+        return self.kept if labels is None else labels[self.kept]
+
+    def time_order(self) -> TimeOrder:
+        """:func:`regvet_align.time_order` of the model, restricted to the observations."""
+        timed = time_order(self.model, self.opts["time_column"], self.opts["unit_column"])
+        if self.kept is None or timed.reason is None:
+            return timed
+        order = timed.order
+        if order is not None:
+            place = np.full(self.n_model, -1, dtype=np.intp)
+            place[self.kept] = np.arange(self.n)
+            order = place[order]
+            order = order[order >= 0]
+        keys = self.select(timed.keys) if timed.keys is not None else None
+        units = self.select(timed.units) if timed.units is not None else None
+        import pandas as pd  # time_order needed it already
+
+        repeats = bool(pd.Series(keys).duplicated().any()) if keys is not None else False
+        return timed._replace(order=order, keys=keys, units=units, repeats=repeats)
+
+    def candidate_groups(self, candidate: str) -> tuple[np.ndarray, list[str]]:
+        """:func:`regvet_align.candidate_groups` for the observations."""
+        codes, labels = candidate_groups(self.model, self.n_model, self.names, candidate)
+        return self.select(codes), labels
+
+    def endog_fitted(self) -> tuple[np.ndarray, np.ndarray]:
+        """The unweighted endog and fitted values of the observations (the probe's refit's when it refitted)."""
+        endog = self.select(np.asarray(self.model.endog, dtype=float).reshape(-1))
+        if self.refit is None:
+            fitted = self.select(np.asarray(self.res.fittedvalues, dtype=float).reshape(-1))
+        else:
+            exog = self.select(np.asarray(self.model.exog, dtype=float))
+            fitted = exog @ self.params
+        return endog, fitted
 
     def require_residuals(self) -> None:
         """Raise when the residuals carry no information (non-finite values, or a perfect fit)."""

@@ -195,6 +195,14 @@ class Basis:
         """The rows of V at these positions."""
         return self._centre(np.asarray(self.X[positions], dtype=float))
 
+    def to_coefficients(self, beta_v: np.ndarray) -> np.ndarray:
+        """Map coefficients β_V of V to the model's parameters β = A·β_V."""
+        if self.m is None:
+            return beta_v
+        beta = np.array(beta_v, dtype=float)
+        beta[self.c] -= float(self.m @ beta_v)
+        return beta
+
     def to_params(self, cov_v: np.ndarray) -> np.ndarray:
         """Map a covariance of β_V to the covariance of the model's parameters β."""
         if self.m is None:

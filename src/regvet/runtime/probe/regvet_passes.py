@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
-from regvet_align import lags_for, time_order
+from regvet_align import lags_for
 from regvet_fit import FitInputs, StatisticError, error_message
 from regvet_linalg import Basis, Consumer, GInverse, TallQR, gram_with_constant, leverages, sweep
 
@@ -78,15 +78,14 @@ class RowPasses:
             a = float(fit.yhat.mean()) if fit.one_in_span else 0.0
             z = fit.yhat - a
             b = math.sqrt(float(z @ z) / fit.n)
-            rms = math.sqrt(float(fit.yhat @ fit.yhat) / fit.n)
-            spread = float(np.ptp(fit.yhat))
-            # Fitted values equal up to rounding (a model with only a constant) carry no information.
-            self.yhat_varies = spread > 1e-10 * rms
+            # Fitted values equal up to rounding (a model with only a constant) carry no information;
+            # "rounding" is relative to what double precision resolves for this design (FitInputs).
+            self.yhat_varies = fit.yhat_varies
             if b > 0 and self.yhat_varies:
                 self.reset_z = z / b
         # Time order and BG lags.
         try:
-            timed = time_order(fit.model, self.opts["time_column"], self.opts["unit_column"])
+            timed = fit.time_order()  # restricted to the fit's observations
         except Exception as exc:
             self.errors["time_ordered"] = error_message(exc)
             timed = None

@@ -255,13 +255,75 @@ def _patch_matplotlib() -> None:
         sys.meta_path.insert(0, _ShowPatcher())
 
 
-def traceback_tail(exc: BaseException, user_files: set[str], limit: int = 8) -> tuple[list[str], list[Any] | None]:
-    """The last lines of a traceback, and the innermost frame in the user's code."""
-    lines = traceback.format_exception(type(exc), exc, exc.__traceback__)
-    text = "".join(lines).rstrip().split("\n")
+def traceback_tail(exc: BaseException, user_files: set[str], limit: int = 12) -> tuple[list[str], list[Any] | None]:
+    """The traceback as the user should see it, and the innermost frame in the user's code.
+
+    The shown traceback starts at the outermost frame of the user's code (a notebook cell is named
+    ``cell N``, counted from 1) and has no frame of regvet's probe or of IPython anywhere in it: the frames
+    that ran the code are regvet's, not the user's. Library frames below the user's code are kept (the
+    error happened there). Past ``limit`` lines, the first frame and the last lines are kept."""
     where = None
     for tb_frame, lineno in traceback.walk_tb(exc.__traceback__):
         name = tb_frame.f_code.co_filename
         if name.startswith("<regvet-cell-") or os.path.abspath(name) in user_files:
             where = [name if name.startswith("<") else os.path.abspath(name), lineno]
-    return text[-limit:], where
+    try:
+        shown = traceback.TracebackException(type(exc), exc, exc.__traceback__)
+        chained = [
+            (why, "".join(other.format_exception_only()).strip().split("\n")[-1])
+            for why, other in (("caused by", shown.__cause__), ("while handling", shown.__context__))
+            if other is not None and not (why == "while handling" and shown.__suppress_context__)
+        ]
+        shown.__cause__ = shown.__context__ = None  # type: ignore[assignment]  # the chain in one line each: the user's traceback is this one
+        _from_user_code(shown, user_files)
+        text = "".join(shown.format()).rstrip().split("\n")
+        text[-1:-1] = [f"  ({why} {what})" for why, what in chained[:1]]
+    except Exception:  # never lose the failure over its formatting
+        text = traceback.format_exception_only(type(exc), exc)[-1].rstrip().split("\n")
+    text = [line for line in text if line.strip(" ^~") or not line.strip()]  # no caret lines
+    if len(text) > limit:
+        first = 3 if text[0].startswith("Traceback") else 0
+        text = [*text[:first], "  ...", *text[-(limit - first - 1) :]]
+    return text, where
+
+
+def _shown_name(filename: str) -> str:
+    if filename.startswith("<regvet-cell-") and filename.endswith(">"):
+        try:
+            return f"cell {int(filename[len('<regvet-cell-') : -1]) + 1}"
+        except ValueError:
+            return filename
+    return filename
+
+
+def _runner_dirs() -> tuple[str, ...]:
+    """Folders whose frames are regvet's machinery, never the user's code: the probe and IPython."""
+    dirs = [_PROBE_DIR]
+    ipython = getattr(sys.modules.get("IPython"), "__file__", None)
+    if ipython:
+        dirs.append(os.path.dirname(os.path.abspath(ipython)))
+    return tuple(d + os.sep for d in dirs)
+
+
+def _from_user_code(shown: traceback.TracebackException, user_files: set[str]) -> None:
+    """Cut ``shown``'s frames to start at the user's code, without the runner's frames."""
+    runners = _runner_dirs()
+
+    def runner(frame: traceback.FrameSummary) -> bool:
+        name = frame.filename
+        return not name.startswith("<") and os.path.abspath(name).startswith(runners)
+
+    def user(frame: traceback.FrameSummary) -> bool:
+        name = frame.filename
+        if name.startswith("<regvet-cell-") or os.path.abspath(name) in user_files:
+            return True
+        return _recorder is not None and not runner(frame) and _recorder._is_user(name)
+
+    frames = list(shown.stack)
+    first = next((i for i, f in enumerate(frames) if user(f)), len(frames))
+    kept = [f for f in frames[first:] if not runner(f)]
+    for frame in kept:
+        frame.filename = _shown_name(frame.filename)
+    shown.stack = traceback.StackSummary.from_list(kept)
+    if getattr(shown, "filename", None):  # a SyntaxError: where it is
+        shown.filename = _shown_name(shown.filename)

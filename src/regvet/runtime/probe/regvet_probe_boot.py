@@ -5,8 +5,9 @@ Usage (by the parent, never by hand):
 
 The request names the script (or the notebook's code cells), the output file and the
 options. The analysed code runs in its own folder as ``__main__``; notebook cells run in
-order in one namespace, each compiled under the name ``<regvet-cell-N>`` so call sites
-carry the cell. Standard library, numpy and statsmodels only.
+order in one namespace (``regvet_cells``: IPython's shell when the interpreter has it, else a
+stand-in), each compiled under the name ``<regvet-cell-N>`` so call sites carry the cell.
+Standard library, numpy and statsmodels only.
 """
 
 from __future__ import annotations
@@ -97,18 +98,24 @@ def main(argv: list[str]) -> int:
         return 0
     sys.argv = [request.get("script") or "notebook"]
     sys.path.insert(0, folder)
+    ran: dict = {}  # what ran the cells (IPython or the stand-in), for the end record
     try:
         if request.get("cells") is not None:
-            namespace: dict = {"__name__": "__main__", "__builtins__": __builtins__}
-            for cell in request["cells"]:
-                code = compile(cell["source"], f"<regvet-cell-{cell['index']}>", "exec")
-                exec(code, namespace)
+            import regvet_cells
+
+            failure = regvet_cells.run_cells(request["cells"], ran)
+            if failure is not None:
+                raise failure
         elif request.get("source") is not None:
             # Exactly the text regvet analysed (an editor may hold unsaved changes), under the script's
-            # own file name so call sites point into it.
+            # own file name so call sites point into it (and tracebacks show its lines).
+            import linecache
+
             script = request["script"]
+            source = request["source"]
+            linecache.cache[script] = (len(source), None, source.splitlines(True), script)
             namespace = {"__name__": "__main__", "__file__": script, "__builtins__": __builtins__}
-            exec(compile(request["source"], script, "exec"), namespace)
+            exec(compile(source, script, "exec"), namespace)
         else:
             import runpy
 
@@ -116,17 +123,17 @@ def main(argv: list[str]) -> int:
     except SystemExit as exc:
         exit_code = exc.code if isinstance(exc.code, int) or exc.code is None else str(exc.code)
         tail, where = probe.traceback_tail(exc, user_files)
-        recorder.finish("exit", exit_code=exit_code, where=where)
+        recorder.finish("exit", exit_code=exit_code, where=where, **ran)
         return 0
     except MemoryError as exc:
         tail, where = probe.traceback_tail(exc, user_files)
-        recorder.finish("memory", traceback=tail, where=where)
+        recorder.finish("memory", traceback=tail, where=where, **ran)
         return 0
     except BaseException as exc:  # the user's code failed: report it, keep what was recorded
         tail, where = probe.traceback_tail(exc, user_files)
-        recorder.finish("exception", traceback=tail, where=where)
+        recorder.finish("exception", traceback=tail, where=where, **ran)
         return 0
-    recorder.finish("ok")
+    recorder.finish("ok", **ran)
     return 0
 
 

@@ -46,7 +46,7 @@ from typing import Any
 import numpy as np
 
 # Siblings in this folder (the probe's own modules, never regvet itself).
-from regvet_align import candidate_groups, fingerprint
+from regvet_align import fingerprint
 from regvet_fit import (
     DEFAULT_OPTIONS,
     FitInputs,
@@ -117,7 +117,9 @@ class _Stats(RowPasses):
         """Compute every statistic; the output dict of :func:`fit_statistics`."""
         fit = self.fit
         self.basic()
-        self.put("rows", lambda: {"count": fit.n, "fingerprint": fingerprint(fit.model.data.row_labels, fit.n)})
+        self.put("rows", lambda: {"count": fit.n, "fingerprint": fingerprint(fit.row_labels(), fit.n)})
+        self.out["scaled_refit"] = scaled_refit(fit)
+        self.out["zero_weight_rows"] = fit.zero_weight_rows if fit.estimator == "WLS" else None
         self.put("log_level_r2", self.log_level_r2)
         self.out["weights"] = WEIGHTS_NOTE if fit.estimator == "WLS" else None
 
@@ -147,7 +149,7 @@ class _Stats(RowPasses):
         self.out["nobs"] = fit.n
         self.out["k"] = fit.k
         self.out["n_regressors"] = fit.k - (1 if fit.const_idx is not None else 0)
-        self.put("df_resid", lambda: as_count(res.df_resid))
+        self.put("df_resid", lambda: as_count(fit.df_resid))
         for key in ("rsquared", "rsquared_adj", "aic", "bic", "llf", "ssr"):
             self.put(key, partial(float_attribute, res, key))
         self.put("resid_sd", lambda: as_float(math.sqrt(float(res.scale))) if float(res.scale) >= 0 else None)
@@ -163,8 +165,7 @@ class _Stats(RowPasses):
         base = log_base(str(fit.model.endog_names))
         if base is None:
             return None
-        endog = np.asarray(fit.model.endog, dtype=float).reshape(-1)
-        fitted = np.asarray(fit.res.fittedvalues, dtype=float).reshape(-1)
+        endog, fitted = fit.endog_fitted()
         # corr is invariant to scaling each variable, so exp(v - max v) avoids overflow.
         a = np.power(base, endog - np.max(endog))
         b = np.power(base, fitted - np.max(fitted))
@@ -252,7 +253,7 @@ class _Stats(RowPasses):
         if q == 0:
             raise StatisticError("the powers of the fitted values lie in the span of the regressors")
         ess = gi.quad(self.reset_ru)
-        df_denom = float(fit.res.df_resid) - q
+        df_denom = fit.df_resid - q
         ssr_u = fit.ssr - ess
         if df_denom <= 0:
             raise StatisticError("too few residual degrees of freedom for the RESET regression")
@@ -482,7 +483,7 @@ class _Stats(RowPasses):
         fit = self.fit
         fit.require_residuals()
         self.need("design")
-        codes, labels = candidate_groups(fit.model, fit.n, fit.names, candidate)
+        codes, labels = fit.candidate_groups(candidate)
         counts = np.bincount(codes, minlength=len(labels))
         present = np.flatnonzero(counts)
         sizes = [{"label": labels[j], "nobs": int(counts[j])} for j in present]
@@ -522,17 +523,17 @@ class _Stats(RowPasses):
 
     def coefficients(self) -> list[dict[str, Any]]:
         """Estimates with the usual and the heteroskedasticity-robust (HC) standard errors."""
-        fit, res = self.fit, self.fit.res
-        est = np.asarray(res.params, dtype=float).reshape(-1)
-        df = float(res.df_resid)
-        scale = float(res.scale)
-        se = np.sqrt(scale * np.diag(np.asarray(res.normalized_cov_params, dtype=float)))
+        fit = self.fit
+        est = fit.params  # statsmodels' unless the probe refitted in the scaled basis (scaled_refit)
+        df = fit.df_resid  # zero-weight WLS rows are no observations
+        scale = fit.scale
+        se = np.sqrt(scale * np.clip(np.diag(fit.normalized_cov), 0.0, None))
         se_r: np.ndarray | None = None
         try:
             fit.require_residuals()
             self.need("gram", "meat")
             self._full_rank("the coefficients are not identified and robust standard errors are not computed")
-            if self.hc in ("HC2", "HC3") and self.max_leverage >= 1.0 - 1e-10:
+            if self.hc in ("HC2", "HC3") and 1.0 - self.max_leverage <= fit.noise:
                 raise StatisticError(
                     f"an observation has leverage 1 (e.g. a dummy for a single row): {self.hc} is undefined"
                 )
@@ -583,6 +584,27 @@ class _Stats(RowPasses):
             "rmse": as_float(math.sqrt(self.cv_sse / n)),
             "mae": as_float(self.cv_sae / n),
         }
+
+
+REFIT_NOTE = (
+    "statsmodels decided the design's rank on the raw columns and dropped a direction that the centred, "
+    "unit-scaled design has; every statistic and the coefficients here come from the least-squares fit "
+    "in that scaled basis (its own residuals), not from the fit statsmodels reported"
+)
+
+
+def scaled_refit(fit: FitInputs) -> dict[str, Any] | None:
+    """The ``scaled_refit`` entry: None unless the probe refitted in the scaled basis (see regvet_rank)."""
+    if fit.refit is None:
+        return None
+    return {
+        "statsmodels_rank": int(fit.statsmodels_rank),
+        "rank": int(fit.rank),
+        "condition": as_float(fit.condition),
+        "ssr": as_float(fit.refit.ssr),
+        "statsmodels_ssr": as_float(float(np.asarray(fit.res.wresid, dtype=float) @ np.asarray(fit.res.wresid))),
+        "note": REFIT_NOTE,
+    }
 
 
 def fit_statistics(res: Any, options: Mapping[str, Any] | None = None) -> dict[str, Any]:
