@@ -76,7 +76,7 @@ ROWS = [
         print(res.params)
     """,
         _POST,
-        "configured break candidate (`post_dredging`)",
+        "configured break candidate `post_dredging`",
     ),
     row(
         "candidate-interacted-star",
@@ -228,7 +228,7 @@ ROWS = [
             res = smf.ols(f"tons ~ cranes + C({group})", data=freight).fit()  # expect: no-break-test
             print(res.params)
     """,
-        wording="2 fits from this line",
+        wording="both fits from this line",
     ),
     row(
         "f-string-in-a-loop-over-fixed-effects",

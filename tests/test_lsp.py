@@ -270,7 +270,7 @@ async def test_hover_on_a_loop_lists_the_fits_of_the_line(project):
         diags = await c.diagnostics_for(uri, 1)
         assert codes(diags) == ["no-form-test", "no-variance-test"]  # one per rule for the two fits
         d = next(d for d in diags if d.code == "no-variance-test")
-        assert d.message.startswith("2 fits from this line: `riders ~ fare`, `riders ~ fare + fuel_price`. For both:")
+        assert d.message.startswith("For both fits from this line, `riders ~ fare` and `riders ~ fare + fuel_price`: ")
         line = text.split("\n")[5]
         hover = await c.lsp.text_document_hover_async(
             t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(5, line.index("smf.ols") + 3))
@@ -599,13 +599,13 @@ async def test_run_fits_command_reports_progress_and_attaches_statistics(project
             and hetero.data["stats"]["fits"][0]["statistics"]["nobs"] == 200
         )
         variance = next(d for d in diags if d.code == "no-variance-test")
-        assert "[run: n=200, BP p < 0.001" in variance.message
+        assert "[run: n = 200, Breusch-Pagan p < 0.001" in variance.message
         [reports] = list(c.lsp.progress_reports.values())
         assert reports[0].kind == "begin" and reports[0].cancellable and reports[-1].kind == "end"
         hover = await c.lsp.text_document_hover_async(
             t.HoverParams(t.TextDocumentIdentifier(uri=uri), t.Position(7, 8))
         )
-        assert "- last run: **statistics**: n=200, BP p < 0.001" in hover.contents.value
+        assert "- last run: **statistics**: n = 200, Breusch-Pagan p < 0.001" in hover.contents.value
         # an edit makes the statistics stale: they are dropped until the next run
         version = c.edit(uri, (9, 0), (9, 0), "# edited\n")
         assert "heteroskedastic-plain-se" not in codes(await c.diagnostics_for(uri, version))

@@ -204,9 +204,9 @@ def test_a_notebook_traceback_starts_in_the_users_cell(tmp_path, monkeypatch, sh
     assert '    raise ValueError("harbour 7 has no cranes")' in detail  # the cell's own line is shown
     assert not any("regvet_" in line or "IPython" in line or "interactiveshell" in line for line in detail), detail
     [failed] = [f for f in report.findings if f.rule == "run-failed"]
-    assert 'Traceback: File "cell 5", line 1, in <module>' in failed.message
+    assert 'its traceback: File "cell 5", line 1, in <module>' in failed.message
     assert (failed.span.cell, failed.span.line) == (3, 5)  # the innermost line of the user's code
-    assert "1 fit run(s) completed before that are kept" in failed.message
+    assert "the statistics of the 1 fit run completed before that are kept" in failed.message
 
 
 def test_a_script_traceback_starts_in_the_users_file(tmp_path):
@@ -231,7 +231,7 @@ def test_a_script_traceback_starts_in_the_users_file(tmp_path):
     assert "tonnage_per_crane(tons)" in [line.strip() for line in detail]  # the line itself, from the text that ran
     assert not any("regvet_" in line or "runpy" in line for line in detail), detail
     [failed] = [f for f in report.findings if f.rule == "run-failed"]
-    assert f'Traceback: File "{path.resolve()}", line {last}, in <module>' in failed.message
+    assert f'its traceback: File "{path.resolve()}", line {last}, in <module>' in failed.message
 
 
 @pytest.mark.parametrize("shell", SHELLS)

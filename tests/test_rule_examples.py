@@ -8,10 +8,9 @@ from __future__ import annotations
 import pytest
 
 from conftest import expected_markers, found
-from regvet.cli import explain
 from regvet.engine import analyze
 from regvet.rules import ALL_RULES, RULES_BY_ID
-from regvet.rules.texts import CAUTION, shown_example
+from regvet.rules.texts import CAUTION, explain, shown_example
 
 STATIC = [r for r in ALL_RULES if not r.needs_run]
 

@@ -49,7 +49,7 @@ def test_statistics_are_attached_to_static_findings(tmp_path):
     f = next(f for f in report.findings if f.rule == "no-variance-test")
     stats = f.stats["fits"][0]["statistics"]
     assert stats["nobs"] == 120 and stats["cov_type"] == "nonrobust"
-    assert f.stats["summary"].startswith("n=120, BP p")
+    assert f.stats["summary"].startswith("n = 120, Breusch-Pagan p")
     assert 0 <= stats["breusch_pagan"]["lm_pvalue"] <= 1
 
 
@@ -85,7 +85,7 @@ def test_faults_give_run_failed_and_keep_completed_fits(tmp_path, fault):
     assert len(failed) == 1, [f.message for f in report.findings]
     assert needle in failed[0].message
     assert failed[0].span.line == line
-    assert "1 fit run(s) completed before that are kept" in failed[0].message
+    assert "the statistics of the 1 fit run completed before that are kept" in failed[0].message
     assert len(result.fits) == 1 and result.fits[0]["stats"]["nobs"] == 120
 
 
@@ -288,10 +288,10 @@ def test_text_output_carries_a_statistics_clause(tmp_path, monkeypatch, run_cli)
     monkeypatch.setenv("REGVET_CACHE_DIR", str(tmp_path / "cache"))
     (tmp_path / "model.py").write_text(FIT)
     code, out, _ = run_cli("check", "--run", "model.py")
-    assert out.count("\n  run: n=120, BP p") == 1  # once, in the fit's header block, not on each finding
+    assert out.count("\n  run: n = 120, Breusch-Pagan p") == 1  # once, in the fit's header block, not on each finding
     assert len([line for line in out.splitlines() if line.startswith("  warning ")]) >= 2
     code, out, _ = run_cli("check", "--run", "model.py", "--format", "lines")
-    assert "[run: n=120, BP p" in out
+    assert "[run: n = 120, Breusch-Pagan p" in out
     code, sarif, _ = run_cli("check", "--run", "model.py", "--format", "sarif")
     results = json.loads(sarif)["runs"][0]["results"]
     assert all(r["properties"]["regvet"]["fits"][0]["statistics"]["nobs"] == 120 for r in results)

@@ -126,3 +126,24 @@ def test_empty_run_is_valid(validator, tmp_path, monkeypatch, run_cli):
     code, log = _sarif(run_cli, ".")
     assert code == 0 and log["runs"][0]["results"] == []
     assert not list(validator.iter_errors(log))
+
+
+def test_fingerprints_stay_when_lines_move(tmp_path, run_cli, monkeypatch):
+    """A finding keeps its fingerprint when code above it moves it down (its message names lines)."""
+    monkeypatch.chdir(tmp_path)
+    body = (
+        "import pandas as pd\nimport statsmodels.formula.api as smf\n\n"
+        'weekly = pd.read_csv("weekly.csv", parse_dates=["week"], index_col="week")\n'
+        'res = smf.ols("riders ~ fare", data=weekly).fit()\nprint(res.summary())\n'
+    )
+
+    def prints() -> dict[str, str]:
+        _, log = _sarif(run_cli, "weekly.py")
+        return {r["ruleId"]: r["partialFingerprints"]["regvet/v1"] for r in log["runs"][0]["results"]}
+
+    (tmp_path / "weekly.py").write_text(body)
+    before = prints()
+    (tmp_path / "weekly.py").write_text("# a comment\n\n" + body)
+    after = prints()
+    assert set(before) == {"no-form-test", "no-variance-test", "no-serial-test"}
+    assert after == before

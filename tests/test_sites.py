@@ -17,6 +17,7 @@ import pytest
 from conftest import expected_markers, found
 from regvet.engine import analyze
 from regvet.model.settings import Settings
+from regvet.rules.base import listed as and_list
 from regvet.status import fits_at, hover_markdown
 
 VAR = "no-variance-test"
@@ -92,7 +93,7 @@ CASES = [
         for name in ["north.csv", "south.csv"]:
             print(fit_port(pd.read_csv(name)).summary())  # expect: no-form-test, no-variance-test
     """,
-        {r: (["fit 1 (`riders ~ fare`)", "fit 2 (`riders ~ fare`)"],) * 2 for r in (VAR, FORM)},
+        {r: (["fit 1 `riders ~ fare`", "fit 2 `riders ~ fare`"],) * 2 for r in (VAR, FORM)},
     ),
     (
         "check-applied-conditionally-in-the-loop",
@@ -165,12 +166,13 @@ def test_one_finding_per_site(body, sites):
             assert len(f.fits) == 1
             continue
         every, flagged = sites[f.rule]
-        assert f.message.startswith(f"{len(every)} fits from this line: {', '.join(every)}.")
         if flagged == every:
-            assert ("For both:" if len(every) == 2 else f"For all {len(every)}:") in f.message
+            lead = "both fits" if len(every) == 2 else f"all {len(every)} fits"
+            assert f.message.startswith(f"For {lead} from this line, {and_list(every)}: ")
         else:
-            rest = [s for s in every if s not in flagged]
-            assert f"Only for {len(flagged)} of them, {', '.join(flagged)} (not {', '.join(rest)})" in f.message
+            assert f.message.startswith(
+                f"For {len(flagged)} of the {len(every)} fits from this line, {and_list(flagged)}: "
+            )
         assert len(f.fits) == len(flagged)
         listed = [r.message for r in f.related if "from this line" in r.message]
         assert len(listed) == len(every)
@@ -247,7 +249,7 @@ def test_notebook_loop_gives_one_finding_in_its_cell():
     report = analyze(nb, "ferries.ipynb", Settings())
     (finding,) = [f for f in report.findings if f.rule == VAR]
     assert finding.span.cell == 2 and finding.span.line == 2
-    assert finding.message.startswith(f"3 fits from this line: {', '.join(THREE)}.")
+    assert finding.message.startswith(f"For 2 of the 3 fits from this line, {and_list(THREE[1:])}: ")
     # the related fits are placed in the cell too
     assert all(r.span.cell == 2 for r in finding.related if "from this line" in r.message)
 
@@ -528,7 +530,7 @@ def test_robust_version_reported_beside(body, downgraded):
             assert f.severity.label == "warning" and "version of the same specification" not in f.message
         else:
             assert f.severity.label == "info"
-            assert f"version of the same specification on the same data is reported too ({robust}, line " in f.message
+            assert f"version of the same specification on the same data is reported too, {robust} at line " in f.message
 
 
 def test_hover_names_the_robust_version():
@@ -548,6 +550,6 @@ def test_robust_version_across_notebook_cells():
     (finding,) = [f for f in analyze(nb, "ferries.ipynb", Settings()).findings if f.rule == VAR]
     assert finding.severity.label == "info" and (finding.span.cell, finding.span.line) == (1, 1)
     assert (
-        "An HC3 version of the same specification on the same data is reported too (`robust`, cell 3, line 1)"
+        "An HC3 version of the same specification on the same data is reported too, `robust` at cell 3, line 1,"
         in finding.message
     )

@@ -79,7 +79,7 @@ def test_notebook_places_count_cells_from_one_and_json_keeps_the_index(run_cli, 
     monkeypatch.delenv("COLUMNS", raising=False)
     code, out, _ = run_cli("check", "04_timetable_change.ipynb", "--no-baseline")
     assert out.startswith("04_timetable_change.ipynb, cell 4, line 10:14: pooled_hc3 (np.log(riders) ~")
-    assert "first at cell 8, line 8" in out  # the messages count cells the same way
+    assert "(`params`, cell 8, line 8)" in out  # the messages count cells the same way
     assert ":cell " not in out
     code, lines, _ = run_cli("check", "04_timetable_change.ipynb", "--format", "lines")
     assert lines.startswith("04_timetable_change.ipynb, cell 4, line 10:14: warning no-serial-test ")

@@ -108,7 +108,7 @@ def test_waiver_without_reason_does_not_take_effect():
         ),
         (
             "# regvet: waive no-form-test",
-            "gives no reason, so it takes no effect. Say why the check does not apply: "
+            "gives no reason, so it takes no effect. Say why the check does not apply, as in "
             "`# regvet: waive no-form-test because REASON`",
         ),
     ],
@@ -140,20 +140,20 @@ def test_the_written_form_the_message_suggests_is_read_as_a_waiver():
         (
             "# regvet: waive no-frm-test because typo",
             "`no-frm-test`, which is not a regvet rule, so it waives nothing "
-            "for that name; did you mean `no-form-test`?",
+            "for that name. Did you mean `no-form-test`?",
         ),
-        ("# regvet: waive No_Form_Test because other case", "did you mean `no-form-test`?"),
-        ("# regvet: waive NO-FORM-TEST because capitals", "did you mean `no-form-test`?"),
+        ("# regvet: waive No_Form_Test because other case", "Did you mean `no-form-test`?"),
+        ("# regvet: waive NO-FORM-TEST because capitals", "Did you mean `no-form-test`?"),
         (
             "# regvet: waive no-varience-test, no-from-test because two typos",
             "`no-varience-test` and `no-from-test`, "
-            "which are not regvet rules, so it waives nothing for them; did you mean `no-variance-test` for "
+            "which are not regvet rules, so it waives nothing for them. Did you mean `no-variance-test` for "
             "`no-varience-test`, `no-form-test` for `no-from-test`?",
         ),
         (
             "# regvet: waive ferry-schedule because nothing close",
             "`ferry-schedule`, which is not a regvet rule, so it "
-            "waives nothing for that name; `regvet rules` lists the rules.",
+            "waives nothing for that name. `regvet rules` lists the rules.",
         ),
     ],
 )

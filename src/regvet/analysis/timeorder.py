@@ -88,14 +88,14 @@ def index_order(key: Value, frame_value: Value | None, code: str, where: Loc) ->
     ``df.index = key``): dates, a date column of the frame, a date-like column name."""
     out: list[Tag] = earliest(flat(key).tags_of(tags.TIMED))
     for d in earliest(flat(key).tags_of(tags.DATES)):
-        out.append(tags.time_order(f"the data gets a date index from {tags.dates_what(d)} ({_code(code)})", where))
+        out.append(tags.time_order(f"the data gets a date index from {tags.dates_what(d)} in {_code(code)}", where))
     known = date_columns(frame_value) if frame_value is not None else {}
     for name in literal_names(key):
         if isinstance(name, str) and name in known:
             how = tags.date_column_what(known[name])
-            out.append(tags.time_order(f"the data gets a date index ({_code(code)}, dates from {how})", where))
+            out.append(tags.time_order(f"the data gets a date index in {_code(code)}, its dates from {how}", where))
         elif date_like(name):
-            out.append(tags.time_order(f"the data gets a date-like index ({_code(code)})", where))
+            out.append(tags.time_order(f"the data gets a date-like index in {_code(code)}", where))
     return earliest(out)
 
 
@@ -104,7 +104,7 @@ def sort_order(by: Value, frame_value: Value, code: str, where: Loc) -> list[Tag
     known = date_columns(frame_value)
     for name in sorted(set(literal_names(by)), key=str):
         if isinstance(name, str) and name in known:
-            return [tags.time_order(f"the rows are sorted by the date column {name!r} ({_code(code)})", where)]
+            return [tags.time_order(f"the rows are sorted by the date column {name!r} in {_code(code)}", where)]
     return []
 
 
@@ -120,7 +120,7 @@ def read_order(kwargs: dict[str, Value], code: str, where: Loc) -> list[Tag]:
         names = literal_names(index)
         dated = parse_all or parse_unknown or "date_format" in kwargs or any(n in parsed for n in names)
         if dated or any(date_like(n) for n in names):
-            out.append(tags.time_order(f"the data is read with a date index ({_code(code)})", where))
+            out.append(tags.time_order(f"the data is read with a date index in {_code(code)}", where))
     for name in parsed:
         if isinstance(name, str):
             out.append(tags.date_column(name, "`parse_dates`", where))

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import re
 from pathlib import Path
 from typing import Any
 
@@ -38,10 +39,14 @@ def _region(span: Span) -> dict[str, int]:
     }
 
 
+#: The places a message names (``line 30``, ``cell 8, line 8``): left out of the fingerprint.
+_PLACE = re.compile(r"\b(?:cell|line)s? \d+")
+
+
 def _fingerprint(rule: str, path: str, message: str, cell: int | None) -> str:
     # Stable across runs that only move lines: rule, path, cell and message (messages name the
-    # fit by variable or formula, not by line).
-    head = message.split(" (first at ")[0].split(" (`")[0]
+    # fit by variable or formula; the lines they name are left out).
+    head = _PLACE.sub("#", message)
     return hashlib.sha256(f"{rule}\0{path}\0{cell}\0{head}".encode("utf-8", "surrogatepass")).hexdigest()[:32]
 
 

@@ -25,6 +25,7 @@ from regvet.model.finding import Finding, Severity
 from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.output.safe import printable
+from regvet.rules.base import in_header
 
 _COLOURS = {Severity.ERROR: "\033[31m", Severity.WARNING: "\033[33m", Severity.INFO: "\033[36m"}
 _BOLD, _DIM, _RESET = "\033[1m", "\033[2m", "\033[0m"
@@ -32,6 +33,9 @@ _BOLD, _DIM, _RESET = "\033[1m", "\033[2m", "\033[0m"
 DEFAULT_WIDTH = 120
 #: The narrowest width text is wrapped to, whatever the terminal says.
 MIN_WIDTH = 60
+#: Code spans up to this long are kept on one line (a suggested call reads whole); longer ones wrap.
+UNBROKEN_CODE = 48
+_NBSP = "\u00a0"
 _INDENT = "  "
 
 
@@ -102,17 +106,29 @@ def blocks(report: FileReport, findings: Iterable[Finding]) -> list[_Block]:
     return list(out.values())
 
 
+def _keep_code(text: str) -> str:
+    """``text`` with the spaces inside its short code spans made unbreakable for the wrapping."""
+    parts = text.split("`")
+    for i in range(1, len(parts) - 1, 2):  # the odd parts are inside backticks
+        if len(parts[i]) <= UNBROKEN_CODE:
+            parts[i] = parts[i].replace(" ", _NBSP)
+    return "`".join(parts)
+
+
 def _wrap(first: str, rest: str, indent: str, width: int) -> list[str]:
     """``first`` (kept whole on the first line) followed by ``rest``, wrapped at ``width`` with the
-    continuation lines indented by ``indent``."""
+    continuation lines indented by ``indent``; short code spans are not broken."""
+    keep = _NBSP not in rest
     lines = textwrap.wrap(
-        rest,
+        _keep_code(rest) if keep else rest,
         width=max(width, MIN_WIDTH),
         initial_indent=first,
         subsequent_indent=indent,
         break_long_words=False,
         break_on_hyphens=False,
     )
+    if keep:
+        lines = [line.replace(_NBSP, " ") for line in lines]
     return lines or [first.rstrip()]
 
 
@@ -134,9 +150,11 @@ class _Paint:
         return f"{self(prefix, _BOLD) if prefix.strip() else prefix}{body}"
 
 
-def _finding_lines(f: Finding, lead: str, indent: str, width: int, paint: _Paint) -> list[str]:
+def _finding_lines(
+    f: Finding, lead: str, indent: str, width: int, paint: _Paint, message: str | None = None
+) -> list[str]:
     first = f"{lead}{f.severity.label} {f.rule}: "
-    lines = _wrap(first, f.message, indent, width)
+    lines = _wrap(first, f.message if message is None else message, indent, width)
     lines[0] = paint.head(lines[0], lead, f.severity, f.rule)
     if f.waived:  # shown with --show-waived
         lines += [paint(line, _DIM) for line in _wrap(f"{indent}waived: ", f.reason or "", indent + _INDENT, width)]
@@ -169,7 +187,7 @@ def render_block(path: str, block: _Block, width: int, paint: _Paint) -> list[st
         lines += [paint(line, _DIM) for line in _wrap(f"{_INDENT}run: ", summary, _INDENT * 3, width)]
     for f in block.findings:
         lead = _INDENT if _same_start(f.span, block.span) else f"{_INDENT}{place(f.span)}: "
-        lines += _finding_lines(f, lead, _INDENT * 3, width, paint)
+        lines += _finding_lines(f, lead, _INDENT * 3, width, paint, in_header(f.message, fit))
     return lines
 
 

@@ -185,13 +185,16 @@ def site_labels(fits: Sequence[Fit]) -> list[str]:
         if spec is not None and specs.count(spec) == 1:
             out.append(spec)
         else:
-            out.append(f"fit {i}" + (f" ({spec})" if spec else ""))
+            out.append(f"fit {i}" + (f" {spec}" if spec else ""))
     return out
 
 
-def _listed(names: Sequence[str], limit: int = 4) -> str:
-    shown = ", ".join(names[:limit])
-    return shown + (f" and {len(names) - limit} more" if len(names) > limit else "")
+def listed(names: Sequence[str], limit: int = 4) -> str:
+    """``a, b and c``; past ``limit`` names, ``a, b, c, d and 2 more``."""
+    names = list(names)
+    if len(names) > limit:
+        return ", ".join(names[:limit]) + f" and {len(names) - limit} more"
+    return " and ".join([", ".join(names[:-1]), names[-1]]) if len(names) > 1 else "".join(names)
 
 
 def site_fits(inp: RuleInput, fit: Fit) -> list[Fit]:
@@ -239,14 +242,13 @@ def robust_reported(inp: RuleInput, rule: Rule, findings: Iterable[Finding]) -> 
         if other is None:
             yield f
             continue
-        name = describe_fit(other) if other.result_name else "one"
+        name = f"{describe_fit(other)} at " if other.result_name else "at "
         cov = (other.cov_type or "robust").upper()
         article = "An" if cov.startswith("HC") else "A"
         yield f.with_(
             severity=Severity.INFO,
-            message=f"{f.message} {article} {cov} version of the same "
-            f"specification on the same data is reported too ({name}, {inp.where(other.site)}), so this stays as "
-            "information: read that version's standard errors, not these.",
+            message=f"{f.message} {article} {cov} version of the same specification on the same data is reported "
+            f"too, {name}{inp.where(other.site)}, so this is information only: read that version's standard errors.",
             related=(*f.related, related(other.site, "the robust version is fitted here")),
         )
 
@@ -290,39 +292,38 @@ def _merge(inp: RuleInput, group: list[Finding], fits: list[Fit]) -> Finding:
     specs = site_labels(fits)
     n = len(fits)
     known = any(specification(f) for f in fits)
-    head = f"{n} fits from this line: {_listed(specs)}." if known else f"{n} fits from this line."
     hit = [s for fit, s in zip(fits, specs, strict=True) if inp.facts.root(fit.id) in flagged_roots]
-    miss = [s for fit, s in zip(fits, specs, strict=True) if inp.facts.root(fit.id) not in flagged_roots]
-    if not miss:
-        lead = "For both: " if n == 2 else f"For all {n}: "
-    else:
-        lead = f"Only for {len(hit)} of them, {_listed(hit)} (not {_listed(miss)}): "
     first = min(group, key=lambda f: f.fits[0])
     subject = inp.facts.fit(first.fits[0])
     body = first.message
-    if not subject.result_name and subject.formula:
-        body = body.replace(describe_fit(subject), "the fit", 1)
+    if not subject.result_name and subject.formula:  # the head names the fits: the body says "the fit"
+        body = body.replace(opening(subject), "The fit", 1)
+    if len(hit) == n:
+        every = "both fits" if n == 2 else f"all {n} fits"
+        head = f"For {every} from this line, {listed(specs)}: " if known else f"For {every} from this line: "
+    else:  # the others are in the related locations, marked as not flagged
+        head = f"For {len(hit)} of the {n} fits from this line, {listed(hit)}: "
     rel: list[Related] = []
     for i, (fit, spec) in enumerate(zip(fits, specs, strict=True), start=1):
         state = "" if inp.facts.root(fit.id) in flagged_roots else "; not flagged"
         rel.append(Related(fit.site.span, f"fit {i} of {n} from this line: {spec}{state}", fit.site.path))
     for f in group:
         rel.extend(r for r in f.related if r not in rel)
-    message = f"{head} {lead}{_continued(body)}"
+    message = f"{head}{lower_first(body)}"
     return first.with_(message=message, related=tuple(rel), fits=tuple(flagged_ids))
 
 
-#: Names a message may start with: they keep their capital when the message continues a sentence.
+#: Names a message may start with: they keep their capital when the message follows a lead-in.
 _NAMES = ("Ramsey", "Breusch", "White", "Chow", "Durbin", "Jarque", "Koenker", "Wooldridge")
 
 
-def _continued(body: str) -> str:
-    """A message as the continuation of a sentence: its first letter in lower case, unless the first
-    word is an acronym (RESET, VIF) or a name (Ramsey's RESET, Breusch-Pagan)."""
-    word = body.split(" ", 1)[0]
-    if word[1:2].isupper() or word.startswith(_NAMES):
-        return body
-    return body[:1].lower() + body[1:]
+def lower_first(text: str) -> str:
+    """``text`` with its first letter in lower case, to follow a lead-in; unchanged when it opens with a
+    code span, an acronym (RESET, VIF) or a name (Ramsey's RESET, Breusch-Pagan)."""
+    word = text.split(" ", 1)[0]
+    if text.startswith("`") or word[1:2].isupper() or word.startswith(_NAMES):
+        return text
+    return text[:1].lower() + text[1:]
 
 
 def related(loc: Loc, message: str) -> Related:
@@ -335,12 +336,32 @@ def code_name(fit: Fit) -> str:
 
 
 def describe_fit(fit: Fit) -> str:
-    """How a message names a fit: its variable, else its formula, else its estimator."""
+    """How a message names a fit inside a sentence: its variable, else its formula, else its estimator."""
     if fit.result_name:
         return f"`{fit.result_name}`"
     if fit.formula:
         return f"the fit of `{fit.formula}`"
     return f"this {fit.estimator} fit"
+
+
+def opening(fit: Fit) -> str:
+    """How a finding about one fit opens (every fit finding starts so): `` `res` ``, ``The fit of `y ~ x` ``,
+    ``This OLS fit``. Under a header that shows the fit's formula, ``in_header`` shortens it."""
+    text = describe_fit(fit)
+    return text if text.startswith("`") else text[:1].upper() + text[1:]
+
+
+def in_header(message: str, fit: Fit) -> str:
+    """``message`` as listed under a header line that already shows ``fit``'s formula (the text output):
+    the words that name an unnamed fit by its formula become "This fit" / "this fit". Named fits keep
+    their name; ``--format lines``, JSON, SARIF and the language server keep the message whole."""
+    if fit.result_name or not fit.formula:
+        return message
+    long = describe_fit(fit)
+    capital = long[:1].upper() + long[1:]
+    if message.startswith(capital):
+        return "This fit" + message[len(capital) :]
+    return message.replace(long, "this fit", 1)
 
 
 def fit_related(fit: Fit) -> list[Related]:
@@ -368,8 +389,8 @@ def escape_clause(escapes: list[Escape]) -> str:
     names = sorted({e.callee for e in escapes})
     shown = ", ".join(f"`{n}`" for n in names[:3])
     return (
-        f" It is also passed to {shown}, which regvet cannot see into; if that runs the check, "
-        "list it under `diagnostic_helpers` in the regvet config."
+        f" It is also passed to {shown}, which regvet cannot see into: if that runs the check, list it under "
+        "`diagnostic_helpers` in the regvet config."
     )
 
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, related
+from regvet.rules.base import Rule, RuleInput, describe_fit, listed, related
 from regvet.rules.evidence import fingerprint, runs
 
 
@@ -21,12 +21,12 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 seen[fit.result_name or str(fit.id)] = (fit, fingerprint(stats[0]), stats[0].get("nobs"))
         if len({v[1] for v in seen.values()}) < 2:
             continue
-        listed = ", ".join(f"{describe_fit(f)} n = {n}" for f, _, n in seen.values())
+        sizes = listed([f"{describe_fit(f)} on {n}" for f, _, n in seen.values()], limit=4)
         yield RULE.finding(
             comp.loc.span,
-            f"The compared fits were estimated on different observations ({listed}), e.g. because missing "
-            "values were dropped variable by variable. Fit measures from different samples are not comparable; "
-            "fit every model on the same rows (drop missing values once, for all the variables involved).",
+            f"This comparison is between fits estimated on different observations, {sizes} rows, so their fit "
+            "measures do not compare like with like. Fit every model on the same rows: drop missing values once, "
+            "for all the variables involved.",
             [related(f.site, f"{describe_fit(f)} used {n} observations") for f, _, n in seen.values()],
             fits=tuple(f.id for f, _, _ in seen.values()),
         )

@@ -90,10 +90,10 @@ def summary(stats: FitStatistics, level_cv: LevelErrors | None | bool = False) -
 
     ``level_cv``: for a compared fit of a transformed outcome, its CV errors on the level scale (None:
     there are none, so no CV clause; False, the default: the fit's own)."""
-    bits = [f"n={stats.get('nobs')}"]
+    bits = [f"n = {stats.get('nobs')}"]
     bp = stats.get("breusch_pagan")
     if bp is not None and bp.get("lm_pvalue") is not None:
-        bits.append(f"BP {p(bp.get('lm_pvalue'))}")
+        bits.append(f"Breusch-Pagan {p(bp.get('lm_pvalue'))}")
     reset = stats.get("reset")
     robust = reset.get("robust") if reset is not None else None
     if robust is not None and robust.get("pvalue") is not None:
@@ -102,13 +102,13 @@ def summary(stats: FitStatistics, level_cv: LevelErrors | None | bool = False) -
         bits.append(f"RESET {p(reset.get('pvalue'))}")
     bg = stats.get("breusch_godfrey")
     if bg is not None and bg.get("lm_pvalue") is not None:
-        bits.append(f"BG {p(bg.get('lm_pvalue'))}")
+        bits.append(f"Breusch-Godfrey {p(bg.get('lm_pvalue'))}")
     within = stats.get("serial_within_units")
     if within is not None and within.get("pvalue") is not None:
         bits.append(f"serial within units {p(within.get('pvalue'))}")
     ci = stats.get("condition_index")
     if ci is not None and ci.get("value") is not None:
-        bits.append(f"cond. index {num(ci.get('value'))}")
+        bits.append(f"condition index {num(ci.get('value'))}")
     cv = stats.get("cv")
     if level_cv is False:
         if cv is not None and cv.get("rmse") is not None:

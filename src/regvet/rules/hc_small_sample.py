@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit
+from regvet.rules.base import Rule, RuleInput, opening
 from regvet.rules.evidence import runs
 
 SMALL_N = 250  # Long and Ervin (2000)
@@ -19,9 +19,9 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             if cov in ("HC0", "HC1") and n is not None and n < SMALL_N:
                 yield RULE.fit_finding(
                     fit,
-                    f"{describe_fit(fit)} uses {cov} standard errors with n = {n:g}. Below about 250 observations "
-                    "HC0 and HC1 tend to be too small; Long and Ervin (2000) recommend HC3 "
-                    '(`cov_type="HC3"`).',
+                    f"{opening(fit)} uses {cov} standard errors with only n = {n:g}, so they are likely too small: "
+                    "below about 250 observations HC0 and HC1 understate the sampling variance. "
+                    'Use HC3, as Long and Ervin 2000 recommend: `.fit(cov_type="HC3")`.',
                 )
                 break
 

@@ -14,21 +14,26 @@ from regvet.analysis.formula import MAX_TERMS
 from regvet.model.finding import Finding, Severity
 from regvet.model.report import Crash
 from regvet.model.span import Span
-from regvet.rules.base import Rule, RuleInput, describe_fit
+from regvet.rules.base import Rule, RuleInput, opening
 
 _START = Span(1, 0, 1, 0)
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
     for why in inp.stopped:
-        yield RULE.finding(_START, f"regvet stopped analysing this file: {why}, so nothing in it was checked.")
+        budget = ", or raise `analysis_budget`" if "analysis_budget" in why else ""
+        yield RULE.finding(
+            _START,
+            f"This file was not analysed: {why}, so none of its fits were checked. "
+            f"Split it into smaller files{budget}.",
+        )
     for fit in inp.judged_fits():
         if fit.formula_too_large:
             yield RULE.fit_finding(
                 fit,
-                f"The formula of {describe_fit(fit)} expands to more than {MAX_TERMS:,} terms, too many for regvet "
-                "to read: the checks that depend on its terms (their number, interacted groups) were not made. "
-                "Such a model has more columns than most samples have rows; write the terms it needs.",
+                f"{opening(fit)} has a formula that expands to more than {MAX_TERMS:,} terms, too many for regvet "
+                "to read, so the checks that depend on its terms were not made. "
+                "Write out the terms the model needs: this one has more columns than most samples have rows.",
             )
 
 
@@ -40,8 +45,8 @@ def crash_findings(crashes: Iterable[Crash]) -> list[Finding]:
         out.append(
             RULE.finding(
                 _START,
-                f"regvet failed in {where} on this file ({crash.message}); this is a bug in regvet, please report it. "
-                "Findings it would have given are missing.",
+                f"This file's analysis failed in {where}: {crash.message}, so the findings it would have given "
+                "are missing. This is a bug in regvet: please report it.",
             )
         )
     return out

@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, related
+from regvet.rules.base import Rule, RuleInput, code_name, describe_fit, listed, related
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -14,12 +14,13 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             continue
         roots = sorted({inp.facts.root(f) for f in mm.fits})
         fits = [inp.facts.fit(r) for r in roots]
-        names = " and ".join(describe_fit(f) for f in fits[:3])
+        names = listed([describe_fit(f) for f in fits], limit=3)
+        one = code_name(inp.facts.fit(inp.facts.root(mm.fits[0])))
         yield RULE.finding(
             mm.loc.span,
-            f"`{mm.function}` here takes its inputs from different fits ({names}). Residuals of one model "
-            "tested against the regressors of another say nothing about either model, and neither counts as "
-            "checked; pass the residuals and the design of the same fit (e.g. `res.resid, res.model.exog`).",
+            f"This `{mm.function}` call takes its inputs from different fits, {names}, so it tests neither model "
+            f"and neither counts as checked. Pass the residuals and the design of one fit, such as "
+            f"`{one}.resid, {one}.model.exog`.",
             [related(f.site, f"{describe_fit(f)} is fitted here") for f in fits[:4]],
             fits=tuple(f.id for f in fits),
         )

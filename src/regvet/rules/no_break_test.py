@@ -8,7 +8,7 @@ from functools import lru_cache
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, missing_check, once_per_root
+from regvet.rules.base import Rule, RuleInput, code_name, missing_check, once_per_root, opening
 
 _IDENT = re.compile(r"[A-Za-z_]\w*")
 _QUERY_WORDS = frozenset({"and", "or", "not", "in", "True", "False", "None", "is"})
@@ -120,30 +120,33 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     if not shift and not named:
         return None
     plain = sorted(g for g in shift if not seasonal(g))
+    name = code_name(fit)
     if plain:
         g = plain[0]
         why = (
-            f"its formula lets `C({g})` shift only the intercept, so every slope is assumed equal across "
-            f"the groups of `{g}`"
+            f"lets `C({g})` shift only the intercept, with no structural-break test, so its slopes are assumed "
+            f"equal across the groups of `{g}`"
         )
-        what = "Test whether the slopes differ"
+        what = "Test whether they differ"
     elif shift:
         g = sorted(shift)[0]
         why = (
-            f"its seasonal dummies `C({g})` shift only the intercept, so every slope is assumed the same in "
-            f"every {g.rsplit('.', 1)[-1]}"
+            f"lets its seasonal dummies `C({g})` shift only the intercept, with no structural-break test, so its "
+            f"slopes are assumed the same in every {g.rsplit('.', 1)[-1]}"
         )
-        what = "If the slopes may vary with the season, test it"
+        what = "If they may vary, test it"
     else:
-        entry = sorted(named.values())[0]
-        why = f"it uses data with a configured break candidate (`{entry}`) without interacting it with the regressors"
-        what = "Test whether the slopes differ"
+        g, entry = min(named.items(), key=lambda kv: kv[1])
+        why = (
+            f"uses the configured break candidate `{entry}` without interacting it with the regressors and with no "
+            "structural-break test, so its slopes are assumed the same on both sides"
+        )
+        what = "Test whether they differ"
     return missing_check(
         RULE,
         fit,
-        f"{describe_fit(fit)}: {why}, and no structural-break test was applied. {what} (a Chow test, or an "
-        "F test of the interactions with the group, e.g. `anova_lm(restricted, interacted)`), or run "
-        "`breaks_cusumolsresid` on the residuals.",
+        f"{opening(fit)} {why}. {what} with a Chow test, or `anova_lm({name}, interacted)` against a model whose "
+        f"slopes are interacted with `{g}`.",
         uses[:1],
         escapes,
     )

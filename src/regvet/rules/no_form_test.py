@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import QuickFix, Rule, RuleInput, code_name, describe_fit, missing_check, once_per_root
+from regvet.rules.base import QuickFix, Rule, RuleInput, code_name, missing_check, once_per_root, opening
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -23,14 +23,14 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
         return None
     root = inp.facts.fit(inp.facts.root(fit.id))
     target = root if root.site.path is None else fit
-    used = f" (first at {inp.where(uses[0].loc)}, `{uses[0].member}`)" if uses else ""
+    used = f" (`{uses[0].member}`, {inp.where(uses[0].loc)})" if uses else ""
     return missing_check(
         RULE,
         target,
-        f"{describe_fit(target)} has its estimates used{used} but no functional-form test was run on it. "
-        "The coefficients assume the model is linear in these regressors with no missing powers or "
-        f"interactions; run a RESET test (`{inp.call('linear_reset')}({code_name(target)}, power=3, use_f=True)`) "
-        "and revisit the specification if it rejects.",
+        f"{opening(target)} has its estimates used{used} but no functional-form test, so its coefficients "
+        "assume the outcome is linear in these regressors. "
+        f"Run `{inp.call('linear_reset')}({code_name(target)}, power=3, use_f=True)` and revisit the "
+        "specification if RESET rejects.",
         uses,
         escapes,
     )

@@ -7,7 +7,7 @@ from collections.abc import Iterator
 from regvet.analysis.catalog import HAC_COV
 from regvet.model.facts import Fit, Loc
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, code_name, describe_fit, missing_check, related
+from regvet.rules.base import Rule, RuleInput, code_name, missing_check, opening, related
 from regvet.rules.evidence import runs
 
 
@@ -18,7 +18,7 @@ def time_evidence(inp: RuleInput, fit: Fit) -> tuple[str, Loc | None] | None:
         return fit.time_reason, fit.time_where
     column = inp.settings.time_column
     if column and column in fit.columns:
-        return f"the configured `time_column` {column!r} is a column of its data", None
+        return f"the configured `time_column` {column!r} is one of its columns", None
     for stats in runs(inp, fit.id):  # runtime mode: what the run saw of the fit's rows
         shown = stats.get("time_ordered")
         if shown:
@@ -42,10 +42,10 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         found = missing_check(
             RULE,
             fit,
-            f"{describe_fit(fit)} is fitted on time-ordered data ({reason}{place}) and its inference is used, but "
-            "neither a serial-correlation test nor HAC covariance was applied. Its standard errors assume "
-            f"uncorrelated errors; run `{inp.call('acorr_breusch_godfrey')}({code_name(fit)}, nlags=...)` or fit with "
-            '`cov_type="HAC", cov_kwds={"maxlags": ...}`.',
+            f"{opening(fit)} reports inference on time-ordered data, since {reason}{place}, with neither a "
+            "serial-correlation test nor HAC covariance, so its standard errors assume errors uncorrelated over time. "
+            f"Run `{inp.call('acorr_breusch_godfrey')}({code_name(fit)}, nlags=...)` or "
+            'refit with `cov_type="HAC", cov_kwds={"maxlags": ...}`.',
             uses,
             escapes,
         )

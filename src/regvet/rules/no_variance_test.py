@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import QuickFix, Rule, RuleInput, code_name, describe_fit, missing_check
+from regvet.rules.base import QuickFix, Rule, RuleInput, code_name, missing_check, opening
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -23,10 +23,10 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         yield missing_check(
             RULE,
             fit,
-            f"{describe_fit(fit)} reports inference{used} with the default non-robust covariance, and no "
-            "heteroskedasticity test was applied to it. Those standard errors assume constant error "
-            f"variance; test it (`{inp.call('het_breuschpagan')}({name}.resid, {name}.model.exog)`) or fit "
-            'with robust standard errors (`.fit(cov_type="HC3")`).',
+            f"{opening(fit)} reports inference{used} with the default covariance and no heteroskedasticity "
+            "test, so its standard errors assume a constant error variance. "
+            f"Test it with `{inp.call('het_breuschpagan')}({name}.resid, {name}.model.exog)` or refit with "
+            '`.fit(cov_type="HC3")`.',
             uses,
             escapes,
         )

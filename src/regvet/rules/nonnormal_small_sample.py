@@ -5,7 +5,7 @@ from __future__ import annotations
 from collections.abc import Iterator
 
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit
+from regvet.rules.base import Rule, RuleInput, opening
 from regvet.rules.evidence import num, p, runs
 
 SMALL_DF = 30  # common practice; no published threshold
@@ -25,10 +25,10 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 continue
             yield RULE.fit_finding(
                 fit,
-                f"Jarque-Bera = {num(jb.get('statistic'))}, {p(pvalue)} (skewness {num(jb.get('skew'))}, "
-                f"kurtosis {num(jb.get('kurtosis'))}) with only {df:g} residual degrees of freedom: the exact t and "
-                f"F distributions {describe_fit(fit)} reports assume normal errors, and this sample is too small "
-                "for the large-sample approximation to take over. Treat its p-values as rough, or use a bootstrap.",
+                f"{opening(fit)} has non-normal errors, Jarque-Bera = {num(jb.get('statistic'))}, {p(pvalue)}, "
+                f"skewness {num(jb.get('skew'))}, kurtosis {num(jb.get('kurtosis'))}, and only {df:g} residual "
+                "degrees of freedom, so its exact t and F p-values, which assume normal errors, are unreliable. "
+                "Treat them as rough, or use a bootstrap.",
                 uses[:1],
             )
             break

@@ -11,12 +11,15 @@ from regvet.rules.base import Rule, RuleInput
 def check(inp: RuleInput) -> Iterator[Finding]:
     err = inp.source_error
     if err is not None:
-        yield RULE.finding(err.span, f"regvet cannot analyse this file: {err.message}. Nothing else in it was checked.")
+        yield RULE.finding(
+            err.span,
+            f"This file cannot be analysed: {err.message}, so nothing in it was checked. Fix that and check it again.",
+        )
     for cell in inp.broken_cells:
         yield RULE.finding(
             cell.span,
-            f"regvet cannot analyse this notebook cell: {cell.message}. The other cells were checked without "
-            "it, as Jupyter runs each cell on its own; fits that depend on this cell may go unchecked.",
+            f"This notebook cell cannot be analysed: {cell.message}, so fits that depend on it may go unchecked. "
+            "The other cells were checked without it, as Jupyter runs each cell on its own; fix it to have it checked.",
         )
 
 

@@ -23,11 +23,16 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         lines = lines[-4:]
     detail = " | ".join(lines)
     kept = sum(1 for v in inp.runtime.fit_stats.values() for r in v if r.get("stats")) if inp.runtime else 0
+    runs = f"{kept} fit run{'' if kept == 1 else 's'}"
     yield RULE.finding(
         failure.span or Span(1, 0, 1, 0),
-        f"The run of this file stopped: {failure.reason}."
-        + (f" {'Traceback' if traceback else 'Last output'}: {detail}." if detail else "")
-        + f" Statistics of the {kept} fit run(s) completed before that are kept; fits after it were not checked.",
+        f"This file's run stopped: {failure.reason}, so the fits it did not reach were not checked; the "
+        f"statistics of the {runs} completed before that are kept. "
+        + (
+            f"Make it run to the end; its {'traceback' if traceback else 'last output'}: {detail}."
+            if detail
+            else "Make it run to the end."
+        ),
     )
 
 

@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from regvet.analysis.catalog import HAC_COV
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit
+from regvet.rules.base import Rule, RuleInput, opening
 from regvet.rules.evidence import num, p, runs
 
 
@@ -26,11 +26,11 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                     continue  # clustered by unit (or HAC): the covariance allows for it
                 yield RULE.fit_finding(
                     fit,
-                    f"Serial correlation within units: residual on its own unit's previous residual, "
-                    f"rho = {num(within.get('rho'))}, t = {num(within.get('t'))}, {p(within_p)} "
-                    f"({within.get('units')} units from {within.get('units_from')}, cluster-robust): the errors "
-                    f"of {describe_fit(fit)} are correlated over time within units, so its standard errors are "
-                    'not valid. Use standard errors clustered by unit (`cov_type="cluster"`) or model the dynamics.',
+                    f"{opening(fit)} has errors correlated over time within units, rho = {num(within.get('rho'))} on "
+                    f"the unit's previous residual with cluster-robust t = {num(within.get('t'))}, {p(within_p)}, "
+                    f"over {within.get('units')} units from {within.get('units_from')}, so its standard errors, "
+                    "which assume uncorrelated errors, are not valid. "
+                    'Use standard errors clustered by unit, `cov_type="cluster"`, or model the dynamics.',
                     uses[:1],
                 )
                 break
@@ -40,12 +40,13 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 continue
             dw = s.get("durbin_watson")
             dw_text = f", Durbin-Watson {num(dw)}" if dw is not None else ""
+            lags = bg.get("lags")
             yield RULE.fit_finding(
                 fit,
-                f"Breusch-Godfrey LM = {num(bg.get('lm'))} with {bg.get('lags')} lag(s), {p(pvalue)}{dw_text}: "
-                f"the errors of {describe_fit(fit)} ({s.get('time_ordered')}) are correlated over time, so its "
-                "standard errors (robust HC ones too) are not valid. Use HAC covariance "
-                '(`cov_type="HAC", cov_kwds={"maxlags": ...}`) or model the dynamics.',
+                f"{opening(fit)} has errors correlated over time, Breusch-Godfrey LM = {num(bg.get('lm'))} with "
+                f"{lags} lag{'' if lags == 1 else 's'}, {p(pvalue)}{dw_text}, so its standard errors, robust HC "
+                "ones too, are not valid: they assume uncorrelated errors. "
+                'Use HAC covariance, `cov_type="HAC", cov_kwds={"maxlags": ...}`, or model the dynamics.',
                 uses[:1],
             )
             break

@@ -27,16 +27,16 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         guesses = [(name, nearest(name, inp.known_rules)) for name in unknown]
         names = " and ".join(f"`{name}`" for name in unknown)
         if len(unknown) == 1:
-            text = f"This waiver names {names}, which is not a regvet rule, so it waives nothing for that name"
+            text = f"This waiver names {names}, which is not a regvet rule, so it waives nothing for that name."
         else:
-            text = f"This waiver names {names}, which are not regvet rules, so it waives nothing for them"
+            text = f"This waiver names {names}, which are not regvet rules, so it waives nothing for them."
         meant = [(n, g) for n, g in guesses if g]
         if len(unknown) == 1 and meant:
-            text += f"; did you mean `{meant[0][1]}`?"
+            text += f" Did you mean `{meant[0][1]}`?"
         elif meant:
-            text += "; did you mean " + ", ".join(f"`{g}` for `{n}`" for n, g in meant) + "?"
+            text += " Did you mean " + ", ".join(f"`{g}` for `{n}`" for n, g in meant) + "?"
         else:
-            text += "; `regvet rules` lists the rules."
+            text += " `regvet rules` lists the rules."
         fix = None
         if w.reason is not None and not w.malformed and all(g for _, g in guesses):
             # every misspelt name has a near rule: the editor can offer the corrected waiver

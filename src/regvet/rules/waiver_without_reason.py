@@ -24,7 +24,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         elif w.reason is None:
             yield RULE.finding(
                 w.span,
-                "This waiver gives no reason, so it takes no effect. Say why the check does not apply: "
+                "This waiver gives no reason, so it takes no effect. Say why the check does not apply, as in "
                 f"`{directive(w.file_wide, w.rules, 'REASON')}`.",
             )
 
