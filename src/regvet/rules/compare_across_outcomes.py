@@ -34,17 +34,16 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             continue
         listed = ", ".join(f"`{o}`" for o in outcomes[:4])
         bases = {f.outcome.base for f in known}  # type: ignore[union-attr]
-        hint = (
-            " For a log against a level model of the same variable, compare the level R² with the squared "
-            "correlation between the outcome and the log model's exponentiated predictions."
+        todo = (
+            "Compare models of one outcome, or for a log against a level model compare the level R² with the "
+            "squared correlation of the outcome with the log model's exponentiated predictions."
             if len(bases) == 1
-            else ""
+            else "Compare models of one outcome."
         )
         yield RULE.finding(
             comp.loc.span,
-            f"This compares {', '.join(f'`{m}`' for m in measures)} between fits of different dependent "
-            f"variables ({listed}). R², AIC, BIC and the log-likelihood measure fit to one outcome on one "
-            "sample, so across outcomes the comparison means nothing; compare models of the same outcome." + hint,
+            f"This compares {', '.join(f'`{m}`' for m in measures)} between fits of different outcomes, "
+            f"{listed}, but such measures are on each outcome's own scale, so the comparison ranks nothing. " + todo,
             [related(f.site, f"{describe_fit(f)} explains `{f.outcome.key}`") for f in known[:6]],  # type: ignore[union-attr]
             fits=tuple(f.id for f in known),
         )

@@ -30,10 +30,9 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 continue
             yield RULE.finding(
                 comp.loc.span,
-                f"This compares plain R² between fits of `{outcome}` with {_and(sizes)} "
-                "regressors. R² never falls when a regressor is added, so the comparison favours the larger "
-                "model whatever the regressors are worth; compare `rsquared_adj`, AIC or BIC, or test the "
-                "extra terms with an F test (`anova_lm(small, large)`).",
+                f"This compares plain R² between fits of `{outcome}` with {_and(sizes)} regressors, but R² "
+                "never falls when a regressor is added, so it favours the larger model whatever the regressors "
+                "are worth. Compare `rsquared_adj`, AIC or BIC, or test the extra terms with `anova_lm(small, large)`.",
                 [related(f.site, f"{describe_fit(f)} has {f.n_regressors} regressors") for f in fits[:6]],
                 fits=tuple(f.id for f in fits),
             )
