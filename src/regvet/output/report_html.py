@@ -26,7 +26,7 @@ from regvet.audit import (
     FitAudit,
 )
 from regvet.model.finding import Finding
-from regvet.rules.evidence import num
+from regvet.output.report_cells import comparison_cells
 
 #: State -> (CSS class, text colour, background). Dark text on light backgrounds.
 STATE_STYLE = {
@@ -268,26 +268,17 @@ def _fit(audit: Audit, fit: FitAudit, plots: Sequence[object], same: tuple[str, 
                 f"; <strong>{verdict}</strong>{': ' + _inline(comp.problem) if comp.problem else ''}</p>"
             )
             if comp.table:
+                cells = comparison_cells(comp.table)
                 out.append(
                     _table(
                         "Comparable measures",
-                        ["fit", "outcome", "nobs", "R²", "adjusted R²", "AIC", "BIC", "CV RMSE"],
-                        [
-                            [
-                                f"<code>{html.escape(str(r.get('fit')))}</code>",
-                                _inline(f"`{r.get('outcome')}`"),
-                                _n(r.get("nobs")),
-                                _n(r.get("rsquared")),
-                                _n(r.get("rsquared_adj")),
-                                _n(r.get("aic")),
-                                _n(r.get("bic")),
-                                _n(r.get("cv_rmse")),
-                            ]
-                            for r in comp.table
-                        ],
-                        (2, 3, 4, 5, 6, 7),
+                        [html.escape(h) for h in cells.head],
+                        [[_inline(c) for c in row] for row in cells.rows],
+                        cells.numeric,
                     )
                 )
+                if cells.notes:
+                    out.append('<ul class="notes">' + "".join(f"<li>{_inline(n)}</li>" for n in cells.notes) + "</ul>")
     if same is not None:
         out.append(
             f'<h4 id="{fit.anchor}-plots">Residual plots</h4>\n<p>The same residuals as <a href="#{same[0]}">'
@@ -302,12 +293,6 @@ def _fit(audit: Audit, fit: FitAudit, plots: Sequence[object], same: tuple[str, 
         out.append(f'<h4 id="{fit.anchor}-plots">Residual plots</h4>\n<p>Not drawn: {html.escape(why)}.</p>')
     out.append("</article>")
     return "\n".join(out)
-
-
-def _n(value: object) -> str:
-    if value is None:
-        return "—"
-    return str(value) if isinstance(value, int) else num(value)  # type: ignore[arg-type]
 
 
 def _file(

@@ -12,8 +12,8 @@ from collections.abc import Mapping, Sequence
 from regvet import __version__
 from regvet.audit import MISSING, REJECTED, STATES, Audit, FitAudit
 from regvet.model.finding import Finding
+from regvet.output.report_cells import comparison_cells
 from regvet.output.report_html import STATE_MEANING
-from regvet.rules.evidence import num
 
 
 def _cell(text: object) -> str:
@@ -24,12 +24,6 @@ def _table(head: Sequence[str], rows: Sequence[Sequence[object]]) -> list[str]:
     out = ["| " + " | ".join(head) + " |", "|" + "|".join(" --- " for _ in head) + "|"]
     out += ["| " + " | ".join(_cell(c) for c in row) + " |" for row in rows]
     return [*out, ""]
-
-
-def _n(value: object) -> str:
-    if value is None:
-        return "—"
-    return str(value) if isinstance(value, int) else num(value)  # type: ignore[arg-type]
 
 
 def _finding(f: Finding) -> str:
@@ -93,22 +87,9 @@ def _fit(
         out.append("")
         for comp in fit.comparisons:
             if comp.table:
-                out += _table(
-                    ["fit", "outcome", "nobs", "R²", "adjusted R²", "AIC", "BIC", "CV RMSE"],
-                    [
-                        [
-                            f"`{r.get('fit')}`",
-                            f"`{r.get('outcome')}`",
-                            _n(r.get("nobs")),
-                            _n(r.get("rsquared")),
-                            _n(r.get("rsquared_adj")),
-                            _n(r.get("aic")),
-                            _n(r.get("bic")),
-                            _n(r.get("cv_rmse")),
-                        ]
-                        for r in comp.table
-                    ],
-                )
+                cells = comparison_cells(comp.table)
+                out += _table(cells.head, cells.rows)
+                out += [*(f"- {note}" for note in cells.notes), ""] if cells.notes else []
     if same is not None:
         out += [
             "#### Residual plots",

@@ -2,20 +2,16 @@
 
 from __future__ import annotations
 
-import math
 from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
 from regvet.model.stats_schema import FitStatistics
 from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
+from regvet.rules.collinearity import CONDITION, PROPORTION, SCALED_GVIF, VIF, judged_dimension, old_index, worst_term
 from regvet.rules.evidence import num, runs
 
-CONDITION = 30  # Belsley, Kuh and Welsch (1980)
-PROPORTION = 0.5  # Belsley, Kuh and Welsch (1980): a variance-decomposition proportion above one half
-VIF = 10  # common practice
-#: GVIF^(1/(2·df)) is compared with the square root of the VIF threshold (Fox and Monette 1992; common practice).
-SCALED_GVIF = math.sqrt(VIF)
+__all__ = ["CONDITION", "PROPORTION", "RULE", "SCALED_GVIF", "VIF", "check"]
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -26,48 +22,27 @@ def _names(names: list[str]) -> str:
     return ", ".join(f"`{n}`" for n in names)
 
 
-def _terms(s: FitStatistics) -> list[set[str]]:
-    gvif = s.get("gvif")
-    return [set(t.get("columns") or []) for t in (gvif.get("terms") or [])] if gvif is not None else []
-
-
 def _dependence(s: FitStatistics) -> str | None:
     """A condition index above 30 that carries more than half the variance of two or more slopes
     that are not all in one term (a predictor with its own square, the dummies of one factor)."""
-    index = s.get("condition_index")
-    if index is None or index.get("value") is None:
+    ci = old_index(s)
+    if ci is not None:  # a run from before the proportions were recorded: the index alone
+        return f"the scaled condition index is {num(ci)} (above {CONDITION})"
+    dim = judged_dimension(s)
+    if dim is None:
         return None
-    dims = index.get("dimensions")
-    if dims is None:  # a run from before the proportions were recorded: the index alone
-        ci = index.get("value")
-        return (
-            f"the scaled condition index is {num(ci)} (above {CONDITION})"
-            if ci is not None and ci > CONDITION
-            else None
-        )
-    constant = index.get("constant")
-    terms = _terms(s)
-    for dim in dims:
-        value = dim.get("index")
-        if value is None or not value > CONDITION:
-            continue
-        shares = dim.get("proportions") or {}
-        involved = [n for n, p in shares.items() if p is not None and p > PROPORTION and n != constant]
-        if len(involved) < 2 or any(set(involved) <= term for term in terms):
-            continue
-        props = ", ".join(num(shares[n]) for n in involved)
-        return (
-            f"the scaled condition index is {num(value)} (above {CONDITION}) and that near-dependence carries more "
-            f"than half the variance of {_names(involved)} (Belsley-Kuh-Welsch proportions {props})"
-        )
-    return None
+    props = ", ".join(num(dim.proportions[n]) for n in dim.slopes)
+    return (
+        f"the scaled condition index is {num(dim.index)} (above {CONDITION}) and that near-dependence carries more "
+        f"than half the variance of {_names(list(dim.slopes))} (Belsley-Kuh-Welsch proportions {props})"
+    )
 
 
 def _inflation(s: FitStatistics) -> str | None:
     """The term with the largest generalized VIF above the threshold (a plain VIF for one column)."""
     gvif = s.get("gvif")
     if gvif is not None and gvif.get("terms") is not None:
-        worst = max(gvif.get("terms") or [], key=lambda t: t.get("scaled") or 0.0, default=None)
+        worst = worst_term(s)
         if worst is None or not (worst.get("scaled") or 0.0) > SCALED_GVIF:
             return None
         if worst.get("df") == 1:

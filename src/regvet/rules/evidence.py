@@ -165,8 +165,8 @@ def comparison_rows(inp: RuleInput, fids: Iterable[int]) -> list[ComparisonRow]:
 
     A fit whose outcome the run showed to be a transform of a compared level model's outcome gets
     the level-scale R² (``log_level_r2``) and its CV errors retransformed with Duan's smearing, the
-    level model its corr(y, ŷ)² (``level_r2``). A fit of a log outcome (by name) compared with a level
-    model without that pairing shows no CV errors at all: never errors in mixed units."""
+    level model its corr(y, ŷ)² (``level_r2``) and, for WLS, its plain (not whitened) CV errors. A fit of
+    a log outcome (by name) compared with a level model without that pairing shows no CV errors at all: never errors in mixed units."""
     fids = list(dict.fromkeys(fids))
     rows: dict[int, ComparisonRow] = {}
     for fid in fids:
@@ -184,6 +184,9 @@ def comparison_rows(inp: RuleInput, fids: Iterable[int]) -> list[ComparisonRow]:
         if cv is not None and t.get("cv_folds") is not None:
             t["cv_rmse"], t["cv_mae"] = cv["transformed"].get("rmse"), cv["transformed"].get("mae")
             t["cv_scale"] = LEVEL_CV
+            own = cv.get("level")
+            if own is not None:  # a WLS level model: its plain errors, not the whitened ones of its own ``cv``
+                level["cv_rmse"], level["cv_mae"] = own.get("rmse"), own.get("mae")
         else:
             t["cv_rmse"] = t["cv_mae"] = None
     levels = [r for fid, r in rows.items() if r.get("log_level_r2") is None and fid not in paired]
