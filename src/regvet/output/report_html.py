@@ -74,6 +74,7 @@ figure {{ display: inline-block; margin: 0.3rem 0.6rem 0.6rem 0; max-width: 30re
 figure svg {{ max-width: 100%; height: auto; }}
 figcaption {{ color: {MUTED}; background: {BACKGROUND}; font-size: 0.85rem; }}
 ul.findings li {{ margin-bottom: 0.4rem; }}
+ul.notes {{ font-size: 0.88rem; margin-top: -0.4rem; }}
 @media print {{
   body {{ max-width: none; padding: 0; font-size: 10pt; }}
   article, table, figure {{ break-inside: avoid; }}
