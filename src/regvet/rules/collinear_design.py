@@ -8,7 +8,7 @@ from collections.abc import Iterator
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
 from regvet.model.stats_schema import FitStatistics
-from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
+from regvet.rules.base import Rule, RuleInput, once_per_root, opening
 from regvet.rules.evidence import num, runs
 
 CONDITION = 30  # Belsley, Kuh and Welsch (1980)
@@ -41,9 +41,7 @@ def _dependence(s: FitStatistics) -> str | None:
     if dims is None:  # a run from before the proportions were recorded: the index alone
         ci = index.get("value")
         return (
-            f"the scaled condition index is {num(ci)} (above {CONDITION})"
-            if ci is not None and ci > CONDITION
-            else None
+            f"a scaled condition index of {num(ci)}, above {CONDITION}" if ci is not None and ci > CONDITION else None
         )
     constant = index.get("constant")
     terms = _terms(s)
@@ -57,8 +55,8 @@ def _dependence(s: FitStatistics) -> str | None:
             continue
         props = ", ".join(num(shares[n]) for n in involved)
         return (
-            f"the scaled condition index is {num(value)} (above {CONDITION}) and that near-dependence carries more "
-            f"than half the variance of {_names(involved)} (Belsley-Kuh-Welsch proportions {props})"
+            f"a scaled condition index of {num(value)}, above {CONDITION}, carrying more than half the variance "
+            f"of {_names(involved)} with Belsley-Kuh-Welsch proportions {props}"
         )
     return None
 
@@ -71,16 +69,16 @@ def _inflation(s: FitStatistics) -> str | None:
         if worst is None or not (worst.get("scaled") or 0.0) > SCALED_GVIF:
             return None
         if worst.get("df") == 1:
-            return f"`{worst.get('term')}` has a VIF of {num(worst.get('gvif'))} (above {VIF})"
+            return f"a VIF of {num(worst.get('gvif'))} for `{worst.get('term')}`, above {VIF}"
         return (
-            f"the term `{worst.get('term')}` ({worst.get('df')} columns: {_names(worst.get('columns') or [])}) has a "
-            f"generalized VIF of {num(worst.get('gvif'))}, GVIF^(1/(2·df)) = {num(worst.get('scaled'))} (above "
-            f"√{VIF} = {num(SCALED_GVIF)})"
+            f"a generalized VIF of {num(worst.get('gvif'))} for the term `{worst.get('term')}` of {worst.get('df')} "
+            f"columns, {_names(worst.get('columns') or [])}, that is `GVIF^(1/(2·df))` = {num(worst.get('scaled'))}, "
+            f"above √{VIF} = {num(SCALED_GVIF)}"
         )
     vifs = s.get("vif")  # a run from before generalized VIFs were recorded
     vif = vifs.get("max") if vifs is not None else None
     if vifs is not None and vif is not None and vif > VIF:
-        return f"`{vifs.get('variable')}` has a VIF of {num(vif)} (above {VIF})"
+        return f"a VIF of {num(vif)} for `{vifs.get('variable')}`, above {VIF}"
     return None
 
 
@@ -93,9 +91,9 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
             continue
         return RULE.fit_finding(
             fit,
-            f"In {describe_fit(fit)}, " + " and ".join(parts) + ": some regressors are close to linear "
-            "combinations of others, so their separate coefficients are poorly determined (large standard "
-            "errors, signs that flip with small changes in the data). Drop or combine redundant regressors, "
+            f"{opening(fit)} has " + ", and ".join(parts) + ": some regressors are close to linear "
+            "combinations of others, so their separate coefficients are poorly determined, with large standard "
+            "errors and signs that flip with small changes in the data. Drop or combine redundant regressors, "
             "or interpret only the combinations the data can tell apart.",
         )
     return None
