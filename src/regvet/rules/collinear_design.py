@@ -4,12 +4,15 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterator
+from typing import TYPE_CHECKING
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.model.stats_schema import FitStatistics
 from regvet.rules.base import Rule, RuleInput, once_per_root, opening
 from regvet.rules.evidence import num, runs
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import FitStatistics
 
 CONDITION = 30  # Belsley, Kuh and Welsch (1980)
 PROPORTION = 0.5  # Belsley, Kuh and Welsch (1980): a variance-decomposition proportion above one half

@@ -9,23 +9,26 @@ from __future__ import annotations
 
 import math
 from collections.abc import Collection, Iterable
+from typing import TYPE_CHECKING
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding
 from regvet.model.runtime import Pairing
-from regvet.model.stats_schema import (
-    Coefficient,
-    ComparisonRow,
-    ComparisonTable,
-    FindingStats,
-    FitEvidence,
-    FitStatistics,
-    LevelErrors,
-    NestedFTest,
-    ResetTest,
-    RobustReset,
-)
 from regvet.rules.base import RuleInput
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import (
+        Coefficient,
+        ComparisonRow,
+        ComparisonTable,
+        FindingStats,
+        FitEvidence,
+        FitStatistics,
+        LevelErrors,
+        NestedFTest,
+        ResetTest,
+        RobustReset,
+    )
 
 
 def runs(inp: RuleInput, fid: int) -> list[FitStatistics]:

@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 from collections.abc import Iterator
+from typing import TYPE_CHECKING
 
 from regvet.model.finding import Finding, Severity
-from regvet.model.stats_schema import FitStatistics
 from regvet.rules.base import Rule, RuleInput, opening
 from regvet.rules.evidence import changed_coefficients, coefficient_clause, in_runs, num, p, runs
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import FitStatistics
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
