@@ -97,7 +97,7 @@ def test_a_correct_model_with_hc3_covariance_is_not_rejected_by_the_classical_re
 
 def test_a_misspecified_hc3_fit_is_rejected_by_the_robust_reset_and_shows_the_classical_one(findings) -> None:
     [f] = _of(findings, "curved", "form-rejected")
-    assert f.message.startswith("Ramsey's RESET with HC3 covariance, F(2, 296) = ")
+    assert f.message.startswith("`curved` fails Ramsey's RESET with HC3 covariance, F(2, 296) = ")
     assert "; classical F = " in f.message and "Try logs, squares or interactions" in f.message
 
 
@@ -114,20 +114,20 @@ def test_reset_that_is_not_identified_gives_no_finding(findings) -> None:
 def test_both_heteroskedasticity_tests_rejecting_is_an_error(findings) -> None:
     [f] = _of(findings, "both", "heteroskedastic-plain-se")
     assert f.severity is Severity.ERROR
-    assert f.message.startswith("Breusch-Pagan in Koenker's form, LM = ") and "; White's test, LM = " in f.message
-    assert "is not constant" in f.message
+    assert " fails Breusch-Pagan in Koenker's form, LM = " in f.message and ", and White's test, LM = " in f.message
+    assert "its error variance is not constant" in f.message
 
 
 def test_only_white_rejecting_is_a_warning_that_says_so(findings) -> None:
     [f] = _of(findings, "only_white", "heteroskedastic-plain-se")
     assert f.severity is Severity.WARNING
-    assert f.message.startswith("Only White's test rejects, LM = ")
+    assert "may have an error variance that is not constant: only White's test rejects, LM = " in f.message
     assert "; Breusch-Pagan in Koenker's form does not, LM = " in f.message
-    assert "may not be constant" in f.message
+    assert "may have an error variance that is not constant" in f.message
 
 
 def test_only_breusch_pagan_rejecting_is_a_warning_that_says_so(findings) -> None:
     [f] = _of(findings, "only_bp", "heteroskedastic-plain-se")
     assert f.severity is Severity.WARNING
-    assert f.message.startswith("Only Breusch-Pagan in Koenker's form rejects, LM = ")
-    assert "; White's test does not, LM = " in f.message and "may not be constant" in f.message
+    assert "not constant: only Breusch-Pagan in Koenker's form rejects, LM = " in f.message
+    assert "; White's test does not, LM = " in f.message

@@ -24,18 +24,20 @@ missing checks.
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from regvet.analysis.catalog import HAC_COV, ROBUST_COV
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
 from regvet.model.report import FileReport
 from regvet.model.span import Span
-from regvet.model.stats_schema import ComparisonRow, FitStatistics, NestedFTest, PlotPoints
 from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput, rules_for_family
 from regvet.rules import collinearity as C
 from regvet.rules.evidence import comparison_rows, judged_reset, num, p, runs
 from regvet.rules.texts import CAUTION
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import ComparisonRow, FitStatistics, NestedFTest, PlotPoints
 
 PASSED, REJECTED, DONE = "done, passed", "done, rejected", "done"
 MISSING, WAIVED, NOT_APPLICABLE = "missing", "waived", "not applicable"

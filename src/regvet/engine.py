@@ -11,7 +11,6 @@ from __future__ import annotations
 import ast
 import gc
 import time
-import traceback
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import replace
@@ -342,6 +341,8 @@ def _parse_module(text: str, path: str) -> ast.Module | None:
 
 
 def _describe(exc: BaseException) -> str:
+    import traceback
+
     tb = traceback.extract_tb(exc.__traceback__)
     where = f" ({tb[-1].filename.rsplit('/', 1)[-1]}:{tb[-1].lineno})" if tb else ""
     return f"{type(exc).__name__}: {exc}{where}"

@@ -20,20 +20,19 @@ unreadable or foreign entry is a miss. Reports whose analysis crashed are never 
 
 from __future__ import annotations
 
-import hashlib
 import os
-import pickle
 from collections.abc import Hashable
 from pathlib import Path
 from typing import Any, Protocol
 
 from regvet import __version__
 from regvet.analysis.providers import ModuleProvider, ModuleSource
+from regvet.digest import blake2b
 from regvet.model.report import FileReport
 from regvet.model.settings import Settings
 
 #: Bumped when the layout of an entry changes.
-FORMAT = 2
+FORMAT = 3
 #: What a lookup found: the module's key, shown path and text hash, or None (nothing).
 Found = tuple[str, str, str] | None
 #: The lookups one importer made (None: the analysed file): the importer, each lookup's level and
@@ -56,7 +55,7 @@ def build_fingerprint() -> str:
     """regvet's version and the size and modification time of every module of the installed package."""
     global _BUILD
     if _BUILD is None:
-        h = hashlib.sha256(f"{FORMAT}\0{__version__}\0".encode())
+        h = blake2b(f"{FORMAT}\0{__version__}\0".encode(), digest_size=32)
         package = Path(__file__).resolve().parent
         for folder, dirs, names in os.walk(package):
             dirs[:] = sorted(d for d in dirs if d != "__pycache__")
@@ -106,7 +105,7 @@ def _text_hash(text: str) -> str:
     known = _HASHES.get(id(text))
     if known is not None and known[0] is text:
         return known[1]
-    digest = hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest()
+    digest = blake2b(text.encode("utf-8", "surrogatepass"), digest_size=32).hexdigest()
     if len(_HASHES) > 20_000:
         _HASHES.clear()
     _HASHES[id(text)] = (text, digest)
@@ -120,7 +119,7 @@ def _found(source: ModuleSource | None) -> Found:
 def _digest(value: object) -> bytes:
     """A short digest of a string, or of a tuple of strings and numbers (its ``repr`` is stable across processes)."""
     text = value if isinstance(value, str) else repr(value)
-    return hashlib.blake2b(text.encode("utf-8", "surrogatepass"), digest_size=16).digest()
+    return blake2b(text.encode("utf-8", "surrogatepass"), digest_size=16).digest()
 
 
 def grouped(lookups: dict[tuple[str, int, str | None], Found]) -> tuple[Group, ...]:
@@ -216,7 +215,7 @@ class FactCache:
         self.folder = folder if folder is not None else default_folder()
 
     def key(self, data: bytes, shown: str, root: Path, settings: Settings, notebook: bool) -> str:
-        h = hashlib.sha256()
+        h = blake2b(digest_size=32)
         for part in (build_fingerprint(), settings_fingerprint(settings), shown, str(root), str(notebook)):
             h.update(part.encode("utf-8", "surrogateescape"))
             h.update(b"\0")
@@ -229,6 +228,8 @@ class FactCache:
     def get(self, key: str, provider: ModuleProvider, memo: LookupMemo | None = None) -> FileReport | None:
         """The stored report, if there is one and its module lookups still find the same modules
         (with ``memo`` and a :class:`ScopedProvider`, each group of lookups is worked out once per scan)."""
+        import pickle
+
         try:
             with open(self._entry(key), "rb") as fh:
                 stored: Any = pickle.load(fh)
@@ -253,6 +254,8 @@ class FactCache:
     def put(self, key: str, lookups: dict, report: FileReport) -> None:
         """Store ``report`` (atomically: a temporary file renamed into place); crashed analyses, and those
         stopped at their time budget (a slower moment of the machine), are not stored."""
+        import pickle
+
         if report.crashes or report.over_budget:
             return
         import tempfile

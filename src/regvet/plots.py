@@ -14,8 +14,11 @@ from __future__ import annotations
 import io
 import re
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-from regvet.model.stats_schema import PlotPoints
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import PlotPoints
+
 
 POINT = "#1f4e79"  # dark blue on white
 REFERENCE = "#9c2a1f"  # dark red

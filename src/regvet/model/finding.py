@@ -4,10 +4,12 @@ from __future__ import annotations
 
 import enum
 from dataclasses import dataclass, field, replace
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 from regvet.model.span import Span
-from regvet.model.stats_schema import FindingStats
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import FindingStats
 
 
 class Severity(enum.IntEnum):

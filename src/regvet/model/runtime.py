@@ -9,9 +9,12 @@ the probe; ``regvet.model.stats_schema`` describes their keys.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 from regvet.model.span import Span
-from regvet.model.stats_schema import FitRecord, PairRecord
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import FitRecord, PairRecord
 
 
 @dataclass(frozen=True)

@@ -10,9 +10,12 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-from regvet.model.stats_schema import ComparisonRow
 from regvet.rules.evidence import num
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import ComparisonRow
 
 LEVEL_R2 = "level-scale R²"
 LEVEL = "level scale"

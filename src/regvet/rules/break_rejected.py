@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
+from regvet.rules.base import Rule, RuleInput, once_per_root, opening
 from regvet.rules.evidence import num, p, runs
 
 
@@ -25,11 +25,11 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
         c = rejected[0]
         return RULE.fit_finding(
             fit,
-            f"Chow test at `{c.get('candidate')}`, {c.get('groups')} groups, F({c.get('df_num')}, "
-            f"{c.get('df_denom')}) = {num(c.get('f'))}, {p(c.get('pvalue'))}: the coefficients of "
-            f"{describe_fit(fit)} differ across the break, so one pooled set describes neither side. Fit the "
-            "groups separately, or interact the regressors with the group and test the interactions with robust "
-            "standard errors, since the Chow test assumes equal error variances.",
+            f"{opening(fit)} has coefficients that differ across the break at `{c.get('candidate')}` by the Chow test over "
+            f"{c.get('groups')} groups, F({c.get('df_num')}, {c.get('df_denom')}) = {num(c.get('f'))}, "
+            f"{p(c.get('pvalue'))}, so one pooled set describes neither side. Fit the groups separately, or "
+            "interact the regressors with the group and test the interactions with robust standard errors, "
+            "since this test assumes equal error variances.",
         )
     return None
 

@@ -3,13 +3,16 @@
 from __future__ import annotations
 
 from collections.abc import Iterator
+from typing import TYPE_CHECKING
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.model.stats_schema import FitStatistics
-from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
+from regvet.rules.base import Rule, RuleInput, once_per_root, opening
 from regvet.rules.collinearity import CONDITION, PROPORTION, SCALED_GVIF, VIF, judged_dimension, old_index, worst_term
 from regvet.rules.evidence import num, runs
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import FitStatistics
 
 __all__ = ["CONDITION", "PROPORTION", "RULE", "SCALED_GVIF", "VIF", "check"]
 
@@ -27,14 +30,14 @@ def _dependence(s: FitStatistics) -> str | None:
     that are not all in one term (a predictor with its own square, the dummies of one factor)."""
     ci = old_index(s)
     if ci is not None:  # a run from before the proportions were recorded: the index alone
-        return f"the scaled condition index is {num(ci)} (above {CONDITION})"
+        return f"a scaled condition index of {num(ci)}, above {CONDITION}"
     dim = judged_dimension(s)
     if dim is None:
         return None
     props = ", ".join(num(dim.proportions[n]) for n in dim.slopes)
     return (
-        f"the scaled condition index is {num(dim.index)} (above {CONDITION}) and that near-dependence carries more "
-        f"than half the variance of {_names(list(dim.slopes))} (Belsley-Kuh-Welsch proportions {props})"
+        f"a scaled condition index of {num(dim.index)}, above {CONDITION}, carrying more than half the variance "
+        f"of {_names(list(dim.slopes))} with Belsley-Kuh-Welsch proportions {props}"
     )
 
 
@@ -46,16 +49,16 @@ def _inflation(s: FitStatistics) -> str | None:
         if worst is None or not (worst.get("scaled") or 0.0) > SCALED_GVIF:
             return None
         if worst.get("df") == 1:
-            return f"`{worst.get('term')}` has a VIF of {num(worst.get('gvif'))} (above {VIF})"
+            return f"a VIF of {num(worst.get('gvif'))} for `{worst.get('term')}`, above {VIF}"
         return (
-            f"the term `{worst.get('term')}` ({worst.get('df')} columns: {_names(worst.get('columns') or [])}) has a "
-            f"generalized VIF of {num(worst.get('gvif'))}, GVIF^(1/(2·df)) = {num(worst.get('scaled'))} (above "
-            f"√{VIF} = {num(SCALED_GVIF)})"
+            f"a generalized VIF of {num(worst.get('gvif'))} for the term `{worst.get('term')}` of {worst.get('df')} "
+            f"columns, {_names(worst.get('columns') or [])}, that is `GVIF^(1/(2·df))` = {num(worst.get('scaled'))}, "
+            f"above √{VIF} = {num(SCALED_GVIF)}"
         )
     vifs = s.get("vif")  # a run from before generalized VIFs were recorded
     vif = vifs.get("max") if vifs is not None else None
     if vifs is not None and vif is not None and vif > VIF:
-        return f"`{vifs.get('variable')}` has a VIF of {num(vif)} (above {VIF})"
+        return f"a VIF of {num(vif)} for `{vifs.get('variable')}`, above {VIF}"
     return None
 
 
@@ -68,9 +71,9 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
             continue
         return RULE.fit_finding(
             fit,
-            f"In {describe_fit(fit)}, " + " and ".join(parts) + ": some regressors are close to linear "
-            "combinations of others, so their separate coefficients are poorly determined (large standard "
-            "errors, signs that flip with small changes in the data). Drop or combine redundant regressors, "
+            f"{opening(fit)} has " + ", and ".join(parts) + ": some regressors are close to linear "
+            "combinations of others, so their separate coefficients are poorly determined, with large standard "
+            "errors and signs that flip with small changes in the data. Drop or combine redundant regressors, "
             "or interpret only the combinations the data can tell apart.",
         )
     return None

@@ -10,8 +10,10 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-from regvet.model.stats_schema import Dimension, FitStatistics, GvifTerm
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import Dimension, FitStatistics, GvifTerm
 
 CONDITION = 30  # Belsley, Kuh and Welsch (1980)
 PROPORTION = 0.5  # Belsley, Kuh and Welsch (1980): a variance-decomposition proportion above one half

@@ -9,23 +9,26 @@ from __future__ import annotations
 
 import math
 from collections.abc import Collection, Iterable
+from typing import TYPE_CHECKING
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding
 from regvet.model.runtime import Pairing
-from regvet.model.stats_schema import (
-    Coefficient,
-    ComparisonRow,
-    ComparisonTable,
-    FindingStats,
-    FitEvidence,
-    FitStatistics,
-    LevelErrors,
-    NestedFTest,
-    ResetTest,
-    RobustReset,
-)
 from regvet.rules.base import RuleInput
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import (
+        Coefficient,
+        ComparisonRow,
+        ComparisonTable,
+        FindingStats,
+        FitEvidence,
+        FitStatistics,
+        LevelErrors,
+        NestedFTest,
+        ResetTest,
+        RobustReset,
+    )
 
 
 def runs(inp: RuleInput, fid: int) -> list[FitStatistics]:
@@ -166,7 +169,8 @@ def comparison_rows(inp: RuleInput, fids: Iterable[int]) -> list[ComparisonRow]:
     A fit whose outcome the run showed to be a transform of a compared level model's outcome gets
     the level-scale R² (``log_level_r2``) and its CV errors retransformed with Duan's smearing, the
     level model its corr(y, ŷ)² (``level_r2``) and, for WLS, its plain (not whitened) CV errors. A fit of
-    a log outcome (by name) compared with a level model without that pairing shows no CV errors at all: never errors in mixed units."""
+    a log outcome (by name) compared with a level model without that pairing shows no CV errors at
+    all: never errors in mixed units."""
     fids = list(dict.fromkeys(fids))
     rows: dict[int, ComparisonRow] = {}
     for fid in fids:

@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
+from regvet.rules.base import Rule, RuleInput, once_per_root, opening
 from regvet.rules.evidence import in_runs, judged_reset, num, p, runs
 
 
@@ -37,14 +37,14 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     if reset is not None and reset.get("dummies_only"):
         return RULE.fit_finding(
             fit,
-            f"{test}{runs_note}: the regressors of {describe_fit(fit)} are all dummies, so what RESET finds is "
+            f"{opening(fit)} fails {test}{runs_note}: its regressors are all dummies, so what the test finds is "
             "categories whose effects are not additive, and the main effects alone misdescribe the cells. "
             "Add the interactions of the categories the theory suggests, and test again.",
             uses[:1],
         )
     return RULE.fit_finding(
         fit,
-        f"{test}{runs_note}: powers of the fitted values of {describe_fit(fit)} still explain the outcome, so the "
+        f"{opening(fit)} fails {test}{runs_note}: powers of its fitted values still explain the outcome, so the "
         "linear form is wrong and every coefficient is suspect. Try logs, squares or interactions the theory "
         "suggests, and test again.",
         uses[:1],

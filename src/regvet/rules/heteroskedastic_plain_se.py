@@ -3,11 +3,14 @@
 from __future__ import annotations
 
 from collections.abc import Iterator
+from typing import TYPE_CHECKING
 
 from regvet.model.finding import Finding, Severity
-from regvet.model.stats_schema import FitStatistics
-from regvet.rules.base import Rule, RuleInput, describe_fit
+from regvet.rules.base import Rule, RuleInput, opening
 from regvet.rules.evidence import changed_coefficients, coefficient_clause, in_runs, num, p, runs
+
+if TYPE_CHECKING:
+    from regvet.model.stats_schema import FitStatistics
 
 
 def check(inp: RuleInput) -> Iterator[Finding]:
@@ -27,9 +30,9 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         where = in_runs(len(judged), len(stats))
         if both:
             message = (
-                f"{text}{where}: the error variance of {describe_fit(fit)} is not constant, so its usual t tests "
-                f"(`{uses[0].member}`) are not valid; {coefficient_clause(s)}. "
-                'Report robust standard errors (`.fit(cov_type="HC3")`).'
+                f"{opening(fit)} fails {text}{where}, so its error variance is not constant and its usual t "
+                f"tests in `{uses[0].member}` are not valid; {coefficient_clause(s)}. "
+                'Report robust standard errors: `.fit(cov_type="HC3")`.'
             )
         else:
             changes = (
@@ -38,9 +41,9 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 else "no coefficient changes significance at 5 % under robust standard errors"
             )
             message = (
-                f"{text}{where}: the error variance of {describe_fit(fit)} may not be constant, so its usual t "
-                f"tests (`{uses[0].member}`) may not be valid; {changes}. "
-                'Report robust standard errors (`.fit(cov_type="HC3")`): they are valid whether it is or not.'
+                f"{opening(fit)} may have an error variance that is not constant: {text}{where}, so its usual "
+                f"t tests in `{uses[0].member}` may not be valid; {changes}. "
+                'Report robust standard errors, `.fit(cov_type="HC3")`: they are valid whether it is or not.'
             )
         finding = RULE.fit_finding(fit, message, uses)
         yield finding if both else finding.with_(severity=Severity.WARNING)
@@ -63,14 +66,14 @@ def _verdict(s: FitStatistics, alpha: float) -> tuple[str, bool] | None:
     bp_stat = f"LM = {num(bp.get('lm') if bp else None)}, {p(bp_p)}"
     white_stat = f"LM = {num(white.get('lm') if white else None)}, {p(white_p)}"
     if bp_rejects and white_rejects:
-        return f"{bp_name}, {bp_stat}; {white_name}, {white_stat}", True
+        return f"{bp_name}, {bp_stat}, and {white_name}, {white_stat}", True
     if bp_rejects and white_p is None:
         return f"{bp_name}, {bp_stat}", True
     if bp_rejects:
-        return f"Only {bp_name} rejects, {bp_stat}; {white_name} does not, {white_stat}", False
+        return f"only {bp_name} rejects, {bp_stat}; {white_name} does not, {white_stat}", False
     if bp_p is None:
-        return f"Only {white_name} rejects, {white_stat}; {bp_name} could not be computed", False
-    return f"Only {white_name} rejects, {white_stat}; {bp_name} does not, {bp_stat}", False
+        return f"only {white_name} rejects, {white_stat}; {bp_name} could not be computed", False
+    return f"only {white_name} rejects, {white_stat}; {bp_name} does not, {bp_stat}", False
 
 
 RULE = Rule(

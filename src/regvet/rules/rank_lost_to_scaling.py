@@ -6,7 +6,7 @@ from collections.abc import Iterator
 
 from regvet.model.facts import Fit
 from regvet.model.finding import Finding, Severity
-from regvet.rules.base import Rule, RuleInput, describe_fit, once_per_root
+from regvet.rules.base import Rule, RuleInput, once_per_root, opening
 from regvet.rules.evidence import num, runs
 
 
@@ -22,13 +22,12 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
         k = s.get("k")
         return RULE.fit_finding(
             fit,
-            f"statsmodels fitted {describe_fit(fit)} with rank {refit.get('statsmodels_rank')} of {k} columns, "
-            f"but the design with its columns centred and scaled has rank {refit.get('rank')} (condition number "
-            f"{num(refit.get('condition'))}): the raw columns are on such different scales that statsmodels "
-            "took a real direction for rounding noise and dropped it, so the fit's coefficients, standard errors "
-            "and residuals are not those of least squares. Rescale or centre the regressors (e.g. `year - 2000` "
-            "instead of `year` in a polynomial, or the same units for every column). The runtime statistics "
-            "shown come from a correct fit in the scaled basis.",
+            f"{opening(fit)} has rank {refit.get('statsmodels_rank')} of {k} columns in statsmodels but rank "
+            f"{refit.get('rank')} once its columns are centred and scaled, condition number "
+            f"{num(refit.get('condition'))}: statsmodels dropped a real direction as rounding noise, so the "
+            "coefficients, standard errors and residuals are not those of least squares. Centre or rescale the "
+            "regressors, such as `year - 2000` for `year` in a polynomial; the statistics shown come from a correct fit in "
+            "the scaled basis.",
         )
     return None
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import difflib
 from collections.abc import Collection, Iterator
 
 from regvet.model.finding import Finding, Severity
@@ -12,6 +11,8 @@ from regvet.sources.waivers import directive
 
 def nearest(name: str, known: Collection[str]) -> str | None:
     """The known rule id closest to ``name`` (any letter case, ``_`` for ``-``), or None when none is close."""
+    import difflib
+
     plain = name.strip(":;.`'\"").lower().replace("_", "-")
     if plain in known:
         return plain

@@ -11,7 +11,6 @@ starts inside a statement (where a ``!`` or ``%`` is not a magic).
 from __future__ import annotations
 
 import ast
-import json
 import re
 from dataclasses import dataclass
 
@@ -120,6 +119,8 @@ def _position(text: str, pos: int) -> Span:
 
 def read_notebook(text: str) -> NotebookSource | SourceError:
     """Parse notebook JSON (v4, or v3 worksheets) tolerantly into one Python module."""
+    import json
+
     try:
         nb = json.loads(text)
     except json.JSONDecodeError as exc:
