@@ -41,6 +41,7 @@ from statsmodels.stats.outliers_influence import variance_inflation_factor
 
 from regvet import audit
 from regvet.output.report_cells import comparison_cells
+from test_report import check_html
 
 HEAD = """\
 import numpy as np
@@ -372,7 +373,8 @@ def test_log_and_level_models_get_the_level_scale_r2_and_level_scale_cv(reported
     assert len(notes) == 3
     assert notes[0].startswith("The fits have different outcomes (`log_riders`, `riders`)")
     assert "not comparable" in notes[0]
-    assert notes[1].startswith("level-scale R²: corr(y, ŷ)² with y and ŷ on the scale of `riders`")
+    assert notes[1].startswith("The level-scale R² is corr(y, ŷ)² with y and ŷ on the scale of `riders`")
+    assert notes[2].startswith("CV RMSE marked “level scale” are k-fold prediction errors on the scale of `riders`")
     assert "Duan's smearing" in notes[2]
 
 
@@ -411,6 +413,7 @@ def test_a_wls_level_model_shows_its_plain_cv_errors_on_the_level_scale(reported
 
 
 def test_the_html_comparison_table_has_the_same_cells_and_notes(reported) -> None:
+    check_html(reported["html"])  # strict HTML5 parse, headings, captions, contrast (tests/test_report.py)
     doc = html5lib.parse(reported["html"], namespaceHTMLElements=False)
     md_head, md_rows, md_notes = comparison_table(reported["md"], "logged", ["logged", "level"])
     article = next(a for a in doc.iter("article") if "".join(a.find("h3").itertext()).startswith("logged:"))

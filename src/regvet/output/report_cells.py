@@ -12,7 +12,7 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from regvet.rules.evidence import num
+from regvet.rules.evidence import LEVEL_CV, num
 
 if TYPE_CHECKING:
     from regvet.model.stats_schema import ComparisonRow
@@ -92,18 +92,18 @@ def comparison_cells(table: Sequence[ComparisonRow]) -> ComparisonCells:
             f"The fits have different outcomes ({names}): R², adjusted R², AIC and BIC are each on the fit's "
             f"own outcome and are not comparable across these rows{also}."
         )
+    on = f"`{level_outcome}`" if level_outcome is not None else "the untransformed outcome"
     if level_column:
-        on = f"`{level_outcome}`" if level_outcome is not None else "the untransformed outcome"
         notes.append(
-            f"{LEVEL_R2}: corr(y, ŷ)² with y and ŷ on the scale of {on}, the fitted values of a transformed "
-            "outcome transformed back; the one R² comparable across a transformed and a level fit."
+            f"The {LEVEL_R2} is corr(y, ŷ)² with y and ŷ on the scale of {on}, a transformed outcome's fitted "
+            "values transformed back: the one R² comparable across a transformed and a level fit."
         )
-    if any("cv_scale" in r and r.get("cv_rmse") is not None for r in table):
-        scale = next(r.get("cv_scale") for r in table if "cv_scale" in r)
-        on = f"`{level_outcome}`" if level_outcome is not None else "the untransformed outcome"
+    scales = [r.get("cv_scale") for r in table if "cv_scale" in r and r.get("cv_rmse") is not None]
+    if scales:
+        how = "retransformed with Duan's smearing" if scales[0] == LEVEL_CV else f"on the {scales[0]}"
         notes.append(
-            f"CV RMSE marked “{LEVEL}”: k-fold prediction errors on the scale of {on}, the level model's own "
-            f"and the transformed fit's on the {scale}: comparable with each other."
+            f"CV RMSE marked “{LEVEL}” are k-fold prediction errors on the scale of {on}: the level model's own, "
+            f"and the transformed fit's {how}; they are comparable with each other."
         )
     numeric = tuple(range(2, len(head)))
     return ComparisonCells(tuple(head), tuple(rows), numeric, tuple(notes))
