@@ -41,6 +41,7 @@ from statsmodels.stats.outliers_influence import variance_inflation_factor
 
 from regvet import audit
 from regvet.output.report_cells import comparison_cells
+from regvet.rules.collinearity import collinearity_cell
 from test_report import check_html
 
 HEAD = """\
@@ -169,7 +170,7 @@ def cells(line: str) -> list[str]:
     return [c.strip() for c in line.strip().strip("|").split(" | ")]
 
 
-def collinearity_cell(md: str, name: str) -> str:
+def collinearity_row(md: str, name: str) -> str:
     row = next(line for line in fit_section(md, name).splitlines() if line.startswith("| collinearity |"))
     return cells(row)[3]  # check, state, done by, statistic, form, p-value
 
@@ -224,11 +225,11 @@ def bkw(res: Any) -> tuple[np.ndarray, np.ndarray]:
 
 def test_collinear_pair_shows_the_largest_vif_and_the_index_that_carries_both_slopes(reported) -> None:
     res = reported["ns"]["busy"]
-    cell = collinearity_cell(reported["md"], "busy")
+    cell = collinearity_row(reported["md"], "busy")
     names, exog = slopes(res)
-    m = re.match(r"largest VIF (\S+) \(`([^`]+)`; threshold 10\); ", cell)
+    m = re.match(r"worst term `([^`]+)`: VIF (\S+) \(threshold 10\); ", cell)
     assert m is not None, cell
-    value, term = float(m.group(1)), m.group(2)
+    value, term = float(m.group(2)), m.group(1)
     # reference: statsmodels' variance_inflation_factor on the fit's own design (the constant included)
     reference = {n: variance_inflation_factor(res.model.exog, res.model.exog_names.index(n)) for n in names}
     assert value == pytest.approx(reference[term], rel=REL)
@@ -259,7 +260,7 @@ def test_collinear_pair_shows_the_largest_vif_and_the_index_that_carries_both_sl
 
 def test_a_square_beside_its_variable_shows_the_index_inside_one_term(reported) -> None:
     res = reported["ns"]["square"]
-    cell = collinearity_cell(reported["md"], "square")
+    cell = collinearity_row(reported["md"], "square")
     index, props = bkw(res)  # reference: numpy SVD of the unit-length design
     top = int(np.argmax(index))
     assert index[top] > 30
@@ -278,13 +279,13 @@ def test_a_square_beside_its_variable_shows_the_index_inside_one_term(reported) 
 
 def test_a_two_column_term_shows_its_generalized_vif_and_scaled_value(reported) -> None:
     res = reported["ns"]["docking"]
-    cell = collinearity_cell(reported["md"], "docking")
+    cell = collinearity_row(reported["md"], "docking")
     names, exog = slopes(res)
     pilot = [i for i, n in enumerate(names) if n.startswith("C(pilot)")]
     gvif = fox_monette(exog, pilot)  # reference: Fox and Monette (1992), determinants
     m = re.match(
-        r"largest generalized VIF: term `pilot` \(2 columns: `C\(pilot\)\[T\.bo\]`, `C\(pilot\)\[T\.cy\]`\), "
-        r"GVIF (\S+), GVIF\^\(1/\(2·df\)\) = (\S+) \(threshold √10 = 3\.162\); ",
+        r"worst term `pilot` \(2 columns: `C\(pilot\)\[T\.bo\]`, `C\(pilot\)\[T\.cy\]`\): "
+        r"generalized VIF (\S+), GVIF\^\(1/\(2·df\)\) = (\S+) \(threshold √10 = 3\.162\); ",
         cell,
     )
     assert m is not None, cell
@@ -316,7 +317,7 @@ def test_runs_without_generalized_vifs_or_proportions_fall_back_to_the_plain_num
         stats = fit_statistics(res, {})
     stats["gvif"] = None
     del stats["condition_index"]["dimensions"]
-    statistic, form, _ = audit._collinearity(stats)
+    statistic, form, _ = collinearity_cell(stats)
     assert statistic is not None
     m = re.fullmatch(r"largest VIF (\S+) \(`(\w+)`\); condition index (\S+)", statistic)
     assert m is not None, statistic

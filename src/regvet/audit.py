@@ -32,7 +32,7 @@ from regvet.model.finding import Finding, Severity
 from regvet.model.report import FileReport
 from regvet.model.span import Span
 from regvet.rules import ALL_RULES, RULES_BY_ID, RuleInput, rules_for_family
-from regvet.rules import collinearity as C
+from regvet.rules.collinearity import collinearity_cell
 from regvet.rules.evidence import comparison_rows, judged_reset, num, p, runs
 from regvet.rules.texts import CAUTION
 
@@ -249,73 +249,8 @@ def _statistic(family: str, stats: FitStatistics | None) -> tuple[str | None, st
         more = f" (smallest p of {len(tests)} candidates)" if len(tests) > 1 else ""
         return text, "Chow test" + more, p(worst.get("pvalue"))
     if family == "collinearity":
-        return _collinearity(stats)
+        return collinearity_cell(stats)
     return None, None, None
-
-
-#: The short forms of the collinearity row (the probe records the long ones; ``regvet explain collinear-design``).
-GVIF_FORM = "generalized VIF per term (Fox-Monette), scaled GVIF^(1/(2·df)); a plain VIF for a one-column term"
-CONDITION_FORM = (
-    "condition indexes of the design with unit-length columns, the constant included, and variance-decomposition "
-    "proportions (Belsley-Kuh-Welsch)"
-)
-
-
-def _names(names: tuple[str, ...] | list[str]) -> str:
-    return ", ".join(f"`{n}`" for n in names)
-
-
-def _carried(s: FitStatistics, dim: C.Carried) -> str:
-    """Which coefficients' variance (BKW proportion > 0.5) a condition index carries, in words."""
-    props = ", ".join(num(dim.proportions[n]) for n in dim.slopes)
-    if dim.dependence:
-        return f"carries more than half the variance of {_names(dim.slopes)} (Belsley-Kuh-Welsch proportions {props})"
-    if dim.term is not None:
-        return f"its variance sits inside the term `{dim.term}` ({_names(dim.slopes)}: proportions {props})"
-    constant = C.constant(s)
-    if dim.on_constant and constant is not None:
-        also = f" and {_names(dim.slopes)} {props}" if dim.slopes else ""
-        return f"its variance sits on the intercept (proportions `{constant}` {num(dim.proportions[constant])}{also})"
-    if dim.slopes:
-        return f"carries more than half the variance of {_names(dim.slopes)} alone (proportion {props})"
-    return "no coefficient has more than half its variance on it"
-
-
-def _collinearity(s: FitStatistics) -> tuple[str | None, str | None, str | None]:
-    """The collinearity cell as ``collinear-design`` judges it: the worst term's (generalized) VIF and
-    the largest condition index with the coefficients whose variance it carries. Runs from before
-    generalized VIFs or BKW proportions were recorded show the largest plain VIF, the index alone."""
-    bits: list[str] = []
-    forms: list[str | None] = []
-    worst = C.worst_term(s)
-    vif = s.get("vif")
-    if worst is not None:
-        if worst.get("df") == 1:
-            bits.append(f"largest VIF {num(worst.get('gvif'))} (`{worst.get('term')}`; threshold {C.VIF})")
-        else:
-            bits.append(
-                f"largest generalized VIF: term `{worst.get('term')}` ({worst.get('df')} columns: "
-                f"{_names(worst.get('columns') or [])}), GVIF {num(worst.get('gvif'))}, GVIF^(1/(2·df)) = "
-                f"{num(worst.get('scaled'))} (threshold √{C.VIF} = {num(C.SCALED_GVIF)})"
-            )
-        forms.append(GVIF_FORM)
-    elif vif is not None and vif.get("max") is not None:
-        bits.append(f"largest VIF {num(vif.get('max'))} (`{vif.get('variable')}`)")
-    ci = s.get("condition_index")
-    if ci is not None and ci.get("value") is not None:
-        dims = ci.get("dimensions")
-        text = f"condition index {num(ci.get('value'))}"
-        if dims:  # the largest first
-            text += ": " + _carried(s, C.carried(s, dims[0]))
-            judged = C.judged_dimension(s)
-            if judged is not None and judged.index != dims[0].get("index"):
-                text += f"; condition index {num(judged.index)}: " + _carried(s, judged)
-        elif dims is not None:
-            text += " (no dimension of 10 or more)"
-        bits.append(text)
-        forms.append(CONDITION_FORM if dims is not None else ci.get("form"))
-    form = "; ".join(f for f in forms if f) or None
-    return ("; ".join(bits) or None), form, None
 
 
 def _or_one(pvalue: float | None) -> float:
