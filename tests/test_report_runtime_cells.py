@@ -241,7 +241,7 @@ def test_collinear_pair_shows_the_largest_vif_and_the_index_that_carries_both_sl
     const = res.model.exog_names.index("Intercept")
     built = res.model.exog_names.index("built")
     assert props[const, first] > 0.5 and props[built, first] > 0.5  # the largest index is the intercept's
-    assert f"condition index {index[first]:#.4g}: its variance sits on the intercept" in cell
+    assert f"condition index {index[first]:#.4g} (threshold 30): its variance sits on the intercept" in cell
     m = re.search(
         r"; condition index (\S+): carries more than half the variance of `(\w+)`, `(\w+)` "
         r"\(Belsley-Kuh-Welsch proportions (\S+), (\S+)\)",
@@ -265,7 +265,7 @@ def test_a_square_beside_its_variable_shows_the_index_inside_one_term(reported) 
     top = int(np.argmax(index))
     assert index[top] > 30
     m = re.search(
-        r"condition index (\S+): its variance sits inside the term `cranes` \(`cranes`, `I\(cranes \*\* 2\)`: "
+        r"condition index (\S+) \(threshold 30\): its variance sits inside the term `cranes` \(`cranes`, `I\(cranes \*\* 2\)`: "
         r"proportions (\S+), (\S+)\)",
         cell,
     )
@@ -298,7 +298,10 @@ def test_a_two_column_term_shows_its_generalized_vif_and_scaled_value(reported) 
         assert variance_inflation_factor(res.model.exog, res.model.exog_names.index(one)) ** 0.5 < gvif ** (1 / 4)
     index, props = bkw(res)
     top = int(np.argmax(index))
-    m = re.search(r"condition index (\S+): its variance sits on the intercept \(proportions `Intercept` (\S+)", cell)
+    m = re.search(
+        r"condition index (\S+) \(threshold 30\): its variance sits on the intercept \(proportions `Intercept` (\S+)",
+        cell,
+    )
     assert m is not None, cell
     assert float(m.group(1)) == pytest.approx(index[top], rel=REL)
     assert float(m.group(2)) == pytest.approx(props[res.model.exog_names.index("Intercept"), top], rel=REL)
@@ -449,3 +452,33 @@ def test_comparison_cells_mark_cv_errors_on_each_outcomes_scale_when_unpaired() 
     assert "level-scale R²" not in out.head
     assert [r[-1] for r in out.rows] == ["3.000 (scale of `riders`)", "0.3000 (scale of `fares`)"]
     assert len(out.notes) == 1 and "neither are the CV RMSE" in out.notes[0]
+
+
+def test_a_term_of_many_columns_lists_six_of_them_and_counts_the_rest() -> None:
+    """Two nearly aligned nine-level factors (a depot and its usual van): the probe's real statistics."""
+    import pandas as pd
+    import statsmodels.formula.api as smf
+
+    sys.path.insert(0, str(Path(audit.__file__).parent / "runtime" / "probe"))
+    from regvet_stats import fit_statistics
+
+    rng = np.random.default_rng(3)
+    n = 900
+    depot = rng.integers(0, 9, n)
+    van = np.where(rng.uniform(size=n) < 0.9, depot, rng.integers(0, 9, n))
+    frame = pd.DataFrame({"depot": depot, "van": van, "minutes": rng.normal(40, 5, n)})
+    res = smf.ols("minutes ~ C(depot) + C(van)", data=frame).fit()
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        stats = fit_statistics(res, {})
+    statistic, _, _ = collinearity_cell(stats)
+    assert statistic is not None
+    m = re.match(
+        r"worst term `(\w+)` \(8 columns: ((?:`[^`]+`, ){5}`[^`]+`) and 2 more\): generalized VIF ([^,\s]+),", statistic
+    )
+    assert m is not None, statistic
+    names, exog = slopes(res)
+    cols = [i for i, c in enumerate(names) if c.startswith(f"C({m.group(1)})")]
+    assert len(cols) == 8
+    assert m.group(2).split(", ")[0] == f"`{names[cols[0]]}`"
+    assert float(m.group(3)) == pytest.approx(fox_monette(exog, cols), rel=REL)  # Fox and Monette (1992)

@@ -105,8 +105,10 @@ CONDITION_FORM = (
 )
 
 
-def _names(names: tuple[str, ...] | list[str]) -> str:
-    return ", ".join(f"`{n}`" for n in names)
+def _names(names: tuple[str, ...] | list[str], limit: int | None = None) -> str:
+    shown = names if limit is None or len(names) <= limit else names[:limit]
+    more = f" and {len(names) - len(shown)} more" if len(shown) < len(names) else ""
+    return ", ".join(f"`{n}`" for n in shown) + more
 
 
 def _carried(s: FitStatistics, dim: Carried) -> str:
@@ -139,7 +141,7 @@ def collinearity_cell(s: FitStatistics) -> tuple[str | None, str | None, str | N
             bits.append(f"worst term `{worst.get('term')}`: VIF {num(worst.get('gvif'))} (threshold {VIF})")
         else:
             bits.append(
-                f"worst term `{worst.get('term')}` ({worst.get('df')} columns: {_names(worst.get('columns') or [])}): "
+                f"worst term `{worst.get('term')}` ({worst.get('df')} columns: {_names(worst.get('columns') or [], 6)}): "
                 f"generalized VIF {num(worst.get('gvif'))}, GVIF^(1/(2·df)) = {num(worst.get('scaled'))} "
                 f"(threshold √{VIF} = {num(SCALED_GVIF)})"
             )
@@ -151,7 +153,7 @@ def collinearity_cell(s: FitStatistics) -> tuple[str | None, str | None, str | N
         dims = ci.get("dimensions")
         text = f"condition index {num(ci.get('value'))}"
         if dims:  # the largest first
-            text += ": " + _carried(s, carried(s, dims[0]))
+            text += f" (threshold {CONDITION}): " + _carried(s, carried(s, dims[0]))
             judged = judged_dimension(s)
             if judged is not None and judged.index != dims[0].get("index"):
                 text += f"; condition index {num(judged.index)}: " + _carried(s, judged)
