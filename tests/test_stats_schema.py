@@ -246,11 +246,9 @@ def test_plot_points_are_downsampled_and_in_time_order(records):
     assert failed["points"] is None and "zero" in failed["points_error"]
 
 
-@pytest.mark.xfail(
-    strict=True,
-    reason="probe: fit() records the id of the results wrapper, but get_robustcov_results receives the "
-    "unwrapped results object, so a robust copy never finds the fit it was derived from",
-)
 def test_a_robust_copy_records_the_fit_it_came_from(records):
     copies = [r for r in records if r.get("cov_type") == "HC1"]
     assert copies and all(r.get("derived_from") is not None for r in copies)
+    seqs = {r["seq"]: r for r in records if r.get("type") == "fit"}
+    # `robust = res.get_robustcov_results("HC1")`: derived from the nonrobust fit of the same model
+    assert all(seqs[r["derived_from"]].get("cov_type") == "nonrobust" for r in copies)

@@ -19,6 +19,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 from itertools import product
 
+from regvet.analysis.walk import walk
 from regvet.model.facts import Outcome
 
 #: Functions that transform an outcome, and the transform's name (``np.log(y)``, ``log(y)`` -> log).
@@ -90,10 +91,8 @@ def _base_name(node: ast.expr) -> str | None:
     if isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id == "Q" and node.args:
         arg = node.args[0]
         return arg.value if isinstance(arg, ast.Constant) and isinstance(arg.value, str) else None
-    calls = {id(n.func) for n in ast.walk(node) if isinstance(n, ast.Call)}
-    names = [
-        n.id for n in ast.walk(node) if isinstance(n, ast.Name) and id(n) not in calls and n.id not in ("np", "numpy")
-    ]
+    calls = {id(n.func) for n in walk(node) if isinstance(n, ast.Call)}
+    names = [n.id for n in walk(node) if isinstance(n, ast.Name) and id(n) not in calls and n.id not in ("np", "numpy")]
     return names[0] if len(set(names)) == 1 else None
 
 

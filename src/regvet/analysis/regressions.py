@@ -28,6 +28,7 @@ from regvet.analysis.libraries import ARITHMETIC_KEEPS, PASSING_ATTRIBUTES, PASS
 from regvet.analysis.state import CollectorState, FitRecord, Frame, FunctionRecord, ModelRecord, Node, short_text
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import EMPTY, Value, flat, join_all, tagged
+from regvet.analysis.walk import walk
 from regvet.model.facts import (
     Check,
     Comparison,
@@ -385,7 +386,7 @@ class RegressionSemantics(CollectorState):
         on everything else."""
         if node is None:
             return ("value", value)
-        names = sorted({n.id for n in ast.walk(node) if isinstance(n, ast.Name)})
+        names = sorted({n.id for n in walk(node) if isinstance(n, ast.Name)})
         return ("expr", node, tuple((n, _bound(n, frame)) for n in names))
 
     # --- fits ------------------------------------------------------------------------------------

@@ -28,6 +28,7 @@ from collections.abc import Iterable
 from regvet.analysis import tags
 from regvet.analysis.tags import Tag
 from regvet.analysis.values import Value, flat
+from regvet.analysis.walk import walk
 from regvet.model.facts import Loc
 
 #: Column names that read as time (common practice).
@@ -154,7 +155,7 @@ def mentions_time_order(node: ast.AST) -> bool:
     """Could running this function's body give data a time order (so a call of it is worth following
     for the frame it returns)? A look at its syntax: the methods, functions and keywords above, or a
     store into ``.index``."""
-    for sub in ast.walk(node):
+    for sub in walk(node):
         kind = type(sub)
         if kind is ast.Attribute:
             attr = sub.attr  # type: ignore[attr-defined]

@@ -15,6 +15,7 @@ from regvet.analysis.libraries import GROWING_METHODS
 from regvet.analysis.modules import WELL_KNOWN_LIBRARIES
 from regvet.analysis.state import CollectorState, Frame, FunctionRecord, ModuleRecord, dotted_name
 from regvet.analysis.values import EMPTY, Value
+from regvet.analysis.walk import walk
 
 
 class UncalledFunctions(CollectorState):
@@ -151,7 +152,7 @@ def function_mentions(node: ast.AST) -> tuple[frozenset[str], frozenset[str], fr
     dotted: set[str] = set()
     stored: set[str] = set()
     imported: set[str] = set()
-    for sub in ast.walk(node):
+    for sub in walk(node):
         kind = type(sub)
         if kind is ast.Name:
             names.add(sub.id)  # type: ignore[attr-defined]

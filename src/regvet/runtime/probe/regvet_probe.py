@@ -92,6 +92,8 @@ class Recorder:
         self.seq += 1
         seq = self.seq
         self.ids[id(res)] = seq
+        # A results wrapper's own methods (get_robustcov_results) run on the unwrapped results: know both.
+        self.ids[id(getattr(res, "_results", res))] = seq
         self.keep.append(res)
         record: dict[str, Any] = {
             "type": "fit",
