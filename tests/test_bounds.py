@@ -16,6 +16,7 @@ from regvet import engine
 from regvet.analysis.formula import MAX_TERMS, parse_formula
 from regvet.engine import analyze
 from regvet.model.finding import Severity
+from regvet.model.settings import Settings
 from regvet.rules import ALL_RULES
 from regvet.rules.base import Rule
 
@@ -121,6 +122,38 @@ def test_the_budget_comes_from_the_settings(tmp_path, run_cli):
     assert by_file["long.py"] == {"incomplete-analysis"}
     assert "no-form-test" in by_file["small.py"]  # under 256 statements: analysed before the clock is read
     assert code == 1
+
+
+def test_code_over_the_size_limit_is_not_parsed(tmp_path, run_cli):
+    """``analysis_max_mb`` bounds the parser's memory (about 100 bytes per byte of code): a larger file gets
+    ``incomplete-analysis`` and is never parsed; a smaller one in the same scan is analysed."""
+    big = _script(1) + "".join(f"filler_{i} = {i}  # padding of the file\n" for i in range(40_000))
+    assert len(big) > 1_000_000
+    (tmp_path / "big.py").write_text(big)
+    (tmp_path / "small.py").write_text(_script(1))
+    (tmp_path / "regvet.toml").write_text("analysis_max_mb = 1\n")
+    code, out, _ = run_cli("check", "--format", "json", "--no-cache", str(tmp_path))
+    by_file: dict[str, list[dict]] = {}
+    for f in json.loads(out)["findings"]:
+        by_file.setdefault(f["path"].rsplit("/", 1)[-1], []).append(f)
+    [stopped] = by_file["big.py"]
+    assert stopped["rule"] == "incomplete-analysis"
+    assert f"its Python code is {len(big) / 1e6:.1f} MB, more than `analysis_max_mb` (1 MB)" in stopped["message"]
+    assert "raise `analysis_max_mb`" in stopped["message"]
+    assert "no-form-test" in {f["rule"] for f in by_file["small.py"]}
+    assert code == 1  # a bound, not a failure of regvet (exit 3)
+    # under the default limit (10 MB) the same file is analysed
+    assert {f.rule for f in analyze(big, "big.py").findings} >= {"no-form-test"}
+
+
+def test_the_size_limit_counts_a_notebooks_code_not_its_outputs():
+    cell = {"cell_type": "code", "metadata": {}, "execution_count": 1, "source": _script(1)}
+    picture = {"output_type": "display_data", "data": {"image/png": "A" * 3_000_000}, "metadata": {}}
+    cell["outputs"] = [picture]
+    text = json.dumps({"nbformat": 4, "nbformat_minor": 5, "metadata": {}, "cells": [cell]})
+    assert len(text) > 3_000_000
+    report = analyze(text, "plots.ipynb", Settings(analysis_max_mb=1))
+    assert "no-form-test" in {f.rule for f in report.findings}
 
 
 @pytest.mark.parametrize("depth", [1_000, 5_000])

@@ -281,6 +281,11 @@ def _analyze_python(
     cell_count = nb.cell_count if nb is not None else None
     if skip_unrelated and not mentions_fits(python, provider):
         return FileReport(path, skipped=True, cell_count=cell_count)
+    if len(python) > settings.analysis_max_mb * 1_000_000:
+        # Parsing alone takes about 100 bytes of memory per byte of code: a bound that holds whatever the file.
+        size = len(python.encode("utf-8", "surrogatepass")) / 1e6
+        why = f"its Python code is {size:.1f} MB, more than `analysis_max_mb` ({settings.analysis_max_mb} MB)"
+        return replace(_stopped(path, settings, why), cell_count=cell_count)
     tree = parse(python, path)
     broken: tuple[SourceError, ...] = ()
     if isinstance(tree, SourceError) and cell_map is not None:

@@ -87,6 +87,13 @@ OPTIONS: tuple[Option, ...] = (
         "Wall-clock limit for the static analysis of one file, in seconds; past it the file gets an "
         "`incomplete-analysis` finding instead of its findings.",
     ),
+    Option(
+        "analysis_max_mb",
+        "int",
+        10,
+        "Largest Python code the static analysis reads, in MB (a notebook counts its code cells only); "
+        "a larger file gets an `incomplete-analysis` finding instead of its findings.",
+    ),
     # --- runtime mode (regvet check --run) ---
     Option("python", "string", "", "Interpreter that runs the analysis in runtime mode (default: regvet's own)."),
     Option("run_timeout", "seconds", 300.0, "Wall-clock limit for one script's run, in seconds."),
@@ -118,6 +125,7 @@ class Settings:
     fixed_effects: tuple[str, ...] = ()
     diagnostic_helpers: tuple[tuple[str, tuple[str, ...]], ...] = ()
     analysis_budget: float = 20.0
+    analysis_max_mb: int = 10
     python: str = ""
     run_timeout: float = 300.0
     run_memory_mb: int = 8192

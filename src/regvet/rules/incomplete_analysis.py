@@ -21,7 +21,7 @@ _START = Span(1, 0, 1, 0)
 
 def check(inp: RuleInput) -> Iterator[Finding]:
     for why in inp.stopped:
-        budget = ", or raise `analysis_budget`" if "analysis_budget" in why else ""
+        budget = next((f", or raise `{key}`" for key in ("analysis_budget", "analysis_max_mb") if key in why), "")
         yield RULE.finding(
             _START,
             f"This file was not analysed: {why}, so none of its fits were checked. "
