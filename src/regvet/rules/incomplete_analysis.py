@@ -1,8 +1,8 @@
 """incomplete-analysis: regvet stopped short of analysing (part of) the file, so fits may be unchecked.
 
-Three causes, all of them bounds that hold whatever the input (README, "Reliability"): a formula
-that expands to too many terms to read, a file nested too deeply or taking longer than the
-per-file time budget, and a failure of regvet itself (a bug: the finding says so, and the CLI
+Causes, all of them bounds that hold whatever the input (README, "Reliability"): a formula
+that expands to too many terms to read, a file nested too deeply, larger than ``analysis_max_mb``
+or taking longer than the per-file time budget, and a failure of regvet itself (a bug: the finding says so, and the CLI
 exits 3 at the end of the scan).
 """
 
@@ -60,8 +60,9 @@ RULE = Rule(
         "regvet keeps every stage of its analysis bounded, whatever the input, so that one hostile or "
         "generated file cannot stall a scan or an editor. When a bound is reached the file (or the fit) is "
         "reported instead of being passed over silently: a formula that expands to more terms than regvet "
-        "reads (powers of long sums, products of many factors), code nested too deeply for the analyser, or "
-        "a file that takes longer than the per-file time budget. Fits in what was not analysed may lack "
+        "reads (powers of long sums, products of many factors), code nested too deeply for the analyser, "
+        "Python code larger than `analysis_max_mb` (the parser alone needs about 100 bytes of memory per "
+        "byte of code), or a file that takes longer than the per-file time budget. Fits in what was not analysed may lack "
         "checks that regvet could not ask for. A failure of regvet itself is reported the same way, says "
         "that it is a bug, and makes `regvet check` exit with status 3. The finding cannot be waived: "
         "shorten the formula or split the file."
