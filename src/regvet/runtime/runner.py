@@ -264,32 +264,39 @@ def run(
 
 
 def _wait_watching(proc: subprocess.Popen, timeout: float, out: Path, on_fit: Callable[[FitRecord], None]) -> bool:
-    """:func:`_exited` with ``timeout``, calling ``on_fit`` for each complete fit line the child adds to ``out``."""
+    """:func:`_exited` with ``timeout``, calling ``on_fit`` for each complete fit line the child adds to ``out``
+    (also the lines written just before it ended: the file is read once more after the exit)."""
     deadline = time.monotonic() + timeout
     done = 0  # bytes of ``out`` already passed on
     while True:
-        if _exited(proc, max(min(0.2, deadline - time.monotonic()), 0.001)):
+        exited = _exited(proc, max(min(0.2, deadline - time.monotonic()), 0.001))
+        done = _pass_on(out, done, on_fit)
+        if exited:
             return True
         if time.monotonic() >= deadline:
             return False
+
+
+def _pass_on(out: Path, done: int, on_fit: Callable[[FitRecord], None]) -> int:
+    """Hand every complete fit line of ``out`` after byte ``done`` to ``on_fit``; the new count of bytes done."""
+    try:
+        with open(out, "rb") as fh:
+            fh.seek(done)
+            chunk = fh.read()
+    except OSError:
+        return done
+    complete = chunk[: chunk.rfind(b"\n") + 1]
+    for line in complete.decode("utf-8", errors="replace").splitlines():
         try:
-            with open(out, "rb") as fh:
-                fh.seek(done)
-                chunk = fh.read()
-        except OSError:
+            record = json.loads(line)
+        except ValueError:
             continue
-        complete = chunk[: chunk.rfind(b"\n") + 1]
-        done += len(complete)
-        for line in complete.decode("utf-8", errors="replace").splitlines():
+        if isinstance(record, dict) and record.get("type") == "fit":
             try:
-                record = json.loads(line)
-            except ValueError:
-                continue
-            if isinstance(record, dict) and record.get("type") == "fit":
-                try:
-                    on_fit(cast(FitRecord, record))
-                except Exception:  # a progress display never stops a run
-                    pass
+                on_fit(cast(FitRecord, record))
+            except Exception:  # a progress display never stops a run
+                pass
+    return done + len(complete)
 
 
 def _exited(proc: subprocess.Popen, timeout: float) -> bool:
