@@ -89,6 +89,39 @@ def test_faults_give_run_failed_and_keep_completed_fits(tmp_path, fault):
     assert len(result.fits) == 1 and result.fits[0]["stats"]["nobs"] == 120
 
 
+def test_an_exception_whose_message_spans_lines_is_named_by_its_type_and_first_line(tmp_path):
+    # Seen on a real notebook: pandas raised a TypeError whose message holds a whole array over many
+    # lines, and the finding showed the array's last line as "what it raised".
+    body = (
+        "res = smf.ols('riders ~ fare', data=crossings).fit()\n"
+        "def relabel(values):\n"
+        "    raise TypeError('Invalid value ' + repr(list(values)).replace(', ', chr(10)) + ' for dtype int64')\n"
+        "relabel(['harbour', 'ferry', 'quay', 'pier', 'dock', 'slip', 'wharf'])\n"
+    )
+    code = FIT.replace('res = smf.ols("riders ~ fare", data=crossings).fit()\nprint(res.summary())\n', body)
+    report, _ = judge(tmp_path, code)
+    (failed,) = [f for f in report.findings if f.rule == "run-failed"]
+    assert "it raised TypeError: Invalid value ['harbour' ..., so the fits" in failed.message, failed.message
+    assert "'wharf'] for dtype int64" not in failed.message  # no fragment of the message's later lines
+    assert (
+        "line 11, in <module> | relabel([" in failed.message
+        and "line 10, in relabel | raise TypeError(" in failed.message
+    )
+    assert failed.span.line == 10  # the innermost frame in the user's code
+
+
+def test_a_run_that_fails_before_any_fit_says_so(tmp_path):
+    code = FIT.replace(
+        'res = smf.ols("riders ~ fare", data=crossings).fit()\n',
+        "raise KeyError('route 4')\nres = smf.ols('riders ~ fare', data=crossings).fit()\n",
+    )
+    report, _ = judge(tmp_path, code)
+    (failed,) = [f for f in report.findings if f.rule == "run-failed"]
+    assert (
+        "it raised KeyError: 'route 4', so the fits it did not reach were not checked; no fit had run" in failed.message
+    )
+
+
 def test_the_scan_goes_on_after_a_failing_file(tmp_path, monkeypatch, run_cli):
     (tmp_path / ".git").mkdir()
     monkeypatch.chdir(tmp_path)

@@ -23,11 +23,14 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         lines = lines[-4:]
     detail = " | ".join(lines)
     kept = sum(1 for v in inp.runtime.fit_stats.values() for r in v if r.get("stats")) if inp.runtime else 0
-    runs = f"{kept} fit run{'' if kept == 1 else 's'}"
+    done = (
+        f"the statistics of the {kept} fit run{'' if kept == 1 else 's'} completed before that are kept"
+        if kept
+        else "no fit had run before that"
+    )
     yield RULE.finding(
         failure.span or Span(1, 0, 1, 0),
-        f"This file's run stopped: {failure.reason}, so the fits it did not reach were not checked; the "
-        f"statistics of the {runs} completed before that are kept. "
+        f"This file's run stopped: {failure.reason}, so the fits it did not reach were not checked; {done}. "
         + (
             f"Make it run to the end; its {'traceback' if traceback else 'last output'}: {detail}."
             if detail

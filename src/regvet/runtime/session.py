@@ -217,8 +217,10 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
         return None
     if status == "exception":
         tb = tuple(end.get("traceback") or ())
-        last = tb[-1] if tb else "an exception"
-        return RunFailure(f"it raised {last}", tb, span)
+        error = end.get("error")  # one line from the probe; older probes sent only the traceback
+        if isinstance(error, str) and error:
+            return RunFailure(f"it raised {error}", _frames_only(tb), span)
+        return RunFailure(f"it raised {tb[-1].strip() if tb else 'an exception'}", tb, span)
     if status == "exit":
         return RunFailure(f"it called sys.exit({end.get('exit_code')!r}) before the end", (), span)
     if status == "memory":
@@ -227,6 +229,25 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
     if status == "probe-failed":
         return RunFailure(f"the probe could not start in that interpreter: {end.get('message')}")
     return RunFailure(f"it ended with status {status!r}")
+
+
+def _frames_only(tb: tuple[str, ...]) -> tuple[str, ...]:
+    """A formatted traceback without the exception's own text (already in the reason, on one line).
+
+    Keeps the frames (``  File ...`` and the code line under each) and the one-line notes of a chained
+    exception (``  (caused by ...)``); a message that spans many lines would otherwise fill the shown
+    tail with its fragments."""
+    if not tb or not tb[0].startswith("Traceback"):
+        return tb
+    last_frame = max((i for i, line in enumerate(tb) if line.startswith("  File ")), default=None)
+    if last_frame is None:
+        return tb
+    kept = list(tb[: last_frame + 1])
+    rest = tb[last_frame + 1 :]
+    if rest and rest[0].startswith("    "):
+        kept.append(rest[0])  # the code line of the innermost frame
+    kept += [line for line in rest if line.startswith("  (")]
+    return tuple(kept)
 
 
 #: A process killed by SIGKILL whose peak resident memory reached this share of what the machine (or

@@ -309,6 +309,26 @@ def traceback_tail(exc: BaseException, user_files: set[str], limit: int = 12) ->
     return text, where
 
 
+def error_line(exc: BaseException, limit: int = 160) -> str:
+    """The exception in one line: its type and the first line of its message, cut to ``limit`` characters.
+
+    A message that spans lines (pandas puts whole arrays in some) would otherwise be shown by its last
+    line, a fragment that names neither the error nor its cause."""
+    kind = type(exc).__qualname__
+    module = type(exc).__module__
+    if module not in ("builtins", "__main__"):
+        kind = f"{module}.{kind}"
+    try:
+        message = str(exc)
+    except Exception:  # a broken __str__ must not lose the failure
+        message = ""
+    first = next((line.strip() for line in message.splitlines() if line.strip()), "")
+    if first and len(message.strip().splitlines()) > 1:
+        first += " ..."
+    text = f"{kind}: {first}" if first else kind
+    return text if len(text) <= limit else text[: limit - 3].rstrip() + "..."
+
+
 def _shown_name(filename: str) -> str:
     if filename.startswith("<regvet-cell-") and filename.endswith(">"):
         try:

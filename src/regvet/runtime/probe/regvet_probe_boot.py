@@ -131,7 +131,7 @@ def main(argv: list[str]) -> int:
         return 0
     except BaseException as exc:  # the user's code failed: report it, keep what was recorded
         tail, where = probe.traceback_tail(exc, user_files)
-        recorder.finish("exception", traceback=tail, where=where, **ran)
+        recorder.finish("exception", traceback=tail, where=where, error=probe.error_line(exc), **ran)
         return 0
     recorder.finish("ok", **ran)
     return 0
