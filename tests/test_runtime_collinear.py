@@ -226,3 +226,41 @@ def test_a_square_beside_its_variable_is_never_flagged_but_two_collinear_regress
     assert text is not None and "`tonnage`" in text and "VIF" in text
     dependence = collinear_design._dependence(both)
     assert dependence is not None and "`cranes`" in dependence and "`tonnage`" in dependence
+
+
+def squared_hours(x: Any) -> Any:
+    """A user's own transform, as analysts write them (``myfunc(exper)`` in a real notebook)."""
+    return x**2
+
+
+@pytest.mark.parametrize(
+    "formula",
+    [
+        "ships ~ cranes + I((cranes ** 2) / 100) + tide",  # a scaled square, seen in a real notebook
+        "ships ~ cranes + squared_hours(cranes) + tide",  # a function of the analyst's own
+        "ships ~ I(cranes - 5) + I(100 * cranes ** 2) + tide",  # centred, and a scaled square
+    ],
+)
+def test_any_function_of_one_regressor_is_in_its_term(formula: str) -> None:
+    frame = harbour()
+    res = smf.ols(formula, data=frame).fit()
+    result = stats(res)
+    terms = {t["term"]: t for t in result["gvif"]["terms"]}
+    slopes = [n for n in res.model.exog_names if n != "Intercept"]
+    assert set(terms) == {"cranes", "tide"}
+    assert terms["cranes"]["columns"] == [n for n in slopes if n != "tide"]
+    exog = res.model.exog[:, [res.model.exog_names.index(n) for n in slopes]]
+    if np.linalg.matrix_rank(exog) == exog.shape[1]:  # reference: Fox and Monette (1992), determinants
+        cols = [slopes.index(c) for c in terms["cranes"]["columns"]]
+        assert terms["cranes"]["gvif"] == pytest.approx(fox_monette(exog, cols), rel=1e-6)
+    assert result["vif"]["max"] > 10  # the plain VIFs are large ...
+    assert collinear_design._inflation(result) is None  # ... but only inside the term of cranes
+
+
+def test_functions_of_different_regressors_stay_apart() -> None:
+    frame = harbour()
+    res = smf.ols("ships ~ np.log(cranes) + np.log(tonnage) + tide", data=frame).fit()
+    terms = [t["columns"] for t in stats(res)["gvif"]["terms"]]
+    assert terms == [["np.log(cranes)"], ["np.log(tonnage)"], ["tide"]]
+    text = collinear_design._inflation(stats(res))  # tonnage tracks cranes: two terms, truly collinear
+    assert text is not None and "VIF" in text and "`np.log(c" in text

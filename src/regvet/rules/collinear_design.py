@@ -88,7 +88,9 @@ RULE = Rule(
     ),
     rationale=(
         "Collinearity is judged between the model's terms, never inside one: a predictor with its own "
-        "powers and the interactions that contain it, and the dummies of one categorical, form one term, "
+        "powers (scaled or centred too, `I(x**2 / 100)`), any other function of it alone (`np.log(x)`, a "
+        "function of the analyst's own), the interactions that contain it, and the dummies of one categorical "
+        "form one term, "
         "and predictors joined by an interaction are one term (patsy's terms for a formula; for arrays, names "
         "such as `x**2`, `I(x**2)` or `x:z`): the near-dependence of x, z and x:z is built in by the "
         "interaction (centre x and z to see it go), not a property of the data. Each term gets the "

@@ -111,7 +111,17 @@ def summary(stats: FitStatistics, level_cv: LevelErrors | None | bool = False) -
         bits.append(f"serial within units {p(within.get('pvalue'))}")
     ci = stats.get("condition_index")
     if ci is not None and ci.get("value") is not None:
-        bits.append(f"condition index {num(ci.get('value'))}")
+        # The index collinear-design judges (above 30 and carrying two slopes), not the largest, which
+        # may sit on the constant and would contradict the finding below it; runs from before the
+        # proportions were recorded show the largest.
+        from regvet.rules.collinearity import judged_dimension
+
+        if ci.get("dimensions") is None:
+            bits.append(f"condition index {num(ci.get('value'))}")
+        else:
+            judged = judged_dimension(stats)
+            if judged is not None:
+                bits.append(f"condition index {num(judged.index)}")
     cv = stats.get("cv")
     if level_cv is False:
         if cv is not None and cv.get("rmse") is not None:

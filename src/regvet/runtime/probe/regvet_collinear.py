@@ -16,10 +16,11 @@ squares the condition number by forming a cross-product matrix and inverting or 
   generalized VIF of a set of columns, GVIF = det(C_SS)·det((C⁻¹)_SS) (= det R_SS·det R_rest / det R
   for the correlation matrix R), each determinant from the QR of a slice of F or of F⁻¹.
 * :func:`term_sets`: which columns form one term (a predictor with its powers and the interactions
-  that contain it, the dummies of one categorical): from patsy's ``design_info`` when the fit came
-  from a formula, else from the column names (``x**2``, ``I(x ** 2)``, ``np.power(x, 2)``, ``x:z``,
-  ``C(g)[T.b]``); other columns are terms of their own, and predictors joined by an interaction
-  are one term.
+  that contain it, the dummies of one categorical, and any other function of that one predictor,
+  ``I(x**2 / 100)``, ``np.log(x)``, ``f(x)``: their collinearity with x is by construction): from
+  patsy's ``design_info`` when the fit came from a formula, else from the column names (``x**2``,
+  ``I(x ** 2)``, ``np.power(x, 2)``, ``x:z``, ``C(g)[T.b]``); other columns are terms of their own,
+  and predictors joined by an interaction are one term.
 """
 
 from __future__ import annotations
@@ -217,9 +218,38 @@ def _bases(node: ast.expr) -> set[str]:
     if isinstance(node, ast.BinOp):
         if isinstance(node.op, (ast.Pow, ast.BitXor)) and _is_int(node.right):
             return _bases(node.left)
-        if isinstance(node.op, ast.Mult):
+        if isinstance(node.op, ast.Mult) and not (_is_number(node.left) or _is_number(node.right)):
             return _bases(node.left) | _bases(node.right)
+    free = _free_names(node)
+    if len(free) == 1:  # a function of one predictor: exper**2 / 100, x - 2000, np.log(x), myfunc(x)
+        return free
     return {ast.unparse(node)}
+
+
+def _is_number(node: ast.expr) -> bool:
+    return isinstance(node, ast.Constant) and isinstance(node.value, (int, float)) and not isinstance(node.value, bool)
+
+
+def _free_names(node: ast.expr) -> set[str]:
+    """The variables an expression reads: names, leaving out called functions and modules (``np`` in
+    ``np.log(x)``), and the strings of ``Q("name")``."""
+    skip: set[int] = set()
+    for sub in ast.walk(node):
+        if isinstance(sub, ast.Call):
+            skip.add(id(sub.func))
+            if isinstance(sub.func, ast.Name) and sub.func.id == "Q":
+                skip.update(id(a) for a in sub.args)
+        elif isinstance(sub, ast.Attribute):
+            skip.add(id(sub.value))
+    out: set[str] = set()
+    for sub in ast.walk(node):
+        if id(sub) in skip:
+            continue
+        if isinstance(sub, ast.Name):
+            out.add(sub.id)
+        elif isinstance(sub, ast.Call) and isinstance(sub.func, ast.Name) and sub.func.id == "Q":
+            out.update(a.value for a in sub.args if isinstance(a, ast.Constant) and isinstance(a.value, str))
+    return out
 
 
 def _is_int(node: ast.expr) -> bool:
