@@ -57,3 +57,31 @@ def test_good_example_passes_when_run(tmp_path, rule):
     report, result = run_example(tmp_path, "good", rule.good)
     assert result is not None and result.end is not None and result.end["status"] == "ok", result.output_tail
     assert found(report, rule.id) == [], [f.message for f in report.findings if f.rule == rule.id]
+
+
+ESCAPING = """\
+import numpy as np
+import pandas as pd
+import statsmodels.formula.api as smf
+from ferrylib import publish_table
+
+rng = np.random.default_rng(21)
+fare = rng.uniform(2.0, 9.0, 300)
+crossings = pd.DataFrame({"fare": fare})
+crossings["riders"] = np.exp(6.5 - 0.35 * fare + rng.normal(0, 0.05 * fare, 300))
+res = smf.ols("riders ~ fare", data=crossings).fit()
+publish_table(res)
+"""
+
+
+def test_a_fit_passed_only_to_code_regvet_cannot_read_is_judged_like_a_used_one(tmp_path):
+    # Seen on a real notebook: a fit handed only to a plotting library got `no-form-test` (the static
+    # rules count such an escape as a use) while its RESET p < 0.001 gave no `form-rejected`.
+    (tmp_path / "ferrylib.py").write_text("def publish_table(res):\n    return res.params\n")
+    report, result = run_example(tmp_path, "escapes", ESCAPING)
+    assert result is not None and result.end is not None and result.end["status"] == "ok", result.output_tail
+    rules = {f.rule: f for f in report.findings}
+    assert "form-rejected" in rules and "no-form-test" in rules, sorted(rules)
+    assert "heteroskedastic-plain-se" in rules, sorted(rules)
+    text = rules["heteroskedastic-plain-se"].message
+    assert "its usual t tests are not valid" in text or "its usual t tests may not be valid" in text, text

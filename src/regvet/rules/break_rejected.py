@@ -16,7 +16,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
 
 def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     alpha = inp.settings.alpha
-    if not inp.uses(fit.id, ("estimate", "inference", "robust")):
+    if not inp.uses(fit.id, ("estimate", "inference", "robust")) and not inp.escapes(fit.id):
         return None
     for s in runs(inp, fit.id):
         rejected = [c for c in s.get("chow") or [] if (pv := c.get("pvalue")) is not None and pv < alpha]

@@ -63,7 +63,7 @@ def _inflation(s: FitStatistics) -> str | None:
 
 
 def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
-    if not inp.uses(fit.id, ("estimate", "inference", "robust")):
+    if not inp.uses(fit.id, ("estimate", "inference", "robust")) and not inp.escapes(fit.id):
         return None
     for s in runs(inp, fit.id):
         parts = [part for part in (_dependence(s), _inflation(s)) if part is not None]

@@ -18,7 +18,7 @@ def _judge(inp: RuleInput, fit: Fit) -> Finding | None:
     alpha = inp.settings.alpha
     uses = inp.uses(fit.id, ("estimate", "inference", "robust"))
     stats = runs(inp, fit.id)
-    if not uses or not stats:
+    if (not uses and not inp.escapes(fit.id)) or not stats:  # used, or passed to code regvet cannot read
         return None
     rejecting = []
     for s in stats:

@@ -20,8 +20,9 @@ def check(inp: RuleInput) -> Iterator[Finding]:
             continue
         uses = inp.uses(fit.id, ("inference",))
         stats = runs(inp, fit.id)
-        if not uses or not stats:
+        if (not uses and not inp.escapes(fit.id)) or not stats:  # used, or passed to code regvet cannot read
             continue
+        tests = f"its usual t tests in `{uses[0].member}`" if uses else "its usual t tests"
         judged = [(s, verdict) for s in stats if (verdict := _verdict(s, alpha)) is not None]
         if not judged:
             continue
@@ -30,8 +31,8 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         where = in_runs(len(judged), len(stats))
         if both:
             message = (
-                f"{opening(fit)} fails {text}{where}, so its error variance is not constant and its usual t "
-                f"tests in `{uses[0].member}` are not valid; {coefficient_clause(s)}. "
+                f"{opening(fit)} fails {text}{where}, so its error variance is not constant and {tests} "
+                f"are not valid; {coefficient_clause(s)}. "
                 'Report robust standard errors: `.fit(cov_type="HC3")`.'
             )
         else:
@@ -41,8 +42,8 @@ def check(inp: RuleInput) -> Iterator[Finding]:
                 else "no coefficient changes significance at 5 % under robust standard errors"
             )
             message = (
-                f"{opening(fit)} may have an error variance that is not constant: {text}{where}, so its usual "
-                f"t tests in `{uses[0].member}` may not be valid; {changes}. "
+                f"{opening(fit)} may have an error variance that is not constant: {text}{where}, so {tests} "
+                f"may not be valid; {changes}. "
                 'Report robust standard errors, `.fit(cov_type="HC3")`: they are valid whether it is or not.'
             )
         finding = RULE.fit_finding(fit, message, uses)

@@ -16,7 +16,7 @@ def check(inp: RuleInput) -> Iterator[Finding]:
         if fit.cov_type in HAC_COV:
             continue
         uses = inp.uses(fit.id, ("inference", "robust"))
-        if not uses:
+        if not uses and not inp.escapes(fit.id):  # used, or passed to code regvet cannot read
             continue
         for s in runs(inp, fit.id):
             within = s.get("serial_within_units")
