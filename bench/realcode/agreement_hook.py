@@ -82,8 +82,11 @@ def _lag_count(index: Any) -> int:
     return 1
 
 
-def reference(res: Any) -> tuple[dict[str, Any], dict[str, str]]:
-    """Reference statistics of one OLS/WLS results object, flattened: ``{key: value}`` and ``{key: error}``."""
+def reference(res: Any, dump: str | None = None) -> tuple[dict[str, Any], dict[str, str]]:
+    """Reference statistics of one OLS/WLS results object, flattened: ``{key: value}`` and ``{key: error}``.
+
+    With ``dump``, the whitened design, outcome and time order are saved there (``.npz``) so that the
+    harness can recompute a disputed statistic exactly."""
     import pandas as pd
     import statsmodels.api as sm
     from scipy import stats
@@ -246,6 +249,19 @@ def reference(res: Any) -> tuple[dict[str, Any], dict[str, str]]:
                 return {"lm": r.lm, "lm_pvalue": r.lmpval, "f": r.fval, "f_pvalue": r.fpval}
 
             put("breusch_godfrey", bg)
+    if dump is not None:
+        order_arr = np.argsort(np.asarray(labels.asi8), kind="stable") if timed and hasattr(labels, "asi8") else None
+        np.savez(
+            dump,
+            X=X,
+            y=y,
+            order=order_arr if order_arr is not None else np.arange(0),
+            lags=out.get("breusch_godfrey.lags", 0),
+            has_const=has_const,
+            const_idx=-1 if const_idx is None else const_idx,
+            hc=hc,
+            names=np.array(names),
+        )
     out["nobs"] = n
     out["ssr"] = _clean(float(u @ u))
     out["rsquared"] = _clean(res.rsquared)
@@ -285,7 +301,9 @@ def install(script: str, sink: Any) -> None:
         try:
             with warnings.catch_warnings(), np.errstate(all="ignore"):
                 warnings.simplefilter("ignore")
-                record["ref"], record["ref_errors"] = reference(res)
+                designs = os.environ.get("AGREEMENT_DESIGNS")
+                dump = os.path.join(designs, f"{_seq[0]}.npz") if designs else None
+                record["ref"], record["ref_errors"] = reference(res, dump)
         except Exception as exc:  # noqa: BLE001 - recorded, the script goes on
             record["ref"], record["ref_errors"] = {}, {"all": f"{type(exc).__name__}: {exc}"}
         finally:
