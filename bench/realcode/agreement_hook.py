@@ -176,10 +176,11 @@ def reference(res: Any, dump: str | None = None) -> tuple[dict[str, Any], dict[s
     const_idx = getattr(model.data, "const_idx", None)
 
     def vif() -> dict[str, Any]:
-        if const_idx is None or not has_const:
-            if not is_wls:
-                raise ValueError("no constant column: variance_inflation_factor's R² would be uncentred")
         vals = {}
+        # Without a constant column the VIFs are still the centred ones (as regvet documents):
+        # variance_inflation_factor on the design with a constant column put in front.
+        design = X if const_idx is not None else np.column_stack([np.ones(n), X])
+        shift = 0 if const_idx is not None else 1
         for j in range(k):
             if j == const_idx:
                 continue
@@ -193,7 +194,7 @@ def reference(res: Any, dump: str | None = None) -> tuple[dict[str, Any], dict[s
                 ssr = sm.OLS(X[:, j], np.column_stack([base, X[:, others]])).fit().ssr
                 vals[names[j]] = tss / ssr
             else:
-                vals[names[j]] = variance_inflation_factor(X, j)
+                vals[names[j]] = variance_inflation_factor(design, j + shift)
         return {f"values.{a}": b for a, b in vals.items()}
 
     put("vif", vif)

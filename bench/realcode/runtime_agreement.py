@@ -562,7 +562,12 @@ def _scrub(text: str, folder: Path) -> str:
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     ap.add_argument("--folder", required=True, type=Path, help="the corpus folder (one repository's scripts)")
-    ap.add_argument("--regvet", default=str(ROOT / ".venv" / "bin" / "regvet"), help="the regvet command to run")
+    default_regvet = ROOT / ".venv" / "bin" / "regvet"
+    ap.add_argument(
+        "--regvet",
+        default=str(default_regvet) if default_regvet.exists() else f"{sys.executable} -m regvet",
+        help="the regvet command to run (default: the repository's .venv/bin/regvet)",
+    )
     ap.add_argument("--python", default=sys.executable, help="the interpreter that runs the scripts under the hook")
     ap.add_argument("--out", type=Path, default=ROOT / "bench" / "results" / "runtime_agreement.json")
     ap.add_argument("--limit", type=int, default=None, help="only the first N scripts")
