@@ -24,7 +24,7 @@ import pytest
 ROOT = Path(__file__).resolve().parents[1]
 REALCODE = ROOT / "bench" / "realcode"
 
-SCRIPT = '''\
+SCRIPT = """\
 import numpy as np
 import pandas as pd
 import statsmodels.formula.api as smf
@@ -46,7 +46,7 @@ print(plain.summary())
 
 robust = smf.ols("loaves ~ temperature + promo", data=sales).fit(cov_type="HC3")
 print(robust.summary())
-'''
+"""
 
 GROUPS = {
     "breusch_pagan.lm": "het_breuschpagan",

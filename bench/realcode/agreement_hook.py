@@ -113,7 +113,9 @@ def reference(res: Any, dump: str | None = None) -> tuple[dict[str, Any], dict[s
     u = np.asarray(res.wresid, dtype=float).reshape(-1)[kept]
     yhat = y - u
     n, k = X.shape
-    const_weights = not is_wls or bool(np.ptp(np.asarray(model.weights, dtype=float)[kept] if np.ndim(model.weights) else [0]) == 0)
+    const_weights = not is_wls or bool(
+        np.ptp(np.asarray(model.weights, dtype=float)[kept] if np.ndim(model.weights) else [0]) == 0
+    )
     has_const = bool(model.k_constant) and const_weights
     # For WLS every test runs on the whitened model, fitted by OLS (statsmodels' own tests would
     # otherwise mix weighted residuals with the unweighted design, or drop the weights: linear_reset).
@@ -131,7 +133,7 @@ def reference(res: Any, dump: str | None = None) -> tuple[dict[str, Any], dict[s
     def put(prefix: str, fn: Any) -> None:
         try:
             values = fn()
-        except Exception as exc:  # noqa: BLE001 - a reference that fails is recorded, not raised
+        except Exception as exc:
             errors[prefix] = f"{type(exc).__name__}: {exc}"
             return
         for key, value in values.items():
@@ -221,8 +223,10 @@ def reference(res: Any, dump: str | None = None) -> tuple[dict[str, Any], dict[s
             o[f"{name}.estimate"] = np.asarray(plain.params)[j]
             o[f"{name}.se"] = np.asarray(plain.bse)[j]
             o[f"{name}.t"] = np.asarray(plain.tvalues)[j]
-            o[f"{name}.p"] = np.asarray(plain.pvalues)[j] if plain.use_t else 2 * stats.t.sf(
-                abs(np.asarray(plain.tvalues)[j]), plain.df_resid
+            o[f"{name}.p"] = (
+                np.asarray(plain.pvalues)[j]
+                if plain.use_t
+                else 2 * stats.t.sf(abs(np.asarray(plain.tvalues)[j]), plain.df_resid)
             )
             o[f"{name}.se_robust"] = np.asarray(rob.bse)[j]
             o[f"{name}.t_robust"] = np.asarray(rob.tvalues)[j]
@@ -314,7 +318,7 @@ def install(script: str, sink: Any) -> None:
                 designs = os.environ.get("AGREEMENT_DESIGNS")
                 dump = os.path.join(designs, f"{_seq[0]}.npz") if designs else None
                 record["ref"], record["ref_errors"] = reference(res, dump)
-        except Exception as exc:  # noqa: BLE001 - recorded, the script goes on
+        except Exception as exc:
             record["ref"], record["ref_errors"] = {}, {"all": f"{type(exc).__name__}: {exc}"}
         finally:
             _state.busy = False
@@ -340,7 +344,7 @@ def main() -> int:
         except SystemExit as exc:
             if exc.code not in (None, 0):
                 end = {"type": "end", "status": "error", "error": f"SystemExit: {exc.code}"}
-        except BaseException as exc:  # noqa: BLE001 - the script's own failure is data
+        except BaseException as exc:
             tb = traceback.extract_tb(exc.__traceback__)
             where = next((f.lineno for f in reversed(tb) if os.path.abspath(f.filename) == script), None)
             end = {"type": "end", "status": "error", "error": f"{type(exc).__name__}: {exc}"[:300], "line": where}

@@ -98,7 +98,9 @@ def scripts_in(folder: Path, limit: int | None) -> list[str]:
     return out[:limit] if limit else out
 
 
-def run_regvet(regvet: list[str], folder: Path, files: list[str], timeout: float) -> tuple[list[dict[str, Any]], str | None]:
+def run_regvet(
+    regvet: list[str], folder: Path, files: list[str], timeout: float
+) -> tuple[list[dict[str, Any]], str | None]:
     """regvet's findings (JSON) over the files, or an error text."""
     cmd = [*regvet, "run", "--format", "json", "--no-baseline", "--no-cache", "--no-config", "--jobs", "1", *files]
     try:
@@ -209,7 +211,9 @@ def regvet_fits(findings: list[dict[str, Any]]) -> tuple[dict[str, list[dict[str
         if key in seen:
             continue
         seen.add(key)
-        fits[f["path"]].append({"line": int(f["line"]), "fit": ev.get("fit"), "runs": ev.get("runs"), "stats": ev["statistics"]})
+        fits[f["path"]].append(
+            {"line": int(f["line"]), "fit": ev.get("fit"), "runs": ev.get("runs"), "stats": ev["statistics"]}
+        )
     return fits, failed
 
 
@@ -263,7 +267,9 @@ COMPARED_PREFIXES = (
 NOT_STATISTICS = {"white.form", "reset.df_num", "breusch_godfrey.lags"}
 
 
-def pair_fits(regvet: list[dict[str, Any]], ref: list[dict[str, Any]]) -> tuple[list[tuple[dict[str, Any], dict[str, Any]]], list[dict[str, Any]]]:
+def pair_fits(
+    regvet: list[dict[str, Any]], ref: list[dict[str, Any]]
+) -> tuple[list[tuple[dict[str, Any], dict[str, Any]]], list[dict[str, Any]]]:
     """Pair regvet's fits (by finding line) with the reference fits (by call-stack or model line)."""
     pairs = []
     unpaired = []
@@ -361,7 +367,11 @@ def compare_pair(
     for key in PAIRING:
         a, b = rv.get(key), rf.get(key)
         if a is None or b is None or not close(float(a), float(b), False):
-            return [], [], f"not the same data: {key} regvet {a}, reference {b} (an unseeded simulation, or a pairing by line that fails)"
+            return (
+                [],
+                [],
+                f"not the same data: {key} regvet {a}, reference {b} (an unseeded simulation, or a pairing by line that fails)",
+            )
     results: list[tuple[str, str, bool | None]] = []
     disagreements: list[dict[str, Any]] = []
     if rv["time_ordered"] != rf.get("time_ordered"):
@@ -373,14 +383,12 @@ def compare_pair(
                 "reason": "time order judged differently",
             }
         )
-    keys = sorted(
-        k
-        for k in set(rv) | set(rf)
-        if k.startswith(COMPARED_PREFIXES) and k not in NOT_STATISTICS
-    )
+    keys = sorted(k for k in set(rv) | set(rf) if k.startswith(COMPARED_PREFIXES) and k not in NOT_STATISTICS)
     for key in keys:
-        if key.startswith("reset.robust") and "reset.robust.f" not in rf and not any(
-            e.startswith("reset.robust") for e in ref_errors
+        if (
+            key.startswith("reset.robust")
+            and "reset.robust.f" not in rf
+            and not any(e.startswith("reset.robust") for e in ref_errors)
         ):
             continue  # not an HC fit: no robust RESET on either side
         if key.startswith(("durbin_watson", "breusch_godfrey")) and not (rv["time_ordered"] or rf.get("time_ordered")):
@@ -441,7 +449,7 @@ def _exact(rec: dict[str, Any], key: str, cache: dict[str, Any]) -> Any:
             cache[path] = fit
         value = fit.value(key)
         return value if value is None or math.isfinite(value) else None
-    except Exception as exc:  # noqa: BLE001 - the exact reference is a diagnosis, never fatal
+    except Exception as exc:
         return f"not computed ({type(exc).__name__}: {str(exc)[:120]})"
 
 
@@ -479,7 +487,9 @@ def measure(
                 failed_scripts.append(
                     {
                         "file": rel,
-                        "reference": None if run["end"].get("status") == "ok" else _scrub(run["end"].get("error", ""), folder),
+                        "reference": None
+                        if run["end"].get("status") == "ok"
+                        else _scrub(run["end"].get("error", ""), folder),
                         "regvet": _scrub(regvet_failed[rel], folder) if rel in regvet_failed else None,
                     }
                 )
@@ -506,7 +516,9 @@ def measure(
                         per_stat[group]["decisions"] += 1
                         per_stat[group]["decision_agree" if decision else "decision_disagree"] += 1
                 for d in dis:
-                    disagreements.append({"file": rel, "line": entry["line"], "fit": entry["fit"], "reference_seq": rec["seq"], **d})
+                    disagreements.append(
+                        {"file": rel, "line": entry["line"], "fit": entry["fit"], "reference_seq": rec["seq"], **d}
+                    )
                     if d["statistic"] == "time_ordered":
                         counts["time_order_differs"] += 1
             per_file[rel] = dict(counts)
