@@ -99,16 +99,23 @@ def scripts_in(folder: Path, limit: int | None) -> list[str]:
 
 
 def run_regvet(
-    regvet: list[str], folder: Path, files: list[str], timeout: float
+    regvet: list[str], folder: Path, files: list[str], timeout: float, run_timeout: float | None = None
 ) -> tuple[list[dict[str, Any]], str | None]:
-    """regvet's findings (JSON) over the files, or an error text."""
-    cmd = [*regvet, "run", "--format", "json", "--no-baseline", "--no-cache", "--no-config", "--jobs", "1", *files]
-    try:
-        proc = subprocess.run(
-            cmd, cwd=folder, capture_output=True, text=True, check=False, timeout=timeout, stdin=subprocess.DEVNULL
-        )
-    except (OSError, subprocess.TimeoutExpired) as exc:
-        return [], f"regvet did not run: {exc}"
+    """regvet's findings (JSON) over the files, or an error text. With ``run_timeout``, regvet's
+    defaults but that wall-clock limit per script (a ``regvet.toml`` of one line, ``--config``)."""
+    with tempfile.TemporaryDirectory(prefix="rt-agree-config-") as tmp:
+        config = ["--no-config"]
+        if run_timeout is not None:
+            path = Path(tmp) / "regvet.toml"
+            path.write_text(f"run_timeout = {float(run_timeout)!r}\n", encoding="utf-8")
+            config = ["--config", str(path)]
+        cmd = [*regvet, "run", "--format", "json", "--no-baseline", "--no-cache", *config, "--jobs", "1", *files]
+        try:
+            proc = subprocess.run(
+                cmd, cwd=folder, capture_output=True, text=True, check=False, timeout=timeout, stdin=subprocess.DEVNULL
+            )
+        except (OSError, subprocess.TimeoutExpired) as exc:
+            return [], f"regvet did not run: {exc}"
     try:
         return list(json.loads(proc.stdout)["findings"]), None
     except (ValueError, KeyError, TypeError):
@@ -465,9 +472,12 @@ def measure(
     timeout: float = 300.0,
     use_exact: bool = True,
     log: Any = None,
+    run_timeout: float | None = None,
 ) -> dict[str, Any]:
     files = scripts_in(folder, limit)
-    findings, regvet_error = run_regvet(regvet, folder, files, timeout * max(len(files), 1))
+    if log is not None:
+        print(f"regvet run over {len(files)} scripts ...", file=log, flush=True)
+    findings, regvet_error = run_regvet(regvet, folder, files, 600 + timeout * max(len(files), 1), run_timeout)
     by_file, regvet_failed = regvet_fits(findings)
     per_stat: dict[str, Counter[str]] = defaultdict(Counter)
     per_file: dict[str, Any] = {}
@@ -532,6 +542,7 @@ def measure(
         "generated": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
         "folder": folder.name,
         "tolerance": {"rtol": RTOL, "p_value_absolute_floor": P_FLOOR, "alpha": ALPHA},
+        "limits": {"regvet_run_timeout_s": run_timeout, "reference_timeout_s": timeout},
         "references": REFERENCE,
         "regvet_error": regvet_error,
         "summary": {
@@ -584,6 +595,9 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--out", type=Path, default=ROOT / "bench" / "results" / "runtime_agreement.json")
     ap.add_argument("--limit", type=int, default=None, help="only the first N scripts")
     ap.add_argument("--timeout", type=float, default=300.0, help="seconds per script")
+    ap.add_argument(
+        "--run-timeout", type=float, default=None, help="regvet's run_timeout per script (default: its own)"
+    )
     ap.add_argument("--no-exact", action="store_true", help="do not recompute disagreements with mpmath")
     args = ap.parse_args(argv)
     folder = args.folder.resolve()
@@ -591,7 +605,14 @@ def main(argv: list[str] | None = None) -> int:
         print(f"runtime_agreement: no folder {args.folder}", file=sys.stderr)
         return 2
     result = measure(
-        folder, shlex.split(args.regvet), args.python, args.limit, args.timeout, not args.no_exact, log=sys.stderr
+        folder,
+        shlex.split(args.regvet),
+        args.python,
+        args.limit,
+        args.timeout,
+        not args.no_exact,
+        log=sys.stderr,
+        run_timeout=args.run_timeout,
     )
     args.out.parent.mkdir(parents=True, exist_ok=True)
     args.out.write_text(json.dumps(result, indent=1, ensure_ascii=False, allow_nan=False) + "\n", encoding="utf-8")
