@@ -345,6 +345,13 @@ def classify(
         return f"RESET: regvet identifies {rv.get('reset.df_num')} power(s); linear_reset always adds 2"
     if head == "breusch_godfrey" and rv.get("breusch_godfrey.lags") != rf.get("breusch_godfrey.lags"):
         return f"Breusch-Godfrey: lags differ (regvet {rv.get('breusch_godfrey.lags')}, reference {rf.get('breusch_godfrey.lags')})"
+    if head in ("white", "breusch_pagan", "breusch_godfrey") and not key.endswith(".lm"):
+        lm_r, lm_s = rv.get(f"{head}.lm"), rf.get(f"{head}.lm")
+        if lm_r is not None and lm_s is not None and close(lm_r, lm_s, False):
+            base = (
+                "the LM statistics agree, the degrees of freedom differ: statsmodels takes the rank of the "
+                "auxiliary design on its raw (badly scaled) columns" + (f"; {base}" if base else "")
+            )
     if isinstance(exact_value, (int, float)):
         ok_r = close(mine, exact_value, is_pvalue(key)) or _closer(mine, ref, exact_value)
         ok_s = close(ref, exact_value, is_pvalue(key)) or _closer(ref, mine, exact_value)
@@ -487,12 +494,15 @@ def measure(
     unpaired_all: list[dict[str, Any]] = []
     totals: Counter[str] = Counter()
     exact_cache: dict[str, Any] = {}
+    ref_sites: list[tuple[str, list[int]]] = []
+    compared_ref_sites: list[tuple[str, list[int]]] = []
     with tempfile.TemporaryDirectory(prefix="rt-agree-") as tmp:
         for i, rel in enumerate(files):
             work = Path(tmp) / str(i)
             work.mkdir()
             run = run_reference(python, folder, rel, work, timeout)
             ref_fits = run["fits"]
+            ref_sites.extend((rel, f["lines"]) for f in ref_fits)
             if run["end"].get("status") != "ok" or rel in regvet_failed:
                 failed_scripts.append(
                     {
@@ -516,6 +526,7 @@ def measure(
                     counts["pairs_not_same_data"] += 1
                     continue
                 counts["fits_compared"] += 1
+                compared_ref_sites.append((rel, rec["lines"]))
                 for group, outcome, decision in res:
                     per_stat[group][outcome] += 1
                     counts[outcome] += 1
@@ -537,6 +548,8 @@ def measure(
                 print(f"[{i + 1}/{len(files)}] {rel}: {dict(counts)}", file=log, flush=True)
             exact_cache.clear()
     classes = Counter(_class_of(d["reason"]) for d in disagreements)
+    sites = {(f, tuple(x)) for f, x in ref_sites}
+    compared_sites = {(f, tuple(x)) for f, x in compared_ref_sites}
     compared = totals["compared"]
     return {
         "generated": datetime.now(timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ"),
@@ -549,6 +562,8 @@ def measure(
             "scripts": len(files),
             "scripts_failed": len(failed_scripts),
             "reference_fits": totals["reference_fits"],
+            "reference_call_sites": len(sites),
+            "reference_call_sites_compared": len(compared_sites & sites),
             "regvet_fits_with_statistics": totals["regvet_fits"],
             "fits_compared": totals["fits_compared"],
             "pairs_not_same_data": totals["pairs_not_same_data"],
