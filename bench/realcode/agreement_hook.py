@@ -236,7 +236,7 @@ def reference(res: Any, dump: str | None = None) -> tuple[dict[str, Any], dict[s
     put("coef", coefs)
 
     # Time order: a DatetimeIndex or PeriodIndex on the fit's rows (regvet's default rule).
-    labels = getattr(model.data, "row_labels", None)
+    labels: Any = getattr(model.data, "row_labels", None)
     timed = isinstance(labels, (pd.DatetimeIndex, pd.PeriodIndex))
     out["time_ordered"] = bool(timed)
     if timed:
@@ -326,8 +326,8 @@ def install(script: str, sink: Any) -> None:
         sink.flush()
         return res
 
-    RegressionModel.__init__ = init  # type: ignore[method-assign]
-    RegressionModel.fit = fit  # type: ignore[method-assign]
+    RegressionModel.__init__ = init
+    RegressionModel.fit = fit
 
 
 def main() -> int:

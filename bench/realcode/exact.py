@@ -171,10 +171,10 @@ class ExactFit:
             return float(_dot(tss_r, tss_r) / _dot(r, r))
         if head == "condition_index":
             unit = [[a / mpmath.sqrt(_dot(c, c)) for a in c] for c in self.cols]
-            q = _basis(unit)
-            if len(q) < self.k:
+            ortho = _basis(unit)
+            if len(ortho) < self.k:
                 return None
-            r = mpmath.matrix([[_dot(q[i], unit[j]) for j in range(self.k)] for i in range(self.k)])
+            r = mpmath.matrix([[_dot(ortho[i], unit[j]) for j in range(self.k)] for i in range(self.k)])
             s = mpmath.svd_r(r, compute_uv=False)
             vals = [abs(s[i]) for i in range(self.k)]
             return float(max(vals) / min(vals))
