@@ -241,3 +241,49 @@ def test_waiting_leaves_the_child_unreaped_until_its_group_is_ended(monkeypatch,
     finally:
         _reap([left])
         proc.stdout.close()
+
+
+@pytest.mark.parametrize(("sig", "status"), [(signal.SIGTERM, 143), (signal.SIGINT, 130)])
+def test_stopping_regvet_ends_the_scripts_it_runs(tmp_path, sig, status):
+    """Seen while measuring on real code: `regvet run` killed with SIGTERM left its child script running,
+    with no time limit left to end it. Now a stopped regvet ends each running child's group, says so
+    without a traceback, and caches nothing for the runs it cut short."""
+    import subprocess
+
+    pids = tmp_path / "pids.txt"
+    script = FIT + textwrap.dedent(
+        f"""\
+        helper = subprocess.Popen({SLEEPER})
+        with open({str(pids)!r}, "w") as fh:
+            fh.write(f"{{os.getpid()}} {{helper.pid}}\\n")
+        import time
+        time.sleep(300)
+        """
+    )
+    for name in ("a_berths.py", "b_quays.py"):  # two files at once (two jobs): both children must end
+        (tmp_path / name).write_text(script.replace("pids.txt", f"pids_{name}.txt"))
+    cache = tmp_path / "cache"
+    env = {**os.environ, "REGVET_CACHE_DIR": str(cache)}
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "regvet", "run", "--no-config", "--jobs", "2", "--format", "json", "."],
+        cwd=tmp_path,
+        env=env,
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+        text=True,
+    )
+    files = [tmp_path / f"pids_{n}.txt" for n in ("a_berths.py", "b_quays.py")]
+    deadline = time.monotonic() + 60
+    while not all(f.exists() and f.read_text().endswith("\n") for f in files):
+        assert time.monotonic() < deadline and proc.poll() is None, proc.communicate()
+        time.sleep(0.1)
+    started = [int(p) for f in files for p in f.read_text().split()]
+    assert all(_alive(pid) for pid in started)
+    proc.send_signal(sig)
+    out, err = proc.communicate(timeout=20)
+    assert proc.returncode == status, err
+    assert "Traceback" not in err and err.startswith("regvet: "), err
+    assert "were ended" in err, err
+    for pid in started:  # the scripts and what they started
+        assert _gone_soon(pid), (pid, _state(pid))
+    assert not list(cache.glob("**/*.json")), "a run cut short was cached"

@@ -21,6 +21,7 @@ from regvet.cli.common import (
     EXIT_OK,
     EXIT_USAGE,
     EXTRA_EXCLUDE,
+    Stopped,
     UsageError,
     collect_files,
     tolerant_streams,
@@ -326,6 +327,17 @@ def main(argv: Sequence[str] | None = None) -> int:
     except ConfigError as exc:
         sys.stderr.write(f"regvet: configuration error: {exc}\n")
         return EXIT_USAGE
+    except Stopped as exc:
+        import signal
+
+        sys.stderr.write(
+            f"regvet: stopped by {signal.Signals(exc.signum).name}; the scripts it was running were ended, "
+            "and their runs were not cached\n"
+        )
+        return 128 + exc.signum
+    except KeyboardInterrupt:
+        sys.stderr.write("regvet: interrupted; nothing more was checked (runs in progress were ended)\n")
+        return 130
 
 
 if __name__ == "__main__":  # pragma: no cover

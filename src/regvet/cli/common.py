@@ -5,7 +5,8 @@ from __future__ import annotations
 import argparse
 import os
 import sys
-from collections.abc import Sequence
+from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from pathlib import Path
 
 from regvet.config import ConfigError, load_settings
@@ -101,3 +102,50 @@ class _SettingsFinder:
         if isinstance(loaded, ConfigError):
             raise loaded
         return self.overrides.apply(loaded)
+
+
+class Stopped(BaseException):
+    """regvet was sent a signal that stops it (SIGTERM, SIGHUP) while it ran analysed code."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+
+
+@contextmanager
+def runs_end_with_regvet(running: bool) -> Iterator[None]:
+    """While analysed code runs: SIGTERM and SIGHUP end every running child's process group and stop
+    regvet with :class:`Stopped`; Ctrl-C (SIGINT) ends them too and raises ``KeyboardInterrupt``. Without it a stopped regvet would leave the
+    scripts it started running, with no time limit left to end them."""
+    if not running:
+        yield
+        return
+    import signal
+
+    def end_runs() -> None:
+        runner = sys.modules.get("regvet.runtime.runner")
+        if runner is not None:
+            runner.end_all_runs()
+
+    def stop(signum: int, frame: object) -> None:
+        end_runs()  # first: the threads waiting on the children must not wait for them to finish
+        if signum == signal.SIGINT:
+            raise KeyboardInterrupt
+        raise Stopped(signum)
+
+    previous = {}
+    for sig in (signal.SIGINT, signal.SIGTERM, getattr(signal, "SIGHUP", None)):
+        if sig is None:
+            continue
+        try:
+            previous[sig] = signal.signal(sig, stop)
+        except ValueError:  # not the main thread (regvet called from a program's thread): leave signals alone
+            pass
+    try:
+        yield
+    except KeyboardInterrupt:
+        end_runs()
+        raise
+    finally:
+        for sig, handler in previous.items():
+            signal.signal(sig, handler)

@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from regvet.analysis.providers import ModuleProvider
-from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files
+from regvet.cli.common import EXTRA_EXCLUDE, UsageError, _SettingsFinder, collect_files, runs_end_with_regvet
 from regvet.discovery import read_regular
 from regvet.factcache import FactCache, LookupMemo, RecordingModules
 from regvet.model.report import FileReport
@@ -159,17 +159,19 @@ def scan(args: argparse.Namespace, progress: Progress | None = None, plot_points
         from regvet.runtime.runner import RunCache
 
         cache = None if no_cache else RunCache()
-    if running and jobs > 1 and len(tasks) > 1:
-        reports = _run_all(tasks, reports, cache, jobs, progress, plot_points)
-        running = False
-    out = Scan()
-    for k, ((file, settings, _), report) in enumerate(zip(tasks, reports, strict=True), start=1):
+    with runs_end_with_regvet(running):
+        if running and jobs > 1 and len(tasks) > 1:
+            reports = _run_all(tasks, reports, cache, jobs, progress, plot_points)
+            running = False
         if running:
-            if progress is not None:
-                progress.file(k, len(files), file)
-            report = _run_file(file, report, settings, cache, progress, plot_points)
-            if progress is not None:
-                progress.ran(k, len(files), file, _was_cached(report))
+            for k, ((file, settings, _), report) in enumerate(zip(tasks, reports, strict=True), start=1):
+                if progress is not None:
+                    progress.file(k, len(files), file)
+                reports[k - 1] = _run_file(file, report, settings, cache, progress, plot_points)
+                if progress is not None:
+                    progress.ran(k, len(files), file, _was_cached(reports[k - 1]))
+    out = Scan()
+    for (file, _, _), report in zip(tasks, reports, strict=True):
         for crash in report.crashes:
             out.failed = True
             where = "the analysis" if crash.where == "analysis" else f"rule {crash.where}"

@@ -27,6 +27,7 @@ import signal
 import subprocess
 import sys
 import tempfile
+import threading
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -37,6 +38,30 @@ from regvet.model.stats_schema import FitRecord, PairRecord
 
 PROBE_DIR = Path(__file__).resolve().parent / "probe"
 BOOT = PROBE_DIR / "regvet_probe_boot.py"
+
+#: The children running now (not yet reaped), so that regvet, stopped itself, can end their groups.
+_LIVE: set[subprocess.Popen] = set()
+#: Reentrant: :func:`end_all_runs` may be called from a signal handler in a thread that holds it.
+_LIVE_LOCK = threading.RLock()
+
+
+def end_all_runs() -> int:
+    """Kill the process group of every child still running; the number of groups ended.
+
+    For regvet itself being stopped (a signal, Ctrl-C): each run then ends as killed, which is never
+    cached. A child is taken out of the set before it is reaped, under the same lock, so no group id
+    here can belong to a reaped child (a pid the system may have given to another process)."""
+    ended = 0
+    with _LIVE_LOCK:
+        for proc in list(_LIVE):
+            try:
+                os.killpg(proc.pid, signal.SIGKILL)
+                ended += 1
+            except OSError:
+                pass
+    return ended
+
+
 STDOUT_TAIL = 20
 #: In the environment, runs notebooks with the probe's stand-in for IPython even where IPython is installed
 #: (the tests' switch; read by the child's ``regvet_cells``).
@@ -231,6 +256,8 @@ def run(
             except OSError as exc:
                 result.command_error = f"cannot start {interpreter}: {exc.strerror or exc}"
                 return result
+            with _LIVE_LOCK:
+                _LIVE.add(proc)
             if started is not None:
                 started(proc)
             try:
@@ -239,9 +266,13 @@ def run(
                 else:
                     exited = _wait_watching(proc, timeout, out, on_fit)
             except BaseException:  # interrupted (Ctrl-C): end the group, then let it propagate
+                with _LIVE_LOCK:
+                    _LIVE.discard(proc)
                 result.peak_mb = _end_group(proc)
                 raise
             result.timed_out = not exited
+            with _LIVE_LOCK:
+                _LIVE.discard(proc)
             result.peak_mb = _end_group(proc)
         result.elapsed_s = round(time.perf_counter() - start, 3)
         result.returncode = proc.returncode
