@@ -12,7 +12,7 @@ import math
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-from regvet.rules.evidence import num
+from regvet.rules.numbers import num
 
 if TYPE_CHECKING:
     from regvet.model.stats_schema import Dimension, FitStatistics, GvifTerm

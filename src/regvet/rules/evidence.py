@@ -15,6 +15,8 @@ from regvet.model.facts import Fit
 from regvet.model.finding import Finding
 from regvet.model.runtime import Pairing
 from regvet.rules.base import RuleInput
+from regvet.rules.collinearity import judged_dimension
+from regvet.rules.numbers import num, p
 
 if TYPE_CHECKING:
     from regvet.model.stats_schema import (
@@ -41,23 +43,6 @@ def runs(inp: RuleInput, fid: int) -> list[FitStatistics]:
         if isinstance(stats, dict):
             out.append(stats)
     return out
-
-
-def p(value: float | None) -> str:
-    if value is None:
-        return "p = ?"
-    if value < 0.001:
-        return "p < 0.001"
-    return f"p = {value:.3f}" if value < 0.1 else f"p = {value:.2f}"
-
-
-def num(value: float | None) -> str:
-    """Four significant digits, trailing zeros kept (14.09, 11.00, 5.339, 0.01234, 4.328e+04)."""
-    if value is None:
-        return "?"
-    text = f"{value:#.4g}"
-    mantissa, e, exponent = text.partition("e")
-    return mantissa.rstrip(".") + e + exponent
 
 
 def fingerprint(stats: FitStatistics) -> str | None:
@@ -114,8 +99,6 @@ def summary(stats: FitStatistics, level_cv: LevelErrors | None | bool = False) -
         # The index collinear-design judges (above 30 and carrying two slopes), not the largest, which
         # may sit on the constant and would contradict the finding below it; runs from before the
         # proportions were recorded show the largest.
-        from regvet.rules.collinearity import judged_dimension
-
         if ci.get("dimensions") is None:
             bits.append(f"condition index {num(ci.get('value'))}")
         else:
