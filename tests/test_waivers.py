@@ -237,3 +237,53 @@ def test_waivers_found_in_a_file_that_stops_tokenizing():
 def test_parse_error_cannot_be_waived():
     r = analyze("# regvet: waive-file parse-error because please\nimport statsmodels\nx = (\n", "p.py", strict=True)
     assert [(f.rule, f.waived) for f in r.findings] == [("parse-error", False)]
+
+
+# --- the tokenizer's safe copy (sources/tokens.py) -----------------------------------------------
+def _tokens(text: str) -> list[tuple[int, tuple[int, int], tuple[int, int]]]:
+    import io
+    import tokenize
+
+    try:
+        return [(t.type, t.start, t.end) for t in tokenize.generate_tokens(io.StringIO(text).readline)]
+    except (tokenize.TokenError, SyntaxError):
+        return []
+
+
+def test_the_safe_copy_keeps_every_token_of_real_code_in_place():
+    from pathlib import Path
+
+    from regvet.sources.tokens import for_tokenize
+
+    root = Path(__file__).resolve().parents[1]
+    files = [*root.glob("fixtures/**/*.py"), *root.glob("src/regvet/**/*.py"), *root.glob("tests/*.py")]
+    assert len(files) > 100
+    for path in files:
+        text = path.read_text(encoding="utf-8")
+        assert _tokens(for_tokenize(text)) == _tokens(text), path
+
+
+def test_the_safe_copy_changes_only_a_character_that_begins_no_token_after_a_long_run():
+    from regvet.sources.tokens import RUN, for_tokenize
+
+    blanks = " \t" * RUN
+    for bad in ("$", "?", "`", "!", "\x00", "\x0b", "€", "\\ "):
+        text = f"total = (price\n{blanks}{bad}\n)\n"
+        safe = for_tokenize(text)
+        assert len(safe) == len(text) and safe == text.replace(blanks + bad[0], blanks + "x"), repr(bad)
+    for fine in ("!=", "'s'", '"s"', "# note", "\\\n", "(", "x", "7", "é", "+"):
+        text = f"total = (price\n{blanks}{fine}\n)\n"
+        assert for_tokenize(text) == text, repr(fine)
+    assert (
+        for_tokenize(f"a = 1 $\nb = 2{' ' * (RUN - 1)}$\n") == f"a = 1 $\nb = 2{' ' * (RUN - 1)}$\n"
+    )  # short runs stay
+
+
+def test_a_waiver_whose_text_was_made_safe_keeps_its_own_text():
+    from regvet.rules import RULES_BY_ID
+
+    spaces = " " * 200
+    text = f"x = 1  # regvet: waive no-form-test because the price{spaces}$ is fixed by contract\n"
+    (waiver,) = find_waivers(text, RULES_BY_ID)
+    assert waiver.reason is not None and waiver.reason.endswith("$ is fixed by contract"), waiver.reason
+    assert waiver.span.end_col == len(text) - 1

@@ -9,6 +9,7 @@ from dataclasses import dataclass, field
 
 from regvet.edits.text import EditError, offset
 from regvet.model.span import Span
+from regvet.sources.tokens import for_tokenize
 from regvet.sources.waivers import BECAUSE, Waiver, directive, find_waivers, split_reason
 
 _RULE_ID = re.compile(r"^[a-z0-9][a-z0-9-]*$")
@@ -114,7 +115,7 @@ def _layout(source: str) -> _Layout:
     first: int | None = None
     opened: list[int] = []  # start lines of the f-strings (3.12+) being read
     try:
-        for tok in tokenize.generate_tokens(io.StringIO(source).readline):
+        for tok in tokenize.generate_tokens(io.StringIO(for_tokenize(source)).readline):  # positions only
             (a, col), (b, end) = tok.start, tok.end
             if tok.type == tokenize.COMMENT:
                 out.comment_at[a] = col

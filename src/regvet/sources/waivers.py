@@ -18,6 +18,7 @@ from collections.abc import Collection
 from dataclasses import dataclass
 
 from regvet.model.span import Span
+from regvet.sources.tokens import for_tokenize
 
 _DIRECTIVE = re.compile(r"#\s*regvet\s*:\s*(?P<kind>waive-file|waive)\b(?P<rest>.*)$")
 _BECAUSE = re.compile(r"(?:^|\s)because(?=\s|:|$):?")
@@ -121,22 +122,25 @@ def find_waivers(text: str, known: Collection[str] | None = None) -> list[Waiver
     lines = text.split("\n")
     found: list[Waiver] = []
     try:
-        for tok in tokenize.generate_tokens(io.StringIO(text).readline):
+        for tok in tokenize.generate_tokens(io.StringIO(for_tokenize(text)).readline):
             if tok.type != tokenize.COMMENT:
                 continue
-            m = _DIRECTIVE.match(tok.string)
+            (line, col), (end_line, end) = tok.start, tok.end
+            if line != end_line or line - 1 >= len(lines):
+                continue
+            comment = lines[line - 1][col:end]  # the original text (the tokenizer read a safe copy)
+            m = _DIRECTIVE.match(comment)
             if not m:
                 continue
             file_wide = m["kind"] == "waive-file"
             rules, reason, malformed, expected, intended = _parse(m["rest"], file_wide, known)
-            line, col = tok.start
-            before = lines[line - 1][:col] if line - 1 < len(lines) else ""
+            before = lines[line - 1][:col]
             found.append(
                 Waiver(
                     file_wide=file_wide,
                     rules=rules,
                     reason=reason,
-                    span=Span(line, col, line, col + len(tok.string)),
+                    span=Span(line, col, line, end),
                     alone=not before.strip(),
                     malformed=malformed,
                     expected=expected,
