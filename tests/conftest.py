@@ -110,3 +110,15 @@ def pytest_configure(config):
 
     if "REGVET_CACHE_DIR" not in os.environ:
         os.environ["REGVET_CACHE_DIR"] = tempfile.mkdtemp(prefix="regvet-test-cache-")
+
+
+def load_realcode(name: str):
+    """A module of ``bench/realcode`` (not a package) by file name, for the tests of the measuring tools."""
+    import importlib.util
+
+    path = Path(__file__).resolve().parents[1] / "bench" / "realcode" / f"{name}.py"
+    spec = importlib.util.spec_from_file_location(f"realcode_{name}", path)
+    assert spec and spec.loader
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    return module

@@ -13,7 +13,6 @@ as a disagreement (and the mpmath arbiter must side with regvet), so the check c
 from __future__ import annotations
 
 import copy
-import importlib.util
 import os
 import sys
 from pathlib import Path
@@ -21,8 +20,9 @@ from types import ModuleType
 
 import pytest
 
+from conftest import load_realcode
+
 ROOT = Path(__file__).resolve().parents[1]
-REALCODE = ROOT / "bench" / "realcode"
 
 SCRIPT = """\
 import numpy as np
@@ -64,19 +64,11 @@ GROUPS = {
 }
 
 
-def _load(name: str) -> ModuleType:
-    spec = importlib.util.spec_from_file_location(f"realcode_{name}", REALCODE / f"{name}.py")
-    assert spec and spec.loader
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
-
-
 @pytest.fixture(scope="module")
 def measured(tmp_path_factory: pytest.TempPathFactory) -> tuple[ModuleType, dict, Path]:
     folder = tmp_path_factory.mktemp("bakery")
     (folder / "daily_sales.py").write_text(SCRIPT, encoding="utf-8")
-    harness = _load("runtime_agreement")
+    harness = load_realcode("runtime_agreement")
     env_path = os.environ.get("PYTHONPATH", "")
     os.environ["PYTHONPATH"] = os.pathsep.join([str(ROOT / "src"), *([env_path] if env_path else [])])
     try:

@@ -6,26 +6,18 @@ files (a harbour's ferry timetable) and on the committed labels file, with real 
 
 from __future__ import annotations
 
-import importlib.util
 import json
 import subprocess
 import sys
 from pathlib import Path
-from types import ModuleType
 
 import pytest
+
+from conftest import load_realcode
 
 ROOT = Path(__file__).resolve().parents[1]
 REALCODE = ROOT / "bench" / "realcode"
 RULES = ["no-serial-test", "no-break-test", "no-form-test", "no-variance-test"]
-
-
-def _load(name: str) -> ModuleType:
-    spec = importlib.util.spec_from_file_location(f"realcode_{name}", REALCODE / f"{name}.py")
-    assert spec and spec.loader
-    module = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(module)
-    return module
 
 
 def _labels(*sites: dict) -> dict:
@@ -71,7 +63,7 @@ def test_committed_labels_are_well_formed():
 
 
 def test_matching_uses_the_fit_line_call_lines_and_counts_unmatched_findings_as_false_positives():
-    score = _load("score").score
+    score = load_realcode("score").score
     labels = _labels(
         _site(3, {"no-serial-test": True}, fit_line=4),  # model on line 3, .fit() on line 4
         _site(3, {"no-serial-test": False}, fit_line=9),  # the same model fitted again on line 9
@@ -94,7 +86,7 @@ def test_matching_uses_the_fit_line_call_lines_and_counts_unmatched_findings_as_
 
 
 def test_missed_sites_are_false_negatives_and_repeated_findings_at_one_site_are_counted_apart():
-    score = _load("score").score
+    score = load_realcode("score").score
     labels = _labels(_site(5, {"no-form-test": True}), _site(8, {"no-form-test": True}))
     findings = [
         _finding("no-form-test", 5),

@@ -18,8 +18,8 @@ a constant outcome) or it has no degrees of freedom; then the probe must report 
 Otherwise the probe's decision at 5 % must equal the exact value's. The p-values of the exact
 statistics come from scipy's distributions (the statistic is what is exact).
 
-Data sources: NIST StRD (Wampler1-5, Longley; data as in /work/shared/reference/check-values.md,
-Longley from ``statsmodels.datasets``); every other design is invented here with a fixed seed.
+Data sources: NIST StRD (Wampler1-5 and Longley, data as NIST publishes them; Longley from
+``statsmodels.datasets``); every other design is invented here with a fixed seed.
 """
 
 from __future__ import annotations
