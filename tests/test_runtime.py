@@ -456,3 +456,25 @@ def test_a_missing_interpreter_gives_run_failed(tmp_path):
     report, _ = judge(tmp_path, FIT, settings=Settings(python=str(tmp_path / "no-such-python"), run_timeout=60))
     [failed] = [f for f in report.findings if f.rule == "run-failed"]
     assert "cannot start" in failed.message
+
+
+def test_a_chained_exception_is_noted_by_its_type_and_first_line():
+    import sys as _sys
+
+    probe_dir = Path(__file__).resolve().parents[1] / "src" / "regvet" / "runtime" / "probe"
+    _sys.path.insert(0, str(probe_dir))
+    try:
+        import regvet_probe
+    finally:
+        _sys.path.remove(str(probe_dir))
+    try:
+        try:
+            raise ValueError("route table:\n  4 ferries\n  2 quays")
+        except ValueError as inner:
+            raise KeyError("route 4") from inner
+    except KeyError as exc:
+        tail, _ = regvet_probe.traceback_tail(exc, {__file__})
+        line = regvet_probe.error_line(exc)
+    assert "  (caused by ValueError: route table: ...)" in tail, tail
+    assert not any("2 quays" in line for line in tail), tail
+    assert line == "KeyError: 'route 4'"

@@ -115,8 +115,9 @@ class Stopped(BaseException):
 @contextmanager
 def runs_end_with_regvet(running: bool) -> Iterator[None]:
     """While analysed code runs: SIGTERM and SIGHUP end every running child's process group and stop
-    regvet with :class:`Stopped`; Ctrl-C (SIGINT) ends them too and raises ``KeyboardInterrupt``. Without it a stopped regvet would leave the
-    scripts it started running, with no time limit left to end them."""
+    regvet with :class:`Stopped`; Ctrl-C (SIGINT) ends them too and raises ``KeyboardInterrupt``.
+    Without it a stopped regvet would leave the scripts it started running, with no time limit left
+    to end them (and the threads waiting on them would keep regvet from exiting)."""
     if not running:
         yield
         return
@@ -143,9 +144,6 @@ def runs_end_with_regvet(running: bool) -> Iterator[None]:
             pass
     try:
         yield
-    except KeyboardInterrupt:
-        end_runs()
-        raise
     finally:
         for sig, handler in previous.items():
             signal.signal(sig, handler)

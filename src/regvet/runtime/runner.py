@@ -45,21 +45,18 @@ _LIVE: set[subprocess.Popen] = set()
 _LIVE_LOCK = threading.RLock()
 
 
-def end_all_runs() -> int:
-    """Kill the process group of every child still running; the number of groups ended.
+def end_all_runs() -> None:
+    """Kill the process group of every child still running.
 
     For regvet itself being stopped (a signal, Ctrl-C): each run then ends as killed, which is never
     cached. A child is taken out of the set before it is reaped, under the same lock, so no group id
     here can belong to a reaped child (a pid the system may have given to another process)."""
-    ended = 0
     with _LIVE_LOCK:
         for proc in list(_LIVE):
             try:
                 os.killpg(proc.pid, signal.SIGKILL)
-                ended += 1
             except OSError:
                 pass
-    return ended
 
 
 STDOUT_TAIL = 20
@@ -265,15 +262,11 @@ def run(
                     exited = _exited(proc, timeout)
                 else:
                     exited = _wait_watching(proc, timeout, out, on_fit)
-            except BaseException:  # interrupted (Ctrl-C): end the group, then let it propagate
+            finally:  # also when interrupted (Ctrl-C): end the group, then let the interruption propagate
                 with _LIVE_LOCK:
                     _LIVE.discard(proc)
                 result.peak_mb = _end_group(proc)
-                raise
             result.timed_out = not exited
-            with _LIVE_LOCK:
-                _LIVE.discard(proc)
-            result.peak_mb = _end_group(proc)
         result.elapsed_s = round(time.perf_counter() - start, 3)
         result.returncode = proc.returncode
         if proc.returncode is not None and proc.returncode < 0:

@@ -217,10 +217,8 @@ def failure_of(src: _Source, result: RunResult, timeout: float, memory_mb: int |
         return None
     if status == "exception":
         tb = tuple(end.get("traceback") or ())
-        error = end.get("error")  # one line from the probe; older probes sent only the traceback
-        if isinstance(error, str) and error:
-            return RunFailure(f"it raised {error}", _frames_only(tb), span)
-        return RunFailure(f"it raised {tb[-1].strip() if tb else 'an exception'}", tb, span)
+        # The probe's one-line form of the exception (error_line) names it; the frames show where.
+        return RunFailure(f"it raised {end.get('error') or 'an exception'}", _frames_only(tb), span)
     if status == "exit":
         return RunFailure(f"it called sys.exit({end.get('exit_code')!r}) before the end", (), span)
     if status == "memory":

@@ -283,7 +283,8 @@ def traceback_tail(exc: BaseException, user_files: set[str], limit: int = 12) ->
     The shown traceback starts at the outermost frame of the user's code (a notebook cell is named
     ``cell N``, counted from 1) and has no frame of regvet's probe or of IPython anywhere in it: the frames
     that ran the code are regvet's, not the user's. Library frames below the user's code are kept (the
-    error happened there). Past ``limit`` lines, the first frame and the last lines are kept."""
+    error happened there). Past ``limit`` lines, the first frame and the last lines are kept. A chained
+    exception is one line, by :func:`error_line`."""
     where = None
     for tb_frame, lineno in traceback.walk_tb(exc.__traceback__):
         name = tb_frame.f_code.co_filename
@@ -291,15 +292,15 @@ def traceback_tail(exc: BaseException, user_files: set[str], limit: int = 12) ->
             where = [name if name.startswith("<") else os.path.abspath(name), lineno]
     try:
         shown = traceback.TracebackException(type(exc), exc, exc.__traceback__)
-        chained = [
-            (why, "".join(other.format_exception_only()).strip().split("\n")[-1])
-            for why, other in (("caused by", shown.__cause__), ("while handling", shown.__context__))
-            if other is not None and not (why == "while handling" and shown.__suppress_context__)
-        ]
+        notes = [
+            f"  ({why} {error_line(other)})"
+            for why, other in (("caused by", exc.__cause__), ("while handling", exc.__context__))
+            if other is not None and not (why == "while handling" and exc.__suppress_context__)
+        ][:1]
         shown.__cause__ = shown.__context__ = None  # type: ignore[assignment]  # the chain in one line each: the user's traceback is this one
         _from_user_code(shown, user_files)
         text = "".join(shown.format()).rstrip().split("\n")
-        text[-1:-1] = [f"  ({why} {what})" for why, what in chained[:1]]
+        text[-1:-1] = notes
     except Exception:  # never lose the failure over its formatting
         text = traceback.format_exception_only(type(exc), exc)[-1].rstrip().split("\n")
     text = [line for line in text if line.strip(" ^~") or not line.strip()]  # no caret lines
